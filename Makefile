@@ -1,0 +1,43 @@
+# Rimewatch: `make run` serves the demo fleet on SQLite; `make test` runs every check.
+SHELL := /bin/bash
+PYTHON ?= python3
+VENV := .venv
+PY := $(VENV)/bin/python
+STAMP := $(VENV)/.installed
+
+.PHONY: run test install lint pytest-sqlite pytest-postgres bench clean
+
+$(STAMP): pyproject.toml
+	test -x $(PY) || $(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e '.[dev]'
+	touch $(STAMP)
+
+install: $(STAMP)
+
+run: install
+	mkdir -p var
+	$(PY) manage.py migrate --no-input
+	$(PY) manage.py demo_fleet
+	@echo "Rimewatch on http://127.0.0.1:8000/ (admin at /admin/, API at /api/v1/, docs at /api/docs/)"
+	$(PY) manage.py runserver 127.0.0.1:8000
+
+lint: install
+	$(VENV)/bin/ruff check .
+	$(VENV)/bin/ruff format --check .
+	DJANGO_SETTINGS_MODULE=config.settings_test $(PY) manage.py makemigrations --check --dry-run
+	DJANGO_SETTINGS_MODULE=config.settings_test $(PY) manage.py spectacular --validate --fail-on-warn --file /dev/null
+
+pytest-sqlite: install
+	env -u DATABASE_URL $(PY) -m pytest -q
+
+pytest-postgres: install
+	bash scripts/with-postgres.sh $(PY) -m pytest -q
+
+test: lint pytest-sqlite pytest-postgres
+
+bench: install
+	for b in bench/*.py; do echo "== $$b"; $(PY) $$b || exit 1; done
+
+clean:
+	rm -rf $(VENV) var/cache

@@ -1,0 +1,9 @@
+"""Test settings: fast hashing, in-memory email, the database from DATABASE_URL if set."""
+
+from __future__ import annotations
+
+from .settings import *  # noqa: F403
+
+PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]
+EMAIL_BACKEND = "django.core.mail.backends.locmem.EmailBackend"
+DATABASES["default"]["CONN_MAX_AGE"] = 0  # noqa: F405

@@ -1,0 +1,129 @@
+"""Data upkeep for the office: search, filters and inlines over the fleet records."""
+
+from django.contrib import admin
+
+from . import models
+
+
+class SiteInline(admin.TabularInline):
+    model = models.Site
+    extra = 0
+    fields = ("name", "time_zone", "elevation_m", "design_ambient_c")
+    show_change_link = True
+
+
+@admin.register(models.Customer)
+class CustomerAdmin(admin.ModelAdmin):
+    list_display = ("name", "contact_name", "contact_email", "phone")
+    search_fields = ("name", "contact_name", "contact_email")
+    inlines = [SiteInline]
+
+
+class UnitInline(admin.TabularInline):
+    model = models.Unit
+    extra = 0
+    fields = ("tag", "application", "refrigerant", "full_charge_kg", "retired_on")
+    show_change_link = True
+
+
+@admin.register(models.Site)
+class SiteAdmin(admin.ModelAdmin):
+    list_display = ("name", "customer", "elevation_m", "design_ambient_c", "time_zone")
+    list_filter = ("customer", "time_zone")
+    search_fields = ("name", "address", "customer__name")
+    list_select_related = ("customer",)
+    filter_horizontal = ("managers",)
+    inlines = [UnitInline]
+
+
+@admin.register(models.Refrigerant)
+class RefrigerantAdmin(admin.ModelAdmin):
+    list_display = ("designation", "kind", "safety_class", "gwp")
+    list_filter = ("kind", "safety_class")
+    search_fields = ("designation",)
+
+
+class ComponentInline(admin.TabularInline):
+    model = models.Component
+    fk_name = "unit"
+    extra = 0
+    fields = (
+        "kind",
+        "rating_uf_min",
+        "rating_uf_max",
+        "rating_volts",
+        "installed_on",
+        "removed_on",
+        "reason",
+    )
+
+
+@admin.register(models.Unit)
+class UnitAdmin(admin.ModelAdmin):
+    list_display = (
+        "tag",
+        "site",
+        "application",
+        "refrigerant",
+        "full_charge_kg",
+        "metering_device",
+        "retired_on",
+    )
+    list_filter = (
+        "application",
+        "refrigerant",
+        "metering_device",
+        "condenser_type",
+        "site__customer",
+    )
+    search_fields = ("tag", "description", "site__name", "site__customer__name")
+    list_select_related = ("site__customer", "refrigerant")
+    autocomplete_fields = ("site",)
+    inlines = [ComponentInline]
+
+
+@admin.register(models.Component)
+class ComponentAdmin(admin.ModelAdmin):
+    list_display = ("kind", "unit", "installed_on", "removed_on", "reason")
+    list_filter = ("kind",)
+    search_fields = ("unit__tag", "reason")
+    list_select_related = ("unit__site",)
+    raw_id_fields = ("unit", "changed_on_visit")
+
+
+class VisitUnitInline(admin.TabularInline):
+    model = models.VisitUnit
+    extra = 0
+    raw_id_fields = ("unit",)
+
+
+@admin.register(models.Visit)
+class VisitAdmin(admin.ModelAdmin):
+    list_display = ("reference", "site", "kind", "status", "window_start")
+    list_filter = ("status", "kind", "site__customer")
+    search_fields = ("reference", "site__name", "reported_problem", "work_summary")
+    date_hierarchy = "window_start"
+    list_select_related = ("site__customer",)
+    filter_horizontal = ("technicians",)
+    autocomplete_fields = ("site",)
+    inlines = [VisitUnitInline]
+
+
+@admin.register(models.ReadingSet)
+class ReadingSetAdmin(admin.ModelAdmin):
+    list_display = ("taken_at", "visit_unit", "stage", "suction_kpa_gauge", "head_kpa_gauge")
+    list_filter = ("stage",)
+    search_fields = ("visit_unit__unit__tag", "visit_unit__visit__reference", "client_id")
+    list_select_related = ("visit_unit__unit__site", "visit_unit__visit")
+    raw_id_fields = ("visit_unit", "created_by")
+    date_hierarchy = "taken_at"
+
+
+@admin.register(models.RefrigerantEvent)
+class RefrigerantEventAdmin(admin.ModelAdmin):
+    list_display = ("occurred_on", "kind", "amount_kg", "visit_unit")
+    list_filter = ("kind", "leak_rate_exemption")
+    search_fields = ("visit_unit__unit__tag", "visit_unit__visit__reference", "client_id")
+    list_select_related = ("visit_unit__unit__site", "visit_unit__visit")
+    raw_id_fields = ("visit_unit", "created_by")
+    date_hierarchy = "occurred_on"

@@ -1,0 +1,112 @@
+"""Choice lists for the fleet records. Stored values are stable API names; labels are ours."""
+
+from django.db import models
+
+
+class Application(models.TextChoices):
+    MEDIUM_TEMP = "medium_temp", "Medium-temperature cooler"
+    LOW_TEMP = "low_temp", "Low-temperature freezer"
+    REACH_IN = "reach_in", "Reach-in"
+    ICE_MACHINE = "ice_machine", "Ice machine"
+    OTHER = "other", "Other"
+
+
+class ApplianceType(models.TextChoices):
+    """Appliance types of the leak-repair rules (40 CFR 82.152 / 84.102)."""
+
+    COMMERCIAL_REFRIGERATION = "commercial_refrigeration", "Commercial refrigeration"
+    INDUSTRIAL_PROCESS = "industrial_process", "Industrial process refrigeration"
+    COMFORT_COOLING = "comfort_cooling", "Comfort cooling"
+    OTHER = "other", "Other"
+
+
+class MeteringDevice(models.TextChoices):
+    TXV = "txv", "Thermostatic expansion valve (TXV)"
+    EEV = "eev", "Electronic expansion valve (EEV)"
+    CAPILLARY = "capillary", "Capillary tube"
+    FIXED_ORIFICE = "fixed_orifice", "Fixed orifice"
+
+
+class CondenserType(models.TextChoices):
+    AIR = "air", "Air-cooled"
+    WATER = "water", "Water-cooled"
+
+
+class RefrigerantKind(models.TextChoices):
+    PURE = "pure", "Single compound"
+    AZEOTROPE = "azeotrope", "Azeotropic blend"
+    ZEOTROPE = "zeotrope", "Zeotropic blend"
+
+
+class ComponentKind(models.TextChoices):
+    RUN_CAPACITOR = "run_capacitor", "Run capacitor"
+    START_CAPACITOR = "start_capacitor", "Start capacitor"
+    START_RELAY = "start_relay", "Start relay"
+    HARD_START_KIT = "hard_start_kit", "Hard-start kit"
+    CONTACTOR = "contactor", "Contactor"
+    CONDENSER_FAN_MOTOR = "condenser_fan_motor", "Condenser fan motor"
+    EVAPORATOR_FAN_MOTOR = "evaporator_fan_motor", "Evaporator fan motor"
+    COMPRESSOR = "compressor", "Compressor"
+    METERING_VALVE = "metering_valve", "Metering valve"
+
+
+class VisitKind(models.TextChoices):
+    PLANNED = "planned", "Planned maintenance"
+    CALL = "call", "Service call"
+    FOLLOW_UP = "follow_up", "Follow-up"
+
+
+class VisitStatus(models.TextChoices):
+    SCHEDULED = "scheduled", "Scheduled"
+    IN_PROGRESS = "in_progress", "In progress"
+    SUBMITTED = "submitted", "Submitted for review"
+    REVIEWED = "reviewed", "Reviewed"
+    CANCELLED = "cancelled", "Cancelled"
+
+
+#: The only moves a visit may make; anything else is refused (409 on the API).
+VISIT_TRANSITIONS: dict[str, frozenset[str]] = {
+    VisitStatus.SCHEDULED: frozenset({VisitStatus.IN_PROGRESS, VisitStatus.CANCELLED}),
+    VisitStatus.IN_PROGRESS: frozenset({VisitStatus.SUBMITTED, VisitStatus.CANCELLED}),
+    # A returned visit goes back to the technician.
+    VisitStatus.SUBMITTED: frozenset({VisitStatus.REVIEWED, VisitStatus.IN_PROGRESS}),
+    VisitStatus.REVIEWED: frozenset(),
+    VisitStatus.CANCELLED: frozenset(),
+}
+
+
+class Stage(models.TextChoices):
+    AS_FOUND = "as_found", "As found"
+    AS_LEFT = "as_left", "As left"
+
+
+class SightGlass(models.TextChoices):
+    CLEAR = "clear", "Clear"
+    BUBBLES = "bubbles", "Bubbles"
+    NONE = "none", "No sight glass"
+
+
+class RefrigerantEventKind(models.TextChoices):
+    ADDED = "added", "Refrigerant added"
+    RECOVERED = "recovered", "Refrigerant recovered"
+    LEAK_FOUND = "leak_found", "Leak found"
+    LEAK_REPAIRED = "leak_repaired", "Leak repaired"
+    INITIAL_VERIFICATION = "initial_verification", "Initial verification test"
+    FOLLOW_UP_VERIFICATION = "follow_up_verification", "Follow-up verification test"
+
+
+class LeakRateExemption(models.TextChoices):
+    """Additions the leak-rate rules do not calculate (40 CFR 82.157(b)(1) and 84.106)."""
+
+    NONE = "", "Counts toward the leak rate"
+    INSTALLATION = "installation", "Charging after installation"
+    RETROFIT = "retrofit", "Charging after a retrofit"
+    SEASONAL = "seasonal", "Seasonal variance"
+
+
+class Role(models.TextChoices):
+    """Django group names of the three roles."""
+
+    OFFICE = "office", "Office"
+    TECHNICIAN = "technician", "Technician"
+    MANAGER = "manager", "Manager"

@@ -1,0 +1,82 @@
+"""Physical limits for stored measurements and design data, in SI.
+
+One table serves the field validators (messages that name the field) and the database
+check constraints (what must never be stored), so the two can never disagree. The bounds
+are wide on purpose: they refuse the impossible (a gauge below a perfect vacuum, a 500 F
+box, a 10,000 uF capacitor), not the unusual; scoring judges the unusual.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+#: A perfect vacuum at sea level reads -101.325 kPa (-14.7 psig) on a gauge; nothing reads lower.
+PERFECT_VACUUM_KPA_GAUGE = -101.325
+
+
+@dataclass(frozen=True)
+class Limit:
+    low: float
+    high: float
+    why: str
+
+
+READING_LIMITS: dict[str, Limit] = {
+    "box_temp_c": Limit(-60, 50, "colder than any freezer or hotter than any room"),
+    "entering_air_temp_c": Limit(-45, 65, "outside the air temperatures condensers meet"),
+    "suction_kpa_gauge": Limit(
+        PERFECT_VACUUM_KPA_GAUGE, 8000, "below a perfect vacuum or above any suction side"
+    ),
+    "suction_line_temp_c": Limit(-70, 80, "outside what a suction line can read"),
+    "head_kpa_gauge": Limit(
+        PERFECT_VACUUM_KPA_GAUGE, 15000, "below a perfect vacuum or above any discharge side"
+    ),
+    "liquid_line_temp_c": Limit(-60, 90, "outside what a liquid line can read"),
+    "discharge_line_temp_c": Limit(-40, 200, "outside what a discharge line can read"),
+    "compressor_amps_1": Limit(
+        0, 1000, "amps cannot be negative; above 1000 A is not a refrigeration compressor"
+    ),
+    "compressor_amps_2": Limit(
+        0, 1000, "amps cannot be negative; above 1000 A is not a refrigeration compressor"
+    ),
+    "compressor_amps_3": Limit(
+        0, 1000, "amps cannot be negative; above 1000 A is not a refrigeration compressor"
+    ),
+    "supply_volts_1": Limit(
+        0, 1000, "volts cannot be negative; above 1000 V is not a low-voltage supply"
+    ),
+    "supply_volts_2": Limit(
+        0, 1000, "volts cannot be negative; above 1000 V is not a low-voltage supply"
+    ),
+    "supply_volts_3": Limit(
+        0, 1000, "volts cannot be negative; above 1000 V is not a low-voltage supply"
+    ),
+    "run_capacitor_uf": Limit(0, 200, "run capacitors are at most a few hundred microfarads"),
+    "start_capacitor_uf": Limit(
+        0, 2000, "start capacitors are at most a couple of thousand microfarads"
+    ),
+}
+
+UNIT_LIMITS: dict[str, Limit] = {
+    "full_charge_kg": Limit(0.01, 10000, "a charge must be positive"),
+    "design_box_temp_c": Limit(-60, 50, "outside any refrigerated box"),
+    "design_evap_td_k": Limit(0.5, 30, "an evaporator TD is a few kelvin"),
+    "design_condenser_split_k": Limit(1, 40, "a condenser split is a few kelvin"),
+    "superheat_min_k": Limit(0, 40, "superheat cannot be negative"),
+    "superheat_max_k": Limit(0, 40, "superheat cannot be negative"),
+    "high_pressure_cutout_kpa_gauge": Limit(300, 15000, "outside any high-pressure control"),
+    "nameplate_volts": Limit(90, 700, "outside compressor supply voltages"),
+    "hertz": Limit(50, 60, "supply frequency is 50 or 60 Hz"),
+    "rla_a": Limit(0.1, 1000, "rated-load amps must be positive"),
+    "lra_a": Limit(0.1, 5000, "locked-rotor amps must be positive"),
+    "pm_interval_days": Limit(7, 730, "between a week and two years"),
+}
+
+SITE_LIMITS: dict[str, Limit] = {
+    "elevation_m": Limit(-500, 5000, "outside inhabited elevations"),
+    "design_ambient_c": Limit(-10, 60, "outside design dry-bulb temperatures"),
+}
+
+EVENT_LIMITS: dict[str, Limit] = {
+    "amount_kg": Limit(0, 5000, "an amount cannot be negative"),
+}
