@@ -13,6 +13,7 @@ import dj_database_url
 
 BASE_DIR = Path(__file__).resolve().parent.parent
 VAR_DIR = Path(os.environ.get("RIMEWATCH_VAR_DIR", BASE_DIR / "var"))
+VAR_DIR.mkdir(parents=True, exist_ok=True)
 
 
 def env_bool(name: str, default: bool) -> bool:
@@ -114,6 +115,11 @@ RIMEWATCH_CACHE_DIR = Path(os.environ.get("RIMEWATCH_CACHE_DIR", VAR_DIR / "cach
 os.environ.setdefault("RIMEWATCH_CACHE_DIR", str(RIMEWATCH_CACHE_DIR))
 # The contractor's default display units: "us" (F, psig, lb) or "si" (C, kPa gauge, kg).
 RIMEWATCH_DISPLAY_UNITS = os.environ.get("RIMEWATCH_DISPLAY_UNITS", "us")
+
+# Leak-rate rules: a rule set of diagnostics.core.leaks.RULE_SETS and the one method the
+# facility uses for all its appliances (40 CFR 82.152 lets it choose).
+RIMEWATCH_LEAK_RULE_SET = os.environ.get("RIMEWATCH_LEAK_RULE_SET", "us_epa")
+RIMEWATCH_LEAK_RATE_METHOD = os.environ.get("RIMEWATCH_LEAK_RATE_METHOD", "rolling_average")
 
 REST_FRAMEWORK = {
     "DEFAULT_AUTHENTICATION_CLASSES": [

@@ -99,9 +99,9 @@ class LeakRateExemption(models.TextChoices):
     """Additions the leak-rate rules do not calculate (40 CFR 82.157(b)(1) and 84.106)."""
 
     NONE = "", "Counts toward the leak rate"
-    INSTALLATION = "installation", "Charging after installation"
-    RETROFIT = "retrofit", "Charging after a retrofit"
-    SEASONAL = "seasonal", "Seasonal variance"
+    AFTER_INSTALLATION = "after_installation", "Charging after installation"
+    AFTER_RETROFIT = "after_retrofit", "Charging after a retrofit"
+    SEASONAL_VARIANCE = "seasonal_variance", "Seasonal variance"
 
 
 class Role(models.TextChoices):

@@ -1,4 +1,4 @@
-"""The refrigerant catalogue: designation, composition, safety class, GWP and how CoolProp models it.
+"""The refrigerant catalogue: designation, composition, safety class, GWP, CoolProp model.
 
 Compositions (mass fractions) and safety classes follow ANSI/ASHRAE Standard 34; the
 predefined-mixture table shipped with CoolProp agrees. A blend's GWP is the sum of each
@@ -10,6 +10,11 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from enum import StrEnum
+from functools import cache
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from CoolProp.CoolProp import AbstractState
 
 
 class Kind(StrEnum):
@@ -86,6 +91,45 @@ class Refrigerant:
     def flammable(self) -> bool:
         """A2L, A2, A3, B2L... : anything past class 1 burns."""
         return not self.safety_class.endswith("1")
+
+    @property
+    def is_coolprop_mixture(self) -> bool:
+        """True for a blend CoolProp has no pseudo-pure fluid for (modelled as a HEOS mixture)."""
+        return self.coolprop_name is None
+
+    @property
+    def mole_fractions(self) -> tuple[float, ...]:
+        """Mole fractions of ``composition``: x_i = (w_i / M_i) / sum_j (w_j / M_j).
+
+        Molar masses are CoolProp's; the result matches the predefined ``.mix`` files shipped
+        with CoolProp 8.0.0 for every blend in the catalogue.
+        """
+        moles = [w / _molar_mass(COOLPROP_FLUID[c]) for c, w in self.composition]
+        total = sum(moles)
+        return tuple(n / total for n in moles)
+
+    def coolprop_state(self) -> AbstractState:
+        """A fresh CoolProp ``AbstractState`` (HEOS backend) modelling this refrigerant.
+
+        Pure fluids and CoolProp's pseudo-pure blends by name; any other blend as a HEOS
+        mixture of its constituents at ``mole_fractions``. CoolProp raises ValueError if a
+        binary pair lacks interaction parameters.
+        """
+        from CoolProp.CoolProp import AbstractState
+
+        if self.coolprop_name is not None:
+            return AbstractState("HEOS", self.coolprop_name)
+        state = AbstractState("HEOS", "&".join(COOLPROP_FLUID[c] for c, _ in self.composition))
+        state.set_mole_fractions(list(self.mole_fractions))
+        return state
+
+
+@cache
+def _molar_mass(coolprop_fluid: str) -> float:
+    """kg/mol, from CoolProp."""
+    from CoolProp.CoolProp import AbstractState
+
+    return float(AbstractState("HEOS", coolprop_fluid).molar_mass())
 
 
 def _pure(designation: str, safety_class: str) -> Refrigerant:

@@ -1,0 +1,1003 @@
+"""The visit diagnosis: one implementation for a single reading and for a million.
+
+``diagnose_batch`` works on columns (numpy arrays, NaN for missing) and computes targets,
+derived values, metric statuses and points, the visit score, the finding masks and the energy
+penalty for every row at once. ``diagnose`` runs the very same code on a batch of one and
+turns row 0 into dataclasses; ``BatchResult.diagnosis(i)`` does that for any row, so the
+strings (reasons, evidence, advice, sources) are only built for rows someone looks at.
+
+Saturation temperatures come from ``saturation.py`` (dew and bubble, see ``targets.py`` for
+the glide choice), gauge pressures are made absolute with the standard atmosphere at the
+site's elevation. Cycle metrics (TD, split, superheat, subcooling, compression ratio,
+discharge temperature) are not scored when the compressor is reported stopped. R-744 with the
+head above its critical pressure has no condensing temperature and no subcooling: the
+gas-cooler approach and the head pressure are scored instead.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from diagnostics.core import atmosphere, electrical, energy, findings, refrigerants, saturation
+from diagnostics.core import scoring as sc
+from diagnostics.core import targets as tg
+from diagnostics.core.types import (
+    APPLICATIONS,
+    METERING_DEVICES,
+    SIGHT_GLASS_STATES,
+    STATUSES,
+    Caution,
+    DerivedValues,
+    Diagnosis,
+    Finding,
+    Metric,
+    Reading,
+    Target,
+    UnitDesign,
+)
+
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.int8]
+
+#: Bump whenever a change alters any stored result; ``manage.py rescore`` keys on it.
+ALGORITHM_VERSION = "2025.1"
+
+#: Legs per reading kept in the columns (three-phase); single-phase uses the first.
+LEGS = 3
+
+READING_SCALARS: tuple[str, ...] = (
+    "box_temp_c",
+    "entering_air_temp_c",
+    "suction_kpa_gauge",
+    "suction_line_temp_c",
+    "head_kpa_gauge",
+    "liquid_line_temp_c",
+    "discharge_line_temp_c",
+    "run_capacitor_uf",
+    "start_capacitor_uf",
+)
+READING_FLAGS: tuple[str, ...] = (
+    "compressor_running",
+    "condenser_fan_running",
+    "evaporator_fans_running",
+    "coil_iced",
+)
+
+
+# --- columns in ----------------------------------------------------------------------------
+
+
+def _col(values: Sequence[float | None]) -> FloatArray:
+    return np.array([np.nan if v is None else float(v) for v in values], dtype=np.float64)
+
+
+def _legs(values: Sequence[Sequence[float]]) -> FloatArray:
+    out = np.full((len(values), LEGS), np.nan)
+    for i, legs in enumerate(values):
+        for j, v in enumerate(tuple(legs)[:LEGS]):
+            if v is not None:
+                out[i, j] = float(v)
+    return out
+
+
+@dataclass(frozen=True)
+class ReadingColumns:
+    """Readings as columns: float arrays of one length, NaN for missing.
+
+    ``compressor_amps`` and ``supply_volts`` are (n, 3) arrays (one column per leg, NaN
+    where fewer were measured); the flags are 1.0 / 0.0 / NaN; ``sight_glass`` is the index
+    into ``types.SIGHT_GLASS_STATES`` or NaN.
+    """
+
+    box_temp_c: FloatArray
+    entering_air_temp_c: FloatArray
+    suction_kpa_gauge: FloatArray
+    suction_line_temp_c: FloatArray
+    head_kpa_gauge: FloatArray
+    liquid_line_temp_c: FloatArray
+    discharge_line_temp_c: FloatArray
+    run_capacitor_uf: FloatArray
+    start_capacitor_uf: FloatArray
+    compressor_amps: FloatArray
+    supply_volts: FloatArray
+    compressor_running: FloatArray
+    condenser_fan_running: FloatArray
+    evaporator_fans_running: FloatArray
+    coil_iced: FloatArray
+    sight_glass: FloatArray
+
+    def __len__(self) -> int:
+        return int(self.box_temp_c.shape[0])
+
+    @classmethod
+    def from_arrays(cls, n: int, **columns: ArrayLike) -> ReadingColumns:
+        """Columns from whatever arrays are given; every other column is all-missing."""
+        unknown = set(columns) - set(cls.__dataclass_fields__)
+        if unknown:
+            raise TypeError(f"unknown reading columns: {sorted(unknown)}")
+        data: dict[str, FloatArray] = {}
+        for name in cls.__dataclass_fields__:
+            shape: tuple[int, ...] = (
+                (n, LEGS) if name in ("compressor_amps", "supply_volts") else (n,)
+            )
+            if name in columns:
+                arr = np.asarray(columns[name], dtype=np.float64)
+                if arr.shape != shape:
+                    if len(shape) == 2 and arr.shape == (n,):
+                        arr = np.column_stack([arr, np.full((n, LEGS - 1), np.nan)])
+                    else:
+                        raise ValueError(f"{name}: expected shape {shape}, got {arr.shape}")
+                data[name] = arr
+            else:
+                data[name] = np.full(shape, np.nan)
+        return cls(**data)
+
+    @classmethod
+    def from_readings(cls, readings: Sequence[Reading]) -> ReadingColumns:
+        """Columns from reading dataclasses (the single-reading path and tests)."""
+        data: dict[str, FloatArray] = {
+            name: _col([getattr(r, name) for r in readings]) for name in READING_SCALARS
+        }
+        for name in READING_FLAGS:
+            data[name] = _col([getattr(r, name) for r in readings])
+        data["compressor_amps"] = _legs([r.compressor_amps or () for r in readings])
+        data["supply_volts"] = _legs([r.supply_volts or () for r in readings])
+        data["sight_glass"] = _col(
+            [
+                SIGHT_GLASS_STATES.index(r.sight_glass)
+                if r.sight_glass in SIGHT_GLASS_STATES
+                else None
+                for r in readings
+            ]
+        )
+        return cls(**data)
+
+
+UNIT_FLOATS: tuple[str, ...] = (
+    "design_box_temp_c",
+    "design_evap_td_k",
+    "design_condenser_split_k",
+    "superheat_min_k",
+    "superheat_max_k",
+    "high_pressure_cutout_kpa_gauge",
+    "nameplate_volts",
+    "nameplate_volts_max",
+    "phase",
+    "hertz",
+    "rla_a",
+    "lra_a",
+    "run_capacitor_uf",
+    "run_capacitor_tolerance_pct",
+    "start_capacitor_min_uf",
+    "start_capacitor_max_uf",
+    "head_pressure_floor_c",
+)
+
+
+@dataclass(frozen=True)
+class UnitColumns:
+    """Unit designs as columns (one entry per unit; readings point at them by index)."""
+
+    designs: tuple[UnitDesign, ...]
+    refrigerants: tuple[str, ...]
+    refrigerant_code: NDArray[np.intp]
+    application_code: NDArray[np.intp]
+    metering_code: NDArray[np.intp]
+    metering_given: NDArray[np.bool_]
+    water_cooled: NDArray[np.bool_]
+    has_receiver: FloatArray
+    floats: Mapping[str, FloatArray]
+
+    def __len__(self) -> int:
+        return len(self.designs)
+
+    @classmethod
+    def from_designs(cls, designs: Sequence[UnitDesign]) -> UnitColumns:
+        """Columns from design dataclasses; refrigerant names are normalised ('R404A')."""
+        names = [refrigerants.normalise_designation(d.refrigerant) for d in designs]
+        distinct = tuple(dict.fromkeys(names))
+        apps = [d.application if d.application in APPLICATIONS else "other" for d in designs]
+        app_code = np.array([APPLICATIONS.index(a) for a in apps], dtype=np.intp)
+        given = np.array([d.metering_device in METERING_DEVICES for d in designs], dtype=bool)
+        default_meter = tg.default_metering_codes(app_code).astype(np.intp)
+        meter = np.array(
+            [
+                METERING_DEVICES.index(d.metering_device)
+                if d.metering_device in METERING_DEVICES
+                else -1
+                for d in designs
+            ],
+            dtype=np.intp,
+        )
+        meter = np.where(given, meter, default_meter)
+        receiver = _col(
+            [None if d.has_receiver is None else float(d.has_receiver) for d in designs]
+        )
+        receiver = np.where(np.isnan(receiver), tg.default_has_receiver(app_code), receiver)
+        return cls(
+            designs=tuple(designs),
+            refrigerants=distinct,
+            refrigerant_code=np.array([distinct.index(n) for n in names], dtype=np.intp),
+            application_code=app_code,
+            metering_code=meter,
+            metering_given=given,
+            water_cooled=np.array([d.condenser_type == "water" for d in designs], dtype=bool),
+            has_receiver=receiver,
+            floats={name: _col([getattr(d, name) for d in designs]) for name in UNIT_FLOATS},
+        )
+
+
+# --- per-unit targets ---------------------------------------------------------------------
+
+
+def _unit_targets(u: UnitColumns) -> dict[str, FloatArray]:
+    """Every design quantity per unit, design data first and application default second.
+
+    ``*_origin`` arrays say where each came from (``targets.FROM_DESIGN`` / ``FROM_DEFAULT``
+    / ``MISSING``); the per-row text of the sources is built from them lazily.
+    """
+    f, app = u.floats, u.application_code
+    out: dict[str, FloatArray] = {}
+
+    def put(name: str, resolved: tg.Resolved) -> None:
+        out[name] = resolved.value
+        out[f"{name}_origin"] = resolved.origin.astype(np.float64)
+
+    put("box_temp_c", tg.resolve(f["design_box_temp_c"], tg.default_box_temp_c(app)))
+    put("evap_td_k", tg.resolve(f["design_evap_td_k"], tg.default_evap_td_k(app)))
+    put(
+        "split_k",
+        tg.resolve(f["design_condenser_split_k"], tg.default_condenser_split_k(app)),
+    )
+    sh_low, sh_high = tg.default_superheat_range_k(app, u.metering_code)
+    put("superheat_min_k", tg.resolve(f["superheat_min_k"], sh_low))
+    put("superheat_max_k", tg.resolve(f["superheat_max_k"], sh_high))
+    sc_low, sc_high = tg.subcooling_range_k(u.has_receiver)
+    out["subcooling_min_k"], out["subcooling_max_k"] = sc_low, sc_high
+    put(
+        "head_floor_c",
+        tg.resolve(f["head_pressure_floor_c"], tg.default_head_pressure_floor_c(app)),
+    )
+    out["cr_typical_low"], _ = tg.compression_ratio_typical(app)
+    out["cutout_kpa_gauge"] = f["high_pressure_cutout_kpa_gauge"]
+    out["rla_a"], out["lra_a"] = f["rla_a"], f["lra_a"]
+    volts, volts_max = f["nameplate_volts"], f["nameplate_volts_max"]
+    upper = np.where(np.isnan(volts_max), volts, volts_max)
+    tol = electrical.NEMA_VOLTAGE_TOLERANCE_PCT / 100.0
+    out["volts_low"], out["volts_high"] = volts * (1 - tol), upper * (1 + tol)
+    out["volts_nominal"] = 0.5 * (volts + upper)
+    out["phase"] = f["phase"]
+    rating = f["run_capacitor_uf"]
+    put(
+        "run_cap_tol_pct",
+        tg.resolve(f["run_capacitor_tolerance_pct"], tg.RUN_CAPACITOR_TOLERANCE_PCT.value),
+    )
+    out["run_cap_tol_pct"] = np.where(np.isnan(rating), np.nan, out["run_cap_tol_pct"])
+    out["run_cap_uf"] = rating
+    out["run_cap_low"] = rating * (1 - out["run_cap_tol_pct"] / 100.0)
+    out["run_cap_high"] = rating * (1 + out["run_cap_tol_pct"] / 100.0)
+    s_min, s_max = f["start_capacitor_min_uf"], f["start_capacitor_max_uf"]
+    s_min, s_max = np.where(np.isnan(s_min), s_max, s_min), np.where(np.isnan(s_max), s_min, s_max)
+    out["start_cap_low"], out["start_cap_high"] = s_min, s_max
+    out["start_cap_uf"] = 0.5 * (s_min + s_max)
+    out["water_cooled"] = u.water_cooled.astype(np.float64)
+    return out
+
+
+# --- metric columns and the batch result ----------------------------------------------------
+
+#: Why a metric was not scored, beyond missing inputs (which are worked out per row).
+REASON_NONE = 0
+REASON_WATER_COOLED = 1
+REASON_TRANSCRITICAL = 2
+REASON_HEAD_CONTROL = 3
+REASON_HIDDEN = 4
+REASON_RUNNING_UNKNOWN = 5
+REASON_SINGLE_PHASE = 6
+REASON_COMPRESSOR_OFF = 7
+
+REASON_TEXT: dict[int, str] = {
+    REASON_WATER_COOLED: "water-cooled condenser: there is no air split to score",
+    REASON_TRANSCRITICAL: "R-744 above its critical pressure: no condensing temperature or "
+    "subcooling exists; the gas-cooler approach and head pressure are scored instead",
+    REASON_HEAD_CONTROL: "head-pressure control holds condensing up at this entering-air "
+    "temperature, so a high split is expected",
+    REASON_RUNNING_UNKNOWN: "whether the compressor was running was not given",
+    REASON_SINGLE_PHASE: "single-phase supply: there is no three-phase unbalance",
+    REASON_COMPRESSOR_OFF: "compressor reported not running: cycle readings are not judged",
+}
+
+#: Per metric: the reading fields it needs and the design data its target needs (for the
+#: "not scored: missing ..." text, built per row).
+METRIC_NEEDS: dict[str, tuple[tuple[str, ...], str]] = {
+    "box_temp": (("box_temp_c",), "a design box temperature"),
+    "evaporator_td": (("box_temp_c", "suction_kpa_gauge"), "a design evaporator TD"),
+    "condenser_split": (("entering_air_temp_c", "head_kpa_gauge"), "a design condenser split"),
+    "superheat": (("suction_kpa_gauge", "suction_line_temp_c"), "a superheat range"),
+    "subcooling": (("head_kpa_gauge", "liquid_line_temp_c"), "whether it has a receiver"),
+    "discharge_line_temp": (("discharge_line_temp_c",), "a discharge limit"),
+    "compression_ratio": (("suction_kpa_gauge", "head_kpa_gauge"), "a compression-ratio limit"),
+    "head_pressure": (("head_kpa_gauge",), "a high-pressure cut-out"),
+    "gas_cooler_approach": (("liquid_line_temp_c", "entering_air_temp_c"), "an approach target"),
+    "running_amps": (("compressor_amps", "compressor_running"), "the nameplate RLA"),
+    "standstill_amps": (("compressor_amps", "compressor_running"), "the nameplate LRA"),
+    "supply_voltage": (("supply_volts",), "the nameplate voltage"),
+    "voltage_unbalance": (("supply_volts",), "an unbalance limit"),
+    "current_unbalance": (("compressor_amps",), "an unbalance limit"),
+    "run_capacitor": (("run_capacitor_uf",), "the run capacitor's rating"),
+    "start_capacitor": (("start_capacitor_uf",), "the start capacitor's range"),
+}
+#: Reasons that make a metric inapplicable to the unit (its target is not listed either).
+NOT_APPLICABLE = (REASON_WATER_COOLED, REASON_TRANSCRITICAL, REASON_SINGLE_PHASE)
+CYCLE_METRICS = (
+    "evaporator_td",
+    "condenser_split",
+    "superheat",
+    "subcooling",
+    "discharge_line_temp",
+    "compression_ratio",
+)
+
+
+@dataclass(frozen=True)
+class MetricColumns:
+    """One metric over the batch."""
+
+    measured: FloatArray
+    target: FloatArray
+    low: FloatArray
+    high: FloatArray
+    deviation: FloatArray
+    status: IntArray
+    points: FloatArray
+    reason: IntArray
+
+
+DERIVED_NAMES: tuple[str, ...] = tuple(DerivedValues.__dataclass_fields__)
+
+
+@dataclass(frozen=True)
+class BatchResult:
+    """Columnar results of ``diagnose_batch``; ``diagnosis(i)`` gives row i as dataclasses."""
+
+    algorithm_version: str
+    score: FloatArray
+    metrics: Mapping[str, MetricColumns]
+    derived: Mapping[str, FloatArray]
+    #: Saturation targets per row: evaporating/condensing temperature and gauge pressure.
+    saturation_targets: Mapping[str, FloatArray]
+    finding_mask: NDArray[np.uint32]
+    finding_confidence: FloatArray
+    energy_penalty_pct: FloatArray
+    signals: Mapping[str, NDArray[np.bool_]]
+    # kept for building rows lazily
+    units: UnitColumns = field(repr=False)
+    unit_index: NDArray[np.intp] = field(repr=False)
+    readings: ReadingColumns = field(repr=False)
+    #: Design quantities per unit (index with ``unit_index``), with their origins.
+    unit_targets: Mapping[str, FloatArray] = field(repr=False)
+    atmosphere_kpa: FloatArray = field(repr=False)
+
+    def __len__(self) -> int:
+        return int(self.score.shape[0])
+
+    @property
+    def finding_codes(self) -> tuple[str, ...]:
+        """Finding code of each bit of ``finding_mask``, lowest bit first."""
+        return findings.RULE_CODES
+
+    def status_names(self, metric: str) -> NDArray[np.str_]:
+        """The status of a metric as strings (built on demand for the whole batch)."""
+        return np.asarray(STATUSES)[self.metrics[metric].status]
+
+    def diagnosis(self, i: int) -> Diagnosis:
+        """Row ``i`` as the dataclasses a single POST returns."""
+        return _row_diagnosis(self, i)
+
+
+# --- the batch -----------------------------------------------------------------------------
+
+
+def _finite(x: FloatArray) -> FloatArray:
+    return np.where(np.isfinite(x), x, np.nan)
+
+
+def _leg_extreme(values: FloatArray, largest: bool) -> FloatArray:
+    """Largest (or smallest) leg per row, NaN when no leg was measured (no warnings)."""
+    pick = np.fmax if largest else np.fmin
+    out = values[:, 0].copy()
+    for leg in range(1, values.shape[1]):
+        pick(out, values[:, leg], out=out)
+    return out
+
+
+def _atmosphere_kpa(elevation_m: ArrayLike, n: int) -> FloatArray:
+    """Standard-atmosphere pressure per row; NaN (pressures unscored) for an impossible
+    elevation, so one bad site cannot stop a batch."""
+    z = np.broadcast_to(np.asarray(elevation_m, dtype=np.float64), (n,))
+    usable = np.isfinite(z) & (z >= atmosphere.MIN_ELEVATION_M) & (z <= atmosphere.MAX_ELEVATION_M)
+    atm = np.full(n, np.nan)
+    if usable.any():
+        atm[usable] = atmosphere.standard_pressure_kpa(z[usable])
+    return atm
+
+
+def diagnose_batch(
+    units: Sequence[UnitDesign] | UnitColumns,
+    readings: ReadingColumns,
+    elevation_m: ArrayLike = 0.0,
+    unit_index: ArrayLike | None = None,
+) -> BatchResult:
+    """Diagnose every row of ``readings`` at once.
+
+    ``units`` holds one design per reading, or (with ``unit_index``) the distinct designs
+    the readings point at. ``elevation_m`` is the site elevation per row (or one value).
+    """
+    uc = units if isinstance(units, UnitColumns) else UnitColumns.from_designs(units)
+    n = len(readings)
+    if unit_index is None:
+        if len(uc) != n:
+            raise ValueError("one unit per reading, or pass unit_index")
+        idx = np.arange(n, dtype=np.intp)
+    else:
+        idx = np.asarray(unit_index, dtype=np.intp)
+        if idx.shape != (n,):
+            raise ValueError("unit_index needs one entry per reading")
+    per_unit = _unit_targets(uc)
+    # origins are only read when one row is turned into dataclasses
+    t = {k: v[idx] for k, v in per_unit.items() if not k.endswith("_origin")}
+    r = readings
+    ref_code = uc.refrigerant_code[idx]
+    atm = _atmosphere_kpa(elevation_m, n)
+    p_s = np.where(r.suction_kpa_gauge + atm > 0, r.suction_kpa_gauge + atm, np.nan)
+    p_h = np.where(r.head_kpa_gauge + atm > 0, r.head_kpa_gauge + atm, np.nan)
+
+    # Saturation targets from the reading's conditions (box falls back to the design box).
+    box_for_target = np.where(np.isnan(r.box_temp_c), t["box_temp_c"], r.box_temp_c)
+    t_evap_target = box_for_target - t["evap_td_k"]
+    t_cond_target = np.where(t["water_cooled"] == 1.0, np.nan, r.entering_air_temp_c + t["split_k"])
+
+    nan = np.full(n, np.nan)
+    evap_dew, evap_bub, cond_dew, cond_bub = nan.copy(), nan.copy(), nan.copy(), nan.copy()
+    p_crit, p_evap_target, p_cond_target = nan.copy(), nan.copy(), nan.copy()
+    t_cond_target_dew, penalty = nan.copy(), nan.copy()
+    for code, designation in enumerate(uc.refrigerants):
+        sel = np.flatnonzero(ref_code == code)
+        if sel.size == 0:
+            continue
+        curve = saturation.table(designation)
+        evap_dew[sel] = tg.dew_temp_c(curve, p_s[sel])
+        evap_bub[sel] = tg.bubble_temp_c(curve, p_s[sel])
+        cond_dew[sel] = tg.dew_temp_c(curve, p_h[sel])
+        cond_bub[sel] = tg.bubble_temp_c(curve, p_h[sel])
+        p_crit[sel] = float(curve.critical_pressure_kpa_abs)
+        p_evap_target[sel] = tg.mid_point_pressure_kpa_abs(curve, t_evap_target[sel])
+        p_cond_target[sel] = tg.mid_point_pressure_kpa_abs(curve, t_cond_target[sel])
+        t_cond_target_dew[sel] = tg.dew_temp_c(curve, p_cond_target[sel])
+    transcritical = p_h >= p_crit
+    cond_dew[transcritical] = np.nan
+    cond_bub[transcritical] = np.nan
+    t_cond_target_dew[transcritical] = np.nan
+    p_cond_target[transcritical] = np.nan
+    t_cond_target = np.where(transcritical, np.nan, t_cond_target)
+
+    running = r.compressor_running
+    stopped = running == 0.0
+    for code, designation in enumerate(uc.refrigerants):
+        sel = np.flatnonzero((ref_code == code) & ~stopped)
+        ok = sel[np.isfinite(evap_dew[sel] + cond_dew[sel] + t_cond_target_dew[sel])]
+        if ok.size == 0:
+            continue
+        try:
+            penalty[ok] = energy.energy_penalty_pct(
+                designation, evap_dew[ok], cond_dew[ok], t_cond_target_dew[ok]
+            )
+        except ValueError:
+            penalty[ok] = np.nan  # no cycle model for this refrigerant: no figure, no guess
+
+    evap_mid = 0.5 * (evap_dew + evap_bub)
+    cond_mid = 0.5 * (cond_dew + cond_bub)
+    amps_max = _leg_extreme(r.compressor_amps, largest=True)
+    volts_min = _leg_extreme(r.supply_volts, largest=False)
+    volts_max = _leg_extreme(r.supply_volts, largest=True)
+    volts_worst = np.where(
+        np.abs(volts_min - t["volts_nominal"]) > np.abs(volts_max - t["volts_nominal"]),
+        volts_min,
+        volts_max,
+    )
+    v_unbalance = electrical.unbalance_pct(r.supply_volts)
+    a_unbalance = electrical.unbalance_pct(r.compressor_amps)
+    derived = {
+        "suction_kpa_abs": p_s,
+        "head_kpa_abs": p_h,
+        "evaporating_dew_c": evap_dew,
+        "evaporating_bubble_c": evap_bub,
+        "evaporating_c": evap_mid,
+        "condensing_dew_c": cond_dew,
+        "condensing_bubble_c": cond_bub,
+        "condensing_c": cond_mid,
+        "superheat_k": r.suction_line_temp_c - evap_dew,
+        "subcooling_k": cond_bub - r.liquid_line_temp_c,
+        "evaporator_td_k": r.box_temp_c - evap_mid,
+        "condenser_split_k": np.where(
+            t["water_cooled"] == 1.0, np.nan, cond_mid - r.entering_air_temp_c
+        ),
+        "compression_ratio": _finite(p_h / p_s),
+        "transcritical": transcritical.astype(np.float64),
+        "gas_cooler_approach_k": np.where(
+            transcritical, r.liquid_line_temp_c - r.entering_air_temp_c, np.nan
+        ),
+        "voltage_unbalance_pct": v_unbalance,
+        "current_unbalance_pct": a_unbalance,
+        "nema_derating_factor": electrical.nema_derating_factor(v_unbalance),
+    }
+
+    # (measured, target, range low or None, range high or None) per metric
+    inputs: dict[str, tuple[FloatArray, FloatArray, FloatArray | None, FloatArray | None]] = {
+        "box_temp": (r.box_temp_c, t["box_temp_c"], None, None),
+        "evaporator_td": (derived["evaporator_td_k"], t["evap_td_k"], None, None),
+        "condenser_split": (derived["condenser_split_k"], t["split_k"], None, None),
+        "superheat": (
+            derived["superheat_k"],
+            0.5 * (t["superheat_min_k"] + t["superheat_max_k"]),
+            t["superheat_min_k"],
+            t["superheat_max_k"],
+        ),
+        "subcooling": (
+            derived["subcooling_k"],
+            0.5 * (t["subcooling_min_k"] + t["subcooling_max_k"]),
+            t["subcooling_min_k"],
+            t["subcooling_max_k"],
+        ),
+        "discharge_line_temp": (
+            r.discharge_line_temp_c,
+            np.full(n, tg.DISCHARGE_LINE_MAX_C.value),
+            None,
+            None,
+        ),
+        "compression_ratio": (
+            derived["compression_ratio"],
+            np.full(n, tg.COMPRESSION_RATIO_LIMIT.value),
+            None,
+            None,
+        ),
+        "head_pressure": (r.head_kpa_gauge, t["cutout_kpa_gauge"], None, None),
+        "gas_cooler_approach": (
+            derived["gas_cooler_approach_k"],
+            np.full(n, tg.GAS_COOLER_APPROACH_K.value),
+            None,
+            None,
+        ),
+        "running_amps": (np.where(running == 1.0, amps_max, np.nan), t["rla_a"], None, None),
+        "standstill_amps": (np.where(stopped, amps_max, np.nan), t["lra_a"], None, None),
+        "supply_voltage": (volts_worst, t["volts_nominal"], t["volts_low"], t["volts_high"]),
+        "voltage_unbalance": (
+            np.where(t["phase"] == 1.0, np.nan, v_unbalance),
+            np.zeros(n),
+            None,
+            None,
+        ),
+        "current_unbalance": (
+            np.where((t["phase"] == 1.0) | stopped, np.nan, a_unbalance),
+            np.zeros(n),
+            None,
+            None,
+        ),
+        "run_capacitor": (r.run_capacitor_uf, t["run_cap_uf"], t["run_cap_low"], t["run_cap_high"]),
+        "start_capacitor": (
+            r.start_capacitor_uf,
+            t["start_cap_uf"],
+            t["start_cap_low"],
+            t["start_cap_high"],
+        ),
+    }
+    for name in CYCLE_METRICS:
+        m, *rest = inputs[name]
+        inputs[name] = (np.where(stopped, np.nan, m), *rest)  # type: ignore[assignment]
+
+    metrics: dict[str, MetricColumns] = {}
+    total_points = np.zeros(n)
+    for name, rule in sc.SCORING_TABLE.items():
+        measured, target, own_low, own_high = inputs[name]
+        low, high = sc.ok_band(rule, target, own_low, own_high)
+        status, points, deviation = sc.grade(rule, measured, target, low, high)
+        reason = np.zeros(n, dtype=np.int8)
+        if name in CYCLE_METRICS:
+            reason[stopped] = REASON_COMPRESSOR_OFF
+        if name == "condenser_split":
+            reason[t["water_cooled"] == 1.0] = REASON_WATER_COOLED
+            reason[transcritical] = REASON_TRANSCRITICAL
+            # Cold weather: the control holds condensing at its floor, so the split grows.
+            held = (r.entering_air_temp_c + t["split_k"] < t["head_floor_c"]) & (
+                cond_mid <= t["head_floor_c"] + 1.0
+            )
+            excused = held & (deviation > 0)
+            status[excused] = sc.NOT_SCORED
+            points[excused] = 0.0
+            reason[excused] = REASON_HEAD_CONTROL
+        elif name == "subcooling":
+            reason[transcritical] = REASON_TRANSCRITICAL
+        elif name == "gas_cooler_approach":
+            reason[~transcritical] = REASON_HIDDEN
+        elif name == "running_amps":
+            reason[np.isnan(running)] = REASON_RUNNING_UNKNOWN
+            reason[stopped] = REASON_HIDDEN
+        elif name == "standstill_amps":
+            reason[running != 0.0] = REASON_HIDDEN
+        elif name in ("voltage_unbalance", "current_unbalance"):
+            reason[t["phase"] == 1.0] = REASON_SINGLE_PHASE
+            if name == "current_unbalance":
+                reason[stopped] = REASON_HIDDEN
+        total_points += points
+        metrics[name] = MetricColumns(
+            measured, target, low, high, deviation, status, points, reason
+        )
+
+    signals = findings.derive_signals(
+        {name: (m.measured, m.target, m.deviation, m.status) for name, m in metrics.items()},
+        flags={
+            "coil_iced": r.coil_iced,
+            "evaporator_fans_running": r.evaporator_fans_running,
+            "condenser_fan_running": r.condenser_fan_running,
+            "sight_glass": r.sight_glass,
+        },
+        compression_ratio_typical_low=t["cr_typical_low"],
+        receiverless=uc.has_receiver[idx] == 0.0,
+    )
+    fired = findings.evaluate(signals, n)
+    atm_targets = {
+        "evaporating_c": t_evap_target,
+        "suction_kpa_gauge": p_evap_target - atm,
+        "condensing_c": t_cond_target,
+        "head_kpa_gauge": p_cond_target - atm,
+    }
+    return BatchResult(
+        algorithm_version=ALGORITHM_VERSION,
+        score=sc.visit_score(total_points),
+        metrics=metrics,
+        derived=derived,
+        saturation_targets=atm_targets,
+        finding_mask=fired.mask,
+        finding_confidence=fired.confidence,
+        energy_penalty_pct=penalty,
+        signals=signals,
+        units=uc,
+        unit_index=idx,
+        readings=readings,
+        unit_targets=per_unit,
+        atmosphere_kpa=atm,
+    )
+
+
+def diagnose(unit: UnitDesign, reading: Reading, elevation_m: float = 0.0) -> Diagnosis:
+    """Diagnose one reading set: the batch code on a batch of one, row 0 as dataclasses."""
+    result = diagnose_batch([unit], ReadingColumns.from_readings([reading]), elevation_m)
+    return result.diagnosis(0)
+
+
+# --- one row as dataclasses (built lazily) ------------------------------------------------
+
+
+def _opt(x: float) -> float | None:
+    """A float for the dataclasses: NaN and the open ends of a band (+/-inf) become None."""
+    x = float(x)
+    return None if not math.isfinite(x) else x
+
+
+def _fmt(value: float | None, unit: str) -> str:
+    if value is None:
+        return "?"
+    text = f"{value:.1f}"
+    return f"{text} {unit}".strip() if unit else text
+
+
+@dataclass(frozen=True)
+class _MetricText:
+    """Formats a metric for evidence lines: ``{m}``, ``{m:band}``, ``{m:target}``, ``{m:high}``."""
+
+    metric: Metric
+
+    def __format__(self, spec: str) -> str:
+        m = self.metric
+        if spec == "band":
+            low = "" if m.low is None else _fmt(m.low, "")
+            high = "" if m.high is None else _fmt(m.high, "")
+            if low and high:
+                return f"{low} to {high} {m.unit}".strip()
+            return f"{'at most ' + high if high else 'at least ' + low} {m.unit}".strip()
+        if spec == "target":
+            return _fmt(m.target, m.unit)
+        if spec == "high":
+            return _fmt(m.high, m.unit)
+        return _fmt(m.measured, m.unit)
+
+
+def _design_source(origin: float, default_source: str, design_label: str = tg.DESIGN) -> str:
+    if origin == tg.FROM_DESIGN:
+        return design_label
+    if origin == tg.FROM_DEFAULT:
+        return f"application default ({default_source})"
+    return "missing"
+
+
+def _target_sources(res: BatchResult, i: int) -> dict[str, str]:
+    """Where each metric's target value came from, for row ``i``."""
+    u = int(res.unit_index[i])
+    app = APPLICATIONS[int(res.units.application_code[u])]
+    device = METERING_DEVICES[int(res.units.metering_code[u])]
+    defaults = tg.APPLICATION_DEFAULTS[app]
+
+    def origin(name: str) -> float:
+        return float(res.unit_targets[f"{name}_origin"][u])
+
+    receiver = res.units.has_receiver[u]
+    receiver_note = (
+        tg.DESIGN if res.units.designs[u].has_receiver is not None else defaults.receiver_source
+    )
+    sub_source = (
+        tg.SUBCOOLING_DEFAULTS[bool(receiver)].source if not math.isnan(receiver) else "missing"
+    )
+    sh_origins = (origin("superheat_min_k"), origin("superheat_max_k"))
+    sh_device = f"metering device {device}" + (
+        "" if res.units.metering_given[u] else f" (default for {app})"
+    )
+    return {
+        "box_temp": _design_source(
+            origin("box_temp_c"), defaults.box_temp_c.source if defaults.box_temp_c else ""
+        ),
+        "evaporator_td": _design_source(
+            origin("evap_td_k"), defaults.evap_td_k.source if defaults.evap_td_k else ""
+        ),
+        "condenser_split": _design_source(origin("split_k"), defaults.condenser_split_k.source),
+        "superheat": _design_source(
+            tg.MISSING if tg.MISSING in sh_origins else max(sh_origins),
+            f"{tg.SUPERHEAT_DEFAULTS[(app, device)].source}; {sh_device}",
+        ),
+        "subcooling": f"{sub_source}; receiver: {receiver_note}",
+        "discharge_line_temp": tg.DISCHARGE_LINE_MAX_C.source,
+        "compression_ratio": tg.COMPRESSION_RATIO_LIMIT.source,
+        "head_pressure": f"{tg.DESIGN}: high-pressure cut-out",
+        "gas_cooler_approach": tg.GAS_COOLER_APPROACH_K.source,
+        "running_amps": f"{tg.NAMEPLATE}: RLA",
+        "standstill_amps": f"{tg.NAMEPLATE}: LRA",
+        "supply_voltage": f"{tg.NAMEPLATE} voltage",
+        "voltage_unbalance": "NEMA MG-1 14.36",
+        "current_unbalance": "common practice",
+        "run_capacitor": f"{tg.NAMEPLATE} rating, tolerance: "
+        + _design_source(origin("run_cap_tol_pct"), tg.RUN_CAPACITOR_TOLERANCE_PCT.source),
+        "start_capacitor": f"{tg.NAMEPLATE} range",
+    }
+
+
+def _missing_text(res: BatchResult, name: str, i: int, target_missing: bool) -> str:
+    fields, design = METRIC_NEEDS[name]
+    r = res.readings
+    missing: list[str] = []
+    for f in fields:
+        col = getattr(r, f)[i]
+        if np.all(np.isnan(col)):
+            missing.append(f)
+        elif name.endswith("unbalance") and np.isnan(col).any():
+            missing.append(f"{f} (three legs)")
+    parts = []
+    if missing:
+        parts.append("not measured: " + ", ".join(missing))
+    if target_missing:
+        parts.append(f"the unit's data does not give {design}")
+    if not parts and "kpa" in " ".join(fields) and np.isnan(res.atmosphere_kpa[i]):
+        parts.append("the site elevation is unusable, so gauge pressures cannot be made absolute")
+    if not parts:
+        return "the pressure is outside the refrigerant's saturation range"
+    return "; ".join(parts)
+
+
+def _row_metrics(res: BatchResult, i: int) -> tuple[Metric, ...]:
+    out: list[Metric] = []
+    for name, rule in sc.SCORING_TABLE.items():
+        col = res.metrics[name]
+        reason_code = int(col.reason[i])
+        if reason_code == REASON_HIDDEN:
+            continue
+        status = STATUSES[int(col.status[i])]
+        target = _opt(col.target[i])
+        reason = ""
+        if status == "not_scored":
+            reason = REASON_TEXT.get(reason_code) or _missing_text(
+                res,
+                name,
+                i,
+                target is None or bool(np.isnan(col.low[i]) or np.isnan(col.high[i])),
+            )
+        out.append(
+            Metric(
+                name=name,
+                measured=_opt(col.measured[i]),
+                target=target,
+                low=_opt(col.low[i]),
+                high=_opt(col.high[i]),
+                deviation=_opt(col.deviation[i]),
+                unit=rule.unit,
+                status=status,
+                points_lost=float(col.points[i]),
+                reason=reason,
+            )
+        )
+    return tuple(out)
+
+
+def _row_targets(res: BatchResult, i: int, metrics: tuple[Metric, ...]) -> tuple[Target, ...]:
+    out: list[Target] = []
+    u = int(res.unit_index[i])
+    designation = res.units.refrigerants[int(res.units.refrigerant_code[u])]
+    st = res.saturation_targets
+    td = res.metrics["evaporator_td"]
+    split = res.metrics["condenser_split"]
+    box = res.readings.box_temp_c[i]
+    box_note = "measured box temperature" if not math.isnan(box) else "design box temperature"
+    glide = (
+        "mid-point of dew and bubble" if refrigerants.get(designation).is_blend else "saturation"
+    )
+    atm = float(res.atmosphere_kpa[i])
+    curve = saturation.table(designation)
+    te = _opt(st["evaporating_c"][i])
+    if te is not None:
+        base = te + float(res.unit_targets["evap_td_k"][u])
+        low, high = base - float(td.high[i]), base - float(td.low[i])
+        out.append(
+            Target("evaporating_temp", te, low, high, "C", f"{box_note} - evaporator TD ({glide})")
+        )
+        p = tg.mid_point_pressure_kpa_abs(curve, np.array([te, low, high]))
+        if not math.isnan(p[0]):
+            out.append(
+                Target(
+                    "suction_pressure",
+                    float(p[0]) - atm,
+                    _opt(p[1] - atm),
+                    _opt(p[2] - atm),
+                    "kPa",
+                    f"pressure at the evaporating target ({glide}), gauge at the site elevation",
+                )
+            )
+    tc = _opt(st["condensing_c"][i])
+    if tc is not None:
+        base = tc - float(res.unit_targets["split_k"][u])
+        low, high = base + float(split.low[i]), base + float(split.high[i])
+        out.append(
+            Target(
+                "condensing_temp",
+                tc,
+                low,
+                high,
+                "C",
+                f"entering air + condenser split ({glide})",
+            )
+        )
+        p = tg.mid_point_pressure_kpa_abs(curve, np.array([tc, low, high]))
+        if not math.isnan(p[0]):
+            out.append(
+                Target(
+                    "condensing_pressure",
+                    float(p[0]) - atm,
+                    _opt(p[1] - atm),
+                    _opt(p[2] - atm),
+                    "kPa",
+                    f"pressure at the condensing target ({glide}), gauge at the site elevation",
+                )
+            )
+    sources = _target_sources(res, i)
+    for metric in metrics:
+        if metric.target is None or int(res.metrics[metric.name].reason[i]) in NOT_APPLICABLE:
+            continue
+        rule = sc.SCORING_TABLE[metric.name]
+        out.append(
+            Target(
+                metric.name,
+                metric.target,
+                metric.low,
+                metric.high,
+                metric.unit,
+                rule.source
+                if sources[metric.name] in rule.source
+                else f"target: {sources[metric.name]}; ok band: {rule.source}",
+            )
+        )
+    return tuple(out)
+
+
+def _row_findings(res: BatchResult, i: int, metrics: tuple[Metric, ...]) -> tuple[Finding, ...]:
+    mask = int(res.finding_mask[i])
+    if not mask:
+        return ()
+    by_name: dict[str, Any] = {m.name: _MetricText(m) for m in metrics}
+    row_signals = {name: bool(arr[i]) for name, arr in res.signals.items()}
+    out: list[Finding] = []
+    for bit, rule in enumerate(findings.RULES):
+        if not mask >> bit & 1:
+            continue
+        evidence = tuple(
+            findings.SIGNALS[s].text.format_map(by_name)
+            for s in findings.signals_behind(rule, row_signals)
+        )
+        out.append(
+            Finding(
+                code=rule.code,
+                title=rule.title,
+                evidence=evidence,
+                confidence=round(float(res.finding_confidence[bit, i]), 3),
+                advice=rule.advice,
+            )
+        )
+    out.sort(key=lambda f: -f.confidence)
+    return tuple(out)
+
+
+#: Safety cautions (our wording). Which apply is decided per row in ``_row_cautions``.
+CAUTIONS: dict[str, str] = {
+    "electrical": "Electrical hazard: lock out and tag out the supply before touching wiring or "
+    "terminals, discharge capacitors before handling them, and take live readings only with "
+    "rated meters and protective equipment.",
+    "pressure": "Refrigerant under pressure: wear eye protection and gloves; liquid "
+    "refrigerant causes frostbite, and a closed vessel must never be heated.",
+    "high_pressure_co2": "R-744 (CO2) runs at several times the pressure of other "
+    "refrigerants and rises further when the system stands warm: use gauges, hoses and "
+    "tools rated for it.",
+    "flammable_2l": "Mildly flammable refrigerant (class 2L): keep ignition sources away, "
+    "ventilate the work area, and use recovery equipment and leak detectors rated for it.",
+    "flammable": "Flammable refrigerant: no ignition sources, ventilate, check the area "
+    "with a detector for flammable gas, and use equipment rated for the refrigerant.",
+    "toxic": "Toxic refrigerant (safety class B): work with ventilation and the protective "
+    "equipment and detection the site's procedures require.",
+    "certified_handling": "Opening the refrigerant circuit, recovery and charging are for "
+    "certified technicians: recover, never vent, and record every amount added or removed.",
+    "codes": "Follow local codes, the manufacturer's instructions and licensed practice; this "
+    "diagnosis supports the technician's judgement and does not replace it.",
+}
+
+
+def _row_cautions(designation: str, fired: Sequence[findings.Rule]) -> tuple[Caution, ...]:
+    ref = refrigerants.get(designation)
+    codes = ["electrical", "pressure"]
+    if ref.designation == "R-744":
+        codes.append("high_pressure_co2")
+    safety = ref.safety_class.upper()
+    if safety.endswith("2L"):
+        codes.append("flammable_2l")
+    elif safety.endswith(("2", "3")):
+        codes.append("flammable")
+    if safety.startswith("B"):
+        codes.append("toxic")
+    if any(rule.opens_circuit for rule in fired):
+        codes.append("certified_handling")
+    codes.append("codes")
+    return tuple(Caution(code, CAUTIONS[code]) for code in codes)
+
+
+def _row_derived(res: BatchResult, i: int) -> DerivedValues:
+    values: dict[str, Any] = {name: _opt(res.derived[name][i]) for name in DERIVED_NAMES}
+    values["transcritical"] = bool(res.derived["transcritical"][i] == 1.0)
+    return DerivedValues(**values)
+
+
+def _row_diagnosis(res: BatchResult, i: int) -> Diagnosis:
+    metrics = _row_metrics(res, i)
+    u = int(res.unit_index[i])
+    designation = res.units.refrigerants[int(res.units.refrigerant_code[u])]
+    found = _row_findings(res, i, metrics)
+    fired = findings.rules_in_mask(int(res.finding_mask[i]))
+    return Diagnosis(
+        score=float(res.score[i]),
+        algorithm_version=res.algorithm_version,
+        targets=_row_targets(res, i, metrics),
+        metrics=metrics,
+        findings=found,
+        cautions=_row_cautions(designation, fired),
+        energy_penalty_pct=_opt(res.energy_penalty_pct[i]),
+        derived=_row_derived(res, i),
+        glide_choice=tg.GLIDE_CHOICE_TEXT,
+    )

@@ -1,0 +1,440 @@
+"""Probable causes drawn from the metrics: the classic troubleshooting patterns as data.
+
+The patterns are the table in REFERENCES section 6 (TXV systems; common practice with the
+textbook and trade-press sources cited there). Each is written as a ``Rule`` over named
+*signals*: a signal is a yes/no observation about one reading ("superheat above its range",
+"bubbles in the sight glass"). A signal that cannot be judged (its metric was not scored, the
+flag was not given) is simply not true, so missing data never triggers a finding nor vetoes
+one: it only lowers the confidence.
+
+A rule fires when all signals of any one of its ``triggers`` hold and none of its
+``excluding`` signals holds. Its confidence starts at ``base_confidence`` and rises with
+each ``supporting`` signal that holds, up to ``MAX_CONFIDENCE``. Everything runs on numpy
+boolean arrays, so one pass judges a whole batch; the per-row text (evidence) is built only
+when a single diagnosis is asked for.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+from diagnostics.core.scoring import FAULT, NOT_SCORED, OK, WATCH
+from diagnostics.core.types import SIGHT_GLASS_STATES
+
+BoolArray = NDArray[np.bool_]
+FloatArray = NDArray[np.float64]
+
+MAX_CONFIDENCE = 0.95
+
+#: Signal thresholds that are not already score bands (source beside each).
+SIGNAL_THRESHOLDS: dict[str, tuple[float, str]] = {
+    "amps_low_fraction_of_rla": (
+        0.5,
+        "Rimewatch choice: a loaded compressor rarely draws under half its RLA",
+    ),
+    "superheat_very_low_k": (
+        3.0 / 1.8,
+        "REFERENCES 6: an overfeeding valve leaves 0-3 F superheat",
+    ),
+}
+
+
+@dataclass(frozen=True)
+class Signal:
+    """A yes/no observation; ``text`` is the evidence line template (filled per row)."""
+
+    name: str
+    text: str
+
+
+#: Every signal a rule may name, with the evidence it stands for. ``{metric}`` placeholders
+#: are filled from the metric of that name (``measured``, ``low``, ``high``, ``unit``).
+SIGNALS: dict[str, Signal] = {
+    s.name: s
+    for s in (
+        Signal("td_high", "evaporator TD {evaporator_td} above its ok band {evaporator_td:band}"),
+        Signal(
+            "td_very_high",
+            "evaporator TD {evaporator_td} far above its ok band {evaporator_td:band}",
+        ),
+        Signal("td_low", "evaporator TD {evaporator_td} below its ok band {evaporator_td:band}"),
+        Signal("td_not_high", "evaporator TD {evaporator_td} not above its ok band"),
+        Signal(
+            "split_high",
+            "condenser split {condenser_split} above its ok band {condenser_split:band}",
+        ),
+        Signal(
+            "split_very_high",
+            "condenser split {condenser_split} far above its ok band {condenser_split:band}",
+        ),
+        Signal(
+            "split_low",
+            "condenser split {condenser_split} below its ok band {condenser_split:band}",
+        ),
+        Signal("sh_high", "superheat {superheat} above its range {superheat:band}"),
+        Signal("sh_low", "superheat {superheat} below its range {superheat:band}"),
+        Signal("sh_very_low", "superheat {superheat} is nearly zero"),
+        Signal("sh_not_high", "superheat {superheat} not above its range"),
+        Signal("sh_ok", "superheat {superheat} inside its range {superheat:band}"),
+        Signal("sc_high", "subcooling {subcooling} above its range {subcooling:band}"),
+        Signal("sc_low", "subcooling {subcooling} below its range {subcooling:band}"),
+        Signal("sc_not_high", "subcooling {subcooling} not above its range"),
+        Signal("sc_not_low", "subcooling {subcooling} not below its range"),
+        Signal("amps_high", "running amps {running_amps} above RLA {running_amps:target}"),
+        Signal("amps_low", "running amps {running_amps} well below RLA {running_amps:target}"),
+        Signal(
+            "cr_low",
+            "compression ratio {compression_ratio} below what this application usually runs",
+        ),
+        Signal(
+            "discharge_high",
+            "discharge line {discharge_line_temp} above its limit {discharge_line_temp:target}",
+        ),
+        Signal(
+            "locked_rotor",
+            "compressor not running but drawing {standstill_amps} (LRA "
+            "{standstill_amps:target})",
+        ),
+        Signal("volts_low", "supply voltage {supply_voltage} below {supply_voltage:band}"),
+        Signal("volts_high", "supply voltage {supply_voltage} above {supply_voltage:band}"),
+        Signal(
+            "voltage_unbalanced",
+            "voltage unbalance {voltage_unbalance} above {voltage_unbalance:high}",
+        ),
+        Signal(
+            "current_unbalanced",
+            "current unbalance {current_unbalance} above {current_unbalance:high}",
+        ),
+        Signal("run_cap_bad", "run capacitor {run_capacitor} outside {run_capacitor:band}"),
+        Signal("start_cap_bad", "start capacitor {start_capacitor} outside {start_capacitor:band}"),
+        Signal("coil_iced", "evaporator coil reported iced"),
+        Signal("evap_fans_off", "evaporator fans reported not running"),
+        Signal("cond_fan_off", "condenser fan reported not running"),
+        Signal("bubbles", "bubbles in the sight glass"),
+        Signal("sight_glass_clear", "sight glass clear"),
+    )
+}
+
+
+@dataclass(frozen=True)
+class Rule:
+    """One troubleshooting pattern turned into a rule over signals."""
+
+    code: str
+    title: str
+    triggers: tuple[frozenset[str], ...]
+    supporting: tuple[str, ...]
+    excluding: tuple[str, ...]
+    base_confidence: float
+    advice: str
+    #: The likely repair opens the refrigerant circuit (certified handling applies).
+    opens_circuit: bool
+    source: str = "REFERENCES 6 troubleshooting table (common practice)"
+
+
+def _t(*names: str) -> frozenset[str]:
+    return frozenset(names)
+
+
+#: The rules, in bit order of the batch masks (append only: stored masks depend on it).
+RULES: tuple[Rule, ...] = (
+    Rule(
+        code="undercharge",
+        title="Refrigerant charge looks low",
+        triggers=(_t("sh_high", "sc_low"), _t("sh_high", "bubbles")),
+        supporting=("td_high", "split_low", "amps_low", "bubbles", "sc_low"),
+        excluding=("sc_high", "coil_iced", "evap_fans_off"),
+        base_confidence=0.5,
+        advice="Look for the leak before adding anything: check joints, valve cores and "
+        "coils with a detector, repair, then weigh in refrigerant and record the amount "
+        "added for the leak-rate log.",
+        opens_circuit=True,
+    ),
+    Rule(
+        code="overcharge",
+        title="Refrigerant charge looks high",
+        triggers=(_t("sc_high", "split_high"),),
+        supporting=("amps_high", "sh_ok", "discharge_high"),
+        excluding=("sh_high", "cond_fan_off", "bubbles"),
+        base_confidence=0.5,
+        advice="Make sure the condenser is clean and its fans run first; if the head and "
+        "subcooling stay high, recover refrigerant until the subcooling is back in range "
+        "and record the amount recovered.",
+        opens_circuit=True,
+    ),
+    Rule(
+        code="liquid_line_restriction",
+        title="Something is restricting the liquid line",
+        triggers=(_t("sh_high", "sc_high"),),
+        supporting=("td_high", "split_low", "amps_low", "bubbles"),
+        excluding=("split_high",),
+        base_confidence=0.45,
+        advice="Feel or measure the temperature across the filter-drier, solenoid and any "
+        "hand valves in the liquid line: a drop of more than a few degrees marks the "
+        "restriction. Replace a plugged drier after recovering the charge.",
+        opens_circuit=True,
+    ),
+    Rule(
+        code="metering_overfeeding",
+        title="Metering device is overfeeding the evaporator",
+        triggers=(_t("sh_low"),),
+        supporting=("sh_very_low", "amps_high", "td_not_high"),
+        excluding=("td_high", "coil_iced", "evap_fans_off"),
+        base_confidence=0.5,
+        advice="Check the expansion valve's bulb is tight, insulated and on the suction "
+        "line, and that the superheat setting has not been turned in; liquid reaching "
+        "the compressor will damage it.",
+        opens_circuit=False,
+    ),
+    Rule(
+        code="metering_underfeeding",
+        title="Metering device is starving the evaporator",
+        triggers=(_t("sh_high", "sc_not_low"), _t("sh_high", "sight_glass_clear")),
+        supporting=("td_high", "split_low", "amps_low", "sight_glass_clear"),
+        excluding=("bubbles", "sc_low", "coil_iced"),
+        base_confidence=0.4,
+        advice="With a full liquid line, check the valve's inlet screen, its bulb charge "
+        "(a lost charge closes the valve) and the superheat setting; on a capillary "
+        "system look for a kinked or blocked tube.",
+        opens_circuit=True,
+    ),
+    Rule(
+        code="low_evaporator_airflow",
+        title="Too little air through the evaporator (fans, dirt or ice)",
+        triggers=(_t("td_high", "sh_not_high"), _t("coil_iced"), _t("evap_fans_off")),
+        supporting=("td_very_high", "split_low", "coil_iced", "evap_fans_off", "sh_low"),
+        excluding=(),
+        base_confidence=0.5,
+        advice="Check the evaporator fans and blades, the coil for dirt or ice, and the "
+        "defrost heaters, timer or controller; clear ice fully before judging the charge.",
+        opens_circuit=False,
+    ),
+    Rule(
+        code="condenser_heat_rejection",
+        title="Condenser is not getting rid of its heat (dirty coil or fan)",
+        triggers=(_t("split_high"), _t("cond_fan_off")),
+        supporting=(
+            "split_very_high",
+            "amps_high",
+            "discharge_high",
+            "cond_fan_off",
+            "sc_not_high",
+        ),
+        excluding=(),
+        base_confidence=0.45,
+        advice="Clean the condenser coil, check every condenser fan runs and turns the "
+        "right way, and that discharge air is not being drawn back into the inlet.",
+        opens_circuit=False,
+    ),
+    Rule(
+        code="non_condensables",
+        title="Air or other non-condensables may be in the system",
+        triggers=(_t("split_high"),),
+        supporting=("amps_high", "discharge_high", "split_very_high"),
+        excluding=("cond_fan_off",),
+        base_confidence=0.25,
+        advice="Once the condenser is clean and its fans run, confirm with the unit off: a "
+        "standing pressure above the saturation pressure at the ambient temperature "
+        "points to non-condensables. Recover, evacuate and recharge by weight.",
+        opens_circuit=True,
+    ),
+    Rule(
+        code="weak_compressor",
+        title="Compressor is not pumping well (worn valves or rings)",
+        triggers=(_t("cr_low", "td_low"), _t("cr_low", "split_low")),
+        supporting=("amps_low", "sh_high", "sc_low", "td_low", "split_low"),
+        excluding=("amps_high",),
+        base_confidence=0.4,
+        advice="Confirm before condemning it: suction and discharge pressures should move "
+        "apart quickly when the compressor starts and hold when it stops; a pump-down "
+        "test or the manufacturer's performance data settles it.",
+        opens_circuit=True,
+    ),
+    Rule(
+        code="compressor_not_starting",
+        title="Compressor stalls at start (start components suspect)",
+        triggers=(_t("locked_rotor"),),
+        supporting=("run_cap_bad", "start_cap_bad", "volts_low", "voltage_unbalanced"),
+        excluding=(),
+        base_confidence=0.6,
+        advice="With the power locked out, discharge and test the run and start capacitors "
+        "and the start relay; check the voltage at the compressor terminals while it "
+        "tries to start. If all are good the compressor may be mechanically locked.",
+        opens_circuit=False,
+    ),
+    Rule(
+        code="supply_problem",
+        title="Supply voltage out of tolerance or unbalanced",
+        triggers=(_t("volts_low"), _t("volts_high"), _t("voltage_unbalanced")),
+        supporting=("current_unbalanced", "locked_rotor", "amps_high"),
+        excluding=(),
+        base_confidence=0.6,
+        advice="Measure at the disconnect and at the contactor under load to find where "
+        "the voltage is lost; loose or burnt connections and undersized wiring are "
+        "common. Supply problems upstream of the unit are for the electrician or the "
+        "utility.",
+        opens_circuit=False,
+    ),
+)
+
+RULE_CODES: tuple[str, ...] = tuple(r.code for r in RULES)
+RULES_BY_CODE: dict[str, Rule] = {r.code: r for r in RULES}
+
+
+def _check_rules() -> None:
+    for rule in RULES:
+        for name in (*(s for t in rule.triggers for s in t), *rule.supporting, *rule.excluding):
+            if name not in SIGNALS:
+                raise ValueError(f"rule {rule.code} names unknown signal {name}")
+    if len(RULES) > 32:
+        raise ValueError("finding masks are 32 bits wide")
+
+
+_check_rules()
+
+
+@dataclass(frozen=True)
+class RuleResult:
+    """Which rules fired on each row (bit i = ``RULES[i]``) and with what confidence."""
+
+    mask: NDArray[np.uint32]
+    confidence: NDArray[np.float64]  # shape (len(RULES), n); 0 where the rule did not fire
+
+
+def evaluate(signals: Mapping[str, BoolArray], n: int) -> RuleResult:
+    """Run every rule over the batch's signals."""
+    mask = np.zeros(n, dtype=np.uint32)
+    confidence = np.zeros((len(RULES), n), dtype=np.float64)
+    false = np.zeros(n, dtype=bool)
+
+    def sig(name: str) -> BoolArray:
+        return signals.get(name, false)
+
+    for bit, rule in enumerate(RULES):
+        fired = np.zeros(n, dtype=bool)
+        for trigger in rule.triggers:
+            names = sorted(trigger)
+            together = sig(names[0]).copy()
+            for name in names[1:]:
+                together &= sig(name)
+            fired |= together
+        for name in rule.excluding:
+            fired &= ~sig(name)
+        if not fired.any():
+            continue
+        support = np.zeros(n, dtype=np.int8)
+        for name in rule.supporting:
+            support += sig(name)
+        step = (MAX_CONFIDENCE - rule.base_confidence) / max(len(rule.supporting), 1)
+        row = confidence[bit]
+        np.multiply(support, step, out=row)
+        row += rule.base_confidence
+        row[~fired] = 0.0
+        mask |= fired.astype(np.uint32) << np.uint32(bit)
+    return RuleResult(mask, confidence)
+
+
+def rules_in_mask(mask: int) -> tuple[Rule, ...]:
+    """The rules whose bits are set in one row's mask."""
+    return tuple(rule for bit, rule in enumerate(RULES) if mask >> bit & 1)
+
+
+def signals_behind(rule: Rule, row_signals: Mapping[str, bool]) -> tuple[str, ...]:
+    """The signal names that justify a fired rule on one row, triggers first."""
+    names: list[str] = []
+    for trigger in rule.triggers:
+        if all(row_signals.get(s, False) for s in trigger):
+            names.extend(sorted(trigger))
+            break
+    for name in rule.supporting:
+        if row_signals.get(name, False) and name not in names:
+            names.append(name)
+    return tuple(names)
+
+
+def derive_signals(
+    metrics: Mapping[str, tuple[FloatArray, FloatArray, FloatArray, NDArray[np.int8]]],
+    flags: Mapping[str, FloatArray],
+    compression_ratio_typical_low: FloatArray,
+    receiverless: BoolArray,
+) -> dict[str, BoolArray]:
+    """Every signal for a batch, from the graded metrics and the technician's flags.
+
+    ``metrics`` maps a metric name to (measured, target, deviation, status); a metric that was
+    not scored makes every signal about it false. Subcooling signals are raised only for
+    receiverless units: with a receiver, subcooling is no charge indicator (REFERENCES 6).
+    """
+
+    def parts(name: str) -> tuple[FloatArray, FloatArray, FloatArray, NDArray[np.int8]]:
+        return metrics[name]
+
+    def scored(name: str) -> BoolArray:
+        return parts(name)[3] != NOT_SCORED
+
+    def off_band(name: str) -> BoolArray:
+        status = parts(name)[3]
+        return (status == WATCH) | (status == FAULT)
+
+    def above(name: str) -> BoolArray:
+        return off_band(name) & (np.nan_to_num(parts(name)[2]) > 0)
+
+    def below(name: str) -> BoolArray:
+        return off_band(name) & (np.nan_to_num(parts(name)[2]) < 0)
+
+    def far_above(name: str) -> BoolArray:
+        return above(name) & (parts(name)[3] == FAULT)
+
+    def less_than(name: str, limit: FloatArray | float) -> BoolArray:
+        with np.errstate(invalid="ignore"):
+            return scored(name) & (parts(name)[0] < limit)
+
+    def flag_is(name: str, value: float) -> BoolArray:
+        return np.asarray(flags[name]) == value
+
+    amps_low_fraction = SIGNAL_THRESHOLDS["amps_low_fraction_of_rla"][0]
+    very_low_superheat = SIGNAL_THRESHOLDS["superheat_very_low_k"][0]
+    cr = parts("compression_ratio")[0]
+    with np.errstate(invalid="ignore"):
+        cr_low = (
+            np.isfinite(cr)
+            & (parts("compression_ratio")[3] != NOT_SCORED)
+            & (cr < compression_ratio_typical_low)
+        )
+    return {
+        "td_high": above("evaporator_td"),
+        "td_very_high": far_above("evaporator_td"),
+        "td_low": below("evaporator_td"),
+        "td_not_high": scored("evaporator_td") & ~above("evaporator_td"),
+        "split_high": above("condenser_split"),
+        "split_very_high": far_above("condenser_split"),
+        "split_low": below("condenser_split"),
+        "sh_high": above("superheat"),
+        "sh_low": below("superheat"),
+        "sh_very_low": less_than("superheat", very_low_superheat),
+        "sh_not_high": scored("superheat") & ~above("superheat"),
+        "sh_ok": parts("superheat")[3] == OK,
+        "sc_high": receiverless & above("subcooling"),
+        "sc_low": receiverless & below("subcooling"),
+        "sc_not_high": receiverless & scored("subcooling") & ~above("subcooling"),
+        "sc_not_low": receiverless & scored("subcooling") & ~below("subcooling"),
+        "amps_high": above("running_amps"),
+        "amps_low": less_than("running_amps", amps_low_fraction * parts("running_amps")[1]),
+        "cr_low": cr_low,
+        "discharge_high": above("discharge_line_temp"),
+        "locked_rotor": parts("standstill_amps")[3] == FAULT,
+        "volts_low": below("supply_voltage"),
+        "volts_high": above("supply_voltage"),
+        "voltage_unbalanced": above("voltage_unbalance"),
+        "current_unbalanced": above("current_unbalance"),
+        "run_cap_bad": parts("run_capacitor")[3] == FAULT,
+        "start_cap_bad": parts("start_capacitor")[3] == FAULT,
+        "coil_iced": flag_is("coil_iced", 1.0),
+        "evap_fans_off": flag_is("evaporator_fans_running", 0.0),
+        "cond_fan_off": flag_is("condenser_fan_running", 0.0),
+        "bubbles": flag_is("sight_glass", float(SIGHT_GLASS_STATES.index("bubbles"))),
+        "sight_glass_clear": flag_is("sight_glass", float(SIGHT_GLASS_STATES.index("clear"))),
+    }

@@ -1,0 +1,398 @@
+"""Which flags should be open on a unit now: the pure decision behind raising and clearing.
+
+Given a unit's history and ``today``, ``decide_flags`` returns at most one decision per kind,
+each with a severity, its evidence and a projected date. The Django layer stores them: it opens
+a flag for a new kind, updates an open one, and closes the kinds no longer decided
+(``reconcile``), so there is never more than one open flag per unit and kind.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass, field, fields
+from datetime import date
+from enum import StrEnum
+
+from diagnostics.core.leaks import (
+    US_EPA,
+    Appliance,
+    LeakRateMethod,
+    LeakRepair,
+    LeakRuleSet,
+    RefrigerantAddition,
+    chronic_leaker_years,
+    leak_rates,
+)
+from diagnostics.core.maintenance import (
+    DEFAULT_MAINTENANCE_RULES,
+    MaintenancePlan,
+    MaintenanceRules,
+    maintenance_status,
+)
+from diagnostics.core.start_risk import (
+    DEFAULT_START_RULES,
+    RiskLevel,
+    StartHistory,
+    StartRiskAssessment,
+    StartRiskRules,
+    assess_start_risk_many,
+)
+from diagnostics.core.trends import (
+    DEFAULT_DRIFT_RULES,
+    DriftRules,
+    SplitDrift,
+    SplitDriftInput,
+    assess_split_drift_many,
+)
+
+
+def _src(source: str) -> dict[str, str]:
+    """Field metadata keeping a rule value's source beside it (see ``flags.describe_rules``)."""
+    return {"source": source}
+
+
+class FlagKind(StrEnum):
+    HEAD_PRESSURE_DRIFT = "head_pressure_drift"
+    START_COMPONENTS = "start_components"
+    LEAK_RATE = "leak_rate"
+    MAINTENANCE_OVERDUE = "maintenance_overdue"
+
+
+class Severity(StrEnum):
+    """How soon the office should act (the Django layer stores these values as they are)."""
+
+    NOTICE = "notice"
+    WARNING = "warning"
+    URGENT = "urgent"
+
+
+@dataclass(frozen=True)
+class Evidence:
+    """One fact behind a flag; quantities are (name, value, unit) in SI for the report."""
+
+    text: str
+    quantities: tuple[tuple[str, float, str], ...] = ()
+    observed_on: date | None = None
+
+
+@dataclass(frozen=True)
+class FlagDecision:
+    kind: FlagKind
+    severity: Severity
+    summary: str
+    evidence: tuple[Evidence, ...]
+    projected_date: date | None = None
+
+
+@dataclass(frozen=True)
+class LeakHistory:
+    appliance: Appliance
+    additions: tuple[RefrigerantAddition, ...]
+    repairs: tuple[LeakRepair, ...] = ()
+    method: LeakRateMethod = LeakRateMethod.ROLLING_AVERAGE
+
+
+@dataclass(frozen=True)
+class UnitHistory:
+    """Everything the flags of one unit rest on; a part left ``None`` raises no flag."""
+
+    unit_id: int
+    split: SplitDriftInput | None = None
+    start: StartHistory | None = None
+    leak: LeakHistory | None = None
+    maintenance: MaintenancePlan | None = None
+
+
+@dataclass(frozen=True)
+class FlagRules:
+    drift: DriftRules = DEFAULT_DRIFT_RULES
+    start: StartRiskRules = DEFAULT_START_RULES
+    leak: LeakRuleSet = US_EPA
+    maintenance: MaintenanceRules = DEFAULT_MAINTENANCE_RULES
+    drift_urgent_within_days: int = field(
+        default=30,
+        metadata=_src("ours: a limit reached within a month (or already) needs a visit now"),
+    )
+    drift_warning_within_days: int = field(
+        default=90, metadata=_src("ours: within a season, plan a condenser clean")
+    )
+
+
+DEFAULT_FLAG_RULES = FlagRules()
+
+
+def describe_rules(rules: object) -> tuple[tuple[str, object, str], ...]:
+    """(name, value, source) of a rules dataclass whose fields carry their sources."""
+    out = []
+    for f in fields(rules):  # type: ignore[arg-type]
+        if "source" in f.metadata:
+            value = getattr(rules, f.name)
+            source = f.metadata["source"] if value == f.default else "configured"
+            out.append((f.name, value, source))
+    return tuple(out)
+
+
+# --- one decision per kind ----------------------------------------------------------------------
+
+
+def drift_flag(
+    drift: SplitDrift, today: date, rules: FlagRules = DEFAULT_FLAG_RULES
+) -> FlagDecision | None:
+    """A head-pressure drift flag when the drift judgement says so, graded by how soon."""
+    if not drift.flag:
+        return None
+    dates = [d for d in (drift.limit_crossed_on, drift.cutout_reached_on) if d is not None]
+    projected = min(dates, default=None)
+    days_left = (projected - today).days if projected is not None else None
+    if days_left is not None and days_left <= rules.drift_urgent_within_days:
+        severity = Severity.URGENT
+    elif days_left is not None and days_left <= rules.drift_warning_within_days:
+        severity = Severity.WARNING
+    else:
+        severity = Severity.NOTICE
+    slope = drift.slope_k_per_year or 0.0
+    evidence = [
+        Evidence(
+            f"condenser split rising {slope:.1f} K/year "
+            f"({drift.slope_low_k_per_year or 0:.1f} to {drift.slope_high_k_per_year or 0:.1f}) "
+            f"over {drift.points_used} visits in {drift.span_days} days, "
+            f"confidence {drift.confidence or 0:.2f}",
+            (
+                ("slope", slope, "K/year"),
+                ("points", float(drift.points_used), "1"),
+                ("span", float(drift.span_days), "d"),
+            ),
+        ),
+        Evidence(
+            f"split now about {drift.split_now_k or 0:.1f} K against a design of "
+            f"{drift.design_split_k:.1f} K and a limit of {drift.split_limit_k:.1f} K",
+            (
+                ("split_now", drift.split_now_k or 0.0, "K"),
+                ("design_split", drift.design_split_k, "K"),
+                ("split_limit", drift.split_limit_k, "K"),
+            ),
+        ),
+    ]
+    if drift.limit_crossed_on is not None:
+        evidence.append(
+            Evidence(f"split limit reached on {drift.limit_crossed_on.isoformat()} on this trend")
+        )
+    if drift.high_pressure_cutout_kpa_gauge is not None:
+        head = drift.design_day_head_at_horizon_kpa_gauge
+        text = f"high-pressure cut-out {drift.high_pressure_cutout_kpa_gauge:.0f} kPa gauge"
+        if head is not None:
+            text = f"design-day head {head:.0f} kPa gauge at the horizon against the {text}"
+        if drift.cutout_reached_on is not None:
+            text += f"; a design day trips it from {drift.cutout_reached_on.isoformat()}"
+        evidence.append(
+            Evidence(text, (("cutout", drift.high_pressure_cutout_kpa_gauge, "kPa_gauge"),))
+        )
+    return FlagDecision(
+        kind=FlagKind.HEAD_PRESSURE_DRIFT,
+        severity=severity,
+        summary=f"head pressure creeping up: condenser split +{slope:.1f} K/year",
+        evidence=tuple(evidence),
+        projected_date=projected,
+    )
+
+
+def start_flag(assessment: StartRiskAssessment) -> FlagDecision | None:
+    """A start-components flag for an elevated or high risk."""
+    if assessment.level is RiskLevel.LOW:
+        return None
+    severity = Severity.URGENT if assessment.level is RiskLevel.HIGH else Severity.WARNING
+    return FlagDecision(
+        kind=FlagKind.START_COMPONENTS,
+        severity=severity,
+        summary=f"start-component risk {assessment.level.value} (score {assessment.score:g})",
+        evidence=tuple(Evidence(i.text, i.quantities, i.observed_on) for i in assessment.items),
+        projected_date=assessment.projected_on,
+    )
+
+
+def leak_flag(
+    leak: LeakHistory, today: date, rules: FlagRules = DEFAULT_FLAG_RULES
+) -> FlagDecision | None:
+    """A leak-rate flag while an exceedance is not closed by a verified repair.
+
+    In scope of the rule set: a warning, urgent once the repair or verification deadline has
+    passed or the unit is a chronic leaker. Over the threshold but below the scope: a notice,
+    for the contractor's own follow-up.
+    """
+    additions = tuple(a for a in leak.additions if a.occurred_on <= today)
+    if not additions:
+        return None
+    results = leak_rates(
+        leak.appliance, additions, method=leak.method, repairs=leak.repairs, rules=rules.leak
+    )
+    verified = [r.verified_on for r in leak.repairs if r.verified_on is not None]
+    open_ = [
+        r
+        for r in results
+        if r.over_threshold and not any(v >= r.occurred_on for v in verified if v <= today)
+    ]
+    if not open_:
+        return None
+    latest = open_[-1]
+    chronic = [
+        y
+        for y in chronic_leaker_years(leak.appliance, additions, rules.leak)
+        if y.year >= today.year - 1
+    ]
+    repaired = min(
+        (r.repaired_on for r in leak.repairs if latest.occurred_on <= r.repaired_on <= today),
+        default=None,
+    )
+    projected = latest.verification_due_on if repaired is not None else latest.repair_due_on
+    if not latest.in_scope:
+        severity = Severity.NOTICE
+    elif chronic or (projected is not None and projected < today):
+        severity = Severity.URGENT
+    else:
+        severity = Severity.WARNING
+    rate = latest.leak_rate_percent or 0.0
+    evidence = [
+        Evidence(
+            f"{latest.amount_kg:.2f} kg added on {latest.occurred_on.isoformat()}: leak rate "
+            f"{rate:.1f} % ({latest.method.value.replace('_', ' ')}) over the "
+            f"{latest.threshold_percent:g} % threshold ({latest.threshold_source})",
+            (
+                ("added", latest.amount_kg, "kg"),
+                ("annualizing", latest.annualizing_percent or 0.0, "%"),
+                ("rolling_average", latest.rolling_average_percent or 0.0, "%"),
+                ("threshold", latest.threshold_percent, "%"),
+            ),
+            latest.occurred_on,
+        )
+    ]
+    if latest.in_scope:
+        evidence.append(
+            Evidence(
+                f"repair due by {latest.repair_due_on}; initial verification test due by "
+                f"{latest.verification_due_on}"
+                + (f" (repaired {repaired.isoformat()})" if repaired else "")
+            )
+        )
+    else:
+        evidence.append(
+            Evidence(
+                "below the charge or refrigerant scope of the rule set: no legal deadline, "
+                "repair advised"
+            )
+        )
+    for y in chronic:
+        evidence.append(
+            Evidence(
+                f"chronic leaker in {y.year}: {y.percent_of_full_charge:.0f} % of full charge "
+                f"added; report due {y.report_due_on.isoformat()}",
+                (("added_in_year", y.added_kg, "kg"),),
+            )
+        )
+    return FlagDecision(
+        kind=FlagKind.LEAK_RATE,
+        severity=severity,
+        summary=f"leak rate {rate:.0f} % over the {latest.threshold_percent:g} % threshold",
+        evidence=tuple(evidence),
+        projected_date=projected,
+    )
+
+
+def maintenance_flag(
+    plan: MaintenancePlan, today: date, rules: FlagRules = DEFAULT_FLAG_RULES
+) -> FlagDecision | None:
+    """A flag once planned maintenance is overdue beyond the grace period."""
+    status = maintenance_status(plan, today)
+    m = rules.maintenance
+    if status.days_overdue <= m.grace_days:
+        return None
+    if status.scheduled_on is not None:
+        severity = Severity.NOTICE
+    elif status.days_overdue >= m.high_after_fraction * plan.interval_days:
+        severity = Severity.URGENT
+    else:
+        severity = Severity.WARNING
+    evidence = [
+        Evidence(
+            f"planned maintenance due {status.due_on.isoformat()} ({status.reason}, every "
+            f"{plan.interval_days} days): {status.days_overdue} days overdue",
+            (("days_overdue", float(status.days_overdue), "d"),),
+        )
+    ]
+    if status.scheduled_on is not None:
+        evidence.append(Evidence(f"visit booked for {status.scheduled_on.isoformat()}"))
+    return FlagDecision(
+        kind=FlagKind.MAINTENANCE_OVERDUE,
+        severity=severity,
+        summary=f"planned maintenance {status.days_overdue} days overdue",
+        evidence=tuple(evidence),
+        projected_date=status.scheduled_on or status.due_on,
+    )
+
+
+# --- whole units ---------------------------------------------------------------------------------
+
+
+def decide_flags_many(
+    histories: Sequence[UnitHistory], today: date, rules: FlagRules = DEFAULT_FLAG_RULES
+) -> dict[int, tuple[FlagDecision, ...]]:
+    """The flags that should be open now, per unit id.
+
+    The split drift and the capacitor slopes run vectorised over all units; leak rates and
+    maintenance are a few records per unit, in plain loops.
+    """
+    with_split = [h for h in histories if h.split is not None]
+    drifts = assess_split_drift_many(
+        [h.split for h in with_split],  # type: ignore[misc]
+        today,
+        rules.drift,
+    )
+    drift_by_unit = {h.unit_id: d for h, d in zip(with_split, drifts, strict=True)}
+    with_start = [h for h in histories if h.start is not None]
+    risks = assess_start_risk_many(
+        [h.start for h in with_start],  # type: ignore[misc]
+        today,
+        rules.start,
+    )
+    risk_by_unit = {h.unit_id: r for h, r in zip(with_start, risks, strict=True)}
+    out: dict[int, tuple[FlagDecision, ...]] = {}
+    for h in histories:
+        decisions: list[FlagDecision | None] = []
+        drift = drift_by_unit.get(h.unit_id)
+        if drift is not None:
+            decisions.append(drift_flag(drift, today, rules))
+        risk = risk_by_unit.get(h.unit_id)
+        if risk is not None:
+            decisions.append(start_flag(risk))
+        if h.leak is not None:
+            decisions.append(leak_flag(h.leak, today, rules))
+        if h.maintenance is not None:
+            decisions.append(maintenance_flag(h.maintenance, today, rules))
+        out[h.unit_id] = tuple(d for d in decisions if d is not None)
+    return out
+
+
+def decide_flags(
+    history: UnitHistory, today: date, rules: FlagRules = DEFAULT_FLAG_RULES
+) -> tuple[FlagDecision, ...]:
+    """The flags that should be open on one unit now, at most one per kind."""
+    return decide_flags_many([history], today, rules)[history.unit_id]
+
+
+@dataclass(frozen=True)
+class FlagChanges:
+    """What the store must do so the open flags match the decisions."""
+
+    to_open: tuple[FlagDecision, ...]
+    to_update: tuple[FlagDecision, ...]
+    to_close: tuple[FlagKind, ...]
+
+
+def reconcile(open_kinds: Iterable[str], decisions: Iterable[FlagDecision]) -> FlagChanges:
+    """Open new kinds, update the still-decided ones, close the rest (one open per kind)."""
+    open_set = {FlagKind(k) for k in open_kinds}
+    decided = {d.kind: d for d in decisions}
+    return FlagChanges(
+        to_open=tuple(d for k, d in decided.items() if k not in open_set),
+        to_update=tuple(d for k, d in decided.items() if k in open_set),
+        to_close=tuple(sorted(open_set - decided.keys())),
+    )

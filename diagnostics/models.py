@@ -1,0 +1,124 @@
+"""Stored results of the diagnostics core: one diagnosis per reading set, leak rates per
+refrigerant addition, and open flags per unit.
+
+A stored result keeps the algorithm version and the targets it used, so an old report
+shows what was computed then; `manage.py rescore` replaces diagnoses whose version is stale.
+"""
+
+from __future__ import annotations
+
+from django.conf import settings
+from django.db import models
+from django.db.models import Q
+
+from fleet.models import ReadingSet, RefrigerantEvent, Unit
+
+
+class Diagnosis(models.Model):
+    """The core's judgement on one reading set, as JSON plus the columns trends read."""
+
+    reading_set = models.OneToOneField(
+        ReadingSet, on_delete=models.CASCADE, related_name="diagnosis"
+    )
+    algorithm_version = models.CharField(max_length=20)
+    score = models.FloatField()
+    targets = models.JSONField(default=list)
+    metrics = models.JSONField(default=list)
+    findings = models.JSONField(default=list)
+    cautions = models.JSONField(default=list)
+    glide_choice = models.TextField(blank=True)
+    energy_penalty_pct = models.FloatField(null=True, blank=True)
+    # Derived values kept as columns so trends read a unit's history without parsing JSON.
+    evaporating_c = models.FloatField(null=True, blank=True)
+    condensing_c = models.FloatField(null=True, blank=True)
+    superheat_k = models.FloatField(null=True, blank=True)
+    subcooling_k = models.FloatField(null=True, blank=True)
+    evaporator_td_k = models.FloatField(null=True, blank=True)
+    condenser_split_k = models.FloatField(null=True, blank=True)
+    compression_ratio = models.FloatField(null=True, blank=True)
+    computed_at = models.DateTimeField()
+
+    class Meta:
+        verbose_name_plural = "diagnoses"
+        indexes = [models.Index(fields=["algorithm_version"])]
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(score__gte=0, score__lte=100), name="diagnosis_score_0_100"
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"score {self.score:.0f} ({self.algorithm_version})"
+
+
+class LeakRate(models.Model):
+    """The leak rate an addition showed, by both EPA methods, under the rule set in force."""
+
+    event = models.OneToOneField(
+        RefrigerantEvent, on_delete=models.CASCADE, related_name="leak_rate"
+    )
+    rule_set = models.CharField(max_length=60)
+    method = models.CharField(
+        max_length=20, help_text="The facility's method: annualizing or rolling_average."
+    )
+    annualizing_percent = models.FloatField(null=True, blank=True)
+    rolling_average_percent = models.FloatField(null=True, blank=True)
+    threshold_percent = models.FloatField(null=True, blank=True)
+    over_threshold = models.BooleanField(default=False)
+    in_scope = models.BooleanField(default=True)
+    repair_due_on = models.DateField(null=True, blank=True)
+    verification_due_on = models.DateField(null=True, blank=True)
+    note = models.TextField(blank=True)
+    computed_at = models.DateTimeField()
+
+    class Meta:
+        ordering = ["event__occurred_on"]
+
+    def __str__(self) -> str:
+        return f"leak rate for event {self.event_id}"
+
+
+class FlagKind(models.TextChoices):
+    HEAD_PRESSURE_DRIFT = "head_pressure_drift", "Head pressure drifting up"
+    START_COMPONENTS = "start_components", "Start components at risk"
+    LEAK_RATE = "leak_rate", "Leak rate over the threshold"
+    MAINTENANCE_OVERDUE = "maintenance_overdue", "Planned maintenance overdue"
+
+
+class FlagSeverity(models.TextChoices):
+    NOTICE = "notice", "Notice"
+    WARNING = "warning", "Warning"
+    URGENT = "urgent", "Urgent"
+
+
+class Flag(models.Model):
+    """Something about a unit that needs the office's attention before it becomes a failure."""
+
+    unit = models.ForeignKey(Unit, on_delete=models.CASCADE, related_name="flags")
+    kind = models.CharField(max_length=30, choices=FlagKind.choices)
+    severity = models.CharField(max_length=10, choices=FlagSeverity.choices)
+    summary = models.CharField(max_length=300)
+    evidence = models.JSONField(default=list)
+    projected_on = models.DateField(null=True, blank=True)
+    opened_at = models.DateTimeField()
+    updated_at = models.DateTimeField()
+    cleared_at = models.DateTimeField(null=True, blank=True)
+    acknowledged_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, null=True, blank=True, on_delete=models.PROTECT, related_name="+"
+    )
+    acknowledged_at = models.DateTimeField(null=True, blank=True)
+    acknowledgement_note = models.TextField(blank=True)
+
+    class Meta:
+        ordering = ["-opened_at"]
+        constraints = [
+            models.UniqueConstraint(
+                fields=["unit", "kind"],
+                condition=Q(cleared_at__isnull=True),
+                name="flag_one_open_per_unit_kind",
+            ),
+            models.CheckConstraint(condition=Q(kind__in=FlagKind.values), name="flag_kind_valid"),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.get_kind_display()} on unit {self.unit_id}"

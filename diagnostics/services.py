@@ -1,0 +1,416 @@
+"""Records -> core -> stored rows. The only place the Django layer meets the diagnostics core.
+
+Nothing here computes thermodynamics: it maps records to the core's frozen inputs, calls the
+core, and stores what comes back with the algorithm version.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Callable, Iterable
+
+import numpy as np
+from django.conf import settings
+from django.db import transaction
+from django.utils import timezone
+
+from diagnostics.core import diagnose as core_diagnose
+from diagnostics.core import flags, leaks
+from diagnostics.core.types import SIGHT_GLASS_STATES, Reading, UnitDesign
+from diagnostics.core.types import Diagnosis as CoreDiagnosis
+from fleet.choices import RefrigerantEventKind
+from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit
+
+from .history import unit_histories
+from .models import Diagnosis, Flag, LeakRate
+
+CAPACITOR_KINDS = {"run_capacitor": "run", "start_capacitor": "start", "hard_start_kit": "start"}
+
+
+def _fitted_capacitors(components: Iterable[Component]) -> dict[str, Component]:
+    """The capacitors in service now (not removed), newest first per role."""
+    fitted: dict[str, Component] = {}
+    for part in sorted(
+        components, key=lambda c: (c.installed_on is None, c.installed_on), reverse=True
+    ):
+        role = CAPACITOR_KINDS.get(part.kind)
+        if (
+            role
+            and part.removed_on is None
+            and role not in fitted
+            and part.rating_uf_min is not None
+        ):
+            fitted[role] = part
+    return fitted
+
+
+def unit_design(unit: Unit, components: Iterable[Component] | None = None) -> UnitDesign:
+    """The core's view of a unit: design data plus the ratings of the capacitors fitted now."""
+    parts = _fitted_capacitors(unit.components.all() if components is None else components)
+    run, start = parts.get("run"), parts.get("start")
+    run_nominal = run_tolerance = None
+    if run is not None:
+        high = run.rating_uf_max if run.rating_uf_max is not None else run.rating_uf_min
+        run_nominal = (run.rating_uf_min + high) / 2
+        run_tolerance = (
+            100 * (high - run.rating_uf_min) / 2 / run_nominal if high > run.rating_uf_min else None
+        )
+    return UnitDesign(
+        refrigerant=unit.refrigerant.designation,
+        application=unit.application,
+        metering_device=unit.metering_device,
+        condenser_type=unit.condenser_type,
+        has_receiver=unit.has_receiver,
+        design_box_temp_c=unit.design_box_temp_c,
+        design_evap_td_k=unit.design_evap_td_k,
+        design_condenser_split_k=unit.design_condenser_split_k,
+        superheat_min_k=unit.superheat_min_k,
+        superheat_max_k=unit.superheat_max_k,
+        high_pressure_cutout_kpa_gauge=unit.high_pressure_cutout_kpa_gauge,
+        nameplate_volts=unit.nameplate_volts,
+        phase=unit.phase,
+        hertz=unit.hertz,
+        rla_a=unit.rla_a,
+        lra_a=unit.lra_a,
+        run_capacitor_uf=run_nominal,
+        run_capacitor_tolerance_pct=run_tolerance,
+        start_capacitor_min_uf=start.rating_uf_min if start else None,
+        start_capacitor_max_uf=(start.rating_uf_max or start.rating_uf_min) if start else None,
+    )
+
+
+def reading_of(reading_set: ReadingSet) -> Reading:
+    """The core's view of a reading set (already SI)."""
+    return Reading(
+        box_temp_c=reading_set.box_temp_c,
+        entering_air_temp_c=reading_set.entering_air_temp_c,
+        suction_kpa_gauge=reading_set.suction_kpa_gauge,
+        suction_line_temp_c=reading_set.suction_line_temp_c,
+        head_kpa_gauge=reading_set.head_kpa_gauge,
+        liquid_line_temp_c=reading_set.liquid_line_temp_c,
+        discharge_line_temp_c=reading_set.discharge_line_temp_c,
+        compressor_amps=tuple(reading_set.compressor_amps),
+        supply_volts=tuple(reading_set.supply_volts),
+        run_capacitor_uf=reading_set.run_capacitor_uf,
+        start_capacitor_uf=reading_set.start_capacitor_uf,
+        compressor_running=reading_set.compressor_running,
+        condenser_fan_running=reading_set.condenser_fan_running,
+        evaporator_fans_running=reading_set.evaporator_fans_running,
+        coil_iced=reading_set.coil_iced,
+        sight_glass=reading_set.sight_glass or None,
+    )
+
+
+def _row_values(result: CoreDiagnosis) -> dict:
+    """The stored columns of a diagnosis, from the core's dataclass."""
+    derived = result.derived
+    return {
+        "algorithm_version": result.algorithm_version,
+        "score": result.score,
+        "targets": [dataclasses.asdict(t) for t in result.targets],
+        "metrics": [dataclasses.asdict(m) for m in result.metrics],
+        "findings": [dataclasses.asdict(f) for f in result.findings],
+        "cautions": [dataclasses.asdict(c) for c in result.cautions],
+        "glide_choice": result.glide_choice,
+        "energy_penalty_pct": result.energy_penalty_pct,
+        "evaporating_c": derived.evaporating_c,
+        "condensing_c": derived.condensing_c,
+        "superheat_k": derived.superheat_k,
+        "subcooling_k": derived.subcooling_k,
+        "evaporator_td_k": derived.evaporator_td_k,
+        "condenser_split_k": derived.condenser_split_k,
+        "compression_ratio": derived.compression_ratio,
+    }
+
+
+def reading_sets_for_diagnosis():
+    """Reading sets with everything the diagnosis reads, in a fixed number of queries."""
+    return ReadingSet.objects.select_related(
+        "visit_unit__unit__refrigerant", "visit_unit__unit__site"
+    ).prefetch_related("visit_unit__unit__components")
+
+
+#: Reading-set columns the batch path reads, in ReadingColumns' names where they differ.
+_SCALAR_COLUMNS = (
+    "box_temp_c",
+    "entering_air_temp_c",
+    "suction_kpa_gauge",
+    "suction_line_temp_c",
+    "head_kpa_gauge",
+    "liquid_line_temp_c",
+    "discharge_line_temp_c",
+    "run_capacitor_uf",
+    "start_capacitor_uf",
+)
+_LEG_COLUMNS = {
+    "compressor_amps": ("compressor_amps_1", "compressor_amps_2", "compressor_amps_3"),
+    "supply_volts": ("supply_volts_1", "supply_volts_2", "supply_volts_3"),
+}
+_FLAG_COLUMNS = (
+    "compressor_running",
+    "condenser_fan_running",
+    "evaporator_fans_running",
+    "coil_iced",
+)
+_FETCHED = (
+    "id",
+    "visit_unit__unit_id",
+    *_SCALAR_COLUMNS,
+    *_LEG_COLUMNS["compressor_amps"],
+    *_LEG_COLUMNS["supply_volts"],
+    *_FLAG_COLUMNS,
+    "sight_glass",
+)
+_STORED_FIELDS = [
+    f.name for f in Diagnosis._meta.concrete_fields if f.name not in ("id", "reading_set")
+]
+
+
+def _columns(rows: list[tuple]) -> tuple[np.ndarray, core_diagnose.ReadingColumns]:
+    """values_list rows -> (unit ids, ReadingColumns); None becomes NaN in one numpy pass."""
+    n = len(rows)
+    table = np.array(
+        [[np.nan if v is None else v for v in row[2:-1]] for row in rows], dtype=np.float64
+    ).reshape(n, len(_FETCHED) - 3)
+    names = list(_FETCHED[2:-1])
+    col = {name: table[:, i] for i, name in enumerate(names)}
+    states = {state: float(i) for i, state in enumerate(SIGHT_GLASS_STATES)}
+    columns = {name: col[name] for name in _SCALAR_COLUMNS + _FLAG_COLUMNS}
+    for name, legs in _LEG_COLUMNS.items():
+        columns[name] = np.column_stack([col[leg] for leg in legs])
+    columns["sight_glass"] = np.array([states.get(row[-1], np.nan) for row in rows])
+    unit_ids = np.array([row[1] for row in rows], dtype=np.int64)
+    return unit_ids, core_diagnose.ReadingColumns.from_arrays(n, **columns)
+
+
+def stale_reading_sets(*, rescore_all: bool = False, unit_id: int | None = None, since=None):
+    """Reading sets whose diagnosis is missing or was made by another algorithm version."""
+    qs = ReadingSet.objects.all()
+    if not rescore_all:
+        qs = qs.exclude(diagnosis__algorithm_version=core_diagnose.ALGORITHM_VERSION)
+    if unit_id is not None:
+        qs = qs.filter(visit_unit__unit_id=unit_id)
+    if since is not None:
+        qs = qs.filter(taken_at__date__gte=since)
+    return qs
+
+
+def rescore(
+    reading_sets=None,
+    *,
+    batch_size: int = 5000,
+    progress: Callable[[int], None] | None = None,
+    now=None,
+) -> int:
+    """Diagnose many reading sets through the core's vectorised path; returns how many.
+
+    Rows are read with values_list in batches, units once each, the core runs on numpy
+    columns, and the results are upserted in bulk: a fixed number of queries per batch.
+    """
+    now = now or timezone.now()
+    ids = list(
+        (reading_sets if reading_sets is not None else stale_reading_sets())
+        .order_by("id")
+        .values_list("id", flat=True)
+    )
+    designs: dict[int, UnitDesign] = {}
+    elevations: dict[int, float] = {}
+    done = 0
+    for start in range(0, len(ids), batch_size):
+        chunk = ids[start : start + batch_size]
+        rows = list(ReadingSet.objects.filter(id__in=chunk).order_by("id").values_list(*_FETCHED))
+        unit_ids, readings = _columns(rows)
+        missing = set(unit_ids.tolist()) - designs.keys()
+        if missing:
+            for unit in (
+                Unit.objects.filter(id__in=missing)
+                .select_related("refrigerant", "site")
+                .prefetch_related("components")
+            ):
+                designs[unit.id] = unit_design(unit)
+                elevations[unit.id] = unit.site.elevation_m
+        order = sorted(set(unit_ids.tolist()))
+        position = {uid: i for i, uid in enumerate(order)}
+        result = core_diagnose.diagnose_batch(
+            [designs[uid] for uid in order],
+            readings,
+            np.array([elevations[uid] for uid in unit_ids.tolist()]),
+            unit_index=np.array([position[uid] for uid in unit_ids.tolist()], dtype=np.intp),
+        )
+        objs = [
+            Diagnosis(reading_set_id=row[0], computed_at=now, **_row_values(result.diagnosis(i)))
+            for i, row in enumerate(rows)
+        ]
+        with transaction.atomic():
+            Diagnosis.objects.bulk_create(
+                objs,
+                update_conflicts=True,
+                unique_fields=["reading_set"],
+                update_fields=_STORED_FIELDS,
+            )
+        done += len(rows)
+        if progress:
+            progress(len(rows))
+    return done
+
+
+@transaction.atomic
+def diagnose_reading_set(reading_set: ReadingSet, now=None) -> Diagnosis:
+    """Diagnose one reading set with the current algorithm and store (or replace) the result."""
+    unit = reading_set.visit_unit.unit
+    result = core_diagnose.diagnose(
+        unit_design(unit), reading_of(reading_set), elevation_m=unit.site.elevation_m
+    )
+    diagnosis, _ = Diagnosis.objects.update_or_create(
+        reading_set=reading_set,
+        defaults={**_row_values(result), "computed_at": now or timezone.now()},
+    )
+    return diagnosis
+
+
+def _leak_rules() -> tuple[leaks.LeakRuleSet, leaks.LeakRateMethod]:
+    """The configured rule set and the facility-wide method (settings, so other
+    jurisdictions can plug in their own rules)."""
+    rules = leaks.RULE_SETS[settings.RIMEWATCH_LEAK_RULE_SET]
+    return rules, leaks.LeakRateMethod(settings.RIMEWATCH_LEAK_RATE_METHOD)
+
+
+@transaction.atomic
+def record_leak_rates(unit: Unit, now=None) -> dict[int, LeakRate]:
+    """Recompute and store the leak rate of every addition to ``unit``; keyed by event id.
+
+    The rates of earlier additions feed later ones (rolling window, annualizing clock), so
+    the whole history of the unit is recomputed together; a handful of rows per unit.
+    """
+    rules, method = _leak_rules()
+    events = list(
+        RefrigerantEvent.objects.filter(visit_unit__unit=unit).order_by("occurred_on", "id")
+    )
+    additions = [e for e in events if e.kind == RefrigerantEventKind.ADDED]
+    repairs = []
+    for e in events:
+        if e.kind == RefrigerantEventKind.LEAK_REPAIRED:
+            repairs.append(leaks.LeakRepair(repaired_on=e.occurred_on))
+        elif e.kind == RefrigerantEventKind.FOLLOW_UP_VERIFICATION and e.passed and repairs:
+            repairs[-1] = leaks.LeakRepair(repairs[-1].repaired_on, verified_on=e.occurred_on)
+    appliance = leaks.Appliance(
+        refrigerant=unit.refrigerant.designation,
+        full_charge_kg=unit.full_charge_kg,
+        appliance_type=leaks.ApplianceType(unit.appliance_type),
+    )
+    results = leaks.leak_rates(
+        appliance,
+        [
+            leaks.RefrigerantAddition(
+                e.occurred_on,
+                e.amount_kg,
+                leaks.ExcludedReason(e.leak_rate_exemption) if e.leak_rate_exemption else None,
+            )
+            for e in additions
+        ],
+        method=method,
+        repairs=repairs,
+        rules=rules,
+    )
+    # Same-day additions come back combined (one result per day and exclusion reason).
+    by_key = {(r.occurred_on, r.excluded_reason): r for r in results}
+    stored: dict[int, LeakRate] = {}
+    for event in additions:
+        reason = (
+            leaks.ExcludedReason(event.leak_rate_exemption) if event.leak_rate_exemption else None
+        )
+        result = by_key[(event.occurred_on, reason)]
+        stored[event.id], _ = LeakRate.objects.update_or_create(
+            event=event,
+            defaults={
+                "rule_set": rules.name[:60],
+                "method": method.value,
+                "annualizing_percent": result.annualizing_percent,
+                "rolling_average_percent": result.rolling_average_percent,
+                "threshold_percent": result.threshold_percent,
+                "over_threshold": result.over_threshold,
+                "in_scope": result.in_scope,
+                "repair_due_on": result.repair_due_on,
+                "verification_due_on": result.verification_due_on,
+                "note": "" if result.calculated else f"not calculated: {result.excluded_reason}",
+                "computed_at": now or timezone.now(),
+            },
+        )
+    return stored
+
+
+def record_leak_rate(event: RefrigerantEvent, now=None) -> LeakRate | None:
+    """The stored leak rate of one addition (recomputing the unit's history); None otherwise."""
+    if event.kind != RefrigerantEventKind.ADDED:
+        return None
+    return record_leak_rates(event.visit_unit.unit, now=now).get(event.id)
+
+
+@dataclasses.dataclass(frozen=True)
+class FlagRefresh:
+    opened: int
+    updated: int
+    cleared: int
+
+
+def _evidence_json(decision: flags.FlagDecision) -> list[dict]:
+    return [
+        {
+            "text": e.text,
+            "quantities": [list(q) for q in e.quantities],
+            "observed_on": e.observed_on.isoformat() if e.observed_on else None,
+        }
+        for e in decision.evidence
+    ]
+
+
+def refresh_flags(today=None, unit_ids=None, now=None) -> FlagRefresh:
+    """Open, update and clear flags so they match the core's decisions for each unit now.
+
+    One open flag per unit and kind: the partial unique constraint guarantees it, and
+    ``flags.reconcile`` decides which rows to open, update or clear.
+    """
+    now = now or timezone.now()
+    today = today or timezone.localdate(now)
+    rules, method = _leak_rules()
+    histories = unit_histories(today, unit_ids, method)
+    decided = flags.decide_flags_many(histories, today, flags.FlagRules(leak=rules))
+    open_rows: dict[int, dict[str, Flag]] = {}
+    for flag in Flag.objects.filter(
+        cleared_at__isnull=True, unit_id__in=[h.unit_id for h in histories]
+    ):
+        open_rows.setdefault(flag.unit_id, {})[flag.kind] = flag
+    to_create, to_update, to_clear = [], [], []
+    for history in histories:
+        current = open_rows.get(history.unit_id, {})
+        changes = flags.reconcile(current.keys(), decided.get(history.unit_id, ()))
+        for decision in changes.to_open:
+            to_create.append(
+                Flag(
+                    unit_id=history.unit_id,
+                    kind=decision.kind.value,
+                    severity=decision.severity.value,
+                    summary=decision.summary[:300],
+                    evidence=_evidence_json(decision),
+                    projected_on=decision.projected_date,
+                    opened_at=now,
+                    updated_at=now,
+                )
+            )
+        for decision in changes.to_update:
+            flag = current[decision.kind.value]
+            flag.severity, flag.summary = decision.severity.value, decision.summary[:300]
+            flag.evidence, flag.projected_on, flag.updated_at = (
+                _evidence_json(decision),
+                decision.projected_date,
+                now,
+            )
+            to_update.append(flag)
+        to_clear.extend(current[kind.value].pk for kind in changes.to_close)
+    with transaction.atomic():
+        Flag.objects.bulk_create(to_create)
+        Flag.objects.bulk_update(
+            to_update, ["severity", "summary", "evidence", "projected_on", "updated_at"]
+        )
+        Flag.objects.filter(pk__in=to_clear).update(cleared_at=now, updated_at=now)
+    return FlagRefresh(opened=len(to_create), updated=len(to_update), cleared=len(to_clear))

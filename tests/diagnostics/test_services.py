@@ -1,0 +1,148 @@
+"""The Django layer runs the core on records and stores what it returns."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+from django.utils import timezone
+
+from diagnostics import services
+from diagnostics.core import saturation, units
+from diagnostics.core.diagnose import ALGORITHM_VERSION
+from diagnostics.models import Diagnosis, Flag, LeakRate
+from tests.factories import (
+    ComponentFactory,
+    ReadingSetFactory,
+    RefrigerantEventFactory,
+    UnitFactory,
+    VisitUnitFactory,
+)
+
+pytestmark = pytest.mark.django_db
+
+
+def _r404a_reading(vu, box_f=35.0, evap_f=25.0, air_f=70.0, cond_f=100.0, **extra):
+    """A reading built from temperatures through the saturation engine (R-404A, sea level)."""
+    table = saturation.table("R-404A")
+    suction = units.pressure_from_kpa_abs(
+        float(table.dew_pressure_kpa_abs(units.temperature_to_c(evap_f, "F"))), "kPa"
+    )
+    head = units.pressure_from_kpa_abs(
+        float(table.bubble_pressure_kpa_abs(units.temperature_to_c(cond_f, "F"))), "kPa"
+    )
+    values = dict(
+        box_temp_c=units.temperature_to_c(box_f, "F"),
+        entering_air_temp_c=units.temperature_to_c(air_f, "F"),
+        suction_kpa_gauge=suction,
+        suction_line_temp_c=units.temperature_to_c(evap_f + 9, "F"),
+        head_kpa_gauge=head,
+        liquid_line_temp_c=units.temperature_to_c(cond_f - 3, "F"),
+        compressor_running=True,
+    )
+    values.update(extra)
+    return ReadingSetFactory(visit_unit=vu, **values)
+
+
+def test_it_stores_a_diagnosis_with_the_algorithm_version():
+    """A reading set diagnosed through the service gets one stored row, replaced on re-run."""
+    reading = _r404a_reading(VisitUnitFactory())
+    first = services.diagnose_reading_set(reading)
+    again = services.diagnose_reading_set(reading)
+    assert first.pk == again.pk
+    assert Diagnosis.objects.count() == 1
+    assert again.algorithm_version == ALGORITHM_VERSION
+    assert 0 <= again.score <= 100
+    assert {m["name"] for m in again.metrics} >= {"superheat", "evaporator_td"}
+
+
+def test_it_reads_the_fitted_run_capacitor_rating_from_components():
+    """The design the core sees takes the capacitor rating from the part in service now."""
+    unit = UnitFactory()
+    ComponentFactory(
+        unit=unit, rating_uf_min=42.3, rating_uf_max=47.7, installed_on=dt.date(2024, 1, 1)
+    )
+    ComponentFactory(
+        unit=unit,
+        rating_uf_min=30.0,
+        rating_uf_max=40.0,
+        removed_on=dt.date(2024, 1, 1),
+        installed_on=dt.date(2020, 1, 1),
+    )
+    design = services.unit_design(unit)
+    assert design.run_capacitor_uf == pytest.approx(45.0)
+    assert design.run_capacitor_tolerance_pct == pytest.approx(6.0)
+
+
+def test_rescore_matches_the_one_row_path_and_only_touches_stale_rows():
+    """The vectorised batch stores the same score as the per-row service, and a second run
+    finds nothing stale."""
+    vu = VisitUnitFactory()
+    readings = [_r404a_reading(vu, cond_f=100 + 3 * i) for i in range(4)]
+    assert services.rescore() == 4
+    batch_scores = {d.reading_set_id: d.score for d in Diagnosis.objects.all()}
+    for reading in readings:
+        assert services.diagnose_reading_set(reading).score == pytest.approx(
+            batch_scores[reading.id]
+        )
+    assert services.stale_reading_sets().count() == 0
+    Diagnosis.objects.update(algorithm_version="old")
+    assert services.rescore() == 4
+    assert set(Diagnosis.objects.values_list("algorithm_version", flat=True)) == {ALGORITHM_VERSION}
+
+
+def test_rescore_uses_a_fixed_number_of_queries(django_assert_max_num_queries):
+    """Batches read rows with values_list and units once: 3 or 30 rows cost the same."""
+    vu = VisitUnitFactory()
+    for _ in range(3):
+        _r404a_reading(vu)
+    with django_assert_max_num_queries(8):
+        services.rescore()
+    for _ in range(27):
+        _r404a_reading(vu)
+    Diagnosis.objects.all().delete()
+    with django_assert_max_num_queries(8):
+        services.rescore()
+
+
+def test_it_stores_the_leak_rate_of_the_worked_example():
+    """40 CFR 82.152 worked example (shared/REFERENCES.md section 3, computed from the
+    formulas): full charge 60 lb, 8 lb added 73 days after a 5 lb addition: annualizing
+    66.67 %, rolling average 21.67 %, over the 20 % commercial threshold; tolerance 0.01."""
+    unit = UnitFactory(
+        full_charge_kg=units.mass_to_kg(60, "lb"), refrigerant=UnitFactory().refrigerant
+    )
+    vu = VisitUnitFactory(unit=unit, visit__site=unit.site)
+    today = dt.date(2026, 6, 1)
+    RefrigerantEventFactory(
+        visit_unit=vu,
+        amount_kg=units.mass_to_kg(5, "lb"),
+        occurred_on=today - dt.timedelta(days=73),
+    )
+    event = RefrigerantEventFactory(
+        visit_unit=vu, amount_kg=units.mass_to_kg(8, "lb"), occurred_on=today
+    )
+    rate = services.record_leak_rate(event)
+    assert rate.annualizing_percent == pytest.approx(66.67, abs=0.01)
+    assert rate.rolling_average_percent == pytest.approx(21.67, abs=0.01)
+    assert rate.threshold_percent == 20
+    assert rate.over_threshold
+    assert rate.repair_due_on == today + dt.timedelta(days=30)
+    assert LeakRate.objects.count() == 2
+
+
+def test_it_opens_one_flag_per_unit_and_kind_and_clears_it():
+    """refresh_flags opens a leak-rate flag once, keeps one open on a re-run, and clears it
+    when the history no longer calls for it."""
+    unit = UnitFactory(full_charge_kg=units.mass_to_kg(60, "lb"))
+    vu = VisitUnitFactory(unit=unit, visit__site=unit.site)
+    today = timezone.localdate()
+    RefrigerantEventFactory(visit_unit=vu, amount_kg=units.mass_to_kg(20, "lb"), occurred_on=today)
+    first = services.refresh_flags(today=today, unit_ids=[unit.id])
+    second = services.refresh_flags(today=today, unit_ids=[unit.id])
+    assert (first.opened, second.opened, second.updated) == (1, 0, 1)
+    assert Flag.objects.filter(unit=unit, kind="leak_rate", cleared_at__isnull=True).count() == 1
+    unit.visit_units.get().refrigerant_events.all().delete()
+    third = services.refresh_flags(today=today, unit_ids=[unit.id])
+    assert third.cleared == 1
+    assert not Flag.objects.filter(unit=unit, cleared_at__isnull=True).exists()
