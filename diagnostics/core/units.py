@@ -104,10 +104,6 @@ def as_numbers(value: Any, name: str = "value") -> float | FloatArray:
     raise NotNumeric(f"{name} holds something that is not a number: {bad!r}")
 
 
-def _same_kind(template: float | FloatArray, result: Any) -> Any:
-    return float(result) if isinstance(template, float) and np.ndim(result) == 0 else result
-
-
 def _atmosphere_kpa(elevation_m: npt.ArrayLike) -> float | FloatArray:
     # Imported here: the atmosphere module uses this module's number coercion.
     from diagnostics.core.atmosphere import standard_pressure_kpa
@@ -130,8 +126,7 @@ def pressure_to_kpa_abs(
     """A pressure in ``unit`` as kPa absolute; gauge units add the atmosphere at elevation_m."""
     factor, gauge = _PRESSURE[_canonical(unit, "pressure", PRESSURE_UNITS)]
     v = as_numbers(value, "pressure")
-    result = v * factor + _atmosphere_kpa(elevation_m) if gauge else v * factor
-    return _same_kind(v, result)
+    return v * factor + _atmosphere_kpa(elevation_m) if gauge else v * factor
 
 
 @overload
@@ -146,8 +141,7 @@ def pressure_from_kpa_abs(
     """kPa absolute expressed in ``unit`` (gauge units read against the site's atmosphere)."""
     factor, gauge = _PRESSURE[_canonical(unit, "pressure", PRESSURE_UNITS)]
     v = as_numbers(kpa_abs, "pressure")
-    result = (v - _atmosphere_kpa(elevation_m)) / factor if gauge else v / factor
-    return _same_kind(v, result)
+    return (v - _atmosphere_kpa(elevation_m)) / factor if gauge else v / factor
 
 
 @overload
@@ -162,8 +156,7 @@ def pressure_to_kpa_gauge(
     """A pressure in ``unit`` as kPa gauge; absolute units subtract the atmosphere."""
     factor, gauge = _PRESSURE[_canonical(unit, "pressure", PRESSURE_UNITS)]
     v = as_numbers(value, "pressure")
-    result = v * factor if gauge else v * factor - _atmosphere_kpa(elevation_m)
-    return _same_kind(v, result)
+    return v * factor if gauge else v * factor - _atmosphere_kpa(elevation_m)
 
 
 @overload
@@ -178,8 +171,7 @@ def pressure_from_kpa_gauge(
     """kPa gauge expressed in ``unit``; absolute units add the atmosphere at elevation_m."""
     factor, gauge = _PRESSURE[_canonical(unit, "pressure", PRESSURE_UNITS)]
     v = as_numbers(kpa_gauge, "pressure")
-    result = v / factor if gauge else (v + _atmosphere_kpa(elevation_m)) / factor
-    return _same_kind(v, result)
+    return v / factor if gauge else (v + _atmosphere_kpa(elevation_m)) / factor
 
 
 def is_gauge_pressure_unit(unit: str) -> bool:
