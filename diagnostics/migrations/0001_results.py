@@ -6,84 +6,184 @@ from django.db import migrations, models
 
 
 class Migration(migrations.Migration):
-
     initial = True
 
     dependencies = [
-        ('fleet', '0002_seed_refrigerants_and_roles'),
+        ("fleet", "0002_seed_refrigerants_and_roles"),
         migrations.swappable_dependency(settings.AUTH_USER_MODEL),
     ]
 
     operations = [
         migrations.CreateModel(
-            name='LeakRate',
+            name="LeakRate",
             fields=[
-                ('id', models.BigAutoField(auto_created=True, primary_key=True, serialize=False, verbose_name='ID')),
-                ('rule_set', models.CharField(max_length=60)),
-                ('method', models.CharField(help_text="The facility's method: annualizing or rolling_average.", max_length=20)),
-                ('annualizing_percent', models.FloatField(blank=True, null=True)),
-                ('rolling_average_percent', models.FloatField(blank=True, null=True)),
-                ('threshold_percent', models.FloatField(blank=True, null=True)),
-                ('over_threshold', models.BooleanField(default=False)),
-                ('in_scope', models.BooleanField(default=True)),
-                ('repair_due_on', models.DateField(blank=True, null=True)),
-                ('verification_due_on', models.DateField(blank=True, null=True)),
-                ('note', models.TextField(blank=True)),
-                ('computed_at', models.DateTimeField()),
-                ('event', models.OneToOneField(on_delete=django.db.models.deletion.CASCADE, related_name='leak_rate', to='fleet.refrigerantevent')),
+                (
+                    "id",
+                    models.BigAutoField(
+                        auto_created=True, primary_key=True, serialize=False, verbose_name="ID"
+                    ),
+                ),
+                ("rule_set", models.CharField(max_length=60)),
+                (
+                    "method",
+                    models.CharField(
+                        help_text="The facility's method: annualizing or rolling_average.",
+                        max_length=20,
+                    ),
+                ),
+                ("annualizing_percent", models.FloatField(blank=True, null=True)),
+                ("rolling_average_percent", models.FloatField(blank=True, null=True)),
+                ("threshold_percent", models.FloatField(blank=True, null=True)),
+                ("over_threshold", models.BooleanField(default=False)),
+                ("in_scope", models.BooleanField(default=True)),
+                ("repair_due_on", models.DateField(blank=True, null=True)),
+                ("verification_due_on", models.DateField(blank=True, null=True)),
+                ("note", models.TextField(blank=True)),
+                ("computed_at", models.DateTimeField()),
+                (
+                    "event",
+                    models.OneToOneField(
+                        on_delete=django.db.models.deletion.CASCADE,
+                        related_name="leak_rate",
+                        to="fleet.refrigerantevent",
+                    ),
+                ),
             ],
             options={
-                'ordering': ['event__occurred_on'],
+                "ordering": ["event__occurred_on"],
             },
         ),
         migrations.CreateModel(
-            name='Diagnosis',
+            name="Diagnosis",
             fields=[
-                ('id', models.BigAutoField(auto_created=True, primary_key=True, serialize=False, verbose_name='ID')),
-                ('algorithm_version', models.CharField(max_length=20)),
-                ('score', models.FloatField()),
-                ('targets', models.JSONField(default=list)),
-                ('metrics', models.JSONField(default=list)),
-                ('findings', models.JSONField(default=list)),
-                ('cautions', models.JSONField(default=list)),
-                ('glide_choice', models.TextField(blank=True)),
-                ('energy_penalty_pct', models.FloatField(blank=True, null=True)),
-                ('evaporating_c', models.FloatField(blank=True, null=True)),
-                ('condensing_c', models.FloatField(blank=True, null=True)),
-                ('superheat_k', models.FloatField(blank=True, null=True)),
-                ('subcooling_k', models.FloatField(blank=True, null=True)),
-                ('evaporator_td_k', models.FloatField(blank=True, null=True)),
-                ('condenser_split_k', models.FloatField(blank=True, null=True)),
-                ('compression_ratio', models.FloatField(blank=True, null=True)),
-                ('computed_at', models.DateTimeField()),
-                ('reading_set', models.OneToOneField(on_delete=django.db.models.deletion.CASCADE, related_name='diagnosis', to='fleet.readingset')),
+                (
+                    "id",
+                    models.BigAutoField(
+                        auto_created=True, primary_key=True, serialize=False, verbose_name="ID"
+                    ),
+                ),
+                ("algorithm_version", models.CharField(max_length=20)),
+                ("score", models.FloatField()),
+                ("targets", models.JSONField(default=list)),
+                ("metrics", models.JSONField(default=list)),
+                ("findings", models.JSONField(default=list)),
+                ("cautions", models.JSONField(default=list)),
+                ("glide_choice", models.TextField(blank=True)),
+                ("energy_penalty_pct", models.FloatField(blank=True, null=True)),
+                ("evaporating_c", models.FloatField(blank=True, null=True)),
+                ("condensing_c", models.FloatField(blank=True, null=True)),
+                ("superheat_k", models.FloatField(blank=True, null=True)),
+                ("subcooling_k", models.FloatField(blank=True, null=True)),
+                ("evaporator_td_k", models.FloatField(blank=True, null=True)),
+                ("condenser_split_k", models.FloatField(blank=True, null=True)),
+                ("compression_ratio", models.FloatField(blank=True, null=True)),
+                ("computed_at", models.DateTimeField()),
+                (
+                    "reading_set",
+                    models.OneToOneField(
+                        on_delete=django.db.models.deletion.CASCADE,
+                        related_name="diagnosis",
+                        to="fleet.readingset",
+                    ),
+                ),
             ],
             options={
-                'verbose_name_plural': 'diagnoses',
-                'indexes': [models.Index(fields=['algorithm_version'], name='diagnostics_algorit_964ebc_idx')],
-                'constraints': [models.CheckConstraint(condition=models.Q(('score__gte', 0), ('score__lte', 100)), name='diagnosis_score_0_100')],
+                "verbose_name_plural": "diagnoses",
+                "indexes": [
+                    models.Index(
+                        fields=["algorithm_version"], name="diagnostics_algorit_964ebc_idx"
+                    )
+                ],
+                "constraints": [
+                    models.CheckConstraint(
+                        condition=models.Q(("score__gte", 0), ("score__lte", 100)),
+                        name="diagnosis_score_0_100",
+                    )
+                ],
             },
         ),
         migrations.CreateModel(
-            name='Flag',
+            name="Flag",
             fields=[
-                ('id', models.BigAutoField(auto_created=True, primary_key=True, serialize=False, verbose_name='ID')),
-                ('kind', models.CharField(choices=[('head_pressure_drift', 'Head pressure drifting up'), ('start_components', 'Start components at risk'), ('leak_rate', 'Leak rate over the threshold'), ('maintenance_overdue', 'Planned maintenance overdue')], max_length=30)),
-                ('severity', models.CharField(choices=[('notice', 'Notice'), ('warning', 'Warning'), ('urgent', 'Urgent')], max_length=10)),
-                ('summary', models.CharField(max_length=300)),
-                ('evidence', models.JSONField(default=list)),
-                ('projected_on', models.DateField(blank=True, null=True)),
-                ('opened_at', models.DateTimeField()),
-                ('updated_at', models.DateTimeField()),
-                ('cleared_at', models.DateTimeField(blank=True, null=True)),
-                ('acknowledged_at', models.DateTimeField(blank=True, null=True)),
-                ('acknowledgement_note', models.TextField(blank=True)),
-                ('acknowledged_by', models.ForeignKey(blank=True, null=True, on_delete=django.db.models.deletion.PROTECT, related_name='+', to=settings.AUTH_USER_MODEL)),
-                ('unit', models.ForeignKey(on_delete=django.db.models.deletion.CASCADE, related_name='flags', to='fleet.unit')),
+                (
+                    "id",
+                    models.BigAutoField(
+                        auto_created=True, primary_key=True, serialize=False, verbose_name="ID"
+                    ),
+                ),
+                (
+                    "kind",
+                    models.CharField(
+                        choices=[
+                            ("head_pressure_drift", "Head pressure drifting up"),
+                            ("start_components", "Start components at risk"),
+                            ("leak_rate", "Leak rate over the threshold"),
+                            ("maintenance_overdue", "Planned maintenance overdue"),
+                        ],
+                        max_length=30,
+                    ),
+                ),
+                (
+                    "severity",
+                    models.CharField(
+                        choices=[
+                            ("notice", "Notice"),
+                            ("warning", "Warning"),
+                            ("urgent", "Urgent"),
+                        ],
+                        max_length=10,
+                    ),
+                ),
+                ("summary", models.CharField(max_length=300)),
+                ("evidence", models.JSONField(default=list)),
+                ("projected_on", models.DateField(blank=True, null=True)),
+                ("opened_at", models.DateTimeField()),
+                ("updated_at", models.DateTimeField()),
+                ("cleared_at", models.DateTimeField(blank=True, null=True)),
+                ("acknowledged_at", models.DateTimeField(blank=True, null=True)),
+                ("acknowledgement_note", models.TextField(blank=True)),
+                (
+                    "acknowledged_by",
+                    models.ForeignKey(
+                        blank=True,
+                        null=True,
+                        on_delete=django.db.models.deletion.PROTECT,
+                        related_name="+",
+                        to=settings.AUTH_USER_MODEL,
+                    ),
+                ),
+                (
+                    "unit",
+                    models.ForeignKey(
+                        on_delete=django.db.models.deletion.CASCADE,
+                        related_name="flags",
+                        to="fleet.unit",
+                    ),
+                ),
             ],
             options={
-                'ordering': ['-opened_at'],
-                'constraints': [models.UniqueConstraint(condition=models.Q(('cleared_at__isnull', True)), fields=('unit', 'kind'), name='flag_one_open_per_unit_kind'), models.CheckConstraint(condition=models.Q(('kind__in', ['head_pressure_drift', 'start_components', 'leak_rate', 'maintenance_overdue'])), name='flag_kind_valid')],
+                "ordering": ["-opened_at"],
+                "constraints": [
+                    models.UniqueConstraint(
+                        condition=models.Q(("cleared_at__isnull", True)),
+                        fields=("unit", "kind"),
+                        name="flag_one_open_per_unit_kind",
+                    ),
+                    models.CheckConstraint(
+                        condition=models.Q(
+                            (
+                                "kind__in",
+                                [
+                                    "head_pressure_drift",
+                                    "start_components",
+                                    "leak_rate",
+                                    "maintenance_overdue",
+                                ],
+                            )
+                        ),
+                        name="flag_kind_valid",
+                    ),
+                ],
             },
         ),
     ]
