@@ -5,7 +5,7 @@ VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
 
-.PHONY: run test install lint pytest-sqlite pytest-postgres bench clean
+.PHONY: run test install lint ensure-browser pytest-sqlite pytest-postgres bench clean
 
 $(STAMP): pyproject.toml
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
@@ -28,10 +28,14 @@ lint: install
 	DJANGO_SETTINGS_MODULE=config.settings_test $(PY) manage.py makemigrations --check --dry-run
 	DJANGO_SETTINGS_MODULE=config.settings_test $(PY) manage.py spectacular --validate --fail-on-warn --file /dev/null
 
-pytest-sqlite: install
+# Debian's chromium for tests/browser (installed when missing and root; never a download).
+ensure-browser:
+	bash scripts/ensure-browser.sh
+
+pytest-sqlite: install ensure-browser
 	env -u DATABASE_URL $(PY) -m pytest -q
 
-pytest-postgres: install
+pytest-postgres: install ensure-browser
 	bash scripts/with-postgres.sh $(PY) -m pytest -q
 
 test: lint pytest-sqlite pytest-postgres

@@ -1,7 +1,50 @@
-"""One router for API version 1."""
+"""API version 1: one router for the resources, plus the few endpoints that are not
+collections (saturation lookups, a unit's diagnosis, trends and flags, tokens) and the
+reports app's own routes (reports/api/urls.py)."""
 
+from django.urls import path
 from rest_framework.routers import DefaultRouter
 
-router = DefaultRouter()
+from diagnostics.api import views as diagnostics_views
+from fleet.api import views
+from reports.api import urls as report_urls
 
-urlpatterns = router.urls
+router = DefaultRouter()
+router.register("customers", views.CustomerViewSet, basename="customer")
+router.register("sites", views.SiteViewSet, basename="site")
+router.register("refrigerants", views.RefrigerantViewSet, basename="refrigerant")
+router.register("units", views.UnitViewSet, basename="unit")
+router.register("components", views.ComponentViewSet, basename="component")
+router.register("visits", views.VisitViewSet, basename="visit")
+router.register(
+    r"visits/(?P<visit_pk>[0-9]+)/reading-sets", views.ReadingSetViewSet, basename="reading-set"
+)
+router.register(
+    r"visits/(?P<visit_pk>[0-9]+)/refrigerant-events",
+    views.RefrigerantEventViewSet,
+    basename="refrigerant-event",
+)
+
+urlpatterns = [
+    path("auth/token/", views.TokenView.as_view(), name="auth-token"),
+    path(
+        "refrigerants/<str:designation>/saturation/",
+        diagnostics_views.SaturationView.as_view(),
+        name="refrigerant-saturation",
+    ),
+    path(
+        "units/<int:unit_pk>/diagnosis/",
+        diagnostics_views.UnitDiagnosisView.as_view(),
+        name="unit-diagnosis",
+    ),
+    path(
+        "units/<int:unit_pk>/trends/",
+        diagnostics_views.UnitTrendsView.as_view(),
+        name="unit-trends",
+    ),
+    path(
+        "units/<int:unit_pk>/flags/", diagnostics_views.UnitFlagsView.as_view(), name="unit-flags"
+    ),
+    *report_urls.urlpatterns,
+    *router.urls,
+]

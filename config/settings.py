@@ -107,6 +107,7 @@ USE_TZ = True
 
 STATIC_URL = "static/"
 STATIC_ROOT = VAR_DIR / "static"
+STATICFILES_DIRS = [BASE_DIR / "static"]
 MEDIA_URL = "media/"
 MEDIA_ROOT = VAR_DIR / "media"
 
@@ -121,6 +122,9 @@ RIMEWATCH_DISPLAY_UNITS = os.environ.get("RIMEWATCH_DISPLAY_UNITS", "us")
 RIMEWATCH_LEAK_RULE_SET = os.environ.get("RIMEWATCH_LEAK_RULE_SET", "us_epa")
 RIMEWATCH_LEAK_RATE_METHOD = os.environ.get("RIMEWATCH_LEAK_RATE_METHOD", "rolling_average")
 
+# Processes drawing report charts in parallel (1: in-process; measured in bench/report.py).
+RIMEWATCH_REPORT_CHART_WORKERS = int(os.environ.get("RIMEWATCH_REPORT_CHART_WORKERS", "1"))
+
 REST_FRAMEWORK = {
     "DEFAULT_AUTHENTICATION_CLASSES": [
         "rest_framework.authentication.TokenAuthentication",
@@ -133,6 +137,14 @@ REST_FRAMEWORK = {
     "DEFAULT_PAGINATION_CLASS": "rest_framework.pagination.PageNumberPagination",
     "PAGE_SIZE": 50,
     "DEFAULT_SCHEMA_CLASS": "drf_spectacular.openapi.AutoSchema",
+    "EXCEPTION_HANDLER": "fleet.api.exceptions.exception_handler",
+    # Writes are limited per user, token requests per client address. The counters live in
+    # the default cache (per process unless a shared cache is configured).
+    "DEFAULT_THROTTLE_CLASSES": ["fleet.api.throttles.WriteRateThrottle"],
+    "DEFAULT_THROTTLE_RATES": {
+        "write": os.environ.get("RIMEWATCH_WRITE_RATE", "240/minute"),
+        "auth": os.environ.get("RIMEWATCH_AUTH_RATE", "10/minute"),
+    },
 }
 SPECTACULAR_SETTINGS = {
     "TITLE": "Rimewatch API",
@@ -150,7 +162,8 @@ if not DEBUG:
     CSRF_COOKIE_SECURE = True
     SECURE_HSTS_SECONDS = int(os.environ.get("SECURE_HSTS_SECONDS", "31536000"))
     SECURE_HSTS_INCLUDE_SUBDOMAINS = True
-    SECURE_HSTS_PRELOAD = env_bool("SECURE_HSTS_PRELOAD", False)
+    # Preload by default so `check --deploy` is clean; set SECURE_HSTS_PRELOAD=0 to opt out.
+    SECURE_HSTS_PRELOAD = env_bool("SECURE_HSTS_PRELOAD", True)
 
 LOGGING = {
     "version": 1,

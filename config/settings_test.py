@@ -2,8 +2,14 @@
 
 from __future__ import annotations
 
+import tempfile
+from pathlib import Path
+
 from .settings import *  # noqa: F403
 
 PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]
 EMAIL_BACKEND = "django.core.mail.backends.locmem.EmailBackend"
 DATABASES["default"]["CONN_MAX_AGE"] = 0  # noqa: F405
+
+# Generated reports go to a throwaway folder, not the developer's var/media.
+MEDIA_ROOT = Path(tempfile.mkdtemp(prefix="rimewatch-test-media-"))

@@ -10,4 +10,6 @@ urlpatterns = [
     path("api/v1/", include("config.api_urls")),
     path("api/schema/", SpectacularAPIView.as_view(), name="schema"),
     path("api/docs/", SpectacularRedocView.as_view(url_name="schema"), name="api-docs"),
+    path("reports/", include("reports.urls")),
+    path("", include("fleet.urls")),
 ]

@@ -127,3 +127,32 @@ class RefrigerantEventAdmin(admin.ModelAdmin):
     list_select_related = ("visit_unit__unit__site", "visit_unit__visit")
     raw_id_fields = ("visit_unit", "created_by")
     date_hierarchy = "occurred_on"
+
+
+@admin.register(models.AuditEntry)
+class AuditEntryAdmin(admin.ModelAdmin):
+    """The trail is evidence: readable here, never edited."""
+
+    list_display = ("at", "actor", "action", "record_type", "record_id", "visit_id")
+    list_filter = ("action", "record_type")
+    search_fields = ("actor__username", "note")
+    list_select_related = ("actor", "record_type")
+    readonly_fields = (
+        "at",
+        "actor",
+        "action",
+        "record_type",
+        "record_id",
+        "visit_id",
+        "changes",
+        "note",
+    )
+
+    def has_add_permission(self, request) -> bool:
+        return False
+
+    def has_change_permission(self, request, obj=None) -> bool:
+        return False
+
+    def has_delete_permission(self, request, obj=None) -> bool:
+        return False

@@ -1,0 +1,79 @@
+"""Dew and bubble points for the API and ``manage.py saturation``: one place that turns a
+gauge or absolute reading into the core's absolute kPa and asks the saturation tables.
+
+Nothing is computed here: the conversion is ``diagnostics.core.units`` (with the standard
+atmosphere at the given elevation), the properties are ``diagnostics.core.saturation``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from diagnostics.core import refrigerants, saturation, units
+
+
+class SaturationInputError(ValueError):
+    """A request the tables cannot answer; ``field`` names the input at fault."""
+
+    def __init__(self, field: str, message: str) -> None:
+        super().__init__(message)
+        self.field = field
+
+
+@dataclass(frozen=True)
+class AtPressure:
+    refrigerant: str
+    absolute_pressure_kpa: float
+    dew_temperature_c: float
+    bubble_temperature_c: float
+
+    @property
+    def glide_k(self) -> float:
+        return self.dew_temperature_c - self.bubble_temperature_c
+
+
+@dataclass(frozen=True)
+class AtTemperature:
+    refrigerant: str
+    temperature_c: float
+    dew_pressure_kpa_abs: float
+    bubble_pressure_kpa_abs: float
+
+
+def at_pressure(designation: str, pressure: float, unit: str, elevation_m: float) -> AtPressure:
+    """Dew and bubble temperatures at a pressure read in ``unit`` at ``elevation_m``.
+
+    Raises UnknownRefrigerant, or SaturationInputError naming the field at fault.
+    """
+    name = refrigerants.normalise_designation(designation)
+    try:
+        absolute = units.pressure_to_kpa_abs(pressure, unit, elevation_m)
+    except (units.UnitError, ValueError, ArithmeticError) as exc:
+        raise SaturationInputError("pressure", str(exc)) from exc
+    if absolute <= 0:
+        raise SaturationInputError(
+            "pressure", f"{pressure:g} {unit} is below a perfect vacuum at {elevation_m:g} m"
+        )
+    table = saturation.table(name)
+    try:
+        dew = table.dew_temp_c(absolute)
+        bubble = table.bubble_temp_c(absolute)
+    except saturation.SaturationError as exc:
+        raise SaturationInputError("pressure", str(exc)) from exc
+    return AtPressure(name, float(absolute), float(dew), float(bubble))
+
+
+def at_temperature(designation: str, temperature: float, unit: str) -> AtTemperature:
+    """Dew and bubble pressures (absolute kPa) at a saturation temperature in ``unit``."""
+    name = refrigerants.normalise_designation(designation)
+    try:
+        t_c = units.temperature_to_c(temperature, unit)
+    except (units.UnitError, ValueError, ArithmeticError) as exc:
+        raise SaturationInputError("temperature", str(exc)) from exc
+    table = saturation.table(name)
+    try:
+        dew = table.dew_pressure_kpa_abs(t_c)
+        bubble = table.bubble_pressure_kpa_abs(t_c)
+    except saturation.SaturationError as exc:
+        raise SaturationInputError("temperature", str(exc)) from exc
+    return AtTemperature(name, float(t_c), float(dew), float(bubble))

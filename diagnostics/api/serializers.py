@@ -1,0 +1,331 @@
+"""Stored diagnoses, leak rates, trends and flags on the wire, in the response's units.
+
+A diagnosis is stored in SI as the core produced it (temperatures C, differences K,
+pressures kPa gauge at the site); each value is converted here to the units the response
+states, with the unit beside it.
+"""
+
+from __future__ import annotations
+
+import functools
+import logging
+from typing import Any
+
+from drf_spectacular.utils import extend_schema_field
+from rest_framework import serializers
+
+from diagnostics.core import refrigerants, saturation
+from diagnostics.models import Diagnosis, Flag, LeakRate
+from fleet.api.wire_units import (
+    DISPLAY_UNITS,
+    display_system,
+    from_si,
+    pressure_difference_from_kpa,
+)
+
+log = logging.getLogger(__name__)
+
+#: Standard atmosphere at sea level, kPa (U.S. Standard Atmosphere 1976): where a
+#: refrigerant's listed glide is read.
+ATMOSPHERIC_KPA_ABS = 101.325
+
+#: The SI unit labels the core writes, and the quantity each stands for.
+SI_LABELS = {"C": "temperature", "K": "temperature_difference", "kPa": "pressure"}
+
+
+def response_units(context: dict[str, Any]) -> dict[str, str]:
+    """The units a response states, from ``?units=`` (kept in the context by the view)."""
+    return DISPLAY_UNITS[display_system(context.get("unit_system"))]
+
+
+@functools.lru_cache(maxsize=64)
+def atmospheric_glide_k(designation: str) -> float | None:
+    """Dew minus bubble temperature at atmospheric pressure; None where the fluid has no
+    liquid there (R-744 below its triple point). Remembered per process: tables are fixed."""
+    if refrigerants.get(designation).kind is refrigerants.Kind.PURE:
+        return 0.0
+    try:
+        return float(saturation.table(designation).glide_k(ATMOSPHERIC_KPA_ABS))
+    except saturation.SaturationError:
+        return None
+    except Exception:
+        # A table that cannot be built must not take the refrigerant list down with it.
+        log.exception("no saturation table for %s", designation)
+        return None
+
+
+def _rounded(value: float | None) -> float | None:
+    return None if value is None else round(value, 3)
+
+
+class Converter:
+    """Converts stored SI values of one quantity to a response's units."""
+
+    def __init__(self, units: dict[str, str], elevation_m: float) -> None:
+        self.units = units
+        self.elevation_m = elevation_m
+
+    def label(self, si_label: str) -> str:
+        quantity = SI_LABELS.get(si_label)
+        return self.units[quantity] if quantity else si_label
+
+    def value(self, value: float | None, si_label: str) -> float | None:
+        quantity = SI_LABELS.get(si_label)
+        if value is None or quantity is None:
+            return _rounded(value)
+        unit = self.units[quantity]
+        return _rounded(from_si(value, quantity, unit, self.elevation_m))  # type: ignore[arg-type]
+
+    def difference(self, value: float | None, si_label: str) -> float | None:
+        """A deviation: a difference of the quantity (no offset)."""
+        if value is None:
+            return None
+        if si_label in ("C", "K"):
+            unit = self.units["temperature_difference"]
+            return _rounded(from_si(value, "temperature_difference", unit))
+        if si_label == "kPa":
+            return _rounded(pressure_difference_from_kpa(value, self.units["pressure"]))
+        return _rounded(value)
+
+
+class RangeSerializer(serializers.Serializer):
+    low = serializers.FloatField(allow_null=True, help_text="Lowest value still ok; null: open.")
+    high = serializers.FloatField(allow_null=True, help_text="Highest value still ok; null: open.")
+
+
+class TargetSerializer(serializers.Serializer):
+    name = serializers.CharField()
+    value = serializers.FloatField()
+    range = RangeSerializer()
+    unit = serializers.CharField(help_text="The unit of value and range.")
+    source = serializers.CharField(help_text="Where the target and its range come from.")
+
+
+class MetricSerializer(serializers.Serializer):
+    name = serializers.CharField()
+    measured = serializers.FloatField(allow_null=True)
+    target = serializers.FloatField(allow_null=True)
+    range = RangeSerializer()
+    deviation = serializers.FloatField(
+        allow_null=True, help_text="How far outside the ok range (0 inside), in unit."
+    )
+    unit = serializers.CharField()
+    status = serializers.ChoiceField(choices=["ok", "watch", "fault", "not_scored"])
+    points_lost = serializers.FloatField()
+    reason = serializers.CharField(allow_blank=True, help_text="Why it was not scored.")
+
+
+class FindingSerializer(serializers.Serializer):
+    code = serializers.CharField()
+    title = serializers.CharField()
+    evidence = serializers.ListField(child=serializers.CharField())
+    confidence = serializers.FloatField(help_text="0 to 1.")
+    advice = serializers.CharField()
+
+
+class CautionSerializer(serializers.Serializer):
+    code = serializers.CharField()
+    text = serializers.CharField()
+
+
+class ResponseUnitsSerializer(serializers.Serializer):
+    temperature = serializers.ChoiceField(choices=["F", "C"])
+    temperature_difference = serializers.ChoiceField(choices=["F", "K"])
+    pressure = serializers.ChoiceField(choices=["psig", "kPa"], help_text="Gauge.")
+    mass = serializers.ChoiceField(choices=["lb", "kg"])
+
+
+class DiagnosisSerializer(serializers.ModelSerializer):
+    """The stored judgement on one reading set, converted to the response's units."""
+
+    targets = TargetSerializer(many=True, read_only=True)
+    metrics = MetricSerializer(many=True, read_only=True)
+    findings = FindingSerializer(many=True, read_only=True)
+    cautions = CautionSerializer(many=True, read_only=True)
+    units = serializers.SerializerMethodField()
+
+    class Meta:
+        model = Diagnosis
+        fields = [
+            "score",
+            "algorithm_version",
+            "computed_at",
+            "targets",
+            "metrics",
+            "findings",
+            "cautions",
+            "glide_choice",
+            "energy_penalty_pct",
+            "units",
+        ]
+        read_only_fields = fields
+
+    @extend_schema_field(ResponseUnitsSerializer)
+    def get_units(self, obj: Diagnosis) -> dict[str, str]:
+        return response_units(self.context)
+
+    def to_representation(self, instance: Diagnosis) -> dict[str, Any]:
+        elevation_m = self.context.get("elevation_m")
+        if elevation_m is None:
+            elevation_m = instance.reading_set.visit_unit.unit.site.elevation_m
+        convert = Converter(response_units(self.context), elevation_m)
+        return {
+            "score": round(instance.score, 1),
+            "algorithm_version": instance.algorithm_version,
+            "computed_at": serializers.DateTimeField().to_representation(instance.computed_at),
+            "targets": [
+                {
+                    "name": t["name"],
+                    "value": convert.value(t["value"], t["unit"]),
+                    "range": {
+                        "low": convert.value(t.get("low"), t["unit"]),
+                        "high": convert.value(t.get("high"), t["unit"]),
+                    },
+                    "unit": convert.label(t["unit"]),
+                    "source": t.get("source", ""),
+                }
+                for t in instance.targets
+            ],
+            "metrics": [
+                {
+                    "name": m["name"],
+                    "measured": convert.value(m.get("measured"), m["unit"]),
+                    "target": convert.value(m.get("target"), m["unit"]),
+                    "range": {
+                        "low": convert.value(m.get("low"), m["unit"]),
+                        "high": convert.value(m.get("high"), m["unit"]),
+                    },
+                    "deviation": convert.difference(m.get("deviation"), m["unit"]),
+                    "unit": convert.label(m["unit"]),
+                    "status": m["status"],
+                    "points_lost": m.get("points_lost", 0.0),
+                    "reason": m.get("reason", ""),
+                }
+                for m in instance.metrics
+            ],
+            "findings": [
+                {
+                    "code": f["code"],
+                    "title": f["title"],
+                    "evidence": list(f.get("evidence", ())),
+                    "confidence": f.get("confidence", 0.0),
+                    "advice": f.get("advice", ""),
+                }
+                for f in instance.findings
+            ],
+            "cautions": [{"code": c["code"], "text": c["text"]} for c in instance.cautions],
+            "glide_choice": instance.glide_choice,
+            "energy_penalty_pct": _rounded(instance.energy_penalty_pct),
+            "units": convert.units,
+        }
+
+
+class LeakRateSerializer(serializers.ModelSerializer):
+    """The leak rate an addition showed under the configured rule set."""
+
+    class Meta:
+        model = LeakRate
+        fields = [
+            "rule_set",
+            "method",
+            "annualizing_percent",
+            "rolling_average_percent",
+            "threshold_percent",
+            "over_threshold",
+            "in_scope",
+            "repair_due_on",
+            "verification_due_on",
+            "note",
+            "computed_at",
+        ]
+        read_only_fields = fields
+
+
+class TrendPointSerializer(serializers.Serializer):
+    taken_at = serializers.DateTimeField()
+    value = serializers.FloatField()
+
+
+class TrendSeriesSerializer(serializers.Serializer):
+    metric = serializers.CharField()
+    unit = serializers.CharField()
+    points = TrendPointSerializer(many=True)
+
+
+class TrendsSerializer(serializers.Serializer):
+    unit = serializers.IntegerField(help_text="The unit's id.")
+    stage = serializers.CharField()
+    series = TrendSeriesSerializer(many=True)
+    units = ResponseUnitsSerializer()
+
+
+class FlagSerializer(serializers.ModelSerializer):
+    class Meta:
+        model = Flag
+        fields = [
+            "id",
+            "unit",
+            "kind",
+            "severity",
+            "summary",
+            "evidence",
+            "projected_on",
+            "opened_at",
+            "updated_at",
+            "acknowledged_at",
+            "acknowledgement_note",
+        ]
+        read_only_fields = fields
+
+
+class SaturationQuerySerializer(serializers.Serializer):
+    """``?pressure=&pressure_unit=&elevation_m=`` or ``?temperature=&temperature_unit=``."""
+
+    pressure = serializers.FloatField(required=False)
+    pressure_unit = serializers.ChoiceField(
+        choices=["psig", "psia", "kPa", "kPa_abs", "bar", "bar_abs"], required=False
+    )
+    temperature = serializers.FloatField(required=False)
+    temperature_unit = serializers.ChoiceField(choices=["F", "C", "K"], required=False)
+    elevation_m = serializers.FloatField(
+        required=False,
+        default=0.0,
+        min_value=-500,
+        max_value=5000,
+        help_text="Site elevation for gauge pressures; 0 (sea level) if absent.",
+    )
+
+    def validate(self, attrs: dict[str, Any]) -> dict[str, Any]:
+        has_p, has_t = "pressure" in attrs, "temperature" in attrs
+        if has_p == has_t:
+            raise serializers.ValidationError(
+                {"pressure": ["give either pressure (with pressure_unit) or temperature"]}
+            )
+        if has_p and "pressure_unit" not in attrs:
+            raise serializers.ValidationError(
+                {"pressure_unit": ["say which unit the pressure is in"]}
+            )
+        if has_t and "temperature_unit" not in attrs:
+            raise serializers.ValidationError(
+                {"temperature_unit": ["say which unit the temperature is in"]}
+            )
+        return attrs
+
+
+class SaturationSerializer(serializers.Serializer):
+    """Dew and bubble points; the ``*_c`` / ``*_kpa*`` keys are SI, the rest in ``units``."""
+
+    refrigerant = serializers.CharField()
+    elevation_m = serializers.FloatField()
+    absolute_pressure_kpa = serializers.FloatField(required=False)
+    dew_temperature_c = serializers.FloatField(required=False)
+    bubble_temperature_c = serializers.FloatField(required=False)
+    dew_temperature = serializers.FloatField(required=False)
+    bubble_temperature = serializers.FloatField(required=False)
+    temperature_c = serializers.FloatField(required=False)
+    dew_pressure_kpa_abs = serializers.FloatField(required=False)
+    bubble_pressure_kpa_abs = serializers.FloatField(required=False)
+    dew_pressure = serializers.FloatField(required=False, help_text="Gauge, at elevation_m.")
+    bubble_pressure = serializers.FloatField(required=False, help_text="Gauge, at elevation_m.")
+    glide = serializers.FloatField(help_text="Dew minus bubble temperature, a difference.")
+    units = ResponseUnitsSerializer()

@@ -1,0 +1,279 @@
+"""Forms of the office pages.
+
+They are ModelForms over the fleet models, so ``full_clean()`` runs the same field
+validators (generated from ``fleet/limits.py``) and the same ``clean()`` rules as the API:
+validation lives once, in the models.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from zoneinfo import ZoneInfo
+
+from django import forms
+from django.contrib.auth import get_user_model
+from django.db import IntegrityError, transaction
+from django.utils import timezone
+
+from diagnostics.models import Flag
+
+from .choices import Role, VisitStatus
+from .models import Site, Unit, Visit, VisitUnit
+
+User = get_user_model()
+
+#: Statuses in which the office may still change a visit's time, people or units.
+EDITABLE_STATUSES = frozenset({VisitStatus.SCHEDULED, VisitStatus.IN_PROGRESS})
+
+
+def technician_users():
+    """Active users of the technician group, in the order the schedule lists them."""
+    return (
+        User.objects.filter(groups__name=Role.TECHNICIAN, is_active=True)
+        .order_by("first_name", "last_name", "username")
+        .distinct()
+    )
+
+
+class TechnicianChoiceField(forms.ModelMultipleChoiceField):
+    def label_from_instance(self, obj) -> str:
+        return obj.get_full_name() or obj.get_username()
+
+
+class UnitChoiceField(forms.ModelMultipleChoiceField):
+    def label_from_instance(self, obj: Unit) -> str:
+        described = f" - {obj.description}" if obj.description else ""
+        return f"{obj.tag}{described} ({obj.refrigerant.designation})"
+
+
+class LocalDateTimeInput(forms.DateTimeInput):
+    """A browser date-and-time picker; the value is the site's wall-clock time."""
+
+    input_type = "datetime-local"
+
+    def __init__(self, **kwargs) -> None:
+        super().__init__(format="%Y-%m-%dT%H:%M", **kwargs)
+
+
+def site_wall_clock(value: dt.datetime | None, site: Site | None) -> dt.datetime | None:
+    """An aware datetime shown as the naive wall-clock time at the site (for the picker)."""
+    if value is None or site is None:
+        return value
+    return timezone.localtime(value, ZoneInfo(site.time_zone)).replace(tzinfo=None)
+
+
+def next_reference(day: dt.date) -> str:
+    """Our next visit number for the month of ``day``: V-YYMM-NNNN."""
+    prefix = f"V-{day:%y%m}-"
+    last = (
+        Visit.objects.filter(reference__startswith=prefix)
+        .order_by("-reference")
+        .values_list("reference", flat=True)
+        .first()
+    )
+    number = int(last.rsplit("-", 1)[1]) + 1 if last else 1
+    return f"{prefix}{number:04d}"
+
+
+def save_new_visit(visit: Visit, units, people=()) -> Visit:
+    """Store a new visit under our next free reference, with its units and people.
+
+    Two coordinators saving at the same moment could pick the same number; the unique
+    constraint refuses the second, which then takes the following number.
+    """
+    for _attempt in range(5):
+        visit.reference = next_reference(timezone.localdate())
+        try:
+            with transaction.atomic():
+                visit.save()
+                VisitUnit.objects.bulk_create(VisitUnit(visit=visit, unit=u) for u in units)
+                if people:
+                    visit.technicians.set(people)
+                return visit
+        except IntegrityError:
+            visit.pk = None
+            visit._state.adding = True
+    raise IntegrityError("could not find a free visit reference")
+
+
+class VisitForm(forms.ModelForm):
+    """Create a visit, or reschedule, reassign and re-scope one that has not been handed in.
+
+    Times are entered in the site's own time zone (the technician's wall clock there), which
+    is what a coordinator reads off a customer's phone call.
+    """
+
+    window_start = forms.DateTimeField(
+        label="Start (site's local time)", widget=LocalDateTimeInput()
+    )
+    window_end = forms.DateTimeField(label="End (site's local time)", widget=LocalDateTimeInput())
+    units = UnitChoiceField(
+        queryset=Unit.objects.none(),
+        widget=forms.CheckboxSelectMultiple,
+        label="Units to cover",
+        error_messages={"required": "Choose at least one unit of the site."},
+    )
+    technicians = TechnicianChoiceField(
+        queryset=technician_users(),
+        widget=forms.CheckboxSelectMultiple,
+        required=False,
+        label="Technicians",
+        help_text="Leave empty to book the visit now and assign it later.",
+    )
+
+    class Meta:
+        model = Visit
+        fields = ["site", "kind", "window_start", "window_end", "reported_problem"]
+        labels = {"reported_problem": "Problem reported (for calls)"}
+        widgets = {"reported_problem": forms.Textarea(attrs={"rows": 3})}
+
+    def __init__(self, *args, **kwargs) -> None:
+        super().__init__(*args, **kwargs)
+        self.fields["site"].queryset = Site.objects.select_related("customer")
+        self.fields["technicians"].queryset = technician_users()
+        site = self._chosen_site()
+        self.site = site
+        if site is not None:
+            self.fields["units"].queryset = (
+                Unit.objects.filter(site=site, retired_on__isnull=True)
+                .select_related("refrigerant")
+                .order_by("tag")
+            )
+        if self.instance.pk:
+            self._locked_unit_ids = set(
+                VisitUnit.objects.filter(visit=self.instance)
+                .filter(reading_sets__isnull=False)
+                .values_list("unit_id", flat=True)
+            ) | set(
+                VisitUnit.objects.filter(visit=self.instance)
+                .filter(refrigerant_events__isnull=False)
+                .values_list("unit_id", flat=True)
+            )
+            self.initial.setdefault("units", list(self.instance.units.values_list("pk", flat=True)))
+            self.initial.setdefault(
+                "technicians", list(self.instance.technicians.values_list("pk", flat=True))
+            )
+            for name in ("window_start", "window_end"):
+                self.initial[name] = site_wall_clock(getattr(self.instance, name), site)
+        else:
+            self._locked_unit_ids = set()
+
+    @property
+    def site_chosen(self) -> bool:
+        return self.site is not None
+
+    def _chosen_site(self) -> Site | None:
+        raw = None
+        if self.is_bound:
+            raw = self.data.get(self.add_prefix("site"))
+        elif self.initial.get("site"):
+            raw = self.initial["site"]
+        elif self.instance.pk:
+            return self.instance.site
+        if isinstance(raw, Site):
+            return raw
+        try:
+            return Site.objects.get(pk=int(raw)) if raw else None
+        except (TypeError, ValueError, Site.DoesNotExist):
+            return None
+
+    def clean(self) -> dict:
+        data = super().clean()
+        site = data.get("site")
+        if site is not None:
+            zone = ZoneInfo(site.time_zone)
+            for name in ("window_start", "window_end"):
+                value = data.get(name)
+                if value is not None:
+                    # The field read the picker in the server's zone; re-read it at the site.
+                    wall = timezone.localtime(value).replace(tzinfo=None)
+                    data[name] = wall.replace(tzinfo=zone)
+                    setattr(self.instance, name, data[name])
+        units = data.get("units")
+        if units is not None and site is not None:
+            strangers = [u.tag for u in units if u.site_id != site.pk]
+            if strangers:
+                self.add_error("units", f"not at this site: {', '.join(strangers)}")
+        if self.instance.pk and self._locked_unit_ids:
+            kept = {u.pk for u in units or ()}
+            dropped = self._locked_unit_ids - kept
+            if dropped:
+                tags = Unit.objects.filter(pk__in=dropped).values_list("tag", flat=True)
+                self.add_error(
+                    "units",
+                    "readings or refrigerant records exist for "
+                    f"{', '.join(sorted(tags))}; such a unit stays on the visit",
+                )
+        if (
+            self.instance.pk
+            and site is not None
+            and self.instance.site_id != site.pk
+            and self._locked_unit_ids
+        ):
+            self.add_error("site", "the visit already has readings; its site cannot change")
+        return data
+
+    @transaction.atomic
+    def save(self, commit: bool = True) -> Visit:
+        visit = super().save(commit=False)
+        units = self.cleaned_data["units"]
+        people = self.cleaned_data["technicians"]
+        if visit.pk is None:
+            return save_new_visit(visit, units, people)
+        visit.save()
+        current = set(VisitUnit.objects.filter(visit=visit).values_list("unit_id", flat=True))
+        wanted = {u.pk for u in units}
+        VisitUnit.objects.filter(visit=visit, unit_id__in=current - wanted).delete()
+        VisitUnit.objects.bulk_create(
+            VisitUnit(visit=visit, unit_id=pk) for pk in sorted(wanted - current)
+        )
+        visit.technicians.set(people)
+        return visit
+
+
+class ReviewForm(forms.Form):
+    """Accept a submitted visit, or hand it back to the technician saying what to change."""
+
+    ACCEPT = "accept"
+    RETURN = "return"
+
+    decision = forms.ChoiceField(
+        choices=[(ACCEPT, "Accept the visit"), (RETURN, "Return it to the technician")],
+        widget=forms.RadioSelect,
+        label="Your decision",
+    )
+    note = forms.CharField(
+        widget=forms.Textarea(attrs={"rows": 3}),
+        required=False,
+        label="Note to the technician",
+        help_text="Required when returning: say what to measure again or explain.",
+    )
+
+    def clean(self) -> dict:
+        data = super().clean()
+        if data.get("decision") == self.RETURN and not (data.get("note") or "").strip():
+            self.add_error("note", "Say what the technician should change before returning it.")
+        return data
+
+
+class AcknowledgeFlagForm(forms.ModelForm):
+    """The office has seen a flag and says what it is doing about it."""
+
+    class Meta:
+        model = Flag
+        fields = ["acknowledgement_note"]
+        labels = {"acknowledgement_note": "What is being done"}
+        widgets = {"acknowledgement_note": forms.Textarea(attrs={"rows": 2})}
+
+    def __init__(self, *args, **kwargs) -> None:
+        super().__init__(*args, **kwargs)
+        field = self.fields["acknowledgement_note"]
+        field.required = True
+        field.error_messages["required"] = "Say what is being done (a visit booked, parts ordered)."
+
+
+class CancelVisitForm(forms.Form):
+    confirm = forms.BooleanField(
+        label="Yes, cancel this visit",
+        error_messages={"required": "Tick the box to confirm the cancellation."},
+    )

@@ -1,0 +1,39 @@
+"""Stored reports in the admin: read-only, since a stored version never changes."""
+
+from __future__ import annotations
+
+from django.contrib import admin
+
+from .models import MonthlyReport
+
+
+@admin.register(MonthlyReport)
+class MonthlyReportAdmin(admin.ModelAdmin):
+    list_display = ("site", "month", "version", "generated_at", "page_count", "algorithm_version")
+    list_filter = ("month",)
+    list_select_related = ("site",)
+    search_fields = ("site__name", "site__customer__name", "checksum_sha256")
+    date_hierarchy = "month"
+    exclude = ("html",)
+    readonly_fields = (
+        "site",
+        "month",
+        "version",
+        "generated_at",
+        "algorithm_version",
+        "layout_version",
+        "display_units",
+        "checksum_sha256",
+        "pdf",
+        "page_count",
+        "unit_count",
+    )
+
+    def get_queryset(self, request):
+        return super().get_queryset(request).defer("html")
+
+    def has_add_permission(self, request) -> bool:
+        return False
+
+    def has_change_permission(self, request, obj=None) -> bool:
+        return False

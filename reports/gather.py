@@ -1,0 +1,1000 @@
+"""One site-month turned into plain data: every query of a monthly report lives here.
+
+``gather_site_month`` runs a fixed number of queries (ten) whatever the number of units,
+visits or readings: each asks for rows with ``values()`` over the whole site, and the rows are
+grouped per unit in plain loops. Nothing past this module holds an ORM object, so the charts
+and the templates cannot trigger a query.
+
+What is read, and why:
+- readings and their stored diagnoses over the twelve months ending with the report month
+  (the trend charts), with the JSON details (metrics, findings, cautions) of the month;
+- the stored leak rates of the refrigerant additions in that window (computed by the
+  diagnostics core when the addition was recorded; not recomputed here);
+- the flags open when the report is made (what the manager must act on now; a flag
+  opened overnight on the 1st from the month's readings belongs in that month's report);
+- the month's visits, their technicians and units;
+- the components fitted or removed in the window.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from dataclasses import dataclass
+from datetime import date, datetime
+from statistics import fmean
+from typing import Any
+from zoneinfo import ZoneInfo
+
+from django.db.models import Q
+
+from diagnostics.core import leaks
+from diagnostics.core.scoring import SCORING_TABLE
+from diagnostics.models import Diagnosis, Flag, FlagKind, FlagSeverity
+from fleet import choices
+from fleet.models import Component, ReadingSet, RefrigerantEvent, Site, Unit, Visit, VisitUnit
+
+from . import summary
+from .months import Month
+
+#: Months of history the trend charts cover, the report month included.
+WINDOW_MONTHS = 12
+
+_CAPACITOR_ROLES = {
+    "run_capacitor": "run",
+    "start_capacitor": "start",
+    "hard_start_kit": "start",
+}
+
+
+# --- the plain data -----------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class SiteInfo:
+    id: int
+    name: str
+    customer: str
+    address: str
+    time_zone: str
+    elevation_m: float
+    design_ambient_c: float
+    tariff_per_kwh: float
+    currency: str
+
+
+@dataclass(frozen=True)
+class CapacitorRating:
+    kind_label: str
+    low_uf: float
+    high_uf: float
+
+
+@dataclass(frozen=True)
+class UnitInfo:
+    """Nameplate and design data, as stored (SI)."""
+
+    id: int
+    tag: str
+    description: str
+    application: str
+    application_label: str
+    appliance_type_label: str
+    refrigerant: str
+    safety_class: str
+    gwp: float
+    full_charge_kg: float
+    metering_label: str
+    condenser_label: str
+    has_receiver: bool
+    design_box_temp_c: float
+    design_evap_td_k: float | None
+    design_condenser_split_k: float | None
+    high_pressure_cutout_kpa_gauge: float | None
+    nameplate_volts: float
+    phase: int
+    hertz: int
+    rla_a: float
+    lra_a: float
+    installed_on: date | None
+    run_capacitor: CapacitorRating | None
+    start_capacitor: CapacitorRating | None
+
+    @property
+    def flammable(self) -> bool:
+        """Safety classes 2L, 2 and 3 (ASHRAE 34) burn; class 1 does not."""
+        return not self.safety_class.upper().endswith("1")
+
+
+@dataclass(frozen=True)
+class MetricRow:
+    name: str
+    label: str
+    measured: float | None
+    target: float | None
+    low: float | None
+    high: float | None
+    deviation: float | None
+    unit: str
+    status: str
+    points_lost: float
+    reason: str
+
+
+@dataclass(frozen=True)
+class FindingRow:
+    code: str
+    title: str
+    evidence: tuple[str, ...]
+    confidence: float
+    advice: str
+
+
+@dataclass(frozen=True)
+class CautionRow:
+    code: str
+    text: str
+
+
+@dataclass(frozen=True)
+class Check:
+    """One diagnosed reading set taken in the report month."""
+
+    reading_set_id: int
+    visit_reference: str
+    taken_at: datetime
+    stage: str
+    stage_label: str
+    score: float | None
+    algorithm_version: str
+    glide_choice: str
+    energy_penalty_pct: float | None
+    metrics: tuple[MetricRow, ...]
+    findings: tuple[FindingRow, ...]
+    cautions: tuple[CautionRow, ...]
+    notes: str
+    compressor_running: bool | None
+    mean_amps: float | None
+    mean_volts: float | None
+
+
+@dataclass(frozen=True)
+class HistoryPoint:
+    """One visit's values for the trend charts (the as-found reading where there is one)."""
+
+    taken_on: date
+    score: float | None
+    box_temp_c: float | None
+    entering_air_c: float | None
+    evaporating_c: float | None
+    evaporating_target_c: float | None
+    condensing_c: float | None
+    condensing_target_c: float | None
+    superheat_k: float | None
+    superheat_low_k: float | None
+    superheat_high_k: float | None
+    subcooling_k: float | None
+    subcooling_low_k: float | None
+    subcooling_high_k: float | None
+    amps_a: float | None
+    compressor_running: bool | None
+    run_capacitor_uf: float | None
+    start_capacitor_uf: float | None
+
+
+#: Units the report converts for display; the core writes its evidence text in SI, so these
+#: quantities are repeated beside it in the reader's units.
+CONVERTED_UNITS = frozenset({"C", "K", "kPa", "kg"})
+
+
+@dataclass(frozen=True)
+class EvidenceRow:
+    text: str
+    observed_on: date | None
+    quantities: tuple[tuple[str, float, str], ...]
+
+    @property
+    def display_quantities(self) -> tuple[tuple[str, float, str], ...]:
+        return tuple(q for q in self.quantities if q[2] in CONVERTED_UNITS)
+
+
+@dataclass(frozen=True)
+class FlagRow:
+    id: int
+    kind: str
+    kind_label: str
+    severity: str
+    severity_label: str
+    severity_rank: int
+    summary: str
+    evidence: tuple[EvidenceRow, ...]
+    projected_on: date | None
+    opened_on: date
+    acknowledged: bool
+    acknowledgement_note: str
+
+
+@dataclass(frozen=True)
+class LeakRateRow:
+    """A refrigerant addition and the leak rate stored for it (None where none is stored)."""
+
+    event_id: int
+    occurred_on: date
+    amount_kg: float
+    exemption: str
+    visit_reference: str
+    computed: bool
+    rule_set: str
+    method: str
+    annualizing_percent: float | None
+    rolling_average_percent: float | None
+    threshold_percent: float | None
+    over_threshold: bool
+    in_scope: bool
+    repair_due_on: date | None
+    verification_due_on: date | None
+    note: str
+
+    @property
+    def leak_rate_percent(self) -> float | None:
+        """The rate by the facility's chosen method (the one compared with the threshold)."""
+        if self.method == "annualizing":
+            return self.annualizing_percent
+        return self.rolling_average_percent
+
+
+@dataclass(frozen=True)
+class ComponentRow:
+    kind: str
+    kind_label: str
+    installed_on: date | None
+    removed_on: date | None
+    reason: str
+    rating_uf_min: float | None
+    rating_uf_max: float | None
+    visit_reference: str
+
+
+@dataclass(frozen=True)
+class VisitInfo:
+    id: int
+    reference: str
+    kind: str
+    kind_label: str
+    status: str
+    status_label: str
+    starts_at: datetime
+    technicians: tuple[str, ...]
+    unit_tags: tuple[str, ...]
+    reported_problem: str
+    work_summary: str
+
+
+@dataclass(frozen=True)
+class UnitMonth:
+    """Everything the report says about one unit, raw and judged."""
+
+    unit: UnitInfo
+    checks: tuple[Check, ...]
+    history: tuple[HistoryPoint, ...]
+    flags: tuple[FlagRow, ...]
+    leak_rates: tuple[LeakRateRow, ...]
+    components: tuple[ComponentRow, ...]
+    added_kg_month: float
+    current: Check | None
+    as_left: Check | None
+    health: summary.Health
+    trend: summary.Trend
+    energy: summary.EnergyEstimate | None
+    actions: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class SiteMonth:
+    """A site-month as plain data: the input of the charts and the templates."""
+
+    site: SiteInfo
+    month: Month
+    window_start: Month
+    #: When the report was made: the open flags are those open then.
+    as_of: datetime
+    units: tuple[UnitMonth, ...]
+    visits: tuple[VisitInfo, ...]
+    refrigerant: leaks.SiteLeakTotals
+    overview: summary.SiteOverview
+    attention: tuple[UnitMonth, ...]
+    algorithm_versions: tuple[str, ...]
+    glide_choices: tuple[str, ...]
+    leak_rules: tuple[tuple[str, str], ...]
+
+    @property
+    def has_visits(self) -> bool:
+        return bool(self.visits)
+
+    @property
+    def algorithm_version(self) -> str:
+        """The diagnosis algorithm version(s) behind the numbers, as stored on the report."""
+        return ", ".join(self.algorithm_versions)
+
+
+# --- small conversions --------------------------------------------------------------------------
+
+
+def _num(value: Any) -> float | None:
+    """A JSON or column number as float; None, NaN and non-numbers as None."""
+    if value is None or isinstance(value, bool):
+        return None
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return None
+    return None if number != number else number
+
+
+def _mean(values: list[float | None]) -> float | None:
+    present = [v for v in values if v is not None]
+    return fmean(present) if present else None
+
+
+def _labels(choice_class: Any) -> dict[str, str]:
+    return {value: str(label) for value, label in choice_class.choices}
+
+
+def _person(first: str, last: str, username: str) -> str:
+    full = f"{first} {last}".strip()
+    return full or username
+
+
+_SEVERITY_LABELS = _labels(FlagSeverity)
+_KIND_LABELS = _labels(FlagKind)
+
+
+def _metric_rows(raw: Any) -> tuple[MetricRow, ...]:
+    rows = []
+    for m in raw if isinstance(raw, list) else []:
+        if not isinstance(m, dict):
+            continue
+        name = str(m.get("name", ""))
+        rule = SCORING_TABLE.get(name)
+        rows.append(
+            MetricRow(
+                name=name,
+                label=rule.label if rule else name.replace("_", " "),
+                measured=_num(m.get("measured")),
+                target=_num(m.get("target")),
+                low=_num(m.get("low")),
+                high=_num(m.get("high")),
+                deviation=_num(m.get("deviation")),
+                unit=str(m.get("unit", "")),
+                status=str(m.get("status", "")),
+                points_lost=_num(m.get("points_lost")) or 0.0,
+                reason=str(m.get("reason", "")),
+            )
+        )
+    return tuple(rows)
+
+
+def _finding_rows(raw: Any) -> tuple[FindingRow, ...]:
+    rows = []
+    for f in raw if isinstance(raw, list) else []:
+        if not isinstance(f, dict):
+            continue
+        evidence = f.get("evidence") or ()
+        rows.append(
+            FindingRow(
+                code=str(f.get("code", "")),
+                title=str(f.get("title", "")),
+                evidence=tuple(str(e) for e in evidence),
+                confidence=_num(f.get("confidence")) or 0.0,
+                advice=str(f.get("advice", "")),
+            )
+        )
+    return tuple(sorted(rows, key=lambda r: -r.confidence))
+
+
+def _caution_rows(raw: Any) -> tuple[CautionRow, ...]:
+    return tuple(
+        CautionRow(str(c.get("code", "")), str(c.get("text", "")))
+        for c in (raw if isinstance(raw, list) else [])
+        if isinstance(c, dict)
+    )
+
+
+def _evidence_rows(raw: Any) -> tuple[EvidenceRow, ...]:
+    rows = []
+    for item in raw if isinstance(raw, list) else []:
+        if isinstance(item, str):
+            rows.append(EvidenceRow(item, None, ()))
+            continue
+        if not isinstance(item, dict):
+            continue
+        observed = item.get("observed_on")
+        try:
+            observed_on = date.fromisoformat(observed) if observed else None
+        except (TypeError, ValueError):
+            observed_on = None
+        quantities = []
+        for q in item.get("quantities") or ():
+            if isinstance(q, list | tuple) and len(q) == 3 and _num(q[1]) is not None:
+                quantities.append((str(q[0]), float(q[1]), str(q[2])))
+        rows.append(EvidenceRow(str(item.get("text", "")), observed_on, tuple(quantities)))
+    return tuple(rows)
+
+
+def _band(metrics: Any, name: str) -> tuple[float | None, float | None]:
+    """The ok range (low, high) a stored metric was judged against."""
+    for m in metrics if isinstance(metrics, list) else []:
+        if isinstance(m, dict) and m.get("name") == name:
+            return _num(m.get("low")), _num(m.get("high"))
+    return None, None
+
+
+def _target_value(targets: Any, name: str) -> float | None:
+    for t in targets if isinstance(targets, list) else []:
+        if isinstance(t, dict) and t.get("name") == name:
+            return _num(t.get("value"))
+    return None
+
+
+# --- the queries --------------------------------------------------------------------------------
+
+
+_READING_COLUMNS = (
+    "id",
+    "visit_unit__unit_id",
+    "visit_unit__visit__reference",
+    "taken_at",
+    "stage",
+    "box_temp_c",
+    "entering_air_temp_c",
+    "compressor_amps_1",
+    "compressor_amps_2",
+    "compressor_amps_3",
+    "supply_volts_1",
+    "supply_volts_2",
+    "supply_volts_3",
+    "run_capacitor_uf",
+    "start_capacitor_uf",
+    "compressor_running",
+    "notes",
+    "diagnosis__id",
+    "diagnosis__score",
+    "diagnosis__algorithm_version",
+    "diagnosis__evaporating_c",
+    "diagnosis__condensing_c",
+    "diagnosis__superheat_k",
+    "diagnosis__subcooling_k",
+    "diagnosis__targets",
+    "diagnosis__metrics",
+)
+
+
+def _site(site_id: int) -> SiteInfo:
+    row = (
+        Site.objects.filter(pk=site_id)
+        .values(
+            "id",
+            "name",
+            "customer__name",
+            "address",
+            "time_zone",
+            "elevation_m",
+            "design_ambient_c",
+            "tariff_per_kwh",
+            "currency",
+        )
+        .get()
+    )
+    return SiteInfo(
+        id=row["id"],
+        name=row["name"],
+        customer=row["customer__name"],
+        address=row["address"],
+        time_zone=row["time_zone"],
+        elevation_m=row["elevation_m"],
+        design_ambient_c=row["design_ambient_c"],
+        tariff_per_kwh=float(row["tariff_per_kwh"]),
+        currency=row["currency"],
+    )
+
+
+def _components(site_id: int) -> dict[int, list[dict[str, Any]]]:
+    by_unit: dict[int, list[dict[str, Any]]] = defaultdict(list)
+    for row in (
+        Component.objects.filter(unit__site_id=site_id)
+        .order_by("unit_id", "installed_on", "id")
+        .values(
+            "id",
+            "unit_id",
+            "kind",
+            "rating_uf_min",
+            "rating_uf_max",
+            "installed_on",
+            "removed_on",
+            "reason",
+            "changed_on_visit__reference",
+        )
+    ):
+        by_unit[row["unit_id"]].append(row)
+    return by_unit
+
+
+def _fitted_rating(parts: list[dict[str, Any]], role: str, on: date) -> CapacitorRating | None:
+    """The rating of the newest capacitor of a role in service on ``on``."""
+    labels = _labels(choices.ComponentKind)
+    fitted = [
+        p
+        for p in parts
+        if _CAPACITOR_ROLES.get(p["kind"]) == role
+        and p["rating_uf_min"] is not None
+        and (p["installed_on"] is None or p["installed_on"] <= on)
+        and (p["removed_on"] is None or p["removed_on"] > on)
+    ]
+    if not fitted:
+        return None
+    newest = max(fitted, key=lambda p: (p["installed_on"] or date.min, p["id"]))
+    high = newest["rating_uf_max"] if newest["rating_uf_max"] is not None else None
+    return CapacitorRating(
+        labels.get(newest["kind"], newest["kind"]),
+        newest["rating_uf_min"],
+        high if high is not None else newest["rating_uf_min"],
+    )
+
+
+def _units(
+    site_id: int, month: Month, components: dict[int, list[dict[str, Any]]]
+) -> list[UnitInfo]:
+    app = _labels(choices.Application)
+    appliance = _labels(choices.ApplianceType)
+    metering = _labels(choices.MeteringDevice)
+    condenser = _labels(choices.CondenserType)
+    rows = (
+        Unit.objects.filter(site_id=site_id)
+        .filter(Q(retired_on__isnull=True) | Q(retired_on__gte=month.first_day))
+        .filter(Q(installed_on__isnull=True) | Q(installed_on__lte=month.last_day))
+        .order_by("tag")
+        .values(
+            "id",
+            "tag",
+            "description",
+            "application",
+            "appliance_type",
+            "refrigerant__designation",
+            "refrigerant__safety_class",
+            "refrigerant__gwp",
+            "full_charge_kg",
+            "metering_device",
+            "condenser_type",
+            "has_receiver",
+            "design_box_temp_c",
+            "design_evap_td_k",
+            "design_condenser_split_k",
+            "high_pressure_cutout_kpa_gauge",
+            "nameplate_volts",
+            "phase",
+            "hertz",
+            "rla_a",
+            "lra_a",
+            "installed_on",
+        )
+    )
+    out = []
+    for r in rows:
+        parts = components.get(r["id"], [])
+        out.append(
+            UnitInfo(
+                id=r["id"],
+                tag=r["tag"],
+                description=r["description"],
+                application=r["application"],
+                application_label=app.get(r["application"], r["application"]),
+                appliance_type_label=appliance.get(r["appliance_type"], r["appliance_type"]),
+                refrigerant=r["refrigerant__designation"],
+                safety_class=r["refrigerant__safety_class"],
+                gwp=r["refrigerant__gwp"],
+                full_charge_kg=r["full_charge_kg"],
+                metering_label=metering.get(r["metering_device"], r["metering_device"]),
+                condenser_label=condenser.get(r["condenser_type"], r["condenser_type"]),
+                has_receiver=r["has_receiver"],
+                design_box_temp_c=r["design_box_temp_c"],
+                design_evap_td_k=r["design_evap_td_k"],
+                design_condenser_split_k=r["design_condenser_split_k"],
+                high_pressure_cutout_kpa_gauge=r["high_pressure_cutout_kpa_gauge"],
+                nameplate_volts=r["nameplate_volts"],
+                phase=r["phase"],
+                hertz=r["hertz"],
+                rla_a=r["rla_a"],
+                lra_a=r["lra_a"],
+                installed_on=r["installed_on"],
+                run_capacitor=_fitted_rating(parts, "run", month.last_day),
+                start_capacitor=_fitted_rating(parts, "start", month.last_day),
+            )
+        )
+    return out
+
+
+def _readings(site_id: int, start: datetime, end: datetime) -> dict[int, list[dict[str, Any]]]:
+    by_unit: dict[int, list[dict[str, Any]]] = defaultdict(list)
+    rows = (
+        ReadingSet.objects.filter(
+            visit_unit__unit__site_id=site_id, taken_at__gte=start, taken_at__lt=end
+        )
+        .exclude(visit_unit__visit__status=choices.VisitStatus.CANCELLED)
+        .order_by("taken_at", "id")
+        .values(*_READING_COLUMNS)
+    )
+    for row in rows:
+        by_unit[row["visit_unit__unit_id"]].append(row)
+    return by_unit
+
+
+def _month_details(site_id: int, start: datetime, end: datetime) -> dict[int, dict[str, Any]]:
+    """The JSON details (findings, cautions...) of the month's diagnoses, by reading set."""
+    rows = Diagnosis.objects.filter(
+        reading_set__visit_unit__unit__site_id=site_id,
+        reading_set__taken_at__gte=start,
+        reading_set__taken_at__lt=end,
+    ).values("reading_set_id", "findings", "cautions", "glide_choice", "energy_penalty_pct")
+    return {row["reading_set_id"]: row for row in rows}
+
+
+def _visits(site_id: int, start: datetime, end: datetime, tz: ZoneInfo) -> list[VisitInfo]:
+    in_month = Q(visit__site_id=site_id, visit__window_start__gte=start)
+    in_month &= Q(visit__window_start__lt=end)
+    technicians: dict[int, list[str]] = defaultdict(list)
+    for row in (
+        Visit.technicians.through.objects.filter(in_month)
+        .order_by("user__last_name", "user__username")
+        .values("visit_id", "user__first_name", "user__last_name", "user__username")
+    ):
+        technicians[row["visit_id"]].append(
+            _person(row["user__first_name"], row["user__last_name"], row["user__username"])
+        )
+    tags: dict[int, list[str]] = defaultdict(list)
+    for row in (
+        VisitUnit.objects.filter(in_month).order_by("unit__tag").values("visit_id", "unit__tag")
+    ):
+        tags[row["visit_id"]].append(row["unit__tag"])
+    kind = _labels(choices.VisitKind)
+    status = _labels(choices.VisitStatus)
+    rows = (
+        Visit.objects.filter(site_id=site_id, window_start__gte=start, window_start__lt=end)
+        .order_by("window_start", "id")
+        .values(
+            "id", "reference", "kind", "status", "window_start", "reported_problem", "work_summary"
+        )
+    )
+    return [
+        VisitInfo(
+            id=v["id"],
+            reference=v["reference"],
+            kind=v["kind"],
+            kind_label=kind.get(v["kind"], v["kind"]),
+            status=v["status"],
+            status_label=status.get(v["status"], v["status"]),
+            starts_at=v["window_start"].astimezone(tz),
+            technicians=tuple(technicians.get(v["id"], ())),
+            unit_tags=tuple(tags.get(v["id"], ())),
+            reported_problem=v["reported_problem"],
+            work_summary=v["work_summary"],
+        )
+        for v in rows
+    ]
+
+
+def _refrigerant_events(site_id: int, first: date, last: date) -> dict[int, list[LeakRateRow]]:
+    by_unit: dict[int, list[LeakRateRow]] = defaultdict(list)
+    rows = (
+        RefrigerantEvent.objects.filter(
+            visit_unit__unit__site_id=site_id,
+            kind=choices.RefrigerantEventKind.ADDED,
+            occurred_on__gte=first,
+            occurred_on__lte=last,
+        )
+        .order_by("occurred_on", "id")
+        .values(
+            "id",
+            "visit_unit__unit_id",
+            "visit_unit__visit__reference",
+            "occurred_on",
+            "amount_kg",
+            "leak_rate_exemption",
+            "leak_rate__id",
+            "leak_rate__rule_set",
+            "leak_rate__method",
+            "leak_rate__annualizing_percent",
+            "leak_rate__rolling_average_percent",
+            "leak_rate__threshold_percent",
+            "leak_rate__over_threshold",
+            "leak_rate__in_scope",
+            "leak_rate__repair_due_on",
+            "leak_rate__verification_due_on",
+            "leak_rate__note",
+        )
+    )
+    for r in rows:
+        by_unit[r["visit_unit__unit_id"]].append(
+            LeakRateRow(
+                event_id=r["id"],
+                occurred_on=r["occurred_on"],
+                amount_kg=r["amount_kg"] or 0.0,
+                exemption=r["leak_rate_exemption"],
+                visit_reference=r["visit_unit__visit__reference"],
+                computed=r["leak_rate__id"] is not None,
+                rule_set=r["leak_rate__rule_set"] or "",
+                method=r["leak_rate__method"] or "",
+                annualizing_percent=r["leak_rate__annualizing_percent"],
+                rolling_average_percent=r["leak_rate__rolling_average_percent"],
+                threshold_percent=r["leak_rate__threshold_percent"],
+                over_threshold=bool(r["leak_rate__over_threshold"]),
+                in_scope=bool(r["leak_rate__in_scope"]),
+                repair_due_on=r["leak_rate__repair_due_on"],
+                verification_due_on=r["leak_rate__verification_due_on"],
+                note=r["leak_rate__note"] or "",
+            )
+        )
+    return by_unit
+
+
+def _flags(site_id: int, as_of: datetime, tz: ZoneInfo) -> dict[int, list[FlagRow]]:
+    """Flags open at ``as_of``: opened before it and not cleared by then."""
+    by_unit: dict[int, list[FlagRow]] = defaultdict(list)
+    rows = (
+        Flag.objects.filter(unit__site_id=site_id, opened_at__lte=as_of)
+        .filter(Q(cleared_at__isnull=True) | Q(cleared_at__gt=as_of))
+        .order_by("unit_id", "opened_at", "id")
+        .values(
+            "id",
+            "unit_id",
+            "kind",
+            "severity",
+            "summary",
+            "evidence",
+            "projected_on",
+            "opened_at",
+            "acknowledged_at",
+            "acknowledgement_note",
+        )
+    )
+    for r in rows:
+        by_unit[r["unit_id"]].append(
+            FlagRow(
+                id=r["id"],
+                kind=r["kind"],
+                kind_label=_KIND_LABELS.get(r["kind"], r["kind"].replace("_", " ")),
+                severity=r["severity"],
+                severity_label=_SEVERITY_LABELS.get(r["severity"], r["severity"].title()),
+                severity_rank=summary.severity_rank(r["severity"]),
+                summary=r["summary"],
+                evidence=_evidence_rows(r["evidence"]),
+                projected_on=r["projected_on"],
+                opened_on=r["opened_at"].astimezone(tz).date(),
+                acknowledged=r["acknowledged_at"] is not None,
+                acknowledgement_note=r["acknowledgement_note"],
+            )
+        )
+    return by_unit
+
+
+# --- per unit, in plain loops -------------------------------------------------------------------
+
+
+def _history_point(row: dict[str, Any], tz: ZoneInfo) -> HistoryPoint:
+    targets, metrics = row["diagnosis__targets"], row["diagnosis__metrics"]
+    sh_low, sh_high = _band(metrics, "superheat")
+    sc_low, sc_high = _band(metrics, "subcooling")
+    amps = [
+        a
+        for a in (row["compressor_amps_1"], row["compressor_amps_2"], row["compressor_amps_3"])
+        if a is not None
+    ]
+    return HistoryPoint(
+        taken_on=row["taken_at"].astimezone(tz).date(),
+        score=row["diagnosis__score"],
+        box_temp_c=row["box_temp_c"],
+        entering_air_c=row["entering_air_temp_c"],
+        evaporating_c=row["diagnosis__evaporating_c"],
+        evaporating_target_c=_target_value(targets, "evaporating_temp"),
+        condensing_c=row["diagnosis__condensing_c"],
+        condensing_target_c=_target_value(targets, "condensing_temp"),
+        superheat_k=row["diagnosis__superheat_k"],
+        superheat_low_k=sh_low,
+        superheat_high_k=sh_high,
+        subcooling_k=row["diagnosis__subcooling_k"],
+        subcooling_low_k=sc_low,
+        subcooling_high_k=sc_high,
+        # The highest leg: the one closest to its limit.
+        amps_a=max(amps) if amps else None,
+        compressor_running=row["compressor_running"],
+        run_capacitor_uf=row["run_capacitor_uf"],
+        start_capacitor_uf=row["start_capacitor_uf"],
+    )
+
+
+def _one_per_visit(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """The as-found reading of each visit (else its first): trends compare like with like."""
+    chosen: dict[str, dict[str, Any]] = {}
+    for row in rows:
+        ref = row["visit_unit__visit__reference"]
+        kept = chosen.get(ref)
+        if kept is None or (
+            kept["stage"] != choices.Stage.AS_FOUND and row["stage"] == choices.Stage.AS_FOUND
+        ):
+            chosen[ref] = row
+    return sorted(chosen.values(), key=lambda r: (r["taken_at"], r["id"]))
+
+
+def _check(row: dict[str, Any], details: dict[str, Any], tz: ZoneInfo) -> Check:
+    stage = _labels(choices.Stage)
+    return Check(
+        reading_set_id=row["id"],
+        visit_reference=row["visit_unit__visit__reference"],
+        taken_at=row["taken_at"].astimezone(tz),
+        stage=row["stage"],
+        stage_label=stage.get(row["stage"], row["stage"]),
+        score=row["diagnosis__score"],
+        algorithm_version=row["diagnosis__algorithm_version"] or "",
+        glide_choice=details.get("glide_choice", "") or "",
+        energy_penalty_pct=details.get("energy_penalty_pct"),
+        metrics=_metric_rows(row["diagnosis__metrics"]),
+        findings=_finding_rows(details.get("findings")),
+        cautions=_caution_rows(details.get("cautions")),
+        notes=row["notes"],
+        compressor_running=row["compressor_running"],
+        mean_amps=_mean(
+            [row["compressor_amps_1"], row["compressor_amps_2"], row["compressor_amps_3"]]
+        ),
+        mean_volts=_mean([row["supply_volts_1"], row["supply_volts_2"], row["supply_volts_3"]]),
+    )
+
+
+def _component_rows(parts: list[dict[str, Any]], first: date, last: date) -> list[ComponentRow]:
+    """Parts fitted or taken out in the window; the original equipment is not news."""
+    labels = _labels(choices.ComponentKind)
+    out = []
+    for p in parts:
+        fitted = p["installed_on"] is not None and first <= p["installed_on"] <= last
+        removed = p["removed_on"] is not None and first <= p["removed_on"] <= last
+        if fitted or removed:
+            out.append(
+                ComponentRow(
+                    kind=p["kind"],
+                    kind_label=labels.get(p["kind"], p["kind"]),
+                    installed_on=p["installed_on"],
+                    removed_on=p["removed_on"],
+                    reason=p["reason"],
+                    rating_uf_min=p["rating_uf_min"],
+                    rating_uf_max=p["rating_uf_max"],
+                    visit_reference=p["changed_on_visit__reference"] or "",
+                )
+            )
+    return out
+
+
+def gather_site_month(site_id: int, month: Month, *, now: datetime) -> SiteMonth:
+    """The site-month as plain data, in a fixed number of queries.
+
+    Readings, visits and additions are those of the month (and the eleven before it for
+    the trends); flags are those open at ``now``, the moment the report is made.
+    """
+    site = _site(site_id)
+    tz = ZoneInfo(site.time_zone)
+    window_start = month.shift(-(WINDOW_MONTHS - 1))
+    start, month_start, end = window_start.start_in(tz), month.start_in(tz), month.end_in(tz)
+    as_of = now
+
+    components = _components(site_id)
+    units = _units(site_id, month, components)
+    readings = _readings(site_id, start, end)
+    details = _month_details(site_id, month_start, end)
+    visits = _visits(site_id, month_start, end, tz)
+    additions = _refrigerant_events(site_id, window_start.first_day, month.last_day)
+    flags = _flags(site_id, as_of, tz)
+
+    unit_months = []
+    for unit in units:
+        rows = readings.get(unit.id, [])
+        month_rows = [r for r in rows if r["taken_at"] >= month_start]
+        checks = tuple(_check(r, details.get(r["id"], {}), tz) for r in month_rows)
+        history = tuple(_history_point(r, tz) for r in _one_per_visit(rows))
+        unit_flags = tuple(flags.get(unit.id, ()))
+        unit_leaks = tuple(additions.get(unit.id, ()))
+        added_month = sum(
+            a.amount_kg for a in unit_leaks if month.first_day <= a.occurred_on <= month.last_day
+        )
+        current = summary.current_check(checks)
+        as_left = summary.as_left_check(checks, current)
+        health = summary.grade_unit(current, unit_flags, unit_leaks, month)
+        trend = summary.trend_of(history, month)
+        energy = summary.energy_estimate(
+            current,
+            phase=unit.phase,
+            tariff_per_kwh=site.tariff_per_kwh,
+            currency=site.currency,
+            days_in_month=month.days,
+        )
+        unit_months.append(
+            UnitMonth(
+                unit=unit,
+                checks=checks,
+                history=history,
+                flags=unit_flags,
+                leak_rates=unit_leaks,
+                components=tuple(
+                    _component_rows(
+                        components.get(unit.id, []), window_start.first_day, month.last_day
+                    )
+                ),
+                added_kg_month=added_month,
+                current=current,
+                as_left=as_left,
+                health=health,
+                trend=trend,
+                energy=energy,
+                actions=summary.actions_for(
+                    current, unit_flags, unit_leaks, month, today=now.astimezone(tz).date()
+                ),
+            )
+        )
+
+    totals = leaks.site_totals(
+        [
+            leaks.UnitAdditions(
+                u.unit.id,
+                u.unit.refrigerant,
+                tuple(
+                    leaks.RefrigerantAddition(
+                        a.occurred_on,
+                        a.amount_kg,
+                        leaks.ExcludedReason(a.exemption) if a.exemption else None,
+                    )
+                    for a in u.leak_rates
+                ),
+            )
+            for u in unit_months
+        ],
+        month.first_day,
+        month.last_day,
+    )
+    all_checks = [c for u in unit_months for c in u.checks]
+    return SiteMonth(
+        site=site,
+        month=month,
+        window_start=window_start,
+        as_of=as_of.astimezone(tz),
+        units=tuple(unit_months),
+        visits=tuple(visits),
+        refrigerant=totals,
+        overview=summary.overview(unit_months, visits),
+        attention=summary.rank_attention(unit_months),
+        algorithm_versions=tuple(sorted({c.algorithm_version for c in all_checks} - {""})),
+        glide_choices=tuple(sorted({c.glide_choice for c in all_checks} - {""})),
+        leak_rules=tuple(
+            sorted(
+                {
+                    (a.rule_set, a.method)
+                    for u in unit_months
+                    for a in u.leak_rates
+                    if a.computed and a.rule_set
+                }
+            )
+        ),
+    )
+
+
+__all__ = [
+    "WINDOW_MONTHS",
+    "Check",
+    "ComponentRow",
+    "EvidenceRow",
+    "FindingRow",
+    "FlagRow",
+    "HistoryPoint",
+    "LeakRateRow",
+    "MetricRow",
+    "SiteInfo",
+    "SiteMonth",
+    "UnitInfo",
+    "UnitMonth",
+    "VisitInfo",
+    "gather_site_month",
+]

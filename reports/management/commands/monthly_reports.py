@@ -1,0 +1,77 @@
+"""Generate and store the monthly health reports of one month, with a progress bar.
+
+    python manage.py monthly_reports --month 2026-03 [--site ID] [--out DIR] [--email]
+
+Each run stores a new version of each site-month (earlier versions stay). ``--out`` also
+writes each PDF into a folder; ``--email`` sends each report to the site's managers.
+A site that fails is reported and the others still run; the command then exits non-zero.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from django.core.management.base import BaseCommand, CommandError, CommandParser
+from django.utils import timezone
+from tqdm import tqdm
+
+from fleet.models import Site
+from reports.months import Month
+from reports.services import email_report, generate_monthly_report
+
+
+def _month(text: str) -> Month:
+    try:
+        return Month.parse(text)
+    except ValueError as exc:
+        raise CommandError(f"--month: {exc}") from exc
+
+
+class Command(BaseCommand):
+    help = "Generate and store the monthly site health reports for --month YYYY-MM."
+
+    def add_arguments(self, parser: CommandParser) -> None:
+        parser.add_argument("--month", required=True, help="The month to report on, YYYY-MM.")
+        parser.add_argument("--site", type=int, help="Only this site (its id).")
+        parser.add_argument("--out", type=Path, help="Also write each PDF into this folder.")
+        parser.add_argument(
+            "--email", action="store_true", help="Email each report to the site's managers."
+        )
+
+    def handle(self, *args, **options) -> None:
+        month = _month(options["month"])
+        sites = Site.objects.select_related("customer").order_by("customer__name", "name")
+        if options["site"] is not None:
+            sites = sites.filter(pk=options["site"])
+            if not sites.exists():
+                raise CommandError(f"--site: no site with id {options['site']}")
+        out: Path | None = options["out"]
+        if out is not None:
+            out.mkdir(parents=True, exist_ok=True)
+        now = timezone.now()
+        failures: list[str] = []
+        sites = list(sites)
+        quiet = options["verbosity"] == 0
+        with tqdm(total=len(sites), desc=f"reports {month}", unit="site", disable=quiet) as bar:
+            for site in sites:
+                bar.set_postfix_str(site.name[:30])
+                try:
+                    report = generate_monthly_report(site, month, now)
+                except Exception as exc:  # one bad site must not stop the month's run
+                    failures.append(f"{site.name} (id {site.pk}): {exc}")
+                    bar.update(1)
+                    continue
+                line = f"{site.name}: version {report.version}, {report.page_count} pages"
+                if out is not None:
+                    with report.pdf.open("rb") as fh:
+                        (out / report.filename).write_bytes(fh.read())
+                    line += f", written to {out / report.filename}"
+                if options["email"]:
+                    sent = email_report(report)
+                    line += f", emailed to {sent} manager{'s' if sent != 1 else ''}"
+                with tqdm.external_write_mode():
+                    self.stdout.write(line)
+                bar.update(1)
+        if failures:
+            raise CommandError("reports failed for " + "; ".join(failures))
+        self.stdout.write(self.style.SUCCESS(f"{len(sites)} report(s) for {month} stored."))

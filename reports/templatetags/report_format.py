@@ -1,0 +1,111 @@
+"""Numbers on report pages: SI values shown in the display units of the report's context.
+
+Each tag reads ``display`` (a ``reports.display.Display``) from the template context, so a
+template never converts by itself; a missing value prints as an en dash.
+"""
+
+from __future__ import annotations
+
+from django import template
+
+register = template.Library()
+
+DASH = "\u2013"  # an en dash: "no value"
+
+
+def _fmt(value: float | None, digits: int) -> str:
+    if value is None:
+        return DASH
+    return f"{value:,.{digits}f}"
+
+
+@register.simple_tag(takes_context=True)
+def temp(context, value_c, digits: int = 0) -> str:
+    d = context["display"]
+    return (
+        f"{_fmt(d.temperature(value_c), digits)} {d.temperature_symbol}"
+        if value_c is not None
+        else DASH
+    )
+
+
+@register.simple_tag(takes_context=True)
+def tdiff(context, value_k, digits: int = 1) -> str:
+    d = context["display"]
+    return (
+        f"{_fmt(d.difference(value_k), digits)} {d.difference_symbol}"
+        if value_k is not None
+        else DASH
+    )
+
+
+@register.simple_tag(takes_context=True)
+def pressure(context, value_kpa_gauge, elevation_m, digits: int = 0) -> str:
+    d = context["display"]
+    if value_kpa_gauge is None:
+        return DASH
+    return f"{_fmt(d.pressure(value_kpa_gauge, elevation_m), digits)} {d.pressure_symbol}"
+
+
+@register.simple_tag(takes_context=True)
+def mass(context, value_kg, digits: int = 1) -> str:
+    d = context["display"]
+    return f"{_fmt(d.mass(value_kg), digits)} {d.mass_symbol}" if value_kg is not None else DASH
+
+
+@register.simple_tag(takes_context=True)
+def quantity(context, value, unit: str, digits: int = 1, elevation_m: float = 0.0) -> str:
+    """A stored quantity whose SI unit is named beside it (metrics, flag evidence)."""
+    if value is None:
+        return DASH
+    d = context["display"]
+    if unit == "C":
+        return f"{_fmt(d.temperature(value), digits)} {d.temperature_symbol}"
+    if unit == "K":
+        return f"{_fmt(d.difference(value), digits)} {d.difference_symbol}"
+    if unit == "kPa":
+        return f"{_fmt(d.pressure(value, elevation_m), 0)} {d.pressure_symbol}"
+    if unit == "kg":
+        return f"{_fmt(d.mass(value), digits)} {d.mass_symbol}"
+    shown = {"uF": "µF", "": ""}.get(unit, unit)
+    return f"{_fmt(value, digits)} {shown}".strip()
+
+
+@register.simple_tag(takes_context=True)
+def band(context, low, high, unit: str, digits: int = 1, elevation_m: float = 0.0) -> str:
+    """An ok range: "a to b", "up to b" or "at least a"."""
+    if low is None and high is None:
+        return DASH
+    if low is None:
+        return f"up to {quantity(context, high, unit, digits, elevation_m)}"
+    if high is None:
+        return f"at least {quantity(context, low, unit, digits, elevation_m)}"
+    lo = quantity(context, low, unit, digits, elevation_m)
+    return f"{lo} to {quantity(context, high, unit, digits, elevation_m)}"
+
+
+@register.filter
+def num(value, digits: int = 0) -> str:
+    try:
+        return _fmt(None if value is None else float(value), int(digits))
+    except (TypeError, ValueError):
+        return DASH
+
+
+@register.filter
+def percent(value, digits: int = 1) -> str:
+    return DASH if value is None else f"{_fmt(float(value), int(digits))} %"
+
+
+@register.filter
+def words(value) -> str:
+    """A stored name such as ``condenser_split`` as words."""
+    return str(value).replace("_", " ")
+
+
+@register.simple_tag
+def money(amount, currency: str) -> str:
+    if amount is None:
+        return DASH
+    symbol = {"USD": "$", "CAD": "CA$", "EUR": "€", "GBP": "£"}.get(currency)
+    return f"{symbol}{amount:,.2f}" if symbol else f"{amount:,.2f} {currency}"

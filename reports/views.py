@@ -1,0 +1,84 @@
+"""Office pages: the sites' stored reports, each viewable (HTML) and downloadable (PDF).
+
+Same reach as the API: the office sees every site, a manager the sites they manage; anything
+else is 404. A report page serves the HTML exactly as stored with the report.
+"""
+
+from __future__ import annotations
+
+from django.contrib.auth.decorators import login_required
+from django.db.models import Count, Max
+from django.http import FileResponse, Http404, HttpRequest, HttpResponse
+from django.shortcuts import get_object_or_404, render
+from django.views.decorators.http import require_GET
+
+from .models import MonthlyReport
+from .months import Month
+from .permissions import reports_within_reach, sites_within_reach
+
+
+def _version(request: HttpRequest) -> int | None:
+    raw = request.GET.get("version")
+    if not raw:
+        return None
+    if not raw.isdigit() or int(raw) < 1:
+        raise Http404("no such version")
+    return int(raw)
+
+
+def _report(request: HttpRequest, site_id: int, month: str) -> MonthlyReport:
+    try:
+        first_day = Month.parse(month).first_day
+    except ValueError as exc:
+        raise Http404("no such month") from exc
+    reports = reports_within_reach(request.user).filter(site_id=site_id, month=first_day)
+    version = _version(request)
+    if version is not None:
+        reports = reports.filter(version=version)
+    report = reports.order_by("-version").first()
+    if report is None:
+        raise Http404("no such report")
+    return report
+
+
+@require_GET
+@login_required
+def report_index(request: HttpRequest) -> HttpResponse:
+    """Every site within reach, with how many reports it has and the latest month."""
+    sites = (
+        sites_within_reach(request.user)
+        .select_related("customer")
+        .annotate(report_count=Count("monthly_reports"), latest_month=Max("monthly_reports__month"))
+        .order_by("customer__name", "name")
+    )
+    return render(request, "reports/index.html", {"sites": sites})
+
+
+@require_GET
+@login_required
+def site_reports(request: HttpRequest, site_id: int) -> HttpResponse:
+    site = get_object_or_404(
+        sites_within_reach(request.user).select_related("customer"), pk=site_id
+    )
+    reports = MonthlyReport.objects.filter(site=site).defer("html").order_by("-month", "-version")
+    return render(request, "reports/site_reports.html", {"site": site, "reports": reports})
+
+
+@require_GET
+@login_required
+def report_page(request: HttpRequest, site_id: int, month: str) -> HttpResponse:
+    report = _report(request, site_id, month)
+    html = MonthlyReport.objects.values_list("html", flat=True).get(pk=report.pk)
+    return HttpResponse(html, content_type="text/html; charset=utf-8")
+
+
+@require_GET
+@login_required
+def report_pdf(request: HttpRequest, site_id: int, month: str) -> FileResponse:
+    report = _report(request, site_id, month)
+    return FileResponse(
+        report.pdf.open("rb"),
+        as_attachment=True,
+        filename=report.filename,
+        content_type="application/pdf",
+    )

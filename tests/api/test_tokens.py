@@ -1,0 +1,96 @@
+"""Tokens for phones: issued and revoked by an endpoint or a command; attempts throttled."""
+
+from __future__ import annotations
+
+from io import StringIO
+
+import pytest
+from django.core.management import CommandError, call_command
+from rest_framework.authtoken.models import Token
+from rest_framework.test import APIClient
+
+pytestmark = pytest.mark.django_db
+
+URL = "/api/v1/auth/token/"
+
+
+def test_a_technician_signs_in_uses_and_revokes_a_token(technician):
+    """The right password gives a token that works; DELETE revokes it and it stops working."""
+    anonymous = APIClient()
+    response = anonymous.post(
+        URL, {"username": "tech1", "password": "test-pass-123"}, format="json"
+    )
+    assert response.status_code == 200
+    assert response.json()["role"] == "technician"
+    phone = APIClient()
+    phone.credentials(HTTP_AUTHORIZATION=f"Token {response.json()['token']}")
+    assert phone.get("/api/v1/visits/").status_code == 200
+    assert phone.delete(URL).status_code == 204
+    assert phone.get("/api/v1/visits/").status_code == 401
+
+
+def test_a_wrong_password_is_refused_on_the_password(technician):
+    """400 naming the field; no token is made."""
+    response = APIClient().post(URL, {"username": "tech1", "password": "nope"}, format="json")
+    assert response.status_code == 400
+    assert "password" in response.json()
+    assert not Token.objects.exists()
+
+
+def test_sign_in_attempts_are_throttled(technician, settings):
+    """After the configured number of attempts per minute, the next is 429."""
+    client = APIClient()
+    codes = [
+        client.post(URL, {"username": "tech1", "password": "guess"}, format="json").status_code
+        for _ in range(11)
+    ]
+    assert codes[:10] == [400] * 10
+    assert codes[10] == 429
+
+
+def test_writes_are_throttled_per_user(technician, monkeypatch):
+    """Past the write rate a user's writes are 429 while reads go on."""
+    from fleet.api.throttles import WriteRateThrottle
+
+    monkeypatch.setattr(WriteRateThrottle, "get_rate", lambda self: "2/minute")
+    client = APIClient()
+    client.force_authenticate(technician)
+    codes = [client.post("/api/v1/visits/1/start/").status_code for _ in range(3)]
+    assert codes[2] == 429
+    assert client.get("/api/v1/visits/").status_code == 200
+
+
+def test_the_command_issues_rotates_and_revokes(technician):
+    """api_token issue prints the key (the same until --rotate); revoke deletes it."""
+    out = StringIO()
+    call_command("api_token", "issue", "tech1", stdout=out)
+    key = out.getvalue().strip()
+    assert Token.objects.get(user=technician).key == key
+    again = StringIO()
+    call_command("api_token", "issue", "tech1", stdout=again)
+    assert again.getvalue().strip() == key
+    rotated = StringIO()
+    call_command("api_token", "issue", "tech1", "--rotate", stdout=rotated)
+    assert rotated.getvalue().strip() != key
+    call_command("api_token", "revoke", "tech1", stdout=StringIO())
+    assert not Token.objects.filter(user=technician).exists()
+
+
+def test_the_command_refuses_unknown_and_roleless_users(outsider):
+    """No such user, or a user with no role: a clear error, no token."""
+    with pytest.raises(CommandError, match="no user named 'ghost'"):
+        call_command("api_token", "issue", "ghost")
+    with pytest.raises(CommandError, match="has no role"):
+        call_command("api_token", "issue", outsider.username)
+    assert not Token.objects.exists()
+
+
+def test_office_pages_use_the_session_cookie(office_user):
+    """A signed-in office session reads the API; its writes need the CSRF token, as any
+    cookie-authenticated write must."""
+    browser = APIClient(enforce_csrf_checks=True)
+    assert browser.login(username="office1", password="test-pass-123")
+    assert browser.get("/api/v1/customers/").status_code == 200
+    refused = browser.post("/api/v1/customers/", {"name": "Cookie Cafe"}, format="json")
+    assert refused.status_code == 403
+    assert "CSRF" in refused.json()["detail"]

@@ -1,0 +1,62 @@
+"""The pages show stored SI values in the contractor's display units, through the one
+conversion module (diagnostics/core/units.py)."""
+
+from __future__ import annotations
+
+import pytest
+
+from fleet.templatetags import rimewatch
+
+
+@pytest.fixture
+def us(settings):
+    settings.RIMEWATCH_DISPLAY_UNITS = "us"
+
+
+@pytest.fixture
+def si(settings):
+    settings.RIMEWATCH_DISPLAY_UNITS = "si"
+
+
+@pytest.mark.usefixtures("us")
+def test_it_shows_us_customary_units():
+    """NIST SP 811 (2008) Appendix B: t/F = 1.8 t/C + 32 (exact), 1 lb = 0.453 592 37 kg
+    (exact), 1 psi = 6.894 757 kPa; so 0 C is 32.0 F, a 10 K difference is 18.0 F, 1 kg is
+    2.20 lb and 689.4757 kPa gauge is 100.0 psig (tolerance: the last shown digit)."""
+    assert rimewatch.temp(0.0) == "32.0 \u00b0F"
+    assert rimewatch.temp(-40.0) == "\u221240.0 \u00b0F"
+    assert rimewatch.tempdiff(10.0) == "18.0 \u00b0F"
+    assert rimewatch.mass(1.0) == "2.20 lb"
+    assert rimewatch.pressure(689.4757, 0.0) == "100.0 psig"
+
+
+@pytest.mark.usefixtures("si")
+def test_it_shows_si_units_when_configured():
+    """With RIMEWATCH_DISPLAY_UNITS='si' values are shown as stored: C, K, kPa gauge, kg."""
+    assert rimewatch.temp(2.04) == "2.0 \u00b0C"
+    assert rimewatch.tempdiff(5.5) == "5.5 K"
+    assert rimewatch.pressure(350.0, 1600.0) == "350.0 kPa"
+    assert rimewatch.mass(0.15) == "0.15 kg"
+
+
+@pytest.mark.usefixtures("us")
+def test_it_reads_a_metric_by_its_unit():
+    """A diagnosis metric in 'C' is a temperature, in 'K' a difference, in 'A' amps as is;
+    a missing value is a dash."""
+    assert rimewatch.qty(100.0, "C") == "212.0 \u00b0F"
+    assert rimewatch.qty(100.0, "C", kind="difference") == "180.0 \u00b0F"
+    assert rimewatch.qty(5.0, "K") == "9.0 \u00b0F"
+    assert rimewatch.qty(9.64, "A") == "9.6 A"
+    assert rimewatch.qty(None, "C") == "\u2014"
+
+
+def test_it_never_relies_on_colour_alone():
+    """Every status badge carries a word and a symbol, not only a colour class."""
+    for status in ("ok", "watch", "fault", "not_scored"):
+        html = str(rimewatch.metric_status(status))
+        symbol, word, _ = rimewatch.METRIC_STATUS[status]
+        assert symbol in html
+        assert word in html
+    assert "Poor" in str(rimewatch.health(40.0))
+    assert "Good" in str(rimewatch.health(95.0))
+    assert "No readings" in str(rimewatch.health(None))

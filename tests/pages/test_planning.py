@@ -1,0 +1,92 @@
+"""Maintenance due with one action to book the proposed visits, and the attention page of
+open flags and leak deadlines, soonest first."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+from django.urls import reverse
+from django.utils import timezone
+
+from fleet.models import Visit
+from tests.factories import (
+    RefrigerantEventFactory,
+    SiteFactory,
+    UnitFactory,
+    UserFactory,
+    VisitFactory,
+    VisitUnitFactory,
+)
+
+from .conftest import open_flag, over_limit_addition
+
+pytestmark = pytest.mark.django_db
+
+
+def _reviewed_visit(unit, days_ago: int) -> Visit:
+    start = timezone.now() - dt.timedelta(days=days_ago)
+    visit = VisitFactory(
+        site=unit.site,
+        status="reviewed",
+        window_start=start,
+        reviewed_by=UserFactory(),
+        reviewed_at=start,
+    )
+    VisitUnitFactory(visit=visit, unit=unit)
+    return visit
+
+
+def test_it_lists_overdue_units_and_books_one_visit_per_site(office):
+    """A 30-day unit last seen 45 days ago is overdue; a unit seen yesterday is not due.
+    Booking makes one unassigned planned visit covering the overdue unit; a second press
+    books nothing more."""
+    site = SiteFactory(name="Quay Market")
+    late = UnitFactory(site=site, tag="QM-LATE", pm_interval_days=30)
+    fresh = UnitFactory(site=site, tag="QM-FRESH", pm_interval_days=90)
+    _reviewed_visit(late, 45)
+    _reviewed_visit(fresh, 1)
+    page = office.get(reverse("fleet:maintenance")).content.decode()
+    assert "QM-LATE" in page
+    assert "15 days overdue" in page
+    assert "QM-FRESH" not in page
+    response = office.post(reverse("fleet:maintenance-propose"))
+    assert response.status_code == 302
+    booked = Visit.objects.get(site=site, status="scheduled")
+    assert list(booked.units.all()) == [late]
+    assert booked.kind == "planned"
+    assert not booked.technicians.exists()
+    office.post(reverse("fleet:maintenance-propose"))
+    assert Visit.objects.filter(site=site, status="scheduled").count() == 1
+    page = office.get(reverse("fleet:maintenance")).content.decode()
+    assert "Booked for" in page
+
+
+def test_it_lists_flags_and_deadlines_soonest_first(office):
+    """Deadlines and flags interleave by date: an overdue repair comes before a repair due
+    next month, and a met repair deadline is gone."""
+    site = SiteFactory()
+    soon_unit = UnitFactory(site=site, tag="AT-SOON")
+    later_unit = UnitFactory(site=site, tag="AT-LATER")
+    done_unit = UnitFactory(site=site, tag="AT-DONE")
+    today = timezone.localdate()
+    over_limit_addition(VisitUnitFactory(unit=soon_unit), today - dt.timedelta(days=40))
+    over_limit_addition(VisitUnitFactory(unit=later_unit), today)
+    covered = VisitUnitFactory(unit=done_unit)
+    over_limit_addition(covered, today - dt.timedelta(days=5))
+    RefrigerantEventFactory(
+        visit_unit=covered, kind="leak_repaired", amount_kg=None, occurred_on=today
+    )
+    open_flag(later_unit, projected_on=today + dt.timedelta(days=10))
+    page = office.get(reverse("fleet:attention")).content.decode()
+    soon, flag, later = (
+        page.index("AT-SOON"),
+        page.index("Head pressure drifting up"),
+        page.rindex("AT-LATER"),
+    )
+    assert soon < flag < later
+    assert "10 days overdue" in page
+    assert "Leak repair due" in page
+    assert page.count("AT-DONE") == 1  # its verification test is still due, its repair is not
+    assert "Initial verification test due" in page
+    assert "local codes and licensed practice" in page

@@ -1,0 +1,170 @@
+"""Unit and site pages: design data in display units, the latest diagnosis, flags the
+office acknowledges, leak-rate history, and each site's units at a glance."""
+
+from __future__ import annotations
+
+import pytest
+from django.urls import reverse
+
+from tests.factories import ComponentFactory
+
+pytestmark = pytest.mark.django_db
+
+
+def test_it_shows_the_nameplate_in_display_units(office, world):
+    """Design box 2.0 C shows as 35.6 F and the 10 kg charge as 22.05 lb (US display)."""
+    page = office.get(reverse("fleet:unit", args=[world.unit.pk])).content.decode()
+    assert "35.6 \u00b0F" in page
+    assert "22.05 lb" in page
+    assert "R-404A" in page
+
+
+def test_it_shows_the_latest_diagnosis_with_targets(office, world):
+    """The unit page carries the latest diagnosis: measured against target per quantity."""
+    page = office.get(reverse("fleet:unit", args=[world.unit.pk])).content.decode()
+    assert "Latest diagnosis" in page
+    assert "evaporator superheat" in page
+    assert "21.6 \u00b0F" in page  # 12 K measured superheat
+    assert "Short of refrigerant" in page
+
+
+def test_it_lists_components_fitted_and_removed(office, world):
+    """Fitted parts and removed ones are listed apart, with ratings."""
+    ComponentFactory(unit=world.unit, kind="run_capacitor", rating_uf_min=35, rating_uf_max=35)
+    ComponentFactory(
+        unit=world.unit,
+        kind="start_capacitor",
+        rating_uf_min=88,
+        rating_uf_max=108,
+        removed_on="2025-06-01",
+        reason="bulged",
+    )
+    page = office.get(reverse("fleet:unit", args=[world.unit.pk])).content.decode()
+    assert "Run capacitor</strong> 35.0 \u00b5F" in page
+    assert "Removed" in page
+    assert "bulged" in page
+
+
+def test_it_acknowledges_a_flag_in_place_with_htmx(office, office_user, world):
+    """An htmx acknowledgement returns just the flag, now saying who acknowledged it."""
+    response = office.post(
+        reverse("fleet:flag-acknowledge", args=[world.flag.pk]),
+        {"acknowledgement_note": "Coil clean booked for Tuesday"},
+        HTTP_HX_REQUEST="true",
+    )
+    assert response.status_code == 200
+    fragment = response.content.decode()
+    assert "<html" not in fragment
+    assert "Coil clean booked for Tuesday" in fragment
+    world.flag.refresh_from_db()
+    assert world.flag.acknowledged_by == office_user
+    assert world.flag.cleared_at is None
+
+
+def test_it_wants_a_note_to_acknowledge(office, world):
+    """An empty note is refused beside the field and the flag stays unacknowledged."""
+    response = office.post(
+        reverse("fleet:flag-acknowledge", args=[world.flag.pk]),
+        {"acknowledgement_note": ""},
+        HTTP_HX_REQUEST="true",
+    )
+    assert "Say what is being done" in response.content.decode()
+    world.flag.refresh_from_db()
+    assert world.flag.acknowledged_at is None
+
+
+def test_it_acknowledges_without_scripts_and_goes_back(office, world):
+    """Without htmx the form posts, then returns to the page it came from."""
+    back = reverse("fleet:attention")
+    response = office.post(
+        reverse("fleet:flag-acknowledge", args=[world.flag.pk]),
+        {"acknowledgement_note": "Parts ordered", "next": back},
+    )
+    assert response["Location"] == back
+    response = office.post(
+        reverse("fleet:flag-acknowledge", args=[world.flag.pk]),
+        {"acknowledgement_note": "Parts ordered", "next": "https://elsewhere.invalid/"},
+    )
+    assert response["Location"] == reverse("fleet:unit", args=[world.flag.unit_id])
+
+
+def test_it_shows_flags_read_only_to_a_manager(boss, world):
+    """A manager sees the open flag with its cautions but no acknowledgement form."""
+    page = boss.get(reverse("fleet:unit", args=[world.unit.pk])).content.decode()
+    assert "Condenser split rising" in page
+    assert "Before acting on this" in page
+    assert "acknowledgement_note" not in page
+
+
+def test_it_shows_the_leak_rate_history(office, world):
+    """Each addition shows its leak rate against the limit and the repair deadline."""
+    page = office.get(reverse("fleet:unit", args=[world.unit.pk])).content.decode()
+    assert "40.0 %" in page
+    assert "Over the limit" in page
+    assert f"Repair by {world.leak.repair_due_on:%-d %b %Y}" in page
+
+
+def test_it_shows_a_sites_units_at_a_glance(boss, world):
+    """The site page lists each unit with its health band and open flags, in words."""
+    page = boss.get(reverse("fleet:site", args=[world.site.pk])).content.decode()
+    assert "HD-WIC-1" in page
+    assert "Fair" in page
+    assert "Head pressure drifting up" in page
+    assert "Monthly health reports" in page
+
+
+def test_it_lists_only_a_managers_sites(boss, world):
+    """The manager's site list holds their site and not the other one."""
+    page = boss.get(reverse("fleet:sites")).content.decode()
+    assert world.site.name in page
+    assert world.other_site.name not in page
+
+
+def test_it_warns_about_flammable_refrigerant(office, world):
+    """A unit on R-290 (safety class A3) is marked flammable on its page."""
+    page = office.get(reverse("fleet:unit", args=[world.other_unit.pk])).content.decode()
+    assert "Flammable" in page
+
+
+def _stored_report(site):
+    from datetime import date
+
+    from django.core.files.base import ContentFile
+    from django.utils import timezone
+
+    from reports.models import MonthlyReport
+
+    report = MonthlyReport(
+        site=site,
+        month=date(2026, 10, 1),
+        version=1,
+        generated_at=timezone.now(),
+        layout_version="test",
+        display_units="us",
+        checksum_sha256="0" * 64,
+        html="<html><body><h1>October health report</h1></body></html>",
+        page_count=1,
+        unit_count=1,
+    )
+    report.pdf.save("report.pdf", ContentFile(b"%PDF-1.4 synthetic"), save=False)
+    report.save()
+    return report
+
+
+def test_it_links_a_sites_reports_for_its_manager(boss, office, world, settings, tmp_path):
+    """The site page lists the stored report; its manager and the office open the HTML and
+    the PDF; the other site's report is out of reach (404)."""
+    settings.MEDIA_ROOT = tmp_path
+    _stored_report(world.site)
+    _stored_report(world.other_site)
+    page = boss.get(reverse("fleet:site", args=[world.site.pk])).content.decode()
+    assert "October 2026" in page
+    url = reverse("fleet:site-report", args=[world.site.pk, "2026-10"])
+    assert "October health report" in boss.get(url).content.decode()
+    pdf = office.get(url, {"format": "pdf"})
+    assert pdf["Content-Type"] == "application/pdf"
+    other = reverse("fleet:site-report", args=[world.other_site.pk, "2026-10"])
+    assert boss.get(other).status_code == 404
+    assert (
+        boss.get(reverse("fleet:site-report", args=[world.site.pk, "2026-13"])).status_code == 404
+    )
