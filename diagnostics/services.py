@@ -7,6 +7,7 @@ core, and stores what comes back with the algorithm version.
 from __future__ import annotations
 
 import dataclasses
+import gc
 from collections.abc import Callable, Iterable
 
 import numpy as np
@@ -102,25 +103,9 @@ def reading_of(reading_set: ReadingSet) -> Reading:
 
 
 def _row_values(result: CoreDiagnosis) -> dict:
-    """The stored columns of a diagnosis, from the core's dataclass."""
-    derived = result.derived
-    return {
-        "algorithm_version": result.algorithm_version,
-        "score": result.score,
-        "targets": [dataclasses.asdict(t) for t in result.targets],
-        "metrics": [dataclasses.asdict(m) for m in result.metrics],
-        "findings": [dataclasses.asdict(f) for f in result.findings],
-        "cautions": [dataclasses.asdict(c) for c in result.cautions],
-        "glide_choice": result.glide_choice,
-        "energy_penalty_pct": result.energy_penalty_pct,
-        "evaporating_c": derived.evaporating_c,
-        "condensing_c": derived.condensing_c,
-        "superheat_k": derived.superheat_k,
-        "subcooling_k": derived.subcooling_k,
-        "evaporator_td_k": derived.evaporator_td_k,
-        "condenser_split_k": derived.condenser_split_k,
-        "compression_ratio": derived.compression_ratio,
-    }
+    """The stored columns of one diagnosis; the batch path gets the same dicts, built on
+    columns, from ``BatchResult.stored_rows``."""
+    return core_diagnose.stored_row(result)
 
 
 def reading_sets_for_diagnosis():
@@ -216,38 +201,49 @@ def rescore(
     designs: dict[int, UnitDesign] = {}
     elevations: dict[int, float] = {}
     done = 0
+    collecting = gc.isenabled()
     for start in range(0, len(ids), batch_size):
         chunk = ids[start : start + batch_size]
-        rows = list(ReadingSet.objects.filter(id__in=chunk).order_by("id").values_list(*_FETCHED))
-        unit_ids, readings = _columns(rows)
-        missing = set(unit_ids.tolist()) - designs.keys()
-        if missing:
-            for unit in (
-                Unit.objects.filter(id__in=missing)
-                .select_related("refrigerant", "site")
-                .prefetch_related("components")
-            ):
-                designs[unit.id] = unit_design(unit)
-                elevations[unit.id] = unit.site.elevation_m
-        order = sorted(set(unit_ids.tolist()))
-        position = {uid: i for i, uid in enumerate(order)}
-        result = core_diagnose.diagnose_batch(
-            [designs[uid] for uid in order],
-            readings,
-            np.array([elevations[uid] for uid in unit_ids.tolist()]),
-            unit_index=np.array([position[uid] for uid in unit_ids.tolist()], dtype=np.intp),
-        )
-        objs = [
-            Diagnosis(reading_set_id=row[0], computed_at=now, **_row_values(result.diagnosis(i)))
-            for i, row in enumerate(rows)
-        ]
-        with transaction.atomic():
-            Diagnosis.objects.bulk_create(
-                objs,
-                update_conflicts=True,
-                unique_fields=["reading_set"],
-                update_fields=_STORED_FIELDS,
+        # A batch is some hundred thousand small dicts that live until they are written and
+        # form no cycles; the cyclic collector would trace them over and over (a fifth of
+        # the time), so it pauses for each batch and catches up between them.
+        gc.disable()
+        try:
+            rows = list(
+                ReadingSet.objects.filter(id__in=chunk).order_by("id").values_list(*_FETCHED)
             )
+            unit_ids, readings = _columns(rows)
+            missing = set(unit_ids.tolist()) - designs.keys()
+            if missing:
+                for unit in (
+                    Unit.objects.filter(id__in=missing)
+                    .select_related("refrigerant", "site")
+                    .prefetch_related("components")
+                ):
+                    designs[unit.id] = unit_design(unit)
+                    elevations[unit.id] = unit.site.elevation_m
+            order = sorted(set(unit_ids.tolist()))
+            position = {uid: i for i, uid in enumerate(order)}
+            result = core_diagnose.diagnose_batch(
+                [designs[uid] for uid in order],
+                readings,
+                np.array([elevations[uid] for uid in unit_ids.tolist()]),
+                unit_index=np.array([position[uid] for uid in unit_ids.tolist()], dtype=np.intp),
+            )
+            objs = [
+                Diagnosis(reading_set_id=row[0], computed_at=now, **values)
+                for row, values in zip(rows, result.stored_rows(), strict=True)
+            ]
+            with transaction.atomic():
+                Diagnosis.objects.bulk_create(
+                    objs,
+                    update_conflicts=True,
+                    unique_fields=["reading_set"],
+                    update_fields=_STORED_FIELDS,
+                )
+        finally:
+            if collecting:
+                gc.enable()
         done += len(rows)
         if progress:
             progress(len(rows))

@@ -34,18 +34,22 @@ chmod 755 "$workdir"
 [ "$(id -u)" = "0" ] && chown postgres "$workdir"
 port=$(python3 -c 'import socket; s=socket.socket(); s.bind(("127.0.0.1", 0)); print(s.getsockname()[1])')
 
+# Run a server-side binary from the cluster's folder, which the postgres user can enter
+# (the caller's folder may be private to root).
+pg() { (cd "$workdir" && "${as_pg[@]}" "$@"); }
+
 cleanup() {
-  "${as_pg[@]}" "$bindir/pg_ctl" -D "$workdir/data" -m immediate stop >/dev/null 2>&1 || true
+  pg "$bindir/pg_ctl" -D "$workdir/data" -m immediate stop >/dev/null 2>&1 || true
   rm -rf "$workdir"
 }
 trap cleanup EXIT
 
-"${as_pg[@]}" "$bindir/initdb" -D "$workdir/data" -U postgres --auth=trust -E UTF8 --no-locale >/dev/null
-"${as_pg[@]}" "$bindir/pg_ctl" -D "$workdir/data" -l "$workdir/server.log" -w \
+pg "$bindir/initdb" -D "$workdir/data" -U postgres --auth=trust -E UTF8 --no-locale >/dev/null
+pg "$bindir/pg_ctl" -D "$workdir/data" -l "$workdir/server.log" -w \
   -o "-p $port -k $workdir -c listen_addresses=127.0.0.1 -c fsync=off -c synchronous_commit=off -c full_page_writes=off -c max_connections=200" \
   start >/dev/null
 echo "Throwaway PostgreSQL $("$bindir/postgres" --version | awk '{print $3}') on 127.0.0.1:$port"
 
 export DATABASE_URL="postgres://postgres@127.0.0.1:$port/rimewatch"
-"${as_pg[@]}" "$bindir/createdb" -h 127.0.0.1 -p "$port" -U postgres rimewatch
+pg "$bindir/createdb" -h 127.0.0.1 -p "$port" -U postgres rimewatch
 "$@"

@@ -2,9 +2,14 @@
 
 ``diagnose_batch`` works on columns (numpy arrays, NaN for missing) and computes targets,
 derived values, metric statuses and points, the visit score, the finding masks and the energy
-penalty for every row at once. ``diagnose`` runs the very same code on a batch of one and
-turns row 0 into dataclasses; ``BatchResult.diagnosis(i)`` does that for any row, so the
-strings (reasons, evidence, advice, sources) are only built for rows someone looks at.
+penalty for every row at once, the saturation targets' pressures included.
+
+Rows come out in one of two forms, built by the same code. ``BatchResult.stored_rows()``
+gives every row as stored (JSON-ready dicts, ``stored_row``'s shape): numbers are turned
+into lists once per column and the texts (reasons, evidence, sources, cautions) come from
+templates written once per distinct case, so a million rows cost no per-row property
+lookups or dataclass conversions. ``BatchResult.diagnosis(i)`` runs that code on a selection
+of one row and types the result as dataclasses; ``diagnose`` is that on a batch of one.
 
 Saturation temperatures come from ``saturation.py`` (dew and bubble, see ``targets.py`` for
 the glide choice), gauge pressures are made absolute with the standard atmosphere at the
@@ -16,8 +21,11 @@ gas-cooler approach and the head pressure are scored instead.
 
 from __future__ import annotations
 
+import dataclasses
+import functools
 import math
-from collections.abc import Mapping, Sequence
+import string
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -335,6 +343,7 @@ METRIC_NEEDS: dict[str, tuple[tuple[str, ...], str]] = {
 }
 #: Reasons that make a metric inapplicable to the unit (its target is not listed either).
 NOT_APPLICABLE = (REASON_WATER_COOLED, REASON_TRANSCRITICAL, REASON_SINGLE_PHASE)
+_NOT_APPLICABLE = np.isin(np.arange(max(REASON_TEXT) + 1), NOT_APPLICABLE)
 CYCLE_METRICS = (
     "evaporator_td",
     "condenser_split",
@@ -370,7 +379,9 @@ class BatchResult:
     score: FloatArray
     metrics: Mapping[str, MetricColumns]
     derived: Mapping[str, FloatArray]
-    #: Saturation targets per row: evaporating/condensing temperature and gauge pressure.
+    #: Saturation targets per row: evaporating and condensing temperature and gauge pressure
+    #: (``evaporating_c``, ``suction_kpa_gauge``, ...), with the edges of their ok bands
+    #: (``evaporating_c_low``, ``suction_kpa_gauge_high``, ...).
     saturation_targets: Mapping[str, FloatArray]
     finding_mask: NDArray[np.uint32]
     finding_confidence: FloatArray
@@ -399,6 +410,11 @@ class BatchResult:
     def diagnosis(self, i: int) -> Diagnosis:
         """Row ``i`` as the dataclasses a single POST returns."""
         return _row_diagnosis(self, i)
+
+    def stored_rows(self) -> list[dict[str, Any]]:
+        """Every row in its stored form (``stored_row(self.diagnosis(i))`` for each ``i``),
+        built on columns: the path ``manage.py rescore`` takes."""
+        return _stored_rows(self)
 
 
 # --- the batch -----------------------------------------------------------------------------
@@ -458,15 +474,21 @@ def diagnose_batch(
     p_s = np.where(r.suction_kpa_gauge + atm > 0, r.suction_kpa_gauge + atm, np.nan)
     p_h = np.where(r.head_kpa_gauge + atm > 0, r.head_kpa_gauge + atm, np.nan)
 
-    # Saturation targets from the reading's conditions (box falls back to the design box).
+    # Saturation targets from the reading's conditions (box falls back to the design box),
+    # each with the edges of its ok band: the TD and split bands of the scoring table.
     box_for_target = np.where(np.isnan(r.box_temp_c), t["box_temp_c"], r.box_temp_c)
     t_evap_target = box_for_target - t["evap_td_k"]
     t_cond_target = np.where(t["water_cooled"] == 1.0, np.nan, r.entering_air_temp_c + t["split_k"])
+    td_low, td_high = sc.ok_band(sc.SCORING_TABLE["evaporator_td"], t["evap_td_k"])
+    split_low, split_high = sc.ok_band(sc.SCORING_TABLE["condenser_split"], t["split_k"])
+    evap_base, cond_base = t_evap_target + t["evap_td_k"], t_cond_target - t["split_k"]
+    t_evap = np.stack([t_evap_target, evap_base - td_high, evap_base - td_low])
+    t_cond = np.stack([t_cond_target, cond_base + split_low, cond_base + split_high])
 
     nan = np.full(n, np.nan)
     evap_dew, evap_bub, cond_dew, cond_bub = nan.copy(), nan.copy(), nan.copy(), nan.copy()
-    p_crit, p_evap_target, p_cond_target = nan.copy(), nan.copy(), nan.copy()
-    t_cond_target_dew, penalty = nan.copy(), nan.copy()
+    p_crit, t_cond_target_dew, penalty = nan.copy(), nan.copy(), nan.copy()
+    p_evap, p_cond = np.full((3, n), np.nan), np.full((3, n), np.nan)
     for code, designation in enumerate(uc.refrigerants):
         sel = np.flatnonzero(ref_code == code)
         if sel.size == 0:
@@ -477,15 +499,16 @@ def diagnose_batch(
         cond_dew[sel] = tg.dew_temp_c(curve, p_h[sel])
         cond_bub[sel] = tg.bubble_temp_c(curve, p_h[sel])
         p_crit[sel] = float(curve.critical_pressure_kpa_abs)
-        p_evap_target[sel] = tg.mid_point_pressure_kpa_abs(curve, t_evap_target[sel])
-        p_cond_target[sel] = tg.mid_point_pressure_kpa_abs(curve, t_cond_target[sel])
-        t_cond_target_dew[sel] = tg.dew_temp_c(curve, p_cond_target[sel])
+        # target and both band edges in one lookup per side
+        p_evap[:, sel] = tg.mid_point_pressure_kpa_abs(curve, t_evap[:, sel])
+        p_cond[:, sel] = tg.mid_point_pressure_kpa_abs(curve, t_cond[:, sel])
+        t_cond_target_dew[sel] = tg.dew_temp_c(curve, p_cond[0, sel])
     transcritical = p_h >= p_crit
     cond_dew[transcritical] = np.nan
     cond_bub[transcritical] = np.nan
     t_cond_target_dew[transcritical] = np.nan
-    p_cond_target[transcritical] = np.nan
-    t_cond_target = np.where(transcritical, np.nan, t_cond_target)
+    p_cond[:, transcritical] = np.nan
+    t_cond[:, transcritical] = np.nan
 
     running = r.compressor_running
     stopped = running == 0.0
@@ -651,12 +674,14 @@ def diagnose_batch(
         receiverless=uc.has_receiver[idx] == 0.0,
     )
     fired = findings.evaluate(signals, n)
-    atm_targets = {
-        "evaporating_c": t_evap_target,
-        "suction_kpa_gauge": p_evap_target - atm,
-        "condensing_c": t_cond_target,
-        "head_kpa_gauge": p_cond_target - atm,
-    }
+    atm_targets: dict[str, FloatArray] = {}
+    for side, temps, pressure, pressures in (
+        ("evaporating_c", t_evap, "suction_kpa_gauge", p_evap),
+        ("condensing_c", t_cond, "head_kpa_gauge", p_cond),
+    ):
+        for k, suffix in enumerate(("", "_low", "_high")):
+            atm_targets[side + suffix] = temps[k]
+            atm_targets[pressure + suffix] = pressures[k] - atm
     return BatchResult(
         algorithm_version=ALGORITHM_VERSION,
         score=sc.visit_score(total_points),
@@ -681,13 +706,40 @@ def diagnose(unit: UnitDesign, reading: Reading, elevation_m: float = 0.0) -> Di
     return result.diagnosis(0)
 
 
-# --- one row as dataclasses (built lazily) ------------------------------------------------
+# --- rows as stored, built column-wise -----------------------------------------------------
+
+#: Derived values stored as columns beside the JSON (trends read them without parsing it).
+STORED_DERIVED: tuple[str, ...] = (
+    "evaporating_c",
+    "condensing_c",
+    "superheat_k",
+    "subcooling_k",
+    "evaporator_td_k",
+    "condenser_split_k",
+    "compression_ratio",
+)
+
+Row = dict[str, Any]
 
 
 def _opt(x: float) -> float | None:
-    """A float for the dataclasses: NaN and the open ends of a band (+/-inf) become None."""
+    """A float for the stored row: NaN and the open ends of a band (+/-inf) become None."""
     x = float(x)
     return None if not math.isfinite(x) else x
+
+
+#: Below this many rows plain Python beats numpy's per-call overhead (the one-row path).
+_FEW_ROWS = 16
+
+
+def _opt_list(values: FloatArray) -> list[float | None]:
+    """``_opt`` over a column: one ``tolist`` and a patch of the few non-finite entries."""
+    out: list[Any] = values.tolist()
+    if len(out) < _FEW_ROWS:
+        return [v if math.isfinite(v) else None for v in out]
+    for j in np.flatnonzero(~np.isfinite(values)).tolist():
+        out[j] = None
+    return out
 
 
 def _fmt(value: float | None, unit: str) -> str:
@@ -697,25 +749,19 @@ def _fmt(value: float | None, unit: str) -> str:
     return f"{text} {unit}".strip() if unit else text
 
 
-@dataclass(frozen=True)
-class _MetricText:
-    """Formats a metric for evidence lines: ``{m}``, ``{m:band}``, ``{m:target}``, ``{m:high}``."""
+def _band_text(low: float | None, high: float | None, unit: str) -> str:
+    lo = "" if low is None else _fmt(low, "")
+    hi = "" if high is None else _fmt(high, "")
+    if lo and hi:
+        return f"{lo} to {hi} {unit}".strip()
+    return f"{'at most ' + hi if hi else 'at least ' + lo} {unit}".strip()
 
-    metric: Metric
 
-    def __format__(self, spec: str) -> str:
-        m = self.metric
-        if spec == "band":
-            low = "" if m.low is None else _fmt(m.low, "")
-            high = "" if m.high is None else _fmt(m.high, "")
-            if low and high:
-                return f"{low} to {high} {m.unit}".strip()
-            return f"{'at most ' + high if high else 'at least ' + low} {m.unit}".strip()
-        if spec == "target":
-            return _fmt(m.target, m.unit)
-        if spec == "high":
-            return _fmt(m.high, m.unit)
-        return _fmt(m.measured, m.unit)
+@functools.cache
+def _template(text: str) -> tuple[tuple[str, str | None, str], ...]:
+    """An evidence template split once into (literal, metric or None, spec) parts: ``{m}``
+    is the measured value, ``{m:band}`` the ok band, ``{m:target}`` and ``{m:high}``."""
+    return tuple((lit, name, spec or "") for lit, name, spec, _ in string.Formatter().parse(text))
 
 
 def _design_source(origin: float, default_source: str, design_label: str = tg.DESIGN) -> str:
@@ -726,9 +772,8 @@ def _design_source(origin: float, default_source: str, design_label: str = tg.DE
     return "missing"
 
 
-def _target_sources(res: BatchResult, i: int) -> dict[str, str]:
-    """Where each metric's target value came from, for row ``i``."""
-    u = int(res.unit_index[i])
+def _target_sources(res: BatchResult, u: int) -> dict[str, str]:
+    """Where each metric's target value came from, for unit ``u`` of the batch."""
     app = APPLICATIONS[int(res.units.application_code[u])]
     device = METERING_DEVICES[int(res.units.metering_code[u])]
     defaults = tg.APPLICATION_DEFAULTS[app]
@@ -775,169 +820,71 @@ def _target_sources(res: BatchResult, i: int) -> dict[str, str]:
     }
 
 
-def _missing_text(res: BatchResult, name: str, i: int, target_missing: bool) -> str:
+def _metric_target_source(name: str, source: str) -> str:
+    rule = sc.SCORING_TABLE[name]
+    return rule.source if source in rule.source else f"target: {source}; ok band: {rule.source}"
+
+
+# Why a metric was not scored for want of data is packed into a small integer per row (two
+# bits per reading field, then the target and the atmosphere), so the text is written once
+# per distinct case instead of once per row.
+_FIELD_MISSING, _FIELD_PARTIAL = 1, 2
+_TARGET_MISSING = 1 << 2 * max(len(fields) for fields, _ in METRIC_NEEDS.values())
+_ATMOSPHERE_BAD = _TARGET_MISSING << 1
+
+
+def _missing_keys(
+    readings: ReadingColumns, atm: FloatArray, name: str, target_missing: NDArray[np.bool_]
+) -> NDArray[np.int64]:
+    fields, _ = METRIC_NEEDS[name]
+    key = np.where(target_missing, _TARGET_MISSING, 0).astype(np.int64)
+    key[np.isnan(atm)] |= _ATMOSPHERE_BAD
+    for k, f in enumerate(fields):
+        col = getattr(readings, f)
+        nan = np.isnan(col)
+        absent = nan.all(axis=1) if nan.ndim == 2 else nan
+        key[absent] |= _FIELD_MISSING << 2 * k
+        if nan.ndim == 2 and name.endswith("unbalance"):
+            key[~absent & nan.any(axis=1)] |= _FIELD_PARTIAL << 2 * k
+    return key
+
+
+@functools.cache
+def _missing_text(name: str, key: int) -> str:
+    """Why metric ``name`` was not scored, for one ``_missing_keys`` case."""
     fields, design = METRIC_NEEDS[name]
-    r = res.readings
     missing: list[str] = []
-    for f in fields:
-        col = getattr(r, f)[i]
-        if np.all(np.isnan(col)):
+    for k, f in enumerate(fields):
+        state = key >> 2 * k & 3
+        if state == _FIELD_MISSING:
             missing.append(f)
-        elif name.endswith("unbalance") and np.isnan(col).any():
+        elif state == _FIELD_PARTIAL:
             missing.append(f"{f} (three legs)")
     parts = []
     if missing:
         parts.append("not measured: " + ", ".join(missing))
-    if target_missing:
+    if key & _TARGET_MISSING:
         parts.append(f"the unit's data does not give {design}")
-    if not parts and "kpa" in " ".join(fields) and np.isnan(res.atmosphere_kpa[i]):
+    if not parts and "kpa" in " ".join(fields) and key & _ATMOSPHERE_BAD:
         parts.append("the site elevation is unusable, so gauge pressures cannot be made absolute")
     if not parts:
         return "the pressure is outside the refrigerant's saturation range"
     return "; ".join(parts)
 
 
-def _row_metrics(res: BatchResult, i: int) -> tuple[Metric, ...]:
-    out: list[Metric] = []
-    for name, rule in sc.SCORING_TABLE.items():
-        col = res.metrics[name]
-        reason_code = int(col.reason[i])
-        if reason_code == REASON_HIDDEN:
-            continue
-        status = STATUSES[int(col.status[i])]
-        target = _opt(col.target[i])
-        reason = ""
-        if status == "not_scored":
-            reason = REASON_TEXT.get(reason_code) or _missing_text(
-                res,
-                name,
-                i,
-                target is None or bool(np.isnan(col.low[i]) or np.isnan(col.high[i])),
-            )
-        out.append(
-            Metric(
-                name=name,
-                measured=_opt(col.measured[i]),
-                target=target,
-                low=_opt(col.low[i]),
-                high=_opt(col.high[i]),
-                deviation=_opt(col.deviation[i]),
-                unit=rule.unit,
-                status=status,
-                points_lost=float(col.points[i]),
-                reason=reason,
-            )
-        )
-    return tuple(out)
+@functools.cache
+def _evidence_names(bit: int, first_trigger: int, support: int) -> tuple[str, ...]:
+    """The signals behind rule ``bit`` for rows whose first holding trigger and supporting
+    signals (bit j = ``rule.supporting[j]``) are these; ``findings.signals_behind`` decides."""
+    rule = findings.RULES[bit]
+    holding = dict.fromkeys(rule.triggers[first_trigger], True)
+    for j, name in enumerate(rule.supporting):
+        if support >> j & 1:
+            holding[name] = True
+    return findings.signals_behind(rule, holding)
 
 
-def _row_targets(res: BatchResult, i: int, metrics: tuple[Metric, ...]) -> tuple[Target, ...]:
-    out: list[Target] = []
-    u = int(res.unit_index[i])
-    designation = res.units.refrigerants[int(res.units.refrigerant_code[u])]
-    st = res.saturation_targets
-    td = res.metrics["evaporator_td"]
-    split = res.metrics["condenser_split"]
-    box = res.readings.box_temp_c[i]
-    box_note = "measured box temperature" if not math.isnan(box) else "design box temperature"
-    glide = (
-        "mid-point of dew and bubble" if refrigerants.get(designation).is_blend else "saturation"
-    )
-    atm = float(res.atmosphere_kpa[i])
-    curve = saturation.table(designation)
-    te = _opt(st["evaporating_c"][i])
-    if te is not None:
-        base = te + float(res.unit_targets["evap_td_k"][u])
-        low, high = base - float(td.high[i]), base - float(td.low[i])
-        out.append(
-            Target("evaporating_temp", te, low, high, "C", f"{box_note} - evaporator TD ({glide})")
-        )
-        p = tg.mid_point_pressure_kpa_abs(curve, np.array([te, low, high]))
-        if not math.isnan(p[0]):
-            out.append(
-                Target(
-                    "suction_pressure",
-                    float(p[0]) - atm,
-                    _opt(p[1] - atm),
-                    _opt(p[2] - atm),
-                    "kPa",
-                    f"pressure at the evaporating target ({glide}), gauge at the site elevation",
-                )
-            )
-    tc = _opt(st["condensing_c"][i])
-    if tc is not None:
-        base = tc - float(res.unit_targets["split_k"][u])
-        low, high = base + float(split.low[i]), base + float(split.high[i])
-        out.append(
-            Target(
-                "condensing_temp",
-                tc,
-                low,
-                high,
-                "C",
-                f"entering air + condenser split ({glide})",
-            )
-        )
-        p = tg.mid_point_pressure_kpa_abs(curve, np.array([tc, low, high]))
-        if not math.isnan(p[0]):
-            out.append(
-                Target(
-                    "condensing_pressure",
-                    float(p[0]) - atm,
-                    _opt(p[1] - atm),
-                    _opt(p[2] - atm),
-                    "kPa",
-                    f"pressure at the condensing target ({glide}), gauge at the site elevation",
-                )
-            )
-    sources = _target_sources(res, i)
-    for metric in metrics:
-        if metric.target is None or int(res.metrics[metric.name].reason[i]) in NOT_APPLICABLE:
-            continue
-        rule = sc.SCORING_TABLE[metric.name]
-        out.append(
-            Target(
-                metric.name,
-                metric.target,
-                metric.low,
-                metric.high,
-                metric.unit,
-                rule.source
-                if sources[metric.name] in rule.source
-                else f"target: {sources[metric.name]}; ok band: {rule.source}",
-            )
-        )
-    return tuple(out)
-
-
-def _row_findings(res: BatchResult, i: int, metrics: tuple[Metric, ...]) -> tuple[Finding, ...]:
-    mask = int(res.finding_mask[i])
-    if not mask:
-        return ()
-    by_name: dict[str, Any] = {m.name: _MetricText(m) for m in metrics}
-    row_signals = {name: bool(arr[i]) for name, arr in res.signals.items()}
-    out: list[Finding] = []
-    for bit, rule in enumerate(findings.RULES):
-        if not mask >> bit & 1:
-            continue
-        evidence = tuple(
-            findings.SIGNALS[s].text.format_map(by_name)
-            for s in findings.signals_behind(rule, row_signals)
-        )
-        out.append(
-            Finding(
-                code=rule.code,
-                title=rule.title,
-                evidence=evidence,
-                confidence=round(float(res.finding_confidence[bit, i]), 3),
-                advice=rule.advice,
-            )
-        )
-    out.sort(key=lambda f: -f.confidence)
-    return tuple(out)
-
-
-#: Safety cautions (our wording). Which apply is decided per row in ``_row_cautions``.
+#: Safety cautions (our wording). Which apply is decided per refrigerant in ``_caution_codes``.
 CAUTIONS: dict[str, str] = {
     "electrical": "Electrical hazard: lock out and tag out the supply before touching wiring or "
     "terminals, discharge capacitors before handling them, and take live readings only with "
@@ -959,8 +906,12 @@ CAUTIONS: dict[str, str] = {
     "diagnosis supports the technician's judgement and does not replace it.",
 }
 
+#: Finding bits whose likely repair opens the circuit (certified handling applies).
+_OPENS_CIRCUIT_MASK = sum(1 << bit for bit, rule in enumerate(findings.RULES) if rule.opens_circuit)
 
-def _row_cautions(designation: str, fired: Sequence[findings.Rule]) -> tuple[Caution, ...]:
+
+@functools.cache
+def _caution_codes(designation: str, opens_circuit: bool) -> tuple[str, ...]:
     ref = refrigerants.get(designation)
     codes = ["electrical", "pressure"]
     if ref.designation == "R-744":
@@ -972,10 +923,335 @@ def _row_cautions(designation: str, fired: Sequence[findings.Rule]) -> tuple[Cau
         codes.append("flammable")
     if safety.startswith("B"):
         codes.append("toxic")
-    if any(rule.opens_circuit for rule in fired):
+    if opens_circuit:
         codes.append("certified_handling")
     codes.append("codes")
-    return tuple(Caution(code, CAUTIONS[code]) for code in codes)
+    return tuple(codes)
+
+
+def _stored_rows(res: BatchResult, rows: NDArray[np.intp] | None = None) -> list[Row]:
+    """Rows ``rows`` of the batch (all when None) as stored: JSON-ready dicts.
+
+    Every number comes from the batch's columns (the saturation targets and their pressures
+    included), turned into a list once per column; the rows are then put together from those
+    lists, with texts from templates per code written once per distinct case.
+    """
+
+    def pick(a: NDArray[Any]) -> NDArray[Any]:
+        return a if rows is None else a[rows]
+
+    k = len(res) if rows is None else len(rows)
+    if k == 0:
+        return []
+    unit = pick(res.unit_index)
+    unit_l: list[int] = unit.tolist()
+    ref_code = res.units.refrigerant_code[unit]
+    atm = pick(res.atmosphere_kpa)
+    readings = (
+        res.readings
+        if rows is None
+        else ReadingColumns(
+            **{
+                name: getattr(res.readings, name)[rows]
+                for name in ReadingColumns.__dataclass_fields__
+            }
+        )
+    )
+    statuses = np.array(STATUSES, dtype=object)
+
+    # metrics: one dict per visible (metric, row), None where the metric is hidden
+    metric_cols: list[list[Row | None]] = []
+    values: dict[str, dict[str, list[float | None]]] = {}
+    cols: dict[str, MetricColumns] = {}
+    for name, rule in sc.SCORING_TABLE.items():
+        c = res.metrics[name]
+        col = MetricColumns(*(pick(getattr(c, f)) for f in MetricColumns.__dataclass_fields__))
+        cols[name] = col
+        v = {f: _opt_list(getattr(col, f)) for f in ("measured", "target", "low", "high")}
+        values[name] = v
+        reasons = [""] * k
+        unscored = np.flatnonzero(col.status == sc.NOT_SCORED)
+        if unscored.size:
+            target_missing = ~np.isfinite(col.target) | np.isnan(col.low) | np.isnan(col.high)
+            keys = _missing_keys(readings, atm, name, target_missing)
+            for j, code, key in zip(
+                unscored.tolist(),
+                col.reason[unscored].tolist(),
+                keys[unscored].tolist(),
+                strict=True,
+            ):
+                reasons[j] = REASON_TEXT.get(code) or _missing_text(name, key)
+        unit_name = rule.unit
+        metric_cols.append(
+            [
+                None
+                if hidden
+                else {
+                    "name": name,
+                    "measured": m,
+                    "target": t,
+                    "low": lo,
+                    "high": hi,
+                    "deviation": d,
+                    "unit": unit_name,
+                    "status": s,
+                    "points_lost": p,
+                    "reason": r,
+                }
+                for hidden, m, t, lo, hi, d, s, p, r in zip(
+                    (col.reason == REASON_HIDDEN).tolist(),
+                    v["measured"],
+                    v["target"],
+                    v["low"],
+                    v["high"],
+                    _opt_list(col.deviation),
+                    statuses[col.status].tolist(),
+                    col.points.tolist(),
+                    reasons,
+                    strict=True,
+                )
+            ]
+        )
+
+    # targets: the saturation targets, then every metric target that applies to the unit
+    target_cols = _saturation_target_cols(res, pick, ref_code, readings)
+    sources = {u: _target_sources(res, u) for u in set(unit_l)}
+    for name, rule in sc.SCORING_TABLE.items():
+        col, v = cols[name], values[name]
+        show = np.isfinite(col.target) & (col.reason != REASON_HIDDEN)
+        show &= ~_NOT_APPLICABLE[col.reason]
+        by_unit = {u: _metric_target_source(name, s[name]) for u, s in sources.items()}
+        unit_name = rule.unit
+        target_cols.append(
+            [
+                {
+                    "name": name,
+                    "value": t,
+                    "low": lo,
+                    "high": hi,
+                    "unit": unit_name,
+                    "source": by_unit[u],
+                }
+                if shown
+                else None
+                for shown, t, lo, hi, u in zip(
+                    show.tolist(), v["target"], v["low"], v["high"], unit_l, strict=True
+                )
+            ]
+        )
+
+    found = _finding_rows(res, pick, values)
+    mask = pick(res.finding_mask)
+    opens = ((mask & _OPENS_CIRCUIT_MASK) != 0).tolist()
+    designations = [res.units.refrigerants[c] for c in ref_code.tolist()]
+    cautions = [
+        [{"code": code, "text": CAUTIONS[code]} for code in _caution_codes(d, o)]
+        for d, o in zip(designations, opens, strict=True)
+    ]
+
+    version, glide = res.algorithm_version, tg.GLIDE_CHOICE_TEXT
+    derived = [_opt_list(pick(res.derived[name])) for name in STORED_DERIVED]
+    return [
+        {
+            "algorithm_version": version,
+            "score": score,
+            "targets": [d for d in t if d is not None],
+            "metrics": [d for d in m if d is not None],
+            "findings": found.get(j, []),
+            "cautions": c,
+            "glide_choice": glide,
+            "energy_penalty_pct": energy_pct,
+            "evaporating_c": d0,
+            "condensing_c": d1,
+            "superheat_k": d2,
+            "subcooling_k": d3,
+            "evaporator_td_k": d4,
+            "condenser_split_k": d5,
+            "compression_ratio": d6,
+        }
+        for j, (score, energy_pct, t, m, c, d0, d1, d2, d3, d4, d5, d6) in enumerate(
+            zip(
+                pick(res.score).tolist(),
+                _opt_list(pick(res.energy_penalty_pct)),
+                zip(*target_cols, strict=True),
+                zip(*metric_cols, strict=True),
+                cautions,
+                *derived,
+                strict=True,
+            )
+        )
+    ]
+
+
+def _saturation_target_cols(
+    res: BatchResult,
+    pick: Callable[[NDArray[Any]], NDArray[Any]],
+    ref_code: NDArray[np.intp],
+    readings: ReadingColumns,
+) -> list[list[Row | None]]:
+    """The evaporating and condensing targets and their pressures (all computed by the
+    batch), one column each; None where a row has no such target."""
+    st = res.saturation_targets
+    blend = np.array([refrigerants.get(d).is_blend for d in res.units.refrigerants], dtype=bool)
+    glide = np.where(blend[ref_code], "mid-point of dew and bubble", "saturation").tolist()
+    box_note = np.where(
+        np.isnan(readings.box_temp_c), "design box temperature", "measured box temperature"
+    ).tolist()
+    out: list[list[Row | None]] = []
+    for side, temp_key, pressure_key, temp_name, pressure_name in (
+        (
+            "evaporating",
+            "evaporating_c",
+            "suction_kpa_gauge",
+            "evaporating_temp",
+            "suction_pressure",
+        ),
+        ("condensing", "condensing_c", "head_kpa_gauge", "condensing_temp", "condensing_pressure"),
+    ):
+        if side == "evaporating":
+            temp_sources = [
+                f"{note} - evaporator TD ({g})" for note, g in zip(box_note, glide, strict=True)
+            ]
+        else:
+            temp_sources = [f"entering air + condenser split ({g})" for g in glide]
+        temp, pressure = (
+            [_opt_list(pick(st[key + edge])) for edge in ("", "_low", "_high")]
+            for key in (temp_key, pressure_key)
+        )
+        out.append(
+            [
+                {"name": temp_name, "value": t, "low": lo, "high": hi, "unit": "C", "source": s}
+                if t is not None
+                else None
+                for t, lo, hi, s in zip(*temp, temp_sources, strict=True)
+            ]
+        )
+        out.append(
+            [
+                {
+                    "name": pressure_name,
+                    "value": p,
+                    "low": lo,
+                    "high": hi,
+                    "unit": "kPa",
+                    "source": f"pressure at the {side} target ({g}), gauge at the site elevation",
+                }
+                if p is not None
+                else None
+                for p, lo, hi, g in zip(*pressure, glide, strict=True)
+            ]
+        )
+    return out
+
+
+def _evidence_texts(
+    signal: str, at: list[int], values: Mapping[str, Mapping[str, list[float | None]]]
+) -> list[str]:
+    """The evidence line of ``signal`` for the rows ``at``, filled part by part."""
+    pieces: list[list[str]] = []
+    for literal, metric, spec in _template(findings.SIGNALS[signal].text):
+        if literal:
+            pieces.append([literal] * len(at))
+        if metric is None:
+            continue
+        v, unit = values[metric], sc.SCORING_TABLE[metric].unit
+        if spec == "band":
+            low, high = v["low"], v["high"]
+            pieces.append([_band_text(low[j], high[j], unit) for j in at])
+        else:
+            shown = (
+                v["target"] if spec == "target" else v["high"] if spec == "high" else v["measured"]
+            )
+            pieces.append([_fmt(shown[j], unit) for j in at])
+    return ["".join(parts) for parts in zip(*pieces, strict=True)]
+
+
+def _confidence(finding: Row) -> float:
+    return -finding["confidence"]
+
+
+def _finding_rows(
+    res: BatchResult,
+    pick: Callable[[NDArray[Any]], NDArray[Any]],
+    values: Mapping[str, Mapping[str, list[float | None]]],
+) -> dict[int, list[Row]]:
+    """The findings of every row that has any (row position -> findings, most confident
+    first); the evidence lines are formatted once per signal over the rows that show it."""
+    mask = pick(res.finding_mask)
+    has_finding = mask != 0
+    if not has_finding.any():
+        return {}
+    picked: dict[str, NDArray[np.bool_]] = {}
+    never = np.zeros(len(mask), dtype=bool)
+
+    def signal(name: str) -> NDArray[np.bool_]:
+        if name not in picked:
+            picked[name] = pick(res.signals[name]) if name in res.signals else never
+        return picked[name]
+
+    fired_rules: list[tuple[findings.Rule, list[int], list[tuple[str, ...]], list[float]]] = []
+    for bit, rule in enumerate(findings.RULES):
+        fired = np.flatnonzero(mask & np.uint32(1 << bit))
+        if not fired.size:
+            continue
+        first = np.full(fired.size, -1, dtype=np.int64)
+        for t, trigger in enumerate(rule.triggers):
+            hit = np.ones(fired.size, dtype=bool)
+            for name in trigger:
+                hit &= signal(name)[fired]
+            first[(first < 0) & hit] = t
+        support = np.zeros(fired.size, dtype=np.int64)
+        for j, name in enumerate(rule.supporting):
+            support[signal(name)[fired]] |= 1 << j
+        names = [
+            _evidence_names(bit, f, s)
+            for f, s in zip(first.tolist(), support.tolist(), strict=True)
+        ]
+        confidence = [round(c, 3) for c in pick(res.finding_confidence[bit])[fired].tolist()]
+        fired_rules.append((rule, fired.tolist(), names, confidence))
+
+    texts: dict[str, list[str | None]] = {}
+    for name in set().union(*(set(n) for _, _, names, _ in fired_rules for n in set(names))):
+        at = np.flatnonzero(signal(name) & has_finding).tolist()
+        column: list[str | None] = [None] * len(mask)
+        for j, text in zip(at, _evidence_texts(name, at, values), strict=True):
+            column[j] = text
+        texts[name] = column
+
+    out: dict[int, list[Row]] = {}
+    for rule, rows, names, confidence in fired_rules:
+        for j, behind, c in zip(rows, names, confidence, strict=True):
+            out.setdefault(j, []).append(
+                {
+                    "code": rule.code,
+                    "title": rule.title,
+                    "evidence": [texts[s][j] for s in behind],
+                    "confidence": c,
+                    "advice": rule.advice,
+                }
+            )
+    for found in out.values():
+        if len(found) > 1:
+            found.sort(key=_confidence)
+    return out
+
+
+def stored_row(diagnosis: Diagnosis) -> Row:
+    """One diagnosis in its stored form: what ``BatchResult.stored_rows`` gives for its row."""
+    derived = diagnosis.derived
+    return {
+        "algorithm_version": diagnosis.algorithm_version,
+        "score": diagnosis.score,
+        "targets": [dataclasses.asdict(t) for t in diagnosis.targets],
+        "metrics": [dataclasses.asdict(m) for m in diagnosis.metrics],
+        "findings": [
+            {**dataclasses.asdict(f), "evidence": list(f.evidence)} for f in diagnosis.findings
+        ],
+        "cautions": [dataclasses.asdict(c) for c in diagnosis.cautions],
+        "glide_choice": diagnosis.glide_choice,
+        "energy_penalty_pct": diagnosis.energy_penalty_pct,
+        **{name: getattr(derived, name) for name in STORED_DERIVED},
+    }
 
 
 def _row_derived(res: BatchResult, i: int) -> DerivedValues:
@@ -985,19 +1261,17 @@ def _row_derived(res: BatchResult, i: int) -> DerivedValues:
 
 
 def _row_diagnosis(res: BatchResult, i: int) -> Diagnosis:
-    metrics = _row_metrics(res, i)
-    u = int(res.unit_index[i])
-    designation = res.units.refrigerants[int(res.units.refrigerant_code[u])]
-    found = _row_findings(res, i, metrics)
-    fired = findings.rules_in_mask(int(res.finding_mask[i]))
+    """Row ``i`` as dataclasses: its stored form (built by the same code as for the whole
+    batch, on a selection of one row), typed, plus every derived value."""
+    row = _stored_rows(res, np.array([i], dtype=np.intp))[0]
     return Diagnosis(
-        score=float(res.score[i]),
-        algorithm_version=res.algorithm_version,
-        targets=_row_targets(res, i, metrics),
-        metrics=metrics,
-        findings=found,
-        cautions=_row_cautions(designation, fired),
-        energy_penalty_pct=_opt(res.energy_penalty_pct[i]),
+        score=row["score"],
+        algorithm_version=row["algorithm_version"],
+        targets=tuple(Target(**t) for t in row["targets"]),
+        metrics=tuple(Metric(**m) for m in row["metrics"]),
+        findings=tuple(Finding(**{**f, "evidence": tuple(f["evidence"])}) for f in row["findings"]),
+        cautions=tuple(Caution(**c) for c in row["cautions"]),
+        energy_penalty_pct=row["energy_penalty_pct"],
         derived=_row_derived(res, i),
-        glide_choice=tg.GLIDE_CHOICE_TEXT,
+        glide_choice=row["glide_choice"],
     )

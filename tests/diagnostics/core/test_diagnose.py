@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import dataclasses
+import itertools
+import json
 import math
 
 import numpy as np
@@ -17,6 +19,7 @@ from diagnostics.core.diagnose import (
     UnitColumns,
     diagnose,
     diagnose_batch,
+    stored_row,
 )
 from diagnostics.core.types import Reading, UnitDesign
 
@@ -335,3 +338,89 @@ def test_any_subset_of_fields_gives_a_score_and_never_crashes(unit, values, elev
     assert result.energy_penalty_pct is None or (
         math.isfinite(result.energy_penalty_pct) and result.energy_penalty_pct >= 0.0
     )
+
+
+def _varied_batch():
+    """Synthetic rows that fire every finding and hit every special case: a grid around
+    FULL on a receiverless R-404A cooler, a compressor stalled at start, a low supply, an
+    empty reading, R-744 above its critical point, a water-cooled unit, the R-448A glide
+    blend, and a site whose elevation is unusable."""
+    r448a = UnitDesign("R-448A", "low_temp", has_receiver=True, rla_a=12.0, lra_a=70.0)
+    r744 = UnitDesign("R-744", "medium_temp", has_receiver=True)
+    water = dataclasses.replace(R404A_MT, condenser_type="water")
+    units = [R404A_MT, r448a, r744, water]
+    readings, index = [], []
+    glass = ("clear", "bubbles", "none")
+    grid = itertools.product((250.0, 330.0, 500.0), (-8.0, 0.0, 12.0), (900.0, 1550.0, 2300.0))
+    for n, (suction, suction_line, head) in enumerate(grid):
+        for liquid in (20.0, 33.0, 45.0):
+            readings.append(
+                dataclasses.replace(
+                    FULL,
+                    box_temp_c=8.0 if n % 2 else -2.0,
+                    suction_kpa_gauge=suction,
+                    suction_line_temp_c=suction_line,
+                    head_kpa_gauge=head,
+                    liquid_line_temp_c=liquid,
+                    sight_glass=glass[n % 3],
+                    compressor_amps=((4.0, 8.5, 11.0)[n % 3],),
+                )
+            )
+            index.append(0)
+    readings += [
+        dataclasses.replace(FULL, compressor_running=False, compressor_amps=(57.0,)),
+        dataclasses.replace(FULL, supply_volts=(190.0,)),
+        dataclasses.replace(FULL, coil_iced=True, evaporator_fans_running=False),
+        Reading(),
+        Reading(box_temp_c=-20.0, suction_kpa_gauge=80.0, suction_line_temp_c=-30.0),
+        dataclasses.replace(FULL, box_temp_c=-22.0, suction_kpa_gauge=120.0, head_kpa_gauge=1500.0),
+        Reading(
+            entering_air_temp_c=32.0,
+            suction_kpa_gauge=2900.0,
+            suction_line_temp_c=-3.0,
+            head_kpa_gauge=9000.0,
+            liquid_line_temp_c=35.0,
+        ),
+        Reading(entering_air_temp_c=20.0, suction_kpa_gauge=2900.0, head_kpa_gauge=5500.0),
+        FULL,
+        dataclasses.replace(FULL, supply_volts=(), compressor_amps=()),
+        FULL,
+    ]
+    index += [0, 0, 0, 0, 1, 1, 2, 2, 3, 3, 0]
+    elevation = np.zeros(len(readings))
+    elevation[-1] = np.nan  # an unusable site elevation: no gauge pressure can be made absolute
+    return diagnose_batch(
+        UnitColumns.from_designs(units),
+        ReadingColumns.from_readings(readings),
+        elevation,
+        np.array(index),
+    )
+
+
+def test_the_stored_rows_of_a_batch_equal_each_row_stored_one_at_a_time():
+    """``stored_rows()`` (built on columns, what ``manage.py rescore`` stores) gives for
+    every row exactly what storing ``diagnosis(i)`` gives (the one-POST path,
+    ``services._row_values`` = ``stored_row``), on a batch where every finding fires, fields
+    are missing, R-744 runs above its critical point, a condenser is water-cooled, a blend
+    glides and one site's elevation is unusable; the rows are plain JSON (no NaN, no tuples)."""
+    batch = _varied_batch()
+    rows = batch.stored_rows()
+    fired = {f["code"] for row in rows for f in row["findings"]}
+    assert fired == set(batch.finding_codes)
+    assert batch.derived["transcritical"].any()
+    assert any(m["reason"].startswith("water-cooled") for row in rows for m in row["metrics"])
+    assert any("mid-point" in t["source"] for row in rows for t in row["targets"])
+    assert json.loads(json.dumps(rows, allow_nan=False)) == rows
+    assert len(rows) == len(batch)
+    for i, row in enumerate(rows):
+        assert row == stored_row(batch.diagnosis(i)), i
+
+
+def test_a_site_without_a_usable_elevation_keeps_its_temperature_targets_only():
+    """With no standard atmosphere for the site, the evaporating and condensing temperature
+    targets stand but no gauge-pressure target is stored (there is no absolute to subtract
+    from, and a NaN would not be valid JSON)."""
+    row = _varied_batch().stored_rows()[-1]
+    names = {t["name"] for t in row["targets"]}
+    assert {"evaporating_temp", "condensing_temp"} <= names
+    assert not names & {"suction_pressure", "condensing_pressure"}
