@@ -32,7 +32,15 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from diagnostics.core import atmosphere, electrical, energy, findings, refrigerants, saturation
+from diagnostics.core import (
+    atmosphere,
+    electrical,
+    energy,
+    findings,
+    refrigerants,
+    saturation,
+    units,
+)
 from diagnostics.core import scoring as sc
 from diagnostics.core import targets as tg
 from diagnostics.core.types import (
@@ -742,19 +750,50 @@ def _opt_list(values: FloatArray) -> list[float | None]:
     return out
 
 
+#: Evidence is stored once, so it states SI and US customary side by side (the trade in
+#: North America reads F and psig; the stored numbers stay SI). Gauge stays gauge.
+_SECOND_UNIT = {
+    "C": ("F", lambda v: units.temperature_from_c(v, "F")),
+    "K": ("F", lambda v: units.temperature_difference_from_k(v, "F")),
+    "kPa": ("psig", lambda v: units.pressure_from_kpa_gauge(v, "psig")),
+}
+
+
+def _number(value: float) -> str:
+    return f"{value:.1f}"
+
+
 def _fmt(value: float | None, unit: str) -> str:
     if value is None:
         return "?"
-    text = f"{value:.1f}"
-    return f"{text} {unit}".strip() if unit else text
+    text = f"{_number(value)} {unit}".strip() if unit else _number(value)
+    if unit in _SECOND_UNIT:
+        other, convert = _SECOND_UNIT[unit]
+        text += f" ({_number(float(convert(value)))} {other})"
+    return text
 
 
 def _band_text(low: float | None, high: float | None, unit: str) -> str:
-    lo = "" if low is None else _fmt(low, "")
-    hi = "" if high is None else _fmt(high, "")
-    if lo and hi:
-        return f"{lo} to {hi} {unit}".strip()
-    return f"{'at most ' + hi if hi else 'at least ' + lo} {unit}".strip()
+    def band(lo: float | None, hi: float | None, symbol: str) -> str:
+        lo_text = "" if lo is None else _number(lo)
+        hi_text = "" if hi is None else _number(hi)
+        if lo_text and hi_text:
+            return f"{lo_text} to {hi_text} {symbol}".strip()
+        return f"{'at most ' + hi_text if hi_text else 'at least ' + lo_text} {symbol}".strip()
+
+    text = band(low, high, unit)
+    if unit in _SECOND_UNIT:
+        other, convert = _SECOND_UNIT[unit]
+        text += (
+            " ("
+            + band(
+                None if low is None else float(convert(low)),
+                None if high is None else float(convert(high)),
+                other,
+            )
+            + ")"
+        )
+    return text
 
 
 @functools.cache
