@@ -1,6 +1,25 @@
 from django.apps import AppConfig
+from django.db.models.signals import post_migrate
+
+#: Apps whose records the office keeps in the admin as well as on its own pages.
+OFFICE_APPS = ("fleet", "diagnostics", "reports")
+
+
+def grant_office_permissions(sender, using="default", **kwargs) -> None:
+    """Give the office group every model permission of our apps (after each migrate, since
+    Django creates permissions only once migrations have run)."""
+    from django.contrib.auth.models import Group, Permission
+
+    office = Group.objects.using(using).filter(name="office").first()
+    if office is not None:
+        office.permissions.add(
+            *Permission.objects.using(using).filter(content_type__app_label__in=OFFICE_APPS)
+        )
 
 
 class FleetConfig(AppConfig):
     name = "fleet"
     verbose_name = "Fleet"
+
+    def ready(self) -> None:
+        post_migrate.connect(grant_office_permissions, dispatch_uid="rimewatch-office-permissions")

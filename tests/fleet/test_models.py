@@ -161,3 +161,16 @@ def test_every_model_has_a_readable_str():
     ):
         assert str(obj)
         assert "object (" not in str(obj)
+
+
+def test_the_office_group_may_keep_every_record_in_the_admin():
+    """After migrate, the office group holds the add/change/delete/view permissions of the
+    fleet, diagnostics and reports models, so office staff can use the admin."""
+    from django.contrib.auth.models import Group
+
+    office = Group.objects.get(name="office")
+    codenames = set(office.permissions.values_list("content_type__app_label", "codename"))
+    assert ("fleet", "change_unit") in codenames
+    assert ("diagnostics", "change_flag") in codenames
+    assert ("reports", "view_monthlyreport") in codenames
+    assert not any(app == "auth" for app, _ in codenames)
