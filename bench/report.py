@@ -61,7 +61,7 @@ def main() -> None:
 
     with tempfile.TemporaryDirectory(prefix="rimewatch-bench-") as tmp:
         _setup(Path(tmp))
-        from reports.display import display_for
+        from fleet.display import display_for
         from reports.months import Month
         from reports.services import build_report
         from tests.reports.factories import bulk_site_history

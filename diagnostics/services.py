@@ -115,28 +115,14 @@ def reading_sets_for_diagnosis():
     ).prefetch_related("visit_unit__unit__components")
 
 
-#: Reading-set columns the batch path reads, in ReadingColumns' names where they differ.
-_SCALAR_COLUMNS = (
-    "box_temp_c",
-    "entering_air_temp_c",
-    "suction_kpa_gauge",
-    "suction_line_temp_c",
-    "head_kpa_gauge",
-    "liquid_line_temp_c",
-    "discharge_line_temp_c",
-    "run_capacitor_uf",
-    "start_capacitor_uf",
-)
+#: Reading-set columns the batch path reads: the core's column names, which the model's
+#: fields share, plus one column per leg for amps and volts.
+_SCALAR_COLUMNS = core_diagnose.READING_SCALARS
 _LEG_COLUMNS = {
     "compressor_amps": ("compressor_amps_1", "compressor_amps_2", "compressor_amps_3"),
     "supply_volts": ("supply_volts_1", "supply_volts_2", "supply_volts_3"),
 }
-_FLAG_COLUMNS = (
-    "compressor_running",
-    "condenser_fan_running",
-    "evaporator_fans_running",
-    "coil_iced",
-)
+_FLAG_COLUMNS = core_diagnose.READING_FLAGS
 _FETCHED = (
     "id",
     "visit_unit__unit_id",

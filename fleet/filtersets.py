@@ -124,8 +124,13 @@ class VisitFilterSet(filters.FilterSet):
         return queryset.filter(window_start__lt=end, window_end__gt=start)
 
 
-class ReadingSetFilterSet(filters.FilterSet):
+class VisitRecordFilterSet(filters.FilterSet):
+    """A record hanging off a unit of a visit (its visit is in the path)."""
+
     unit = id_filter("visit_unit__unit_id", "Unit id.")
+
+
+class ReadingSetFilterSet(VisitRecordFilterSet):
     stage = filters.ChoiceFilter(choices=choices.Stage.choices)
 
     class Meta:
@@ -133,8 +138,7 @@ class ReadingSetFilterSet(filters.FilterSet):
         fields = ["unit", "stage"]
 
 
-class RefrigerantEventFilterSet(filters.FilterSet):
-    unit = id_filter("visit_unit__unit_id", "Unit id.")
+class RefrigerantEventFilterSet(VisitRecordFilterSet):
     kind = filters.ChoiceFilter(choices=choices.RefrigerantEventKind.choices)
 
     class Meta:

@@ -12,13 +12,14 @@ from zoneinfo import ZoneInfo
 
 from django import forms
 from django.contrib.auth import get_user_model
-from django.db import IntegrityError, transaction
+from django.db import transaction
 from django.utils import timezone
 
 from diagnostics.models import Flag
 
 from .choices import Role, VisitStatus
 from .models import Site, Unit, Visit, VisitUnit
+from .services import save_new_visit
 
 User = get_user_model()
 
@@ -60,40 +61,6 @@ def site_wall_clock(value: dt.datetime | None, site: Site | None) -> dt.datetime
     if value is None or site is None:
         return value
     return timezone.localtime(value, ZoneInfo(site.time_zone)).replace(tzinfo=None)
-
-
-def next_reference(day: dt.date) -> str:
-    """Our next visit number for the month of ``day``: V-YYMM-NNNN."""
-    prefix = f"V-{day:%y%m}-"
-    last = (
-        Visit.objects.filter(reference__startswith=prefix)
-        .order_by("-reference")
-        .values_list("reference", flat=True)
-        .first()
-    )
-    number = int(last.rsplit("-", 1)[1]) + 1 if last else 1
-    return f"{prefix}{number:04d}"
-
-
-def save_new_visit(visit: Visit, units, people=()) -> Visit:
-    """Store a new visit under our next free reference, with its units and people.
-
-    Two coordinators saving at the same moment could pick the same number; the unique
-    constraint refuses the second, which then takes the following number.
-    """
-    for _attempt in range(5):
-        visit.reference = next_reference(timezone.localdate())
-        try:
-            with transaction.atomic():
-                visit.save()
-                VisitUnit.objects.bulk_create(VisitUnit(visit=visit, unit=u) for u in units)
-                if people:
-                    visit.technicians.set(people)
-                return visit
-        except IntegrityError:
-            visit.pk = None
-            visit._state.adding = True
-    raise IntegrityError("could not find a free visit reference")
 
 
 class VisitForm(forms.ModelForm):

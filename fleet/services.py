@@ -1,13 +1,134 @@
-"""Operations on fleet records that touch several rows or have rules of their own."""
+"""Writes on fleet records that touch several rows or have side effects, each in one
+transaction and each leaving the audit trail (``fleet.audit``): book visits, move them along
+their life cycle, store reading sets and refrigerant events once (whatever the retries) with
+their diagnosis or leak rate, and delete records.
+
+The API and the office pages both call these; neither writes such rows by itself.
+
+A phone may post the same ``client_id`` twice, even at the same instant. The unique
+constraint on ``client_id`` settles it: the insert runs in a savepoint, and an
+IntegrityError on it means another request stored the record first, which is then returned.
+No read-then-write decides it, so two concurrent posts store exactly one row.
+"""
 
 from __future__ import annotations
 
+import datetime as dt
+import logging
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from contextlib import contextmanager
+from dataclasses import dataclass
+from typing import Generic, TypeVar
+from zoneinfo import ZoneInfo
+
 from django.contrib.auth.models import AbstractBaseUser
-from django.db import transaction
+from django.db import IntegrityError, models, transaction
 from django.utils import timezone
 
-from .choices import VISIT_TRANSITIONS, VisitStatus
-from .models import Visit
+from diagnostics.core.maintenance import VisitProposal
+from diagnostics.services import (
+    diagnose_reading_set,
+    record_leak_rate,
+    record_leak_rates,
+    refresh_flags,
+)
+
+from . import audit
+from .choices import VISIT_TRANSITIONS, VisitKind, VisitStatus
+from .models import AuditAction, ReadingSet, RefrigerantEvent, Unit, Visit, VisitUnit
+
+log = logging.getLogger(__name__)
+
+R = TypeVar("R", ReadingSet, RefrigerantEvent)
+
+#: What a stored record is returned with, so it serialises without further queries.
+RECORD_RELATIONS = ("visit_unit__unit__site", "visit_unit__visit", "created_by")
+
+#: A new or proposed visit fills a morning at the site unless the coordinator says otherwise.
+DEFAULT_VISIT_START = dt.time(8, 0)
+DEFAULT_VISIT_HOURS = 4
+
+
+@contextmanager
+def _logged_failure(message: str, *args: object) -> Iterator[None]:
+    """Run what follows a write (a diagnosis, leak rates, flags) in a savepoint; a failure
+    is logged, not raised. The write stands, and ``manage.py rescore`` or
+    ``manage.py refresh_flags`` computes the rest again once the core is fixed."""
+    try:
+        with transaction.atomic():
+            yield
+    except Exception:
+        log.exception(message, *args)
+
+
+# --- visits: booking ----------------------------------------------------------------------
+
+
+def next_reference(day: dt.date) -> str:
+    """Our next visit number for the month of ``day``: V-YYMM-NNNN."""
+    prefix = f"V-{day:%y%m}-"
+    last = (
+        Visit.objects.filter(reference__startswith=prefix)
+        .order_by("-reference")
+        .values_list("reference", flat=True)
+        .first()
+    )
+    number = int(last.rsplit("-", 1)[1]) + 1 if last else 1
+    return f"{prefix}{number:04d}"
+
+
+def save_new_visit(visit: Visit, units: Iterable[Unit], people=()) -> Visit:
+    """Store a new visit under our next free reference, with its units and people.
+
+    Two coordinators saving at the same moment could pick the same number; the unique
+    constraint refuses the second, which then takes the following number.
+    """
+    for _attempt in range(5):
+        visit.reference = next_reference(timezone.localdate())
+        try:
+            with transaction.atomic():
+                visit.save()
+                VisitUnit.objects.bulk_create(VisitUnit(visit=visit, unit=u) for u in units)
+                if people:
+                    visit.technicians.set(people)
+                return visit
+        except IntegrityError:
+            visit.pk = None
+            visit._state.adding = True
+    raise IntegrityError("could not find a free visit reference")
+
+
+@transaction.atomic
+def book_proposed_visits(
+    proposals: Sequence[VisitProposal], units: Mapping[int, Unit], *, by, now=None
+) -> list[Visit]:
+    """Book the planned visits the maintenance core proposed, unassigned (the coordinator
+    assigns them after), each on a morning at its site still ahead of ``now``."""
+    now = now or timezone.now()
+    booked = []
+    for proposal in proposals:
+        site = units[proposal.unit_ids[0]].site
+        start = dt.datetime.combine(
+            proposal.proposed_on, DEFAULT_VISIT_START, ZoneInfo(site.time_zone)
+        )
+        while start < now:  # overdue units: the next morning still ahead
+            start += dt.timedelta(days=1)
+        visit = Visit(
+            site=site,
+            kind=VisitKind.PLANNED,
+            status=VisitStatus.SCHEDULED,
+            window_start=start,
+            window_end=start + dt.timedelta(hours=DEFAULT_VISIT_HOURS),
+            reported_problem="",
+        )
+        visit.full_clean(exclude=["reference"])
+        save_new_visit(visit, [units[pk] for pk in proposal.unit_ids])
+        audit.record_created(visit, by=by, note="proposed for planned maintenance")
+        booked.append(visit)
+    return booked
+
+
+# --- visits: the life cycle ---------------------------------------------------------------
 
 
 class IllegalTransition(Exception):
@@ -24,21 +145,14 @@ class IllegalTransition(Exception):
         )
 
 
-@transaction.atomic
-def move_visit(
-    visit: Visit,
-    target: str,
-    *,
-    by: AbstractBaseUser | None = None,
-    note: str = "",
-    now=None,
+def _change_status(
+    visit: Visit, target: str, *, by: AbstractBaseUser | None, note: str, now
 ) -> Visit:
     """Move a visit to ``target`` if its status allows it.
 
     The UPDATE is conditional on the status read, so two people acting at once cannot
     both succeed: the second sees zero rows changed and gets IllegalTransition.
     """
-    now = now or timezone.now()
     current = visit.status
     if target not in VISIT_TRANSITIONS.get(current, ()):
         raise IllegalTransition(visit, current, target)
@@ -56,3 +170,136 @@ def move_visit(
     for field, value in changes.items():
         setattr(visit, field, value)
     return visit
+
+
+def _refresh_flags_of(visit: Visit) -> None:
+    """Raise and clear the flags of the visit's units now that its readings are reviewed."""
+    unit_ids = list(VisitUnit.objects.filter(visit=visit).values_list("unit_id", flat=True))
+    with _logged_failure("flag refresh failed for the units of visit %s", visit.pk):
+        refresh_flags(unit_ids=unit_ids)
+
+
+@transaction.atomic
+def move_visit(
+    visit: Visit,
+    target: str,
+    *,
+    by: AbstractBaseUser | None = None,
+    note: str = "",
+    work_summary: str | None = None,
+    now=None,
+) -> Visit:
+    """Move a visit along its life cycle and record it; the one way a visit changes status.
+
+    A visit moved to ``reviewed`` has its units' flags refreshed in the same transaction.
+    """
+    now = now or timezone.now()
+    before_status = visit.status
+    changes: dict[str, list] = {}
+    if work_summary is not None and work_summary != visit.work_summary:
+        changes["work_summary"] = [visit.work_summary, work_summary]
+        visit.work_summary = work_summary
+        Visit.objects.filter(pk=visit.pk).update(work_summary=work_summary)
+    _change_status(visit, target, by=by, note=note, now=now)
+    changes["status"] = [before_status, visit.status]
+    audit.record(visit, AuditAction.MOVED, by=by, changes=changes, note=note)
+    if target == VisitStatus.REVIEWED:
+        _refresh_flags_of(visit)
+    return visit
+
+
+# --- reading sets and refrigerant events ----------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Stored(Generic[R]):
+    """The record now in the database, and whether this call stored it."""
+
+    record: R
+    created: bool
+
+
+def stored_with_client_id(model: type[R], client_id) -> R | None:
+    """The record stored under ``client_id``, ready to serialise; None if there is none."""
+    extra = ("diagnosis",) if model is ReadingSet else ("leak_rate",)
+    return (
+        model.objects.select_related(*RECORD_RELATIONS, *extra).filter(client_id=client_id).first()
+    )
+
+
+def _insert_once(record: R) -> Stored[R]:
+    try:
+        with transaction.atomic():  # a savepoint: the IntegrityError leaves the outer intact
+            record.save(force_insert=True)
+    except IntegrityError:
+        stored = stored_with_client_id(type(record), record.client_id)
+        if stored is None:
+            raise  # some other constraint: the exception handler answers 409
+        return Stored(stored, created=False)
+    return Stored(record, created=True)
+
+
+def _diagnose(reading_set: ReadingSet) -> None:
+    """Store the diagnosis and attach it. The readings are the record and are kept even
+    if the core fails."""
+    with _logged_failure("diagnosis failed for reading set %s", reading_set.pk):
+        reading_set.diagnosis = diagnose_reading_set(reading_set)
+
+
+def _compute_leak_rate(event: RefrigerantEvent) -> None:
+    """Store the leak rate of an addition and attach it; other kinds have none."""
+    with _logged_failure("leak rate failed for refrigerant event %s", event.pk):
+        leak_rate = record_leak_rate(event)
+        if leak_rate is not None:
+            event.leak_rate = leak_rate
+
+
+def _record_once(record: R, compute: Callable[[R], None], *, by) -> Stored[R]:
+    result = _insert_once(record)
+    if result.created:
+        compute(record)
+        audit.record_created(record, by=by)
+    return result
+
+
+def _change(record: R, before: dict, compute: Callable[[R], None], *, by) -> R:
+    record.save()
+    compute(record)
+    audit.record_changed(record, before, by=by)
+    return record
+
+
+@transaction.atomic
+def record_reading_set(reading_set: ReadingSet, *, by) -> Stored[ReadingSet]:
+    """Store a validated reading set unless its ``client_id`` is stored; diagnose it."""
+    return _record_once(reading_set, _diagnose, by=by)
+
+
+@transaction.atomic
+def change_reading_set(reading_set: ReadingSet, before: dict, *, by) -> ReadingSet:
+    """After an office edit: diagnose again and record what changed."""
+    return _change(reading_set, before, _diagnose, by=by)
+
+
+@transaction.atomic
+def record_refrigerant_event(event: RefrigerantEvent, *, by) -> Stored[RefrigerantEvent]:
+    """Store a validated event unless its ``client_id`` is stored; for an addition, compute
+    and store its leak rate."""
+    return _record_once(event, _compute_leak_rate, by=by)
+
+
+@transaction.atomic
+def change_refrigerant_event(event: RefrigerantEvent, before: dict, *, by) -> RefrigerantEvent:
+    """After an office edit: compute the leak rate again and record what changed."""
+    return _change(event, before, _compute_leak_rate, by=by)
+
+
+@transaction.atomic
+def delete_record(record: models.Model, *, by) -> None:
+    """Delete with its trail entry in the same transaction."""
+    audit.record_deleted(record, by=by)
+    record.delete()
+    if isinstance(record, RefrigerantEvent):
+        # Later additions' leak rates depend on this one (rolling window, annualizing clock).
+        with _logged_failure("leak rates failed for unit %s", record.visit_unit.unit_id):
+            record_leak_rates(record.visit_unit.unit)

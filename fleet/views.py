@@ -19,7 +19,6 @@ from dataclasses import dataclass, field
 from functools import wraps
 from zoneinfo import ZoneInfo
 
-from django.conf import settings
 from django.contrib import messages
 from django.contrib.auth import get_user_model
 from django.contrib.auth.decorators import login_required
@@ -35,10 +34,10 @@ from django.views.decorators.http import require_GET, require_POST
 from diagnostics.core import maintenance
 from diagnostics.models import Diagnosis, Flag, LeakRate
 
-from . import forms
-from .api import audit
+from . import audit, forms
 from .api.permissions import role_of
 from .choices import RefrigerantEventKind, Role, VisitKind, VisitStatus
+from .display import display_for
 from .models import (
     AuditAction,
     AuditEntry,
@@ -50,14 +49,15 @@ from .models import (
     Visit,
     VisitUnit,
 )
-from .services import IllegalTransition
+from .services import (
+    DEFAULT_VISIT_HOURS,
+    DEFAULT_VISIT_START,
+    IllegalTransition,
+    book_proposed_visits,
+    move_visit,
+)
 
 User = get_user_model()
-
-#: A new or proposed visit fills a morning at the site unless the coordinator says otherwise.
-DEFAULT_VISIT_START = dt.time(8, 0)
-DEFAULT_VISIT_HOURS = 4
-
 
 # --- who may see what -------------------------------------------------------------------------
 
@@ -114,17 +114,6 @@ def page(request: HttpRequest, template: str, context: dict, status: int = 200) 
         context["nav_queue_count"] = Visit.objects.filter(status=VisitStatus.SUBMITTED).count()
         context["nav_flag_count"] = Flag.objects.filter(cleared_at__isnull=True).count()
     return render(request, template, context, status=status)
-
-
-def move_visit(visit: Visit, target: str, *, by, note: str = "") -> Visit:
-    """Move a visit along its life cycle and leave the audit trail, as the API does.
-
-    Imported when used: the API's services pull in the whole diagnostics stack, which a
-    page that only reads does not need.
-    """
-    from .api.services import move
-
-    return move(visit, target, by=by, note=note)
 
 
 def _is_htmx(request: HttpRequest) -> bool:
@@ -782,25 +771,7 @@ def maintenance_propose(request: HttpRequest) -> HttpResponse:
     today = timezone.localdate()
     plans, units = maintenance_plans(today)
     proposals = maintenance.propose_visits(plans, today)
-    booked = []
-    with transaction.atomic():
-        for proposal in proposals:
-            site = units[proposal.unit_ids[0]].site
-            start = dt.datetime.combine(proposal.proposed_on, DEFAULT_VISIT_START, _site_zone(site))
-            while start < timezone.now():  # overdue units: the next morning still ahead
-                start += dt.timedelta(days=1)
-            visit = Visit(
-                site=site,
-                kind=VisitKind.PLANNED,
-                status=VisitStatus.SCHEDULED,
-                window_start=start,
-                window_end=start + dt.timedelta(hours=DEFAULT_VISIT_HOURS),
-                reported_problem="",
-            )
-            visit.full_clean(exclude=["reference"])
-            forms.save_new_visit(visit, [units[pk] for pk in proposal.unit_ids])
-            audit.record_created(visit, by=request.user, note="proposed for planned maintenance")
-            booked.append(visit)
+    booked = book_proposed_visits(proposals, units, by=request.user)
     if booked:
         messages.success(
             request,
@@ -816,160 +787,20 @@ def maintenance_propose(request: HttpRequest) -> HttpResponse:
 # --- units ------------------------------------------------------------------------------------
 
 
-#: The months of history the unit page charts, as the monthly report does.
-CHART_MONTHS = 12
-
-
-def _target(diagnosis_targets: list[dict], name: str) -> dict:
-    return next((t for t in diagnosis_targets or () if t.get("name") == name), {})
-
-
 def unit_charts(unit: Unit, today: dt.date) -> dict:
-    """The unit's trend charts over the last twelve months of as-found readings, drawn by
-    the reports app's chart module (the same drawing as the monthly report), in one query.
+    """The unit's trend charts over the last twelve months of as-found readings: the monthly
+    report's trend panels (``reports.figures.trend_panels``) and chart module, in one query.
 
     Returns the SVG (or "" when there is too little history) and the panels' descriptions.
     """
-    from reports.charts import Band, Line, Panel, Reference, Window, chart_svg
-    from reports.display import Display
+    from reports.charts import Window, chart_svg
+    from reports.figures import trend_panels
+    from reports.gather import unit_trend_history
     from reports.summary import DEFAULT_RULES
 
     first = dt.date(today.year - 1, today.month, 1)
-    rows = list(
-        Diagnosis.objects.filter(
-            reading_set__visit_unit__unit=unit,
-            reading_set__stage="as_found",
-            reading_set__taken_at__date__gte=first,
-        )
-        .order_by("reading_set__taken_at")
-        .values(
-            "reading_set__taken_at",
-            "reading_set__box_temp_c",
-            "reading_set__entering_air_temp_c",
-            "reading_set__compressor_amps_1",
-            "reading_set__compressor_amps_2",
-            "reading_set__compressor_amps_3",
-            "reading_set__compressor_running",
-            "condensing_c",
-            "evaporating_c",
-            "superheat_k",
-            "subcooling_k",
-            "targets",
-        )
-    )
-    show = Display(settings.RIMEWATCH_DISPLAY_UNITS)
-    t, d = show.temperature, show.difference
-    dates = [timezone.localdate(r["reading_set__taken_at"]) for r in rows]
-    target = [
-        {
-            name: _target(r["targets"], name)
-            for name in ("condensing_temp", "evaporating_temp", "superheat", "subcooling")
-        }
-        for r in rows
-    ]
-    amps = [
-        max(
-            (
-                a
-                for a in (
-                    r["reading_set__compressor_amps_1"],
-                    r["reading_set__compressor_amps_2"],
-                    r["reading_set__compressor_amps_3"],
-                )
-                if a is not None
-            ),
-            default=None,
-        )
-        for r in rows
-    ]
-    t_axis = f"Temperature ({show.temperature_symbol})"
-    d_axis = f"Difference ({show.difference_symbol})"
-    panels = [
-        Panel(
-            "Condensing temperature",
-            t_axis,
-            (
-                Line("condensing", dates, [t(r["condensing_c"]) for r in rows]),
-                Line(
-                    "target",
-                    dates,
-                    [t(x["condensing_temp"].get("value")) for x in target],
-                    "target",
-                ),
-                Line(
-                    "entering air",
-                    dates,
-                    [t(r["reading_set__entering_air_temp_c"]) for r in rows],
-                    "ambient",
-                ),
-            ),
-            alt="condensing temperature against its target, with the air entering the condenser",
-        ),
-        Panel(
-            "Evaporating temperature",
-            t_axis,
-            (
-                Line("evaporating", dates, [t(r["evaporating_c"]) for r in rows]),
-                Line(
-                    "target",
-                    dates,
-                    [t(x["evaporating_temp"].get("value")) for x in target],
-                    "target",
-                ),
-                Line("box air", dates, [t(r["reading_set__box_temp_c"]) for r in rows], "ambient"),
-            ),
-            alt="evaporating temperature against its target, with the box air",
-        ),
-        Panel(
-            "Superheat",
-            d_axis,
-            (Line("superheat", dates, [d(r["superheat_k"]) for r in rows]),),
-            band=Band(
-                "ok range",
-                dates,
-                [d(x["superheat"].get("low")) for x in target],
-                [d(x["superheat"].get("high")) for x in target],
-            ),
-            alt="evaporator superheat against its ok range",
-        ),
-        Panel(
-            "Subcooling",
-            d_axis,
-            (Line("subcooling", dates, [d(r["subcooling_k"]) for r in rows]),),
-            band=Band(
-                "ok range",
-                dates,
-                [d(x["subcooling"].get("low")) for x in target],
-                [d(x["subcooling"].get("high")) for x in target],
-            ),
-            alt="liquid subcooling against its ok range",
-        ),
-        Panel(
-            "Compressor current",
-            "Current (A)",
-            (
-                Line(
-                    "running",
-                    dates,
-                    [
-                        a if r["reading_set__compressor_running"] is not False else None
-                        for a, r in zip(amps, rows, strict=True)
-                    ],
-                ),
-                Line(
-                    "not running",
-                    dates,
-                    [
-                        a if r["reading_set__compressor_running"] is False else None
-                        for a, r in zip(amps, rows, strict=True)
-                    ],
-                    "event",
-                ),
-            ),
-            references=(Reference(f"RLA {unit.rla_a:g} A", unit.rla_a),),
-            alt="compressor current, highest leg, against the rated-load amps",
-        ),
-    ]
+    history = unit_trend_history(unit.pk, first, timezone.get_current_timezone())
+    panels = trend_panels(history, unit.rla_a, display_for())
     shown = [p for p in panels if p.point_count() >= DEFAULT_RULES.chart_min_points]
     if not shown:
         return {"svg": "", "described": [], "min_points": DEFAULT_RULES.chart_min_points}

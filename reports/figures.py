@@ -1,5 +1,8 @@
 """Which charts a unit's page gets, built from its gathered history in display units.
 
+The five trend panels (``trend_panels``) are also the office unit page's charts, so the page
+and the report draw one figure from the same kind of history points.
+
 A trend panel needs ``chart_min_points`` visits with a value; below that the report says so in
 words instead of drawing a near-empty chart. The capacitor panel appears only where a
 capacitor was measured; the leak-rate panel only where refrigerant was added in the window.
@@ -7,11 +10,13 @@ capacitor was measured; the leak-rate panel only where refrigerant was added in 
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
+from fleet.display import Display
+
 from .charts import Band, Line, Panel, Reference, Window
-from .display import Display
-from .gather import SiteMonth, UnitMonth
+from .gather import HistoryPoint, SiteMonth, UnitMonth
 from .summary import DEFAULT_RULES, ReportRules
 
 
@@ -27,13 +32,14 @@ def window_of(site_month: SiteMonth) -> Window:
     return Window.months(site_month.window_start.first_day, site_month.month.last_day)
 
 
-def unit_figure(u: UnitMonth, display: Display, rules: ReportRules = DEFAULT_RULES) -> UnitFigure:
-    h = u.history
+def trend_panels(h: Sequence[HistoryPoint], rla_a: float, display: Display) -> list[Panel]:
+    """Condensing and evaporating temperatures against their targets, superheat and
+    subcooling against their ok ranges, and the compressor current against its RLA."""
     dates = [p.taken_on for p in h]
     t, d = display.temperature, display.difference
     t_axis = f"Temperature ({display.temperature_symbol})"
     d_axis = f"Difference ({display.difference_symbol})"
-    trend_panels = [
+    return [
         Panel(
             "Condensing temperature",
             t_axis,
@@ -96,17 +102,23 @@ def unit_figure(u: UnitMonth, display: Display, rules: ReportRules = DEFAULT_RUL
                     "event",
                 ),
             ),
-            references=(Reference(f"RLA {u.unit.rla_a:g} A", u.unit.rla_a),),
+            references=(Reference(f"RLA {rla_a:g} A", rla_a),),
             alt="compressor current, highest leg, against the rated-load amps",
         ),
     ]
+
+
+def unit_figure(u: UnitMonth, display: Display, rules: ReportRules = DEFAULT_RULES) -> UnitFigure:
+    h = u.history
+    dates = [p.taken_on for p in h]
+    candidates = trend_panels(h, u.unit.rla_a, display)
     for kind, rating, values in (
         ("Run capacitor", u.unit.run_capacitor, [p.run_capacitor_uf for p in h]),
         ("Start capacitor", u.unit.start_capacitor, [p.start_capacitor_uf for p in h]),
     ):
         if not any(v is not None for v in values):
             continue
-        trend_panels.append(
+        candidates.append(
             Panel(
                 kind,
                 "Capacitance (µF)",
@@ -125,7 +137,7 @@ def unit_figure(u: UnitMonth, display: Display, rules: ReportRules = DEFAULT_RUL
 
     panels: list[Panel] = []
     notes: list[str] = []
-    for panel in trend_panels:
+    for panel in candidates:
         n = panel.point_count()
         if n >= rules.chart_min_points:
             panels.append(panel)

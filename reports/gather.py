@@ -20,7 +20,7 @@ from __future__ import annotations
 
 from collections import defaultdict
 from dataclasses import dataclass
-from datetime import date, datetime
+from datetime import date, datetime, tzinfo
 from statistics import fmean
 from typing import Any
 from zoneinfo import ZoneInfo
@@ -778,7 +778,8 @@ def _flags(site_id: int, as_of: datetime, tz: ZoneInfo) -> dict[int, list[FlagRo
 # --- per unit, in plain loops -------------------------------------------------------------------
 
 
-def _history_point(row: dict[str, Any], tz: ZoneInfo) -> HistoryPoint:
+def history_point(row: dict[str, Any], tz: tzinfo) -> HistoryPoint:
+    """One reading row (``_READING_COLUMNS``) as a trend point dated in ``tz``."""
     targets, metrics = row["diagnosis__targets"], row["diagnosis__metrics"]
     sh_low, sh_high = _band(metrics, "superheat")
     sc_low, sc_high = _band(metrics, "subcooling")
@@ -808,6 +809,23 @@ def _history_point(row: dict[str, Any], tz: ZoneInfo) -> HistoryPoint:
         run_capacitor_uf=row["run_capacitor_uf"],
         start_capacitor_uf=row["start_capacitor_uf"],
     )
+
+
+def unit_trend_history(unit_id: int, since: date, tz: tzinfo) -> tuple[HistoryPoint, ...]:
+    """Every diagnosed as-found reading of a unit taken on or after ``since`` (a date in the
+    current time zone), as trend points dated in ``tz``, in one query: the office unit
+    page's charts, drawn by ``figures.trend_panels`` as the report draws its own."""
+    rows = (
+        ReadingSet.objects.filter(
+            visit_unit__unit_id=unit_id,
+            stage=choices.Stage.AS_FOUND,
+            diagnosis__isnull=False,
+            taken_at__date__gte=since,
+        )
+        .order_by("taken_at", "id")
+        .values(*_READING_COLUMNS)
+    )
+    return tuple(history_point(r, tz) for r in rows)
 
 
 def _one_per_visit(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
@@ -895,7 +913,7 @@ def gather_site_month(site_id: int, month: Month, *, now: datetime) -> SiteMonth
         rows = readings.get(unit.id, [])
         month_rows = [r for r in rows if r["taken_at"] >= month_start]
         checks = tuple(_check(r, details.get(r["id"], {}), tz) for r in month_rows)
-        history = tuple(_history_point(r, tz) for r in _one_per_visit(rows))
+        history = tuple(history_point(r, tz) for r in _one_per_visit(rows))
         unit_flags = tuple(flags.get(unit.id, ()))
         unit_leaks = tuple(additions.get(unit.id, ()))
         added_month = sum(
@@ -997,4 +1015,6 @@ __all__ = [
     "UnitMonth",
     "VisitInfo",
     "gather_site_month",
+    "history_point",
+    "unit_trend_history",
 ]

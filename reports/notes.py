@@ -7,15 +7,16 @@ old report keeps describing what was computed then.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, fields
+from dataclasses import dataclass
 from importlib import metadata
 
 from django.conf import settings
 
 from diagnostics.core import costs, leaks
+from diagnostics.core.sources import describe_rules
 
 from .gather import SiteMonth
-from .summary import describe_rules
+from .summary import DEFAULT_RULES
 
 
 @dataclass(frozen=True)
@@ -60,9 +61,8 @@ def method_notes(sm: SiteMonth) -> tuple[Note, ...]:
             "these twelve months)."
         )
     cost_sources = tuple(
-        f"{f.name.replace('_', ' ')}: {f.metadata['source']}"
-        for f in fields(costs.CostRules)
-        if "source" in f.metadata
+        f"{name.replace('_', ' ')}: {source}"
+        for name, _value, source in describe_rules(costs.DEFAULT_COST_RULES)
     )
     return (
         Note(
@@ -121,7 +121,7 @@ def method_notes(sm: SiteMonth) -> tuple[Note, ...]:
             "Thresholds of this report (ours, not a published rule): "
             + "; ".join(
                 f"{name.replace('_', ' ')} = {value} ({why})"
-                for name, value, why in describe_rules()
+                for name, value, why in describe_rules(DEFAULT_RULES)
             )
             + ".",
         ),

@@ -18,7 +18,8 @@ from urllib.parse import unquote, urlparse
 from django.contrib.staticfiles import finders
 from django.template.loader import render_to_string
 
-from .display import Display
+from fleet.display import Display
+
 from .figures import UnitFigure
 from .gather import SiteMonth
 from .notes import method_notes, safety_cautions

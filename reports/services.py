@@ -23,10 +23,10 @@ from django.db import IntegrityError, transaction
 from django.db.models import Max
 from django.utils import timezone
 
+from fleet.display import Display, display_for
 from fleet.models import Site
 
 from . import charts
-from .display import Display, display_for
 from .figures import UnitFigure, unit_figure, window_of
 from .gather import SiteMonth, gather_site_month
 from .models import MonthlyReport

@@ -9,12 +9,13 @@ from __future__ import annotations
 
 from collections import Counter
 from collections.abc import Iterable, Sequence
-from dataclasses import dataclass, field, fields
+from dataclasses import dataclass, field
 from datetime import date
 from statistics import fmean, median
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
 from diagnostics.core import costs
+from diagnostics.core.sources import cite
 
 from .months import Month
 
@@ -22,58 +23,46 @@ if TYPE_CHECKING:
     from .gather import Check, FlagRow, HistoryPoint, LeakRateRow, UnitMonth, VisitInfo
 
 
-def _src(source: str) -> dict[str, str]:
-    """Field metadata keeping a threshold's reason beside it (read back by ``describe_rules``)."""
-    return {"source": source}
-
-
 @dataclass(frozen=True)
 class ReportRules:
     healthy_score_min: float = field(
         default=85.0,
-        metadata=_src(
+        metadata=cite(
             "Rimewatch choice: a score of 85 or more with nothing flagged reads as healthy"
         ),
     )
     attention_score_below: float = field(
         default=70.0,
-        metadata=_src(
+        metadata=cite(
             "Rimewatch choice: below 70 a unit has lost points on several metrics or a fault"
         ),
     )
     trend_change_points: float = field(
         default=10.0,
-        metadata=_src(
+        metadata=cite(
             "Rimewatch choice: a score 10 points away from the median of the months before is a "
             "change, not scatter"
         ),
     )
     trend_months_compared: int = field(
         default=3,
-        metadata=_src("Rimewatch choice: the three months before the report month"),
+        metadata=cite("Rimewatch choice: the three months before the report month"),
     )
     trend_min_earlier_months: int = field(
         default=2,
-        metadata=_src("Rimewatch choice: a trend needs at least two earlier months with a score"),
+        metadata=cite("Rimewatch choice: a trend needs at least two earlier months with a score"),
     )
     chart_min_points: int = field(
         default=3,
-        metadata=_src("Rimewatch choice: fewer than three visits do not make a trend line"),
+        metadata=cite("Rimewatch choice: fewer than three visits do not make a trend line"),
     )
     max_actions: int = field(
         default=4,
-        metadata=_src("Rimewatch choice: the first page lists at most four actions"),
+        metadata=cite("Rimewatch choice: the first page lists at most four actions"),
     )
 
 
 DEFAULT_RULES = ReportRules()
-
-
-def describe_rules(rules: ReportRules = DEFAULT_RULES) -> tuple[tuple[str, Any, str], ...]:
-    """(name, value, reason) of each threshold, for the method notes."""
-    return tuple(
-        (f.name, getattr(rules, f.name), str(f.metadata.get("source", ""))) for f in fields(rules)
-    )
 
 
 #: Flag severities, both as stored (notice/warning/urgent) and as the core names them.

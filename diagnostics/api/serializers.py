@@ -16,12 +16,8 @@ from rest_framework import serializers
 
 from diagnostics.core import refrigerants, saturation
 from diagnostics.models import Diagnosis, Flag, LeakRate
-from fleet.api.wire_units import (
-    DISPLAY_UNITS,
-    display_system,
-    from_si,
-    pressure_difference_from_kpa,
-)
+from fleet.api.wire_units import pressure_difference_from_kpa
+from fleet.display import display_for, from_si
 
 log = logging.getLogger(__name__)
 
@@ -35,7 +31,7 @@ SI_LABELS = {"C": "temperature", "K": "temperature_difference", "kPa": "pressure
 
 def response_units(context: dict[str, Any]) -> dict[str, str]:
     """The units a response states, from ``?units=`` (kept in the context by the view)."""
-    return DISPLAY_UNITS[display_system(context.get("unit_system"))]
+    return display_for(context.get("unit_system")).units
 
 
 @functools.lru_cache(maxsize=64)

@@ -31,8 +31,8 @@ from diagnostics.core.refrigerants import UnknownRefrigerant
 from diagnostics.models import Diagnosis, Flag
 from fleet.api.permissions import HasRole, visible_units
 from fleet.api.views import UnitSystemMixin
-from fleet.api.wire_units import from_si, to_si
 from fleet.choices import Stage
+from fleet.display import from_si, to_si
 from fleet.models import Unit
 
 #: Diagnosis columns served as trend series: wire name, column, quantity (None: as stored).

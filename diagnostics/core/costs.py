@@ -11,17 +11,14 @@ difference shows up as higher power or as longer running.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, fields
+from dataclasses import dataclass, field
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from diagnostics.core.sources import cite, source_of
+
 FloatArray = NDArray[np.float64]
-
-
-def _src(source: str) -> dict[str, str]:
-    """Field metadata keeping a rule value's source beside it (see ``flags.describe_rules``)."""
-    return {"source": source}
 
 
 @dataclass(frozen=True)
@@ -30,20 +27,20 @@ class CostRules:
 
     run_time_fraction: float = field(
         default=16.0 / 24.0,
-        metadata=_src(
+        metadata=cite(
             "common practice: refrigeration is sized to run about 16 hours a day (from memory)"
         ),
     )
     power_factor: float = field(
         default=0.85,
-        metadata=_src(
+        metadata=cite(
             "from memory: typical of a loaded hermetic compressor motor; measure where possible"
         ),
     )
-    days_per_month: float = field(default=365.25 / 12.0, metadata=_src("calendar average"))
+    days_per_month: float = field(default=365.25 / 12.0, metadata=cite("calendar average"))
     penalty_percent_per_k: float = field(
         default=3.0,
-        metadata=_src(
+        metadata=cite(
             "Energie-Agentur der Wirtschaft (Switzerland), standard measure KA-03b: about 3 % more "
             "energy per K of condensing temperature; used only without a cycle model"
         ),
@@ -131,7 +128,7 @@ def energy_cost(
     def pick(value: float | None, default: float, given: str, name: str) -> tuple[float, str]:
         if value is not None:
             return value, given
-        return default, _source(rules, name)
+        return default, source_of(rules, name)
 
     pf, pf_src = pick(power_factor, rules.power_factor, measured, "power_factor")
     run, run_src = pick(
@@ -162,11 +159,3 @@ def energy_cost(
         currency=currency,
         assumptions=assumptions,
     )
-
-
-def _source(rules: CostRules, name: str) -> str:
-    """The default's source, or 'configured' when the rules were changed from the default."""
-    f = {f.name: f for f in fields(rules)}[name]
-    if getattr(rules, name) != f.default:
-        return "configured"
-    return str(f.metadata.get("source", "default"))

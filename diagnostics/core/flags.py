@@ -9,7 +9,7 @@ a flag for a new kind, updates an open one, and closes the kinds no longer decid
 from __future__ import annotations
 
 from collections.abc import Iterable, Sequence
-from dataclasses import dataclass, field, fields
+from dataclasses import dataclass, field
 from datetime import date
 from enum import StrEnum
 
@@ -29,6 +29,7 @@ from diagnostics.core.maintenance import (
     MaintenanceRules,
     maintenance_status,
 )
+from diagnostics.core.sources import cite
 from diagnostics.core.start_risk import (
     DEFAULT_START_RULES,
     RiskLevel,
@@ -44,11 +45,6 @@ from diagnostics.core.trends import (
     SplitDriftInput,
     assess_split_drift_many,
 )
-
-
-def _src(source: str) -> dict[str, str]:
-    """Field metadata keeping a rule value's source beside it (see ``flags.describe_rules``)."""
-    return {"source": source}
 
 
 class FlagKind(StrEnum):
@@ -111,25 +107,14 @@ class FlagRules:
     maintenance: MaintenanceRules = DEFAULT_MAINTENANCE_RULES
     drift_urgent_within_days: int = field(
         default=30,
-        metadata=_src("ours: a limit reached within a month (or already) needs a visit now"),
+        metadata=cite("ours: a limit reached within a month (or already) needs a visit now"),
     )
     drift_warning_within_days: int = field(
-        default=90, metadata=_src("ours: within a season, plan a condenser clean")
+        default=90, metadata=cite("ours: within a season, plan a condenser clean")
     )
 
 
 DEFAULT_FLAG_RULES = FlagRules()
-
-
-def describe_rules(rules: object) -> tuple[tuple[str, object, str], ...]:
-    """(name, value, source) of a rules dataclass whose fields carry their sources."""
-    out = []
-    for f in fields(rules):  # type: ignore[arg-type]
-        if "source" in f.metadata:
-            value = getattr(rules, f.name)
-            source = f.metadata["source"] if value == f.default else "configured"
-            out.append((f.name, value, source))
-    return tuple(out)
 
 
 # --- one decision per kind ----------------------------------------------------------------------

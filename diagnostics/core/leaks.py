@@ -17,19 +17,9 @@ from dataclasses import dataclass
 from datetime import date, timedelta
 from enum import StrEnum
 from functools import lru_cache
-from typing import Generic, TypeVar
 
 from diagnostics.core import refrigerants, units
-
-T = TypeVar("T")
-
-
-@dataclass(frozen=True)
-class Sourced(Generic[T]):
-    """A rule value and where it comes from (a regulation paragraph, or 'from memory')."""
-
-    value: T
-    source: str
+from diagnostics.core.sources import Sourced
 
 
 class ApplianceType(StrEnum):

@@ -12,23 +12,20 @@ from collections.abc import Iterable
 from dataclasses import dataclass, field
 from datetime import date, timedelta
 
-
-def _src(source: str) -> dict[str, str]:
-    """Field metadata keeping a rule value's source beside it (see ``flags.describe_rules``)."""
-    return {"source": source}
+from diagnostics.core.sources import cite
 
 
 @dataclass(frozen=True)
 class MaintenanceRules:
     grace_days: int = field(
-        default=7, metadata=_src("ours: a week's slack before an overdue visit raises a flag")
+        default=7, metadata=cite("ours: a week's slack before an overdue visit raises a flag")
     )
     high_after_fraction: float = field(
-        default=0.5, metadata=_src("ours: overdue by half an interval or more is serious")
+        default=0.5, metadata=cite("ours: overdue by half an interval or more is serious")
     )
     proposal_horizon_days: int = field(
         default=30,
-        metadata=_src(
+        metadata=cite(
             "ours: propose the visits falling due within a month, for the office to book"
         ),
     )

@@ -21,12 +21,8 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from diagnostics.core import electrical
+from diagnostics.core.sources import cite
 from diagnostics.core.trends import FloatArray, crossing_offsets, theil_sen
-
-
-def _src(source: str) -> dict[str, str]:
-    """Field metadata keeping a rule value's source beside it (see ``flags.describe_rules``)."""
-    return {"source": source}
 
 
 class StartComponent(StrEnum):
@@ -47,56 +43,56 @@ class StartRiskRules:
     """Limits and weights of the start-component risk, each with its source."""
 
     lookback_days: int = field(
-        default=365, metadata=_src("ours: events older than a year say little about today")
+        default=365, metadata=cite("ours: events older than a year say little about today")
     )
     locked_rotor_fraction: float = field(
         default=0.8,
-        metadata=_src(
+        metadata=cite(
             "common practice: a compressor that hums near LRA without starting points at start "
             "components, a locked compressor or low voltage; 'near' = 80 % of LRA is ours"
         ),
     )
     voltage_tolerance_pct: float = field(
         default=electrical.NEMA_VOLTAGE_TOLERANCE_PCT,
-        metadata=_src("NEMA MG-1 12.44: +/-10 % of nameplate"),
+        metadata=cite("NEMA MG-1 12.44: +/-10 % of nameplate"),
     )
     run_capacitor_tolerance_pct: float = field(
         default=electrical.DEFAULT_RUN_CAPACITOR_TOLERANCE_PCT,
-        metadata=_src(
+        metadata=cite(
             "EIA-456-A / IEC 60252-1: typical run-capacitor tolerance when the can does not say"
         ),
     )
     drift_min_points: int = field(
-        default=3, metadata=_src("ours: the fewest readings a capacitor slope rests on")
+        default=3, metadata=cite("ours: the fewest readings a capacitor slope rests on")
     )
     drift_min_confidence: float = field(
         default=0.90,
-        metadata=_src("ours: one-sided Mann-Kendall confidence that the capacitance is falling"),
+        metadata=cite("ours: one-sided Mann-Kendall confidence that the capacitance is falling"),
     )
     drift_horizon_days: int = field(
         default=365,
-        metadata=_src(
+        metadata=cite(
             "ours: a capacitor projected out of rating within a year is worth replacing now"
         ),
     )
     repeat_replacements: int = field(
         default=2,
-        metadata=_src(
+        metadata=cite(
             "common practice: start parts failing repeatedly point at the compressor or supply"
         ),
     )
-    points_capacitor_out_of_rating: float = field(default=2.0, metadata=_src("ours"))
-    points_capacitor_drift: float = field(default=1.0, metadata=_src("ours"))
-    points_failed_start: float = field(default=1.0, metadata=_src("ours, per event"))
-    points_locked_rotor: float = field(default=2.0, metadata=_src("ours, per event"))
-    points_low_voltage: float = field(default=1.0, metadata=_src("ours, per event"))
+    points_capacitor_out_of_rating: float = field(default=2.0, metadata=cite("ours"))
+    points_capacitor_drift: float = field(default=1.0, metadata=cite("ours"))
+    points_failed_start: float = field(default=1.0, metadata=cite("ours, per event"))
+    points_locked_rotor: float = field(default=2.0, metadata=cite("ours, per event"))
+    points_low_voltage: float = field(default=1.0, metadata=cite("ours, per event"))
     max_points_per_sign: float = field(
-        default=4.0, metadata=_src("ours: one sign alone cannot exceed 'high'")
+        default=4.0, metadata=cite("ours: one sign alone cannot exceed 'high'")
     )
-    points_hard_start_kit: float = field(default=1.0, metadata=_src("ours"))
-    points_repeat_replacements: float = field(default=2.0, metadata=_src("ours"))
-    elevated_from: float = field(default=2.0, metadata=_src("ours"))
-    high_from: float = field(default=4.0, metadata=_src("ours"))
+    points_hard_start_kit: float = field(default=1.0, metadata=cite("ours"))
+    points_repeat_replacements: float = field(default=2.0, metadata=cite("ours"))
+    elevated_from: float = field(default=2.0, metadata=cite("ours"))
+    high_from: float = field(default=4.0, metadata=cite("ours"))
 
 
 DEFAULT_START_RULES = StartRiskRules()

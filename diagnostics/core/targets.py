@@ -35,6 +35,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from diagnostics.core.electrical import DEFAULT_RUN_CAPACITOR_TOLERANCE_PCT
+from diagnostics.core.sources import Sourced
 from diagnostics.core.types import APPLICATIONS, METERING_DEVICES, Application, MeteringDevice
 
 FloatArray = NDArray[np.float64]
@@ -66,14 +67,6 @@ def f_to_c(temp_f: float) -> float:
 
 
 @dataclass(frozen=True)
-class Sourced:
-    """A default value and where it comes from."""
-
-    value: float
-    source: str
-
-
-@dataclass(frozen=True)
 class SourcedRange:
     """A default range and where it comes from."""
 
@@ -86,14 +79,14 @@ class SourcedRange:
 class ApplicationDefaults:
     """Defaults for one application, used wherever the unit's design data is silent."""
 
-    box_temp_c: Sourced | None
-    evap_td_k: Sourced | None
-    condenser_split_k: Sourced
+    box_temp_c: Sourced[float] | None
+    evap_td_k: Sourced[float] | None
+    condenser_split_k: Sourced[float]
     metering_device: MeteringDevice
     has_receiver: bool | None
     receiver_source: str
     compression_ratio: SourcedRange
-    head_pressure_floor_c: Sourced
+    head_pressure_floor_c: Sourced[float]
 
 
 _HP_FLOOR = Sourced(

@@ -29,16 +29,13 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy.special import ndtr, ndtri
 
+from diagnostics.core.sources import cite
+
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 CondensingPoint = Literal["mid_point", "bubble", "dew"]
 
 DAYS_PER_YEAR = 365.25
-
-
-def _src(source: str) -> dict[str, str]:
-    """Field metadata keeping a rule value's source beside it (see ``flags.describe_rules``)."""
-    return {"source": source}
 
 
 @dataclass(frozen=True)
@@ -47,49 +44,49 @@ class DriftRules:
 
     min_points: int = field(
         default=5,
-        metadata=_src(
+        metadata=cite(
             "ours: with fewer than five points Kendall's S cannot reach 99 % one-sided confidence "
             "and one odd reading moves the Theil-Sen slope"
         ),
     )
     min_span_days: int = field(
         default=90,
-        metadata=_src("ours: a quarter of a year, so one season's spread does not read as a trend"),
+        metadata=cite("ours: a quarter of a year, so one season's spread does not read as a trend"),
     )
     min_confidence: float = field(
         default=0.95,
-        metadata=_src("ours: one-sided Mann-Kendall confidence that the split is rising"),
+        metadata=cite("ours: one-sided Mann-Kendall confidence that the split is rising"),
     )
     min_slope_k_per_year: float = field(
         default=1.0,
-        metadata=_src(
+        metadata=cite(
             "ours: slower drift is within the reading noise of a yearly service interval"
         ),
     )
     split_excess_limit_k: float = field(
         default=5.6,
-        metadata=_src(
+        metadata=cite(
             "ours: 10 °F over the design split; design split 14-15 K per Trott & Welch, "
             "Refrigeration and Air-Conditioning, 3rd ed., Table 10.2"
         ),
     )
     horizon_days: int = field(
         default=180,
-        metadata=_src("ours: about the time to the next hot season, when the drift would bite"),
+        metadata=cite("ours: about the time to the next hot season, when the drift would bite"),
     )
     interval_confidence: float = field(
         default=0.90,
-        metadata=_src("ours: two-sided confidence of the reported slope interval (Sen 1968)"),
+        metadata=cite("ours: two-sided confidence of the reported slope interval (Sen 1968)"),
     )
     head_control_margin_k: float = field(
         default=1.0,
-        metadata=_src(
+        metadata=cite(
             "common practice: score the split only above the head-pressure control set point; "
             "1 K margin is ours"
         ),
     )
     max_projection_days: int = field(
-        default=3653, metadata=_src("ours: projections beyond ten years are reported as none")
+        default=3653, metadata=cite("ours: projections beyond ten years are reported as none")
     )
 
 

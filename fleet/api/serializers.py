@@ -30,15 +30,8 @@ from diagnostics.api.serializers import (
 )
 from fleet import choices
 from fleet.api.exceptions import django_errors
-from fleet.api.wire_units import (
-    REQUEST_KEY,
-    REQUEST_UNITS,
-    Measure,
-    UnitError,
-    from_si,
-    limit_error,
-    to_si,
-)
+from fleet.api.wire_units import REQUEST_KEY, REQUEST_UNITS, Measure, UnitError, limit_error
+from fleet.display import from_si, to_si
 from fleet.limits import EVENT_LIMITS, READING_LIMITS, SITE_LIMITS, UNIT_LIMITS
 from fleet.models import (
     AuditEntry,
@@ -159,6 +152,8 @@ class MeasuredSerializer(ValidatedModelSerializer):
     """
 
     measures: ClassVar[dict[str, Measure]] = {}
+    #: Whether the record keeps the units the client entered (``entered_units``).
+    keeps_entered_units: ClassVar[bool] = False
     units = UnitsField()
 
     def elevation_for(self, attrs: dict[str, Any]) -> float:
@@ -195,6 +190,27 @@ class MeasuredSerializer(ValidatedModelSerializer):
             attrs[measure.column] = value_si
         if units:
             attrs["_entered_units"] = units
+
+    def check_wire(self, attrs: dict[str, Any], errors: dict[str, list[str]]) -> None:
+        """Turn the wire fields into columns, collecting what is wrong in ``errors``."""
+        self.convert_measures(attrs, errors)
+
+    def new_record_defaults(self) -> dict[str, Any]:
+        """Values a new record takes when the request leaves them out."""
+        return {}
+
+    def validate(self, attrs: dict[str, Any]) -> dict[str, Any]:
+        errors: dict[str, list[str]] = {}
+        self.check_wire(attrs, errors)
+        if errors:
+            raise serializers.ValidationError(errors)
+        entered = attrs.pop("_entered_units", None)
+        if entered is not None and self.keeps_entered_units:
+            attrs["entered_units"] = entered
+        if self.instance is None:
+            for name, value in self.new_record_defaults().items():
+                attrs.setdefault(name, value)
+        return super().validate(attrs)
 
     @staticmethod
     def _request_unit(measure: Measure, units: dict[str, str]) -> str | None:
@@ -271,14 +287,6 @@ class SiteSerializer(MeasuredSerializer):
             "managers",
             "units",
         ]
-
-    def validate(self, attrs: dict[str, Any]) -> dict[str, Any]:
-        errors: dict[str, list[str]] = {}
-        self.convert_measures(attrs, errors)
-        attrs.pop("_entered_units", None)
-        if errors:
-            raise serializers.ValidationError(errors)
-        return super().validate(attrs)
 
 
 class RefrigerantSerializer(serializers.ModelSerializer):
@@ -402,14 +410,6 @@ class UnitSerializer(MeasuredSerializer):
 
     def elevation_of(self, instance: Unit) -> float:
         return instance.site.elevation_m
-
-    def validate(self, attrs: dict[str, Any]) -> dict[str, Any]:
-        errors: dict[str, list[str]] = {}
-        self.convert_measures(attrs, errors)
-        attrs.pop("_entered_units", None)
-        if errors:
-            raise serializers.ValidationError(errors)
-        return super().validate(attrs)
 
 
 class ComponentSerializer(ValidatedModelSerializer):
@@ -591,6 +591,10 @@ class VisitRecordSerializer(MeasuredSerializer):
         errors["unit"] = [f"unit {unit_id} is not on visit {visit.reference}"]
         return None
 
+    def check_wire(self, attrs: dict[str, Any], errors: dict[str, list[str]]) -> None:
+        self._visit_unit(attrs, errors)
+        self.convert_measures(attrs, errors)
+
     def elevation_for(self, attrs: dict[str, Any]) -> float:
         visit_unit = attrs.get("visit_unit") or (
             self.instance.visit_unit if self.instance else None
@@ -603,6 +607,7 @@ class VisitRecordSerializer(MeasuredSerializer):
 
 class ReadingSetSerializer(VisitRecordSerializer):
     clean_constraints = False
+    keeps_entered_units = True
     measures = {
         "box_temp": Measure("box_temp_c", "temperature", READING_LIMITS["box_temp_c"]),
         "entering_air_temp": Measure(
@@ -710,10 +715,9 @@ class ReadingSetSerializer(VisitRecordSerializer):
         context = {**self.context, "elevation_m": self.elevation_of(obj)}
         return DiagnosisSerializer(diagnosis, context=context).data
 
-    def validate(self, attrs: dict[str, Any]) -> dict[str, Any]:
-        errors: dict[str, list[str]] = {}
+    def check_wire(self, attrs: dict[str, Any], errors: dict[str, list[str]]) -> None:
         self._visit_unit(attrs, errors)
-        if "unit" not in errors:
+        if "unit" not in errors:  # pressures need the unit's site (its elevation)
             self.convert_measures(attrs, errors)
         for wire, (prefix, label) in self.legs.items():
             values = attrs.pop(wire, None)
@@ -731,14 +735,9 @@ class ReadingSetSerializer(VisitRecordSerializer):
                 attrs[column] = value
             if problems:
                 errors[wire] = problems
-        if errors:
-            raise serializers.ValidationError(errors)
-        entered = attrs.pop("_entered_units", None)
-        if entered is not None:
-            attrs["entered_units"] = entered
-        if self.instance is None:
-            attrs.setdefault("taken_at", timezone.now())
-        return super().validate(attrs)
+
+    def new_record_defaults(self) -> dict[str, Any]:
+        return {"taken_at": timezone.now()}
 
     def wire_names(self) -> dict[str, str]:
         names = super().wire_names()
@@ -798,13 +797,5 @@ class RefrigerantEventSerializer(VisitRecordSerializer):
             raise serializers.ValidationError("is in the future")
         return value
 
-    def validate(self, attrs: dict[str, Any]) -> dict[str, Any]:
-        errors: dict[str, list[str]] = {}
-        self._visit_unit(attrs, errors)
-        self.convert_measures(attrs, errors)
-        attrs.pop("_entered_units", None)
-        if errors:
-            raise serializers.ValidationError(errors)
-        if self.instance is None:
-            attrs.setdefault("occurred_on", timezone.localdate())
-        return super().validate(attrs)
+    def new_record_defaults(self) -> dict[str, Any]:
+        return {"occurred_on": timezone.localdate()}

@@ -8,6 +8,7 @@ queries for one record as for a page of them.
 from __future__ import annotations
 
 import uuid
+from collections.abc import Callable
 from typing import Any
 
 from django.contrib.auth import authenticate
@@ -29,8 +30,7 @@ from rest_framework.response import Response
 from rest_framework.views import APIView
 
 from diagnostics.core.refrigerants import UnknownRefrigerant, normalise_designation
-from fleet import filtersets
-from fleet.api import audit, services
+from fleet import audit, filtersets, services
 from fleet.api.permissions import (
     OFFICE,
     TECHNICIAN,
@@ -57,8 +57,8 @@ from fleet.api.serializers import (
     VisitSerializer,
 )
 from fleet.api.throttles import AuthRateThrottle
-from fleet.api.wire_units import DISPLAY_UNITS
 from fleet.choices import VisitStatus
+from fleet.display import SYSTEMS
 from fleet.models import (
     AuditEntry,
     Component,
@@ -76,7 +76,7 @@ UNITS_PARAMETER = OpenApiParameter(
     "units",
     OpenApiTypes.STR,
     OpenApiParameter.QUERY,
-    enum=sorted(DISPLAY_UNITS),
+    enum=sorted(SYSTEMS),
     description="Units of the response: us (F, psig, lb) or si (C, kPa gauge, kg). "
     "Default: the contractor's setting.",
 )
@@ -114,7 +114,7 @@ class UnitSystemMixin:
     def initial(self, request: Request, *args: Any, **kwargs: Any) -> None:
         super().initial(request, *args, **kwargs)  # type: ignore[misc]
         system = request.query_params.get("units")
-        if system is not None and system not in DISPLAY_UNITS:
+        if system is not None and system not in SYSTEMS:
             raise ValidationError({"units": [f"{system!r} is not a unit system; use si or us"]})
         self.unit_system = system
 
@@ -297,7 +297,7 @@ class VisitViewSet(RecordViewSet):
                     ]
                 }
             )
-        return self._moved(services.move(visit, VisitStatus.IN_PROGRESS, by=request.user))
+        return self._moved(services.move_visit(visit, VisitStatus.IN_PROGRESS, by=request.user))
 
     @action(detail=True, methods=["post"])
     def submit(self, request: Request, pk: str | None = None) -> Response:
@@ -305,7 +305,7 @@ class VisitViewSet(RecordViewSet):
         visit = self.get_object()
         body = SubmitSerializer(data=request.data)
         body.is_valid(raise_exception=True)
-        moved = services.move(
+        moved = services.move_visit(
             visit,
             VisitStatus.SUBMITTED,
             by=request.user,
@@ -333,7 +333,7 @@ class VisitViewSet(RecordViewSet):
                     ]
                 }
             )
-        moved = services.move(
+        moved = services.move_visit(
             visit, target, by=request.user, note=body.validated_data.get("note", "")
         )
         return self._moved(moved)
@@ -344,7 +344,7 @@ class VisitViewSet(RecordViewSet):
         visit = self.get_object()
         body = CancelSerializer(data=request.data)
         body.is_valid(raise_exception=True)
-        moved = services.move(
+        moved = services.move_visit(
             visit, VisitStatus.CANCELLED, by=request.user, note=body.validated_data.get("note", "")
         )
         return self._moved(moved)
@@ -395,6 +395,9 @@ class VisitRecordViewSet(
     model: type[ReadingSet] | type[RefrigerantEvent]
     relation: str
     record_noun: str
+    #: The services that store a new record (once per client_id) and save an office edit.
+    store: Callable[..., services.Stored]
+    change: Callable[..., Any]
 
     @cached_property
     def visit(self) -> Visit:
@@ -461,40 +464,43 @@ class VisitRecordViewSet(
         serializer = self.get_serializer(data=request.data)
         serializer.is_valid(raise_exception=True)
         record = self.model(**serializer.validated_data, created_by=request.user)
-        result = self.store(record)
+        result = self.store(record, by=request.user)
         self._check_same_visit(result.record)
         code = status.HTTP_201_CREATED if result.created else status.HTTP_200_OK
         return Response(self.get_serializer(result.record).data, status=code)
-
-    def store(self, record: Any) -> services.Stored:
-        raise NotImplementedError
 
     def perform_update(self, serializer: Any) -> None:
         self._check_writable()
         before = audit.snapshot(serializer.instance)
         for key, value in serializer.validated_data.items():
             setattr(serializer.instance, key, value)
-        self.change(serializer.instance, before)
-
-    def change(self, record: Any, before: dict) -> None:
-        raise NotImplementedError
+        self.change(serializer.instance, before, by=self.request.user)
 
     def perform_destroy(self, instance: Any) -> None:
         self._check_writable()
         services.delete_record(instance, by=self.request.user)
 
 
-@extend_schema_view(
-    list=extend_schema(parameters=[VISIT_PK]),
-    retrieve=extend_schema(parameters=[VISIT_PK]),
-    create=extend_schema(
-        parameters=[VISIT_PK],
-        responses={201: ReadingSetSerializer, 200: ReadingSetSerializer},
-        description="Store a reading set and return it with its diagnosis. A repeat of a "
-        "stored client_id returns the stored set with 200 and stores nothing.",
-    ),
-    partial_update=extend_schema(parameters=[VISIT_PK]),
-    destroy=extend_schema(parameters=[VISIT_PK]),
+def visit_record_schema(serializer: type, create_description: str) -> Callable:
+    """The schema of a ``visits/{visit_pk}/...`` viewset: the visit in every path, and a
+    create that answers 201 for a new record and 200 for a repeat."""
+    return extend_schema_view(
+        list=extend_schema(parameters=[VISIT_PK]),
+        retrieve=extend_schema(parameters=[VISIT_PK]),
+        create=extend_schema(
+            parameters=[VISIT_PK],
+            responses={201: serializer, 200: serializer},
+            description=create_description,
+        ),
+        partial_update=extend_schema(parameters=[VISIT_PK]),
+        destroy=extend_schema(parameters=[VISIT_PK]),
+    )
+
+
+@visit_record_schema(
+    ReadingSetSerializer,
+    "Store a reading set and return it with its diagnosis. A repeat of a stored client_id "
+    "returns the stored set with 200 and stores nothing.",
 )
 class ReadingSetViewSet(VisitRecordViewSet):
     """Reading sets of a visit, each with its diagnosis."""
@@ -506,24 +512,14 @@ class ReadingSetViewSet(VisitRecordViewSet):
     relation = "diagnosis"
     record_noun = "readings"
 
-    def store(self, record: ReadingSet) -> services.Stored:
-        return services.record_reading_set(record, by=self.request.user)
-
-    def change(self, record: ReadingSet, before: dict) -> None:
-        services.change_reading_set(record, before, by=self.request.user)
+    store = staticmethod(services.record_reading_set)
+    change = staticmethod(services.change_reading_set)
 
 
-@extend_schema_view(
-    list=extend_schema(parameters=[VISIT_PK]),
-    retrieve=extend_schema(parameters=[VISIT_PK]),
-    create=extend_schema(
-        parameters=[VISIT_PK],
-        responses={201: RefrigerantEventSerializer, 200: RefrigerantEventSerializer},
-        description="Store a refrigerant event; an addition comes back with its leak rate. "
-        "A repeat of a stored client_id returns the stored event with 200.",
-    ),
-    partial_update=extend_schema(parameters=[VISIT_PK]),
-    destroy=extend_schema(parameters=[VISIT_PK]),
+@visit_record_schema(
+    RefrigerantEventSerializer,
+    "Store a refrigerant event; an addition comes back with its leak rate. A repeat of a "
+    "stored client_id returns the stored event with 200.",
 )
 class RefrigerantEventViewSet(VisitRecordViewSet):
     """Refrigerant added or recovered, leaks found or repaired, verification tests."""
@@ -535,11 +531,8 @@ class RefrigerantEventViewSet(VisitRecordViewSet):
     relation = "leak_rate"
     record_noun = "refrigerant events"
 
-    def store(self, record: RefrigerantEvent) -> services.Stored:
-        return services.record_refrigerant_event(record, by=self.request.user)
-
-    def change(self, record: RefrigerantEvent, before: dict) -> None:
-        services.change_refrigerant_event(record, before, by=self.request.user)
+    store = staticmethod(services.record_refrigerant_event)
+    change = staticmethod(services.change_refrigerant_event)
 
 
 # --- tokens --------------------------------------------------------------------------------

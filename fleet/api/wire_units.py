@@ -1,24 +1,20 @@
-"""Units on the wire: which units a request may state, which a response states, and which
-SI column each wire field is.
+"""Units on the wire: which units a request may state, and which SI column each wire field is.
 
-The arithmetic lives in ``diagnostics.core.units`` only; this module knows which field is
-which quantity, and phrases a limit from ``fleet/limits.py`` in the units the client used,
-so an error reads ``below the lowest gauge reading possible (-14.7 psig)`` rather than in
-kPa the technician never typed.
+The arithmetic lives in ``diagnostics.core.units``, and what a response states
+(``?units=us|si``) in ``fleet/display.py``; this module knows which field is which
+quantity, and phrases a limit from ``fleet/limits.py`` in the units the client used, so an
+error reads ``below the lowest gauge reading possible (-14.7 psig)`` rather than in kPa the
+technician never typed.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Literal
-
-from django.conf import settings
 
 from diagnostics.core import units as core_units
+from fleet.display import Quantity, from_si
 from fleet.limits import Limit
-
-Quantity = Literal["temperature", "temperature_difference", "pressure", "mass"]
 
 #: The units a request may state, per key of its ``units`` object. A temperature
 #: difference is stated with the ``temperature`` key (a difference in F is in degrees F).
@@ -28,13 +24,6 @@ REQUEST_UNITS: dict[str, tuple[str, ...]] = {
     "mass": ("kg", "lb", "oz"),
 }
 ABSOLUTE_PRESSURE_UNITS = frozenset({"psia", "kPa_abs", "bar_abs"})
-
-#: What a response states with ``?units=us`` or ``?units=si``. Pressures go out as gauge
-#: readings, as a technician reads them.
-DISPLAY_UNITS: dict[str, dict[str, str]] = {
-    "us": {"temperature": "F", "temperature_difference": "F", "pressure": "psig", "mass": "lb"},
-    "si": {"temperature": "C", "temperature_difference": "K", "pressure": "kPa", "mass": "kg"},
-}
 
 #: Which request key states the unit of each quantity.
 REQUEST_KEY: dict[Quantity, str] = {
@@ -59,40 +48,6 @@ class Measure:
     quantity: Quantity | None
     limit: Limit | None = None
     label: str = ""
-
-
-def display_system(requested: str | None) -> str:
-    """The unit system a response uses: ``?units=`` if given, else the contractor's setting."""
-    if requested:
-        return requested
-    default = getattr(settings, "RIMEWATCH_DISPLAY_UNITS", "us")
-    return default if default in DISPLAY_UNITS else "us"
-
-
-def to_si(value: float, quantity: Quantity | None, unit: str, elevation_m: float = 0.0) -> float:
-    """A wire value in ``unit`` as the SI the records store (kPa gauge at the site)."""
-    if quantity is None:
-        return value
-    if quantity == "temperature":
-        return core_units.temperature_to_c(value, unit)
-    if quantity == "temperature_difference":
-        return core_units.temperature_difference_to_k(value, unit)
-    if quantity == "pressure":
-        return core_units.pressure_to_kpa_gauge(value, unit, elevation_m)
-    return core_units.mass_to_kg(value, unit)
-
-
-def from_si(value: float, quantity: Quantity | None, unit: str, elevation_m: float = 0.0) -> float:
-    """A stored SI value in the response's ``unit``."""
-    if quantity is None:
-        return value
-    if quantity == "temperature":
-        return core_units.temperature_from_c(value, unit)
-    if quantity == "temperature_difference":
-        return core_units.temperature_difference_from_k(value, unit)
-    if quantity == "pressure":
-        return core_units.pressure_from_kpa_gauge(value, unit, elevation_m)
-    return core_units.mass_from_kg(value, unit)
 
 
 def pressure_difference_from_kpa(value: float, unit: str) -> float:

@@ -1,49 +1,25 @@
 """Template filters of the office pages: display units, status words and small labels.
 
-Values are stored in SI; this is the one place the pages turn them into the contractor's
-display units (``settings.RIMEWATCH_DISPLAY_UNITS``), and it converts only through
-``diagnostics.core.units``. Status is never shown by colour alone: every badge carries a
+Values are stored in SI; these filters show them in the contractor's display units
+(``settings.RIMEWATCH_DISPLAY_UNITS``) through ``fleet.display``, the conversions the API and
+the reports use too. Status is never shown by colour alone: every badge carries a
 word and a symbol.
 """
 
 from __future__ import annotations
 
 import datetime as dt
-from dataclasses import dataclass
 
 from django import template
-from django.conf import settings
 from django.utils import timezone
 from django.utils.html import format_html
 
-from diagnostics.core import units as conv
 from diagnostics.core.scoring import SCORING_TABLE
+from fleet.display import display_for
 
 register = template.Library()
 
 EMPTY = "\u2014"  # an em dash for "not measured"
-
-
-@dataclass(frozen=True)
-class DisplaySystem:
-    temperature: str
-    temperature_label: str
-    difference: str
-    difference_label: str
-    pressure: str
-    pressure_label: str
-    mass: str
-    mass_label: str
-
-
-DISPLAY_SYSTEMS: dict[str, DisplaySystem] = {
-    "us": DisplaySystem("F", "\u00b0F", "F", "\u00b0F", "psig", "psig", "lb", "lb"),
-    "si": DisplaySystem("C", "\u00b0C", "K", "K", "kPa", "kPa", "kg", "kg"),
-}
-
-
-def display_system() -> DisplaySystem:
-    return DISPLAY_SYSTEMS.get(settings.RIMEWATCH_DISPLAY_UNITS, DISPLAY_SYSTEMS["us"])
 
 
 def _number(value: float, places: int) -> str:
@@ -56,9 +32,8 @@ def temp(value_c: float | None) -> str:
     """A temperature in degrees C, shown in the display units."""
     if value_c is None:
         return EMPTY
-    system = display_system()
-    shown = conv.temperature_from_c(value_c, system.temperature)
-    return f"{_number(shown, 1)} {system.temperature_label}"
+    display = display_for()
+    return f"{_number(display.temperature(value_c), 1)} {display.temperature_symbol}"
 
 
 @register.filter
@@ -66,9 +41,8 @@ def tempdiff(value_k: float | None) -> str:
     """A temperature difference in kelvin (superheat, TD, split), in the display units."""
     if value_k is None:
         return EMPTY
-    system = display_system()
-    shown = conv.temperature_difference_from_k(value_k, system.difference)
-    return f"{_number(shown, 1)} {system.difference_label}"
+    display = display_for()
+    return f"{_number(display.difference(value_k), 1)} {display.difference_symbol}"
 
 
 @register.filter
@@ -76,9 +50,10 @@ def pressure(value_kpa_gauge: float | None, elevation_m: float | None = 0.0) -> 
     """A gauge pressure as read at the site, in the display units."""
     if value_kpa_gauge is None:
         return EMPTY
-    system = display_system()
-    shown = conv.pressure_from_kpa_gauge(value_kpa_gauge, system.pressure, elevation_m or 0.0)
-    return f"{_number(shown, 1)} {system.pressure_label}"
+    display = display_for()
+    shown = display.pressure(value_kpa_gauge, elevation_m or 0.0)
+    # The bare unit (psig, kPa): the pages read gauge pressures only, so "gauge" is not added.
+    return f"{_number(shown, 1)} {display.units['pressure']}"
 
 
 @register.filter
@@ -86,8 +61,8 @@ def mass(value_kg: float | None) -> str:
     """A refrigerant mass in kg, in the display units."""
     if value_kg is None:
         return EMPTY
-    system = display_system()
-    return f"{_number(conv.mass_from_kg(value_kg, system.mass), 2)} {system.mass_label}"
+    display = display_for()
+    return f"{_number(display.mass(value_kg), 2)} {display.mass_symbol}"
 
 
 #: Other SI units the diagnosis uses, shown as they are (the trade reads amps and volts).
@@ -118,11 +93,6 @@ def qty(value: float | None, unit: str, elevation_m: float = 0.0, kind: str = "v
         return mass(value)
     label, places = PLAIN_UNITS.get(unit, (unit, 1))
     return f"{_number(value, places)} {label}".strip()
-
-
-@register.simple_tag
-def unit_labels() -> DisplaySystem:
-    return display_system()
 
 
 # --- status words and symbols --------------------------------------------------------------

@@ -1,6 +1,6 @@
 """Numbers on report pages: SI values shown in the display units of the report's context.
 
-Each tag reads ``display`` (a ``reports.display.Display``) from the template context, so a
+Each tag reads ``display`` (a ``fleet.display.Display``) from the template context, so a
 template never converts by itself; a missing value prints as an en dash.
 """
 

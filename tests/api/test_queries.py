@@ -10,7 +10,7 @@ from django.test.utils import CaptureQueriesContext
 from django.utils import timezone
 
 from diagnostics.models import Diagnosis, LeakRate
-from fleet.api import audit
+from fleet import audit
 from tests.factories import (
     ComponentFactory,
     CustomerFactory,

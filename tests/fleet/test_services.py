@@ -1,12 +1,21 @@
-"""Visits move only along the legal transitions."""
+"""Visits move only along the legal transitions, and a review refreshes the units' flags."""
 
 from __future__ import annotations
 
 import pytest
 from django.utils import timezone
 
+from diagnostics.core import units
+from diagnostics.models import Flag
+from fleet.models import AuditAction, AuditEntry
 from fleet.services import IllegalTransition, move_visit
-from tests.factories import UserFactory, VisitFactory
+from tests.factories import (
+    RefrigerantEventFactory,
+    UnitFactory,
+    UserFactory,
+    VisitFactory,
+    VisitUnitFactory,
+)
 
 pytestmark = pytest.mark.django_db
 
@@ -64,3 +73,38 @@ def test_it_refuses_a_move_made_stale_by_someone_else():
         move_visit(stale, "submitted")
     visit.refresh_from_db()
     assert visit.status == "cancelled"
+
+
+def test_it_records_each_move_in_the_audit_trail(office_user):
+    """Every move leaves one trail entry with the old and the new status and its actor."""
+    visit = VisitFactory(status="submitted")
+    move_visit(visit, "in_progress", by=office_user, note="Add the as-left readings")
+    entry = AuditEntry.objects.get(visit_id=visit.pk)
+    assert (entry.action, entry.actor, entry.changes["status"], entry.note) == (
+        AuditAction.MOVED,
+        office_user,
+        ["submitted", "in_progress"],
+        "Add the as-left readings",
+    )
+
+
+def test_a_reviewed_visit_raises_the_flags_of_its_units(office_user):
+    """Accepting a visit refreshes its units' flags at once: 20 lb added to a 60 lb system
+    with no earlier addition is a 33 % leak rate (40 CFR 82.152: the addition over the full
+    charge, over 365 days when there is no earlier addition), over the 20 % threshold for
+    commercial refrigeration (40 CFR 82.157(c)(2)(i)), so a leak_rate flag opens; returning
+    a visit to the technician refreshes nothing."""
+    unit = UnitFactory(full_charge_kg=units.mass_to_kg(60, "lb"))
+    visit = VisitFactory(status="submitted", site=unit.site)
+    vu = VisitUnitFactory(visit=visit, unit=unit)
+    RefrigerantEventFactory(
+        visit_unit=vu, amount_kg=units.mass_to_kg(20, "lb"), occurred_on=timezone.localdate()
+    )
+    open_flags = Flag.objects.filter(unit=unit, kind="leak_rate", cleared_at__isnull=True)
+
+    move_visit(visit, "in_progress", by=office_user, note="Weigh the cylinder again")
+    assert not open_flags.exists()
+
+    move_visit(visit, "submitted")
+    move_visit(visit, "reviewed", by=office_user)
+    assert open_flags.count() == 1

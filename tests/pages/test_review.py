@@ -6,7 +6,7 @@ from __future__ import annotations
 import pytest
 from django.urls import reverse
 
-from fleet.api import audit
+from fleet import audit
 from fleet.models import AuditAction
 from tests.factories import ReadingSetFactory, VisitUnitFactory
 

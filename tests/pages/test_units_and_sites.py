@@ -3,10 +3,17 @@ office acknowledges, leak-rate history, and each site's units at a glance."""
 
 from __future__ import annotations
 
+import datetime as dt
+
 import pytest
 from django.urls import reverse
+from django.utils import timezone
 
-from tests.factories import ComponentFactory
+from diagnostics.models import Diagnosis
+from fleet.views import unit_charts
+from tests.factories import ComponentFactory, ReadingSetFactory, UnitFactory, VisitUnitFactory
+
+from .conftest import METRICS
 
 pytestmark = pytest.mark.django_db
 
@@ -168,3 +175,33 @@ def test_it_links_a_sites_reports_for_its_manager(boss, office, world, settings,
     assert (
         boss.get(reverse("fleet:site-report", args=[world.site.pk, "2026-13"])).status_code == 404
     )
+
+
+def _diagnosed_reading(unit, days_ago: int, stage: str, superheat_k: float) -> None:
+    taken = timezone.now() - dt.timedelta(days=days_ago)
+    vu = VisitUnitFactory(unit=unit, visit__site=unit.site, visit__window_start=taken)
+    Diagnosis.objects.create(
+        reading_set=ReadingSetFactory(visit_unit=vu, taken_at=taken, stage=stage),
+        algorithm_version="test-1",
+        score=80.0,
+        metrics=METRICS,
+        superheat_k=superheat_k,
+        computed_at=timezone.now(),
+    )
+
+
+def test_the_unit_page_charts_the_reports_trend_panels():
+    """The unit page draws the monthly report's trend panels from the unit's as-found
+    diagnosed readings of the last twelve months: a panel needs three of them (as-left
+    readings do not count), and is described in the report's words."""
+    unit = UnitFactory()
+    _diagnosed_reading(unit, 100, "as_found", 9.0)
+    _diagnosed_reading(unit, 60, "as_found", 10.0)
+    _diagnosed_reading(unit, 59, "as_left", 6.0)
+    _diagnosed_reading(unit, 500, "as_found", 11.0)  # older than the twelve months
+    assert unit_charts(unit, timezone.localdate())["svg"] == ""
+
+    _diagnosed_reading(unit, 20, "as_found", 12.0)
+    charts = unit_charts(unit, timezone.localdate())
+    assert "<svg" in charts["svg"]
+    assert charts["described"] == ["Superheat: evaporator superheat against its ok range"]

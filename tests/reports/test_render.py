@@ -9,7 +9,7 @@ from zoneinfo import ZoneInfo
 import pytest
 from django.contrib.staticfiles import finders
 
-from reports.display import display_for
+from fleet.display import display_for
 from reports.figures import unit_figure
 from reports.gather import gather_site_month
 from reports.months import Month

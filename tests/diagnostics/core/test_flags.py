@@ -17,11 +17,11 @@ from diagnostics.core.flags import (
     UnitHistory,
     decide_flags,
     decide_flags_many,
-    describe_rules,
     reconcile,
 )
 from diagnostics.core.leaks import Appliance, LeakRepair, RefrigerantAddition
 from diagnostics.core.maintenance import MaintenancePlan
+from diagnostics.core.sources import describe_rules
 from diagnostics.core.start_risk import StartAttempt, StartHistory
 from diagnostics.core.trends import DEFAULT_DRIFT_RULES, SplitDriftInput, SplitPoint
 
