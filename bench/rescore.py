@@ -29,7 +29,6 @@ import contextlib
 import datetime as dt
 import gc
 import math
-import os
 import resource
 import statistics
 import sys
@@ -60,23 +59,18 @@ KINDS = (
 
 
 def _setup(tmp: Path) -> None:
-    os.environ["DATABASE_URL"] = f"sqlite:///{tmp / 'bench.sqlite3'}"
-    os.environ["RIMEWATCH_VAR_DIR"] = str(tmp)
-    os.environ.setdefault("RIMEWATCH_CACHE_DIR", str(ROOT / "var" / "cache"))
+    from bench._db import setup_database
+
     # Production-like: DEBUG off (no query log), no HTTPS redirect for the test client, and
     # no write throttle in the way of the timed posts.
-    os.environ["DEBUG"] = "0"
-    os.environ["SECRET_KEY"] = "bench-only-" + uuid.uuid4().hex
-    os.environ["SECURE_SSL_REDIRECT"] = "0"
-    os.environ["RIMEWATCH_WRITE_RATE"] = "1000000/minute"
-    os.environ["LOG_LEVEL"] = "WARNING"
-    os.environ["DJANGO_SETTINGS_MODULE"] = "config.settings_test"
-    import django
-
-    django.setup()
-    from django.core.management import call_command
-
-    call_command("migrate", verbosity=0, interactive=False)
+    setup_database(
+        tmp,
+        DEBUG="0",
+        SECRET_KEY="bench-only-" + uuid.uuid4().hex,
+        SECURE_SSL_REDIRECT="0",
+        RIMEWATCH_WRITE_RATE="1000000/minute",
+        LOG_LEVEL="WARNING",
+    )
 
 
 def _peak_mb() -> float:

@@ -1,17 +1,25 @@
 """Gather every unit's history into the core's flag inputs, in a fixed number of queries.
 
-Rows are fetched with values_list and grouped in plain loops (no per-unit queries), so a
-refresh over thousands of units costs the same handful of queries as over one.
+Rows are fetched with values_list (no per-unit queries), so a refresh over thousands of units
+costs the same handful of queries as over one. The reading rows, one per visit and by far the
+most, become numpy columns once, sorted by unit, and each unit's series are slices of them;
+only the start attempts stay one object per reading, the form the core takes them in.
 """
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
+import gc
 from collections import defaultdict
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator
+from dataclasses import dataclass
+from functools import cache
+from typing import NamedTuple
 
 import numpy as np
-from django.db.models import Max, Min, Q
+from django.db.models import Max, Min, Q, QuerySet
+from numpy.typing import NDArray
 
 from diagnostics.core import flags, leaks, maintenance, start_risk, targets, trends
 from diagnostics.core.types import APPLICATIONS
@@ -26,24 +34,144 @@ _START_PARTS = {
 }
 
 
-def _design_split_k(application: str, design: float | None) -> float:
-    if design is not None:
-        return design
+#: Day number of 1970-01-01, numpy's datetime64 epoch, in Python's ordinal count.
+_EPOCH_ORDINAL = dt.date(1970, 1, 1).toordinal()
+
+_READING_FIELDS = (
+    "visit_unit__unit_id",
+    "taken_at",
+    "stage",
+    "diagnosis__condenser_split_k",
+    "entering_air_temp_c",
+    "run_capacitor_uf",
+    "start_capacitor_uf",
+    "compressor_running",
+    "compressor_amps_1",
+    "supply_volts_1",
+)
+
+
+@cache
+def _default_split_k(application: str) -> float:
+    """The application's default split; a fleet has a few applications, so a few calls."""
     code = np.array([APPLICATIONS.index(application) if application in APPLICATIONS else 4])
     return float(targets.default_condenser_split_k(code)[0])
 
 
-def unit_histories(
-    today: dt.date,
-    unit_ids: Iterable[int] | None = None,
-    method: leaks.LeakRateMethod | None = None,
-) -> list[flags.UnitHistory]:
-    """The flag inputs of every unit in service (or of ``unit_ids``)."""
-    units_qs = Unit.objects.filter(Q(retired_on__isnull=True) | Q(retired_on__gt=today))
+def _design_split_k(application: str, design: float | None) -> float:
+    return design if design is not None else _default_split_k(application)
+
+
+@dataclass(frozen=True, eq=False)
+class _Readings:
+    """Every reading row as columns, sorted by unit (stably, so each unit's rows keep the
+    query's date order); ``spans`` gives each unit's [start, end) rows."""
+
+    days: NDArray[np.datetime64]
+    split_k: NDArray[np.float64]
+    entering_air_c: NDArray[np.float64]
+    run_uf: NDArray[np.float64]
+    start_uf: NDArray[np.float64]
+    as_left: NDArray[np.bool_]
+    spans: dict[int, tuple[int, int]]
+    attempts: dict[int, list[start_risk.StartAttempt]]
+
+    @classmethod
+    def of(cls, rows: list[tuple]) -> _Readings:
+        """The columns of values_list rows in ``_READING_FIELDS`` order (None -> NaN)."""
+        # Start attempts stay objects (the core takes them so), built in the one pass that
+        # leaves them in date order per unit.
+        attempts: dict[int, list[start_risk.StartAttempt]] = defaultdict(list)
+        found = Stage.AS_FOUND.value
+        for r in rows:
+            if r[7] is not None and r[2] == found:
+                attempts[r[0]].append(
+                    start_risk.StartAttempt(
+                        observed_on=r[1].date(),
+                        started=bool(r[7]),
+                        peak_amps=r[8],
+                        volts_at_start=r[9],
+                    )
+                )
+        if not rows:
+            empty = np.empty(0)
+            return cls(
+                np.empty(0, dtype="datetime64[D]"),
+                empty,
+                empty,
+                empty,
+                empty,
+                np.empty(0, dtype=bool),
+                {},
+                attempts,
+            )
+        unit, taken, stage, split, air, run_uf, start_uf = list(zip(*rows, strict=True))[:7]
+        units = np.array(unit, dtype=np.int64)
+        order = np.argsort(units, kind="stable")
+        units = units[order]
+        # A datetime's ordinal is that of its date (in the stored UTC, as ``.date()`` gives).
+        ordinals = np.fromiter(map(dt.datetime.toordinal, taken), dtype=np.int64, count=len(rows))
+        left = Stage.AS_LEFT.value
+        firsts = np.flatnonzero(np.r_[True, units[1:] != units[:-1]])
+        ends = np.r_[firsts[1:], len(rows)]
+        return cls(
+            days=(ordinals[order] - _EPOCH_ORDINAL).astype("datetime64[D]"),
+            split_k=np.array(split, dtype=float)[order],
+            entering_air_c=np.array(air, dtype=float)[order],
+            run_uf=np.array(run_uf, dtype=float)[order],
+            start_uf=np.array(start_uf, dtype=float)[order],
+            as_left=np.array([s == left for s in stage], dtype=bool)[order],
+            spans=dict(
+                zip(
+                    units[firsts].tolist(),
+                    zip(firsts.tolist(), ends.tolist(), strict=True),
+                    strict=True,
+                )
+            ),
+            attempts=attempts,
+        )
+
+
+@contextlib.contextmanager
+def collector_paused() -> Iterator[None]:
+    """Pause the cyclic garbage collector while the rows and inputs are built.
+
+    A fleet's history is some hundred thousand rows and small objects that form no cycles;
+    the collector would trace all of them again and again as they are made (a third of the
+    gathering time at 5,000 units), so it waits until they are built, as ``rescore`` does.
+    """
+    collecting = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if collecting:
+            gc.enable()
+
+
+class HistoryQueries(NamedTuple):
+    """The reads behind ``unit_histories``, as querysets of plain rows (values/values_list)."""
+
+    units: QuerySet
+    readings: QuerySet
+    parts: QuerySet
+    events: QuerySet
+    visits: QuerySet
+
+
+def history_queries(today: dt.date, unit_ids: Iterable[int] | None = None) -> HistoryQueries:
+    """Every query ``unit_histories`` makes, unevaluated: five, whatever the fleet's size.
+
+    Public so that a benchmark can time exactly these reads with nothing built on them.
+    """
+    units = Unit.objects.filter(Q(retired_on__isnull=True) | Q(retired_on__gt=today))
     if unit_ids is not None:
-        units_qs = units_qs.filter(id__in=list(unit_ids))
-    units = list(
-        units_qs.values(
+        units = units.filter(id__in=list(unit_ids))
+    # The other queries select the same units by subquery: no id list to build and bind
+    # (SQLite refuses more than 32,766 bound values, a fleet of that many units).
+    ids = units.values("id")
+    return HistoryQueries(
+        units=units.values(
             "id",
             "site_id",
             "application",
@@ -58,38 +186,14 @@ def unit_histories(
             "installed_on",
             "lra_a",
             "nameplate_volts",
-        )
-    )
-    ids = [u["id"] for u in units]
-
-    readings: dict[int, list[tuple]] = defaultdict(list)
-    for row in (
-        ReadingSet.objects.filter(visit_unit__unit_id__in=ids)
+        ),
+        readings=ReadingSet.objects.filter(visit_unit__unit_id__in=ids)
         .order_by("taken_at")
-        .values_list(
-            "visit_unit__unit_id",
-            "taken_at",
-            "stage",
-            "diagnosis__condenser_split_k",
-            "entering_air_temp_c",
-            "run_capacitor_uf",
-            "start_capacitor_uf",
-            "compressor_running",
-            "compressor_amps_1",
-            "supply_volts_1",
-        )
-    ):
-        readings[row[0]].append(row)
-
-    parts: dict[int, list[dict]] = defaultdict(list)
-    for part in Component.objects.filter(unit_id__in=ids).values(
-        "unit_id", "kind", "rating_uf_min", "rating_uf_max", "installed_on", "removed_on"
-    ):
-        parts[part["unit_id"]].append(part)
-
-    events: dict[int, list[dict]] = defaultdict(list)
-    for event in (
-        RefrigerantEvent.objects.filter(visit_unit__unit_id__in=ids)
+        .values_list(*_READING_FIELDS),
+        parts=Component.objects.filter(unit_id__in=ids).values(
+            "unit_id", "kind", "rating_uf_min", "rating_uf_max", "installed_on", "removed_on"
+        ),
+        events=RefrigerantEvent.objects.filter(visit_unit__unit_id__in=ids)
         .order_by("occurred_on", "id")
         .values(
             "visit_unit__unit_id",
@@ -98,13 +202,8 @@ def unit_histories(
             "occurred_on",
             "leak_rate_exemption",
             "passed",
-        )
-    ):
-        events[event["visit_unit__unit_id"]].append(event)
-
-    visits = {
-        row["unit_id"]: row
-        for row in VisitUnit.objects.filter(unit_id__in=ids)
+        ),
+        visits=VisitUnit.objects.filter(unit_id__in=ids)
         .values("unit_id")
         .annotate(
             last_done=Max("visit__window_start", filter=Q(visit__status=VisitStatus.REVIEWED)),
@@ -112,35 +211,61 @@ def unit_histories(
                 "visit__window_start",
                 filter=Q(visit__status=VisitStatus.SCHEDULED, visit__window_start__date__gte=today),
             ),
-        )
-    }
+        ),
+    )
 
-    method = method or leaks.LeakRateMethod.ROLLING_AVERAGE
+
+def unit_histories(
+    today: dt.date,
+    unit_ids: Iterable[int] | None = None,
+    method: leaks.LeakRateMethod | None = None,
+) -> list[flags.UnitHistory]:
+    """The flag inputs of every unit in service (or of ``unit_ids``)."""
+    with collector_paused():
+        return _gather(
+            history_queries(today, unit_ids), method or leaks.LeakRateMethod.ROLLING_AVERAGE
+        )
+
+
+def _gather(queries: HistoryQueries, method: leaks.LeakRateMethod) -> list[flags.UnitHistory]:
+    units = list(queries.units)
+    readings = _Readings.of(list(queries.readings))
+    parts: dict[int, list[dict]] = defaultdict(list)
+    for part in queries.parts:
+        parts[part["unit_id"]].append(part)
+    events: dict[int, list[dict]] = defaultdict(list)
+    for event in queries.events:
+        events[event["visit_unit__unit_id"]].append(event)
+    visits = {row["unit_id"]: row for row in queries.visits}
     return [
-        _history(u, readings[u["id"]], parts[u["id"]], events[u["id"]], visits.get(u["id"]), method)
+        _history(u, readings, parts[u["id"]], events[u["id"]], visits.get(u["id"]), method)
         for u in units
     ]
 
 
-def _capacitor_series(rows: list[tuple], fitted: list[dict]) -> tuple:
+def _capacitor_series(readings: _Readings, rows: slice, fitted: list[dict]) -> tuple:
     """Capacitor readings as columns, judged against the rating of the part fitted then."""
     series = []
-    for column, kind in ((5, ComponentKind.RUN_CAPACITOR), (6, ComponentKind.START_CAPACITOR)):
+    for values, kind in (
+        (readings.run_uf, ComponentKind.RUN_CAPACITOR),
+        (readings.start_uf, ComponentKind.START_CAPACITOR),
+    ):
         rating = [p for p in fitted if p["kind"] == kind and p["rating_uf_min"] is not None]
-        measured = [
-            (r[1].date(), r[column], r[2] == Stage.AS_LEFT) for r in rows if r[column] is not None
-        ]
-        if not rating or not measured:
+        if not rating:
+            continue
+        measured = values[rows]
+        taken = ~np.isnan(measured)
+        if not taken.any():
             continue
         current = max(rating, key=lambda p: p["installed_on"] or dt.date.min)
         series.append(
             start_risk.CapacitorColumns.of(
                 _START_PARTS[kind],
-                [m[0] for m in measured],
-                [m[1] for m in measured],
+                readings.days[rows][taken],
+                measured[taken],
                 current["rating_uf_min"],
                 current["rating_uf_max"] or current["rating_uf_min"],
-                [m[2] for m in measured],
+                readings.as_left[rows][taken],
             )
         )
     return tuple(series)
@@ -148,19 +273,21 @@ def _capacitor_series(rows: list[tuple], fitted: list[dict]) -> tuple:
 
 def _history(
     u: dict,
-    rows: list[tuple],
+    readings: _Readings,
     parts: list[dict],
     events: list[dict],
     visits: dict | None,
     method: leaks.LeakRateMethod,
 ) -> flags.UnitHistory:
-    found = [r for r in rows if r[3] is not None]
+    rows = slice(*readings.spans.get(u["id"], (0, 0)))
+    split_k = readings.split_k[rows]
+    found = ~np.isnan(split_k)
     split = trends.SplitDriftInput(
         points=trends.SplitColumns.of(
-            [r[1].date() for r in found],
-            [r[3] for r in found],
-            [np.nan if r[4] is None else r[4] for r in found],
-            [r[2] == Stage.AS_LEFT for r in found],
+            readings.days[rows][found],
+            split_k[found],
+            readings.entering_air_c[rows][found],
+            readings.as_left[rows][found],
         ),
         design_split_k=_design_split_k(u["application"], u["design_condenser_split_k"]),
         head=(
@@ -174,13 +301,6 @@ def _history(
             else None
         ),
     )
-    attempts = tuple(
-        start_risk.StartAttempt(
-            observed_on=r[1].date(), started=bool(r[7]), peak_amps=r[8], volts_at_start=r[9]
-        )
-        for r in rows
-        if r[7] is not None and r[2] == Stage.AS_FOUND
-    )
     replacements = tuple(
         start_risk.ComponentReplacement(p["installed_on"], _START_PARTS[p["kind"]])
         for p in parts
@@ -188,8 +308,8 @@ def _history(
     )
     in_service = [p for p in parts if p["removed_on"] is None]
     start = start_risk.StartHistory(
-        capacitor_readings=_capacitor_series(rows, in_service),
-        start_attempts=attempts,
+        capacitor_readings=_capacitor_series(readings, rows, in_service),
+        start_attempts=tuple(readings.attempts.get(u["id"], ())),
         replacements=replacements,
         lra_a=u["lra_a"],
         nameplate_volts=u["nameplate_volts"],

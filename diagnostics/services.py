@@ -381,13 +381,17 @@ def refresh_flags(today=None, unit_ids=None, now=None) -> FlagRefresh:
             )
         for decision in changes.to_update:
             flag = current[decision.kind.value]
-            flag.severity, flag.summary = decision.severity.value, decision.summary[:300]
-            flag.evidence, flag.projected_on, flag.updated_at = (
+            fresh = (
+                decision.severity.value,
+                decision.summary[:300],
                 _evidence_json(decision),
                 decision.projected_date,
-                now,
             )
-            to_update.append(flag)
+            # An open flag whose judgement has not changed is left alone (no write).
+            if fresh != (flag.severity, flag.summary, flag.evidence, flag.projected_on):
+                flag.severity, flag.summary, flag.evidence, flag.projected_on = fresh
+                flag.updated_at = now
+                to_update.append(flag)
         to_clear.extend(current[kind.value].pk for kind in changes.to_close)
     with transaction.atomic():
         Flag.objects.bulk_create(to_create)

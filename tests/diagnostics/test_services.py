@@ -132,15 +132,20 @@ def test_it_stores_the_leak_rate_of_the_worked_example():
 
 
 def test_it_opens_one_flag_per_unit_and_kind_and_clears_it():
-    """refresh_flags opens a leak-rate flag once, keeps one open on a re-run, and clears it
-    when the history no longer calls for it."""
+    """refresh_flags opens a leak-rate flag once, keeps one open on a re-run (writing nothing
+    when nothing changed), updates it when the history moves, and clears it when the history
+    no longer calls for it."""
     unit = UnitFactory(full_charge_kg=units.mass_to_kg(60, "lb"))
     vu = VisitUnitFactory(unit=unit, visit__site=unit.site)
     today = timezone.localdate()
     RefrigerantEventFactory(visit_unit=vu, amount_kg=units.mass_to_kg(20, "lb"), occurred_on=today)
     first = services.refresh_flags(today=today, unit_ids=[unit.id])
     second = services.refresh_flags(today=today, unit_ids=[unit.id])
-    assert (first.opened, second.opened, second.updated) == (1, 0, 1)
+    assert (first.opened, second.opened, second.updated) == (1, 0, 0)
+    assert Flag.objects.filter(unit=unit, kind="leak_rate", cleared_at__isnull=True).count() == 1
+    RefrigerantEventFactory(visit_unit=vu, amount_kg=units.mass_to_kg(10, "lb"), occurred_on=today)
+    moved = services.refresh_flags(today=today, unit_ids=[unit.id])
+    assert (moved.opened, moved.updated) == (0, 1)
     assert Flag.objects.filter(unit=unit, kind="leak_rate", cleared_at__isnull=True).count() == 1
     unit.visit_units.get().refrigerant_events.all().delete()
     third = services.refresh_flags(today=today, unit_ids=[unit.id])

@@ -13,5 +13,5 @@ class Command(BaseCommand):
     def handle(self, *args, **options) -> None:
         result = refresh_flags()
         self.stdout.write(
-            f"Flags: {result.opened} opened, {result.updated} still open, {result.cleared} cleared."
+            f"Flags: {result.opened} opened, {result.updated} changed, {result.cleared} cleared."
         )

@@ -1,0 +1,474 @@
+"""How long a fleet-wide flag refresh takes, against simply reading the rows it rests on.
+
+Builds a throwaway SQLite database (``--units`` units, default 5,000, over a few sites and
+refrigerants, ``--visits`` monthly visits each, default 24: one visit unit, one as-found
+reading set and its stored diagnosis per visit; bulk inserts). Some units drift (condenser
+split rising), some have capacitor readings, start parts and replacements, some locked-rotor
+or low-voltage starts, some refrigerant additions with repairs, some overdue maintenance.
+Then it measures side by side in one run, best of ``--repeats`` (default 3), interleaved:
+
+- floor: the queries ``history.unit_histories`` makes (its own querysets, from
+  ``history.history_queries``: the same ``values()`` / ``values_list()`` rows, materialised
+  into lists), with no grouping or computation;
+- ``history.unit_histories`` alone (gather the rows into the core's inputs);
+- ``services.refresh_flags`` in full (gather, core decisions, write): on an empty flag table
+  (every decision opens a flag) and again with those flags open (every one updated).
+
+It also counts the queries of one refresh over a few units and over all of them, to show
+the count does not grow with the fleet.
+
+    .venv/bin/python bench/flags.py [--units 5000] [--visits 24] [--repeats 3]
+
+Goal (trends issue): the refresh within 3x of the floor. Wall-clock figures move with
+whatever else the machine runs; the ratio, measured in the same rounds, is the steadier one.
+"""
+
+from __future__ import annotations
+
+import argparse
+import datetime as dt
+import math
+import sys
+import tempfile
+import time
+import uuid
+from collections.abc import Callable
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))
+
+SITES = 40
+CHUNK_UNITS = 250
+
+#: Synthetic fleet: (refrigerant, application, share of the units).
+KINDS = (
+    ("R-404A", "medium_temp", 0.30),
+    ("R-448A", "low_temp", 0.25),
+    ("R-134a", "reach_in", 0.20),
+    ("R-290", "reach_in", 0.10),
+    ("R-449A", "medium_temp", 0.15),
+)
+
+#: Shares of the units with each story (synthetic; overlapping on purpose).
+DRIFTING = 0.06
+SINGLE_PHASE = 0.40
+START_PARTS = 0.30  # of the single-phase units: a start capacitor and relay too
+CAPACITOR_FADING = 0.10  # of the single-phase units
+HARD_START = 0.05  # of the units with start parts
+REPLACED = 0.08  # of the units with start parts: the start capacitor changed last year
+LOCKED_ROTOR = 0.03
+LOW_VOLTAGE = 0.03
+LEAKING = 0.08
+OVERDUE = 0.03  # the last six visits submitted but not reviewed
+
+
+# --- the synthetic fleet ----------------------------------------------------------------------
+
+
+def _build_units(rng: np.random.Generator, count: int) -> list:
+    """Sites, units and their components in bulk; returns the units."""
+    from fleet.models import Component, Customer, Refrigerant, Site, Unit
+
+    customer = Customer.objects.create(name="Bench customer")
+    sites = Site.objects.bulk_create(
+        Site(
+            customer=customer,
+            name=f"Bench site {k}",
+            elevation_m=round(float(rng.uniform(0.0, 1600.0))),
+            design_ambient_c=round(float(rng.uniform(32.0, 43.0)), 1),
+        )
+        for k in range(SITES)
+    )
+    refrigerants = {r.designation: r for r in Refrigerant.objects.all()}
+    shares = np.array([k[2] for k in KINDS])
+    kind_of = rng.choice(len(KINDS), count, p=shares / shares.sum())
+    single = rng.random(count) < SINGLE_PHASE
+    units = []
+    for u in range(count):
+        designation, application, _ = KINDS[kind_of[u]]
+        rla = float(rng.uniform(4.0, 25.0))
+        units.append(
+            Unit(
+                site=sites[u % SITES],
+                tag=f"F-{u:05d}",
+                application=application,
+                refrigerant=refrigerants[designation],
+                full_charge_kg=float(rng.uniform(2.0, 60.0)),
+                metering_device="capillary" if application == "reach_in" else "txv",
+                has_receiver=application != "reach_in",
+                design_box_temp_c=-23.0 if application == "low_temp" else 2.0,
+                design_condenser_split_k=None if rng.random() < 0.5 else 11.0,
+                high_pressure_cutout_kpa_gauge=None if rng.random() < 0.1 else 2800.0,
+                nameplate_volts=230.0 if single[u] else 460.0,
+                phase=1 if single[u] else 3,
+                rla_a=rla,
+                lra_a=rla * 6.0,
+                pm_interval_days=90 if rng.random() < 0.8 else 30,
+                installed_on=dt.date(2015, 1, 1),
+            )
+        )
+    units = Unit.objects.bulk_create(units)
+    parts = []
+    for unit in units:
+        if unit.phase != 1:
+            continue
+        parts.append(
+            Component(
+                unit=unit,
+                kind="run_capacitor",
+                rating_uf_min=42.3,
+                rating_uf_max=47.7,
+                installed_on=dt.date(2019, 5, 1),
+            )
+        )
+        unit.bench_start = rng.random() < START_PARTS
+        if unit.bench_start:
+            parts.append(Component(unit=unit, kind="start_relay", installed_on=dt.date(2019, 5, 1)))
+            parts.append(
+                Component(
+                    unit=unit,
+                    kind="start_capacitor",
+                    rating_uf_min=88.0,
+                    rating_uf_max=108.0,
+                    installed_on=dt.date(2019, 5, 1),
+                )
+            )
+    Component.objects.bulk_create(parts)
+    return units
+
+
+def _monthly(today: dt.date, visits: int) -> list[dt.datetime]:
+    """Visit starts one month apart, the last a week before ``today``."""
+    last = dt.datetime.combine(today, dt.time(14, 0), tzinfo=dt.UTC) - dt.timedelta(days=7)
+    return [last - dt.timedelta(days=round(30.44 * (visits - 1 - m))) for m in range(visits)]
+
+
+def _build_history(
+    rng: np.random.Generator, units: list, visits: int, today: dt.date, reviewer
+) -> None:
+    """Visits, visit units, reading sets, diagnoses, later components and refrigerant events,
+    in bulk, a chunk of units at a time."""
+    from diagnostics.core.diagnose import ALGORITHM_VERSION
+    from diagnostics.models import Diagnosis
+    from fleet.models import Component, ReadingSet, RefrigerantEvent, Visit, VisitUnit
+
+    starts = _monthly(today, visits)
+    years = np.array([(s - starts[-1]).days / 365.25 for s in starts])  # <= 0, now = 0
+    season = 8.0 * np.sin(2 * math.pi * np.array([s.month for s in starts]) / 12.0 - 2.0)
+    t0 = time.perf_counter()
+    now = dt.datetime.now(dt.UTC)
+    made = 0
+    for first in range(0, len(units), CHUNK_UNITS):
+        chunk = units[first : first + CHUNK_UNITS]
+        visit_rows, later_parts = [], []
+        for unit in chunk:
+            overdue = rng.random() < OVERDUE
+            for m, begins in enumerate(starts):
+                reviewed = not (overdue and m >= visits - 6)
+                visit_rows.append(
+                    Visit(
+                        reference=f"FB-{unit.pk:05d}-{m:03d}",
+                        site_id=unit.site_id,
+                        kind="planned",
+                        status="reviewed" if reviewed else "submitted",
+                        window_start=begins,
+                        window_end=begins + dt.timedelta(hours=3),
+                        reviewed_by=reviewer if reviewed else None,
+                        reviewed_at=begins + dt.timedelta(days=2) if reviewed else None,
+                        submitted_at=begins + dt.timedelta(hours=3),
+                    )
+                )
+            if overdue and rng.random() < 0.5:  # half of them already booked
+                booked = dt.datetime.combine(
+                    today + dt.timedelta(days=10), dt.time(9), tzinfo=dt.UTC
+                )
+                visit_rows.append(
+                    Visit(
+                        reference=f"FB-{unit.pk:05d}-next",
+                        site_id=unit.site_id,
+                        kind="planned",
+                        status="scheduled",
+                        window_start=booked,
+                        window_end=booked + dt.timedelta(hours=3),
+                    )
+                )
+        created = Visit.objects.bulk_create(visit_rows)
+        visit_units = VisitUnit.objects.bulk_create(
+            VisitUnit(visit=v, unit_id=int(v.reference.split("-")[1])) for v in created
+        )
+        by_unit: dict[int, list] = {}
+        for vu, v in zip(visit_units, created, strict=True):
+            if v.status != "scheduled":
+                by_unit.setdefault(vu.unit_id, []).append((vu, v.window_start))
+
+        readings, splits, events = [], [], []
+        for unit in chunk:
+            rows = by_unit[unit.pk]
+            n = len(rows)
+            design = unit.design_condenser_split_k or 11.0
+            split = design + rng.normal(0.0, 0.8, n)
+            if rng.random() < DRIFTING:
+                split += rng.uniform(1.5, 8.0) * (years - years[0])
+            air = 24.0 + season + rng.normal(0.0, 2.0, n)
+            amps = unit.rla_a * rng.uniform(0.7, 1.05, n)
+            volts = unit.nameplate_volts * rng.uniform(0.96, 1.04, n)
+            running = np.ones(n, dtype=bool)
+            if rng.random() < LOCKED_ROTOR:
+                hit = rng.choice(np.arange(n - 8, n), 2, replace=False)
+                running[hit], amps[hit] = False, unit.lra_a * rng.uniform(0.85, 0.98)
+            if rng.random() < LOW_VOLTAGE:
+                hit = rng.choice(np.arange(n - 8, n), 3, replace=False)
+                volts[hit] = unit.nameplate_volts * rng.uniform(0.80, 0.88)
+            run_uf = start_uf = None
+            if unit.phase == 1:
+                loss = rng.uniform(1.5, 4.0) if rng.random() < CAPACITOR_FADING else 0.0
+                run_uf = 45.0 + rng.normal(0.0, 0.3, n) + loss * (years - years[0]) * -1.0
+                run_uf = np.maximum(run_uf, 1.0)
+                run_uf[rng.random(n) < 0.2] = np.nan  # not measured that visit
+                if unit.bench_start:
+                    start_uf = rng.uniform(92.0, 104.0, n)
+                    start_uf[rng.random(n) < 0.3] = np.nan
+                    later_parts += _start_part_changes(rng, unit, rows[-12][1].date())
+            for j, (vu, begins) in enumerate(rows):
+                readings.append(
+                    ReadingSet(
+                        visit_unit=vu,
+                        taken_at=begins + dt.timedelta(minutes=20),
+                        stage="as_found",
+                        box_temp_c=unit.design_box_temp_c + float(rng.normal(0.0, 1.0)),
+                        entering_air_temp_c=float(air[j]),
+                        compressor_amps_1=float(amps[j]),
+                        supply_volts_1=float(volts[j]),
+                        run_capacitor_uf=_value(run_uf, j),
+                        start_capacitor_uf=_value(start_uf, j),
+                        compressor_running=bool(running[j]),
+                        condenser_fan_running=True,
+                        evaporator_fans_running=True,
+                        sight_glass="clear",
+                    )
+                )
+                splits.append((float(split[j]), float(air[j] + split[j])))
+            if rng.random() < LEAKING:
+                events += _leak_events(rng, unit, rows)
+        stored = ReadingSet.objects.bulk_create(readings)
+        Diagnosis.objects.bulk_create(
+            Diagnosis(
+                reading_set=rs,
+                algorithm_version=ALGORITHM_VERSION,
+                score=float(rng.uniform(60.0, 100.0)),
+                condenser_split_k=split_k,
+                condensing_c=condensing_c,
+                computed_at=now,
+            )
+            for rs, (split_k, condensing_c) in zip(stored, splits, strict=True)
+        )
+        Component.objects.bulk_create(later_parts)
+        RefrigerantEvent.objects.bulk_create(events)
+        made += len(chunk)
+        rate = made / (time.perf_counter() - t0)
+        print(f"\r  {made:>6,} of {len(units):,} units ({rate:,.0f}/s)", end="", flush=True)
+    print()
+
+
+def _value(column: np.ndarray | None, j: int) -> float | None:
+    if column is None or math.isnan(column[j]):
+        return None
+    return float(column[j])
+
+
+def _start_part_changes(rng: np.random.Generator, unit, year_ago: dt.date) -> list:
+    """A hard-start kit, or a start capacitor replaced within the last year (synthetic)."""
+    from fleet.models import Component
+
+    out = []
+    if rng.random() < HARD_START:
+        out.append(Component(unit=unit, kind="hard_start_kit", installed_on=year_ago))
+    if rng.random() < REPLACED:
+        changed = year_ago + dt.timedelta(days=int(rng.integers(30, 300)))
+        out.append(
+            Component(
+                unit=unit,
+                kind="start_capacitor",
+                rating_uf_min=88.0,
+                rating_uf_max=108.0,
+                installed_on=changed,
+            )
+        )
+        out.append(Component(unit=unit, kind="start_relay", installed_on=changed))
+    return out
+
+
+def _leak_events(rng: np.random.Generator, unit, rows: list) -> list:
+    """One to three additions, and for some a repair and its passed verification."""
+    from fleet.models import RefrigerantEvent
+
+    out = []
+    picks = sorted(rng.choice(len(rows), int(rng.integers(1, 4)), replace=False))
+    for k in picks:
+        vu, begins = rows[k]
+        out.append(
+            RefrigerantEvent(
+                visit_unit=vu,
+                kind="added",
+                amount_kg=round(unit.full_charge_kg * float(rng.uniform(0.05, 0.4)), 2),
+                occurred_on=begins.date(),
+                leak_rate_exemption="seasonal_variance" if rng.random() < 0.1 else "",
+            )
+        )
+    if rng.random() < 0.4:
+        vu, begins = rows[picks[-1]]
+        out.append(RefrigerantEvent(visit_unit=vu, kind="leak_repaired", occurred_on=begins.date()))
+        out.append(
+            RefrigerantEvent(
+                visit_unit=vu,
+                kind="follow_up_verification",
+                occurred_on=begins.date(),
+                passed=True,
+            )
+        )
+    return out
+
+
+# --- what is measured -------------------------------------------------------------------------
+
+
+def _floor(today: dt.date) -> int:
+    """The rows ``unit_histories`` reads, by its own querysets, kept in lists: nothing else.
+
+    Read under the same paused collector as ``unit_histories``, so the two differ only by
+    what is built on the rows.
+    """
+    from diagnostics import history
+
+    with history.collector_paused():
+        rows = [list(qs) for qs in history.history_queries(today)]
+    return sum(len(r) for r in rows)
+
+
+def _timed(fn: Callable[[], object]) -> tuple[float, object]:
+    t = time.perf_counter()
+    out = fn()
+    return time.perf_counter() - t, out
+
+
+def _queries(fn: Callable[[], object]) -> str:
+    """The statements ``fn`` runs, as 'n (r reads, w writes)'; BEGIN and COMMIT not counted."""
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    with CaptureQueriesContext(connection) as captured:
+        fn()
+    verbs = [q["sql"].split(None, 1)[0].upper() for q in captured.captured_queries]
+    reads = verbs.count("SELECT")
+    writes = sum(v in {"INSERT", "UPDATE", "DELETE"} for v in verbs)
+    return f"{reads + writes} ({reads} reads, {writes} writes)"
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--units", type=int, default=5000)
+    parser.add_argument("--visits", type=int, default=24, help="monthly visits per unit")
+    parser.add_argument("--repeats", type=int, default=3)
+    parser.add_argument("--seed", type=int, default=7)
+    parser.add_argument(
+        "--keep",
+        type=Path,
+        help="build the database in this folder and keep it; a later run reuses it as it is",
+    )
+    args = parser.parse_args()
+    if args.visits < 12:
+        parser.error("--visits must be at least 12 (the stories use the last year)")
+
+    if args.keep is not None:
+        args.keep.mkdir(parents=True, exist_ok=True)
+        _run(args.keep.resolve(), args)
+    else:
+        with tempfile.TemporaryDirectory(prefix="rimewatch-bench-flags-") as tmp:
+            _run(Path(tmp), args)
+
+
+def _run(folder: Path, args: argparse.Namespace) -> None:
+    from bench._db import setup_database
+
+    # DEBUG off: no query log in the timed runs (CaptureQueriesContext turns it on itself).
+    setup_database(
+        folder, DEBUG="0", SECRET_KEY="bench-only-" + uuid.uuid4().hex, LOG_LEVEL="WARNING"
+    )
+    from django.contrib.auth.models import User
+    from django.db.models import Count
+    from django.utils import timezone
+
+    from diagnostics import history, services
+    from diagnostics.models import Flag
+    from fleet.models import Unit
+
+    today = timezone.localdate()
+    units = list(Unit.objects.order_by("pk"))
+    if units:
+        print(f"reusing {len(units):,} units in {folder} (--units and --visits ignored)\n")
+    else:
+        rng = np.random.default_rng(args.seed)
+        print(f"building {args.units:,} units x {args.visits} visits in {folder}")
+        t = time.perf_counter()
+        reviewer = User.objects.create_user("bench-office")
+        units = _build_units(rng, args.units)
+        _build_history(rng, units, args.visits, today, reviewer)
+        print(f"built in {time.perf_counter() - t:.0f} s\n")
+
+    def refresh():
+        return services.refresh_flags(today=today)
+
+    best = {"floor": math.inf, "histories": math.inf, "empty": math.inf, "open": math.inf}
+    rows = opened = updated = 0
+    for round_ in range(args.repeats):
+        Flag.objects.all().delete()  # untimed: the empty-table refresh starts from nothing
+        seconds, rows = _timed(lambda: _floor(today))
+        best["floor"] = min(best["floor"], seconds)
+        seconds, _ = _timed(lambda: history.unit_histories(today))
+        best["histories"] = min(best["histories"], seconds)
+        seconds, result = _timed(refresh)
+        best["empty"] = min(best["empty"], seconds)
+        opened = result.opened
+        seconds, result = _timed(refresh)
+        best["open"] = min(best["open"], seconds)
+        updated = result.updated
+        print(
+            f"  round {round_ + 1}: floor {best['floor']:.2f} s, histories "
+            f"{best['histories']:.2f} s, refresh {best['empty']:.2f} / {best['open']:.2f} s"
+            " (best so far)"
+        )
+
+    by_kind = dict(
+        Flag.objects.filter(cleared_at__isnull=True).values_list("kind").annotate(n=Count("id"))
+    )
+    few = [u.pk for u in units[:50]]
+    counts = {}
+    for label, ids in (("50 units", few), (f"{len(units):,} units", None)):
+        Flag.objects.all().delete()
+        empty = _queries(lambda ids=ids: services.refresh_flags(today=today, unit_ids=ids))
+        reopen = _queries(lambda ids=ids: services.refresh_flags(today=today, unit_ids=ids))
+        counts[label] = (empty, reopen)
+
+    floor = best["floor"]
+    print(f"\nrows read by the floor: {rows:,}")
+    for label, key in (
+        ("floor (the same reads)", "floor"),
+        ("unit_histories", "histories"),
+        ("refresh_flags, no flags open", "empty"),
+        ("refresh_flags, flags open", "open"),
+    ):
+        print(f"{label:<30}{best[key]:7.2f} s   {best[key] / floor:5.2f}x floor")
+    kinds = ", ".join(f"{k} {n}" for k, n in sorted(by_kind.items()))
+    print(f"flags opened: {opened:,} ({kinds}); updated on the re-run: {updated:,}")
+    print("queries per refresh (no flags open / flags open):")
+    for label, (empty, reopen) in counts.items():
+        print(f"  {label:<12} {empty} / {reopen}")
+    worst = max(best["empty"], best["open"]) / floor
+    print(f"\nrefresh / floor {worst:.2f}x (goal: within 3x)")
+
+
+if __name__ == "__main__":
+    main()
