@@ -18,7 +18,6 @@ from django.utils import timezone
 from diagnostics.core import diagnose as core_diagnose
 from diagnostics.core import flags, leaks
 from diagnostics.core.types import SIGHT_GLASS_STATES, Reading, UnitDesign
-from diagnostics.core.types import Diagnosis as CoreDiagnosis
 from fleet.choices import RefrigerantEventKind
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit
 
@@ -100,12 +99,6 @@ def reading_of(reading_set: ReadingSet) -> Reading:
         coil_iced=reading_set.coil_iced,
         sight_glass=reading_set.sight_glass or None,
     )
-
-
-def _row_values(result: CoreDiagnosis) -> dict:
-    """The stored columns of one diagnosis; the batch path gets the same dicts, built on
-    columns, from ``BatchResult.stored_rows``."""
-    return core_diagnose.stored_row(result)
 
 
 def reading_sets_for_diagnosis():
@@ -236,17 +229,21 @@ def rescore(
     return done
 
 
-@transaction.atomic
-def diagnose_reading_set(reading_set: ReadingSet, now=None) -> Diagnosis:
-    """Diagnose one reading set with the current algorithm and store (or replace) the result."""
+def diagnose_reading_set(reading_set: ReadingSet, now=None, *, new: bool = False) -> Diagnosis:
+    """Diagnose one reading set with the current algorithm and store (or replace) the result.
+
+    ``new`` says the reading set was stored in this transaction and has no diagnosis yet:
+    one INSERT then, not a look-up first. Either way a single write (``update_or_create``
+    brings its own savepoint), so no transaction of its own is opened here.
+    """
     unit = reading_set.visit_unit.unit
-    result = core_diagnose.diagnose(
+    values = core_diagnose.diagnose_row(
         unit_design(unit), reading_of(reading_set), elevation_m=unit.site.elevation_m
     )
-    diagnosis, _ = Diagnosis.objects.update_or_create(
-        reading_set=reading_set,
-        defaults={**_row_values(result), "computed_at": now or timezone.now()},
-    )
+    values["computed_at"] = now or timezone.now()
+    if new:
+        return Diagnosis.objects.create(reading_set=reading_set, **values)
+    diagnosis, _ = Diagnosis.objects.update_or_create(reading_set=reading_set, defaults=values)
     return diagnosis
 
 

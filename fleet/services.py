@@ -239,11 +239,15 @@ def _insert_once(record: R) -> Stored[R]:
     return Stored(record, created=True)
 
 
-def _diagnose(reading_set: ReadingSet) -> None:
+def _diagnose(reading_set: ReadingSet, *, new: bool = False) -> None:
     """Store the diagnosis and attach it. The readings are the record and are kept even
-    if the core fails."""
+    if the core fails. ``new``: the set was just inserted, so it has no diagnosis yet."""
     with _logged_failure("diagnosis failed for reading set %s", reading_set.pk):
-        reading_set.diagnosis = diagnose_reading_set(reading_set)
+        reading_set.diagnosis = diagnose_reading_set(reading_set, new=new)
+
+
+def _diagnose_new(reading_set: ReadingSet) -> None:
+    _diagnose(reading_set, new=True)
 
 
 def _compute_leak_rate(event: RefrigerantEvent) -> None:
@@ -272,7 +276,7 @@ def _change(record: R, before: dict, compute: Callable[[R], None], *, by) -> R:
 @transaction.atomic
 def record_reading_set(reading_set: ReadingSet, *, by) -> Stored[ReadingSet]:
     """Store a validated reading set unless its ``client_id`` is stored; diagnose it."""
-    return _record_once(reading_set, _diagnose, by=by)
+    return _record_once(reading_set, _diagnose_new, by=by)
 
 
 @transaction.atomic

@@ -714,6 +714,13 @@ def diagnose(unit: UnitDesign, reading: Reading, elevation_m: float = 0.0) -> Di
     return result.diagnosis(0)
 
 
+def diagnose_row(unit: UnitDesign, reading: Reading, elevation_m: float = 0.0) -> Row:
+    """One reading set in its stored form (``stored_row(diagnose(...))``) without typing it
+    as dataclasses first: what the service stores for a single POST."""
+    result = diagnose_batch([unit], ReadingColumns.from_readings([reading]), elevation_m)
+    return _stored_rows(result)[0]
+
+
 # --- rows as stored, built column-wise -----------------------------------------------------
 
 #: Derived values stored as columns beside the JSON (trends read them without parsing it).

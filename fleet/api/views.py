@@ -401,7 +401,8 @@ class VisitRecordViewSet(
 
     @cached_property
     def visit(self) -> Visit:
-        units = VisitUnit.objects.select_related("unit__site")
+        # the refrigerant too: a new reading set is diagnosed against its unit's
+        units = VisitUnit.objects.select_related("unit__site", "unit__refrigerant")
         qs = visible_visits(self.request.user).prefetch_related(Prefetch("visit_units", units))
         return get_object_or_404(qs, pk=self.kwargs["visit_pk"])
 

@@ -19,6 +19,7 @@ from diagnostics.core.diagnose import (
     UnitColumns,
     diagnose,
     diagnose_batch,
+    diagnose_row,
     stored_row,
 )
 from diagnostics.core.types import Reading, UnitDesign
@@ -340,7 +341,7 @@ def test_any_subset_of_fields_gives_a_score_and_never_crashes(unit, values, elev
     )
 
 
-def _varied_batch():
+def _varied_inputs():
     """Synthetic rows that fire every finding and hit every special case: a grid around
     FULL on a receiverless R-404A cooler, a compressor stalled at start, a low supply, an
     empty reading, R-744 above its critical point, a water-cooled unit, the R-448A glide
@@ -389,6 +390,11 @@ def _varied_batch():
     index += [0, 0, 0, 0, 1, 1, 2, 2, 3, 3, 0]
     elevation = np.zeros(len(readings))
     elevation[-1] = np.nan  # an unusable site elevation: no gauge pressure can be made absolute
+    return units, readings, index, elevation
+
+
+def _varied_batch():
+    units, readings, index, elevation = _varied_inputs()
     return diagnose_batch(
         UnitColumns.from_designs(units),
         ReadingColumns.from_readings(readings),
@@ -399,10 +405,10 @@ def _varied_batch():
 
 def test_the_stored_rows_of_a_batch_equal_each_row_stored_one_at_a_time():
     """``stored_rows()`` (built on columns, what ``manage.py rescore`` stores) gives for
-    every row exactly what storing ``diagnosis(i)`` gives (the one-POST path,
-    ``services._row_values`` = ``stored_row``), on a batch where every finding fires, fields
-    are missing, R-744 runs above its critical point, a condenser is water-cooled, a blend
-    glides and one site's elevation is unusable; the rows are plain JSON (no NaN, no tuples)."""
+    every row exactly what storing ``diagnosis(i)`` gives (``stored_row``), on a batch
+    where every finding fires, fields are missing, R-744 runs above its critical point, a
+    condenser is water-cooled, a blend glides and one site's elevation is unusable; the rows
+    are plain JSON (no NaN, no tuples)."""
     batch = _varied_batch()
     rows = batch.stored_rows()
     fired = {f["code"] for row in rows for f in row["findings"]}
@@ -424,3 +430,14 @@ def test_a_site_without_a_usable_elevation_keeps_its_temperature_targets_only():
     names = {t["name"] for t in row["targets"]}
     assert {"evaporating_temp", "condensing_temp"} <= names
     assert not names & {"suction_pressure", "condensing_pressure"}
+
+
+def test_the_one_post_path_stores_what_the_dataclass_path_gives():
+    """``diagnose_row`` (what a single POST stores) equals ``stored_row(diagnose(...))`` for
+    the special cases of the varied batch: a stalled start, a low supply, an iced coil, an
+    empty reading, R-448A glide, R-744 above its critical point and a water-cooled unit."""
+    units, readings, index, _ = _varied_inputs()
+    special = list(zip(readings, index, strict=True))[-11:-1]
+    assert len(special) == 10
+    for reading, u in special:
+        assert diagnose_row(units[u], reading) == stored_row(diagnose(units[u], reading))
