@@ -16,14 +16,16 @@ from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
 from functools import cache
 from typing import NamedTuple
+from zoneinfo import ZoneInfo
 
 import numpy as np
 from django.db.models import Max, Min, Q, QuerySet
+from django.utils import timezone
 from numpy.typing import NDArray
 
 from diagnostics.core import flags, leaks, maintenance, start_risk, targets, trends
 from diagnostics.core.types import APPLICATIONS
-from fleet.choices import ComponentKind, RefrigerantEventKind, Stage, VisitStatus
+from fleet.choices import ComponentKind, RefrigerantEventKind, Stage, VisitKind, VisitStatus
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit, VisitUnit
 
 _START_PARTS = {
@@ -159,14 +161,76 @@ class HistoryQueries(NamedTuple):
     visits: QuerySet
 
 
+def _in_service(today: dt.date, unit_ids: Iterable[int] | None = None) -> QuerySet:
+    units = Unit.objects.filter(Q(retired_on__isnull=True) | Q(retired_on__gt=today))
+    return units if unit_ids is None else units.filter(id__in=list(unit_ids))
+
+
+def _visit_dates(today: dt.date) -> dict:
+    """Per unit: the last reviewed visit, and the first planned visit still to come or under
+    way (its window not yet over), for the maintenance plan."""
+    start_of_today = dt.datetime.combine(today, dt.time.min, timezone.get_current_timezone())
+    return {
+        "last_done": Max("visit__window_start", filter=Q(visit__status=VisitStatus.REVIEWED)),
+        "next_booked": Min(
+            "visit__window_start",
+            filter=Q(
+                visit__kind=VisitKind.PLANNED,
+                visit__status__in=[VisitStatus.SCHEDULED, VisitStatus.IN_PROGRESS],
+                visit__window_end__gte=start_of_today,
+            ),
+        ),
+    }
+
+
+def _local_date(moment: dt.datetime, time_zone: str) -> dt.date:
+    """The calendar day at the site: a visit at 20:00 in Denver is that day, not tomorrow UTC."""
+    return moment.astimezone(ZoneInfo(time_zone)).date()
+
+
+def _maintenance_plan(
+    unit: dict, visits: dict | None, today: dt.date
+) -> maintenance.MaintenancePlan:
+    done = visits["last_done"] if visits else None
+    booked = visits["next_booked"] if visits else None
+    return maintenance.MaintenancePlan(
+        unit_id=unit["id"],
+        site_id=unit["site_id"],
+        interval_days=unit["pm_interval_days"],
+        last_completed_on=_local_date(done, unit["site__time_zone"]) if done else None,
+        in_service_since=unit["installed_on"],
+        next_scheduled_on=max(_local_date(booked, unit["site__time_zone"]), today)
+        if booked
+        else None,
+    )
+
+
+def maintenance_plans(
+    today: dt.date, unit_ids: Iterable[int] | None = None
+) -> list[maintenance.MaintenancePlan]:
+    """Every unit in service as the maintenance core sees it, in two queries: the same plans
+    the flag refresh decides on, for the office's maintenance page."""
+    units = _in_service(today, unit_ids)
+    visits = {
+        row["unit_id"]: row
+        for row in VisitUnit.objects.filter(unit_id__in=units.values("id"))
+        .values("unit_id")
+        .annotate(**_visit_dates(today))
+    }
+    return [
+        _maintenance_plan(u, visits.get(u["id"]), today)
+        for u in units.values(
+            "id", "site_id", "pm_interval_days", "installed_on", "site__time_zone"
+        )
+    ]
+
+
 def history_queries(today: dt.date, unit_ids: Iterable[int] | None = None) -> HistoryQueries:
     """Every query ``unit_histories`` makes, unevaluated: five, whatever the fleet's size.
 
     Public so that a benchmark can time exactly these reads with nothing built on them.
     """
-    units = Unit.objects.filter(Q(retired_on__isnull=True) | Q(retired_on__gt=today))
-    if unit_ids is not None:
-        units = units.filter(id__in=list(unit_ids))
+    units = _in_service(today, unit_ids)
     # The other queries select the same units by subquery: no id list to build and bind
     # (SQLite refuses more than 32,766 bound values, a fleet of that many units).
     ids = units.values("id")
@@ -184,6 +248,7 @@ def history_queries(today: dt.date, unit_ids: Iterable[int] | None = None) -> Hi
             "site__design_ambient_c",
             "pm_interval_days",
             "installed_on",
+            "site__time_zone",
             "lra_a",
             "nameplate_volts",
         ),
@@ -205,13 +270,7 @@ def history_queries(today: dt.date, unit_ids: Iterable[int] | None = None) -> Hi
         ),
         visits=VisitUnit.objects.filter(unit_id__in=ids)
         .values("unit_id")
-        .annotate(
-            last_done=Max("visit__window_start", filter=Q(visit__status=VisitStatus.REVIEWED)),
-            next_booked=Min(
-                "visit__window_start",
-                filter=Q(visit__status=VisitStatus.SCHEDULED, visit__window_start__date__gte=today),
-            ),
-        ),
+        .annotate(**_visit_dates(today)),
     )
 
 
@@ -223,11 +282,13 @@ def unit_histories(
     """The flag inputs of every unit in service (or of ``unit_ids``)."""
     with collector_paused():
         return _gather(
-            history_queries(today, unit_ids), method or leaks.LeakRateMethod.ROLLING_AVERAGE
+            history_queries(today, unit_ids), method or leaks.LeakRateMethod.ROLLING_AVERAGE, today
         )
 
 
-def _gather(queries: HistoryQueries, method: leaks.LeakRateMethod) -> list[flags.UnitHistory]:
+def _gather(
+    queries: HistoryQueries, method: leaks.LeakRateMethod, today: dt.date
+) -> list[flags.UnitHistory]:
     units = list(queries.units)
     readings = _Readings.of(list(queries.readings))
     parts: dict[int, list[dict]] = defaultdict(list)
@@ -238,7 +299,7 @@ def _gather(queries: HistoryQueries, method: leaks.LeakRateMethod) -> list[flags
         events[event["visit_unit__unit_id"]].append(event)
     visits = {row["unit_id"]: row for row in queries.visits}
     return [
-        _history(u, readings, parts[u["id"]], events[u["id"]], visits.get(u["id"]), method)
+        _history(u, readings, parts[u["id"]], events[u["id"]], visits.get(u["id"]), method, today)
         for u in units
     ]
 
@@ -278,6 +339,7 @@ def _history(
     events: list[dict],
     visits: dict | None,
     method: leaks.LeakRateMethod,
+    today: dt.date,
 ) -> flags.UnitHistory:
     rows = slice(*readings.spans.get(u["id"], (0, 0)))
     split_k = readings.split_k[rows]
@@ -335,14 +397,5 @@ def _history(
         repairs=tuple(repairs),
         method=method,
     )
-    plan = maintenance.MaintenancePlan(
-        unit_id=u["id"],
-        site_id=u["site_id"],
-        interval_days=u["pm_interval_days"],
-        last_completed_on=visits["last_done"].date() if visits and visits["last_done"] else None,
-        in_service_since=u["installed_on"],
-        next_scheduled_on=visits["next_booked"].date()
-        if visits and visits["next_booked"]
-        else None,
-    )
+    plan = _maintenance_plan(u, visits, today)
     return flags.UnitHistory(unit_id=u["id"], split=split, start=start, leak=leak, maintenance=plan)

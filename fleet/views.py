@@ -23,7 +23,7 @@ from django.contrib import messages
 from django.contrib.auth import get_user_model
 from django.contrib.auth.decorators import login_required
 from django.db import transaction
-from django.db.models import Count, Max, Min, OuterRef, Prefetch, Q, QuerySet, Subquery
+from django.db.models import Count, OuterRef, Prefetch, Q, QuerySet, Subquery
 from django.http import FileResponse, Http404, HttpRequest, HttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
@@ -32,6 +32,7 @@ from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_GET, require_POST
 
 from diagnostics.core import maintenance
+from diagnostics.history import maintenance_plans
 from diagnostics.models import Diagnosis, Flag, LeakRate
 
 from . import audit, forms
@@ -129,10 +130,6 @@ def _safe_next(request: HttpRequest, fallback: str) -> str:
 
 def _site_zone(site: Site) -> ZoneInfo:
     return ZoneInfo(site.time_zone)
-
-
-def _local_date(moment: dt.datetime, site: Site) -> dt.date:
-    return timezone.localtime(moment, _site_zone(site)).date()
 
 
 # --- home -------------------------------------------------------------------------------------
@@ -681,51 +678,11 @@ class MaintenanceRow:
     last_done_on: dt.date | None
 
 
-def maintenance_plans(today: dt.date) -> tuple[list[maintenance.MaintenancePlan], dict[int, Unit]]:
-    """Every unit in service as the maintenance core sees it, in three queries.
-
-    The last completed visit is the last reviewed visit covering the unit; the next booked
-    one is the earliest planned visit not yet handed in.
-    """
-    units = {
-        u.pk: u
-        for u in Unit.objects.filter(retired_on__isnull=True).select_related("site__customer")
-    }
-    last_done = dict(
-        VisitUnit.objects.filter(visit__status=VisitStatus.REVIEWED)
-        .values("unit_id")
-        .annotate(last=Max("visit__window_start"))
-        .values_list("unit_id", "last")
-    )
-    booked = dict(
-        VisitUnit.objects.filter(
-            visit__kind=VisitKind.PLANNED,
-            visit__status__in=[VisitStatus.SCHEDULED, VisitStatus.IN_PROGRESS],
-            visit__window_end__gte=dt.datetime.combine(
-                today, dt.time.min, timezone.get_current_timezone()
-            ),
-        )
-        .values("unit_id")
-        .annotate(first=Min("visit__window_start"))
-        .values_list("unit_id", "first")
-    )
-    plans = []
-    for pk, unit in units.items():
-        done = last_done.get(pk)
-        upcoming = booked.get(pk)
-        plans.append(
-            maintenance.MaintenancePlan(
-                unit_id=pk,
-                site_id=unit.site_id,
-                interval_days=unit.pm_interval_days,
-                last_completed_on=_local_date(done, unit.site) if done else None,
-                in_service_since=unit.installed_on,
-                next_scheduled_on=max(_local_date(upcoming, unit.site), today)
-                if upcoming
-                else None,
-            )
-        )
-    return plans, units
+def _plans_and_units(today: dt.date) -> tuple[list[maintenance.MaintenancePlan], dict[int, Unit]]:
+    """The maintenance plans the flag refresh decides on, with the units to show them by."""
+    plans = maintenance_plans(today)
+    units = Unit.objects.filter(pk__in=[p.unit_id for p in plans]).select_related("site__customer")
+    return plans, {u.pk: u for u in units}
 
 
 @within_reach(Role.OFFICE)
@@ -734,7 +691,7 @@ def maintenance_due(request: HttpRequest) -> HttpResponse:
     """Units due or overdue for planned maintenance, and the visits the core proposes."""
     today = timezone.localdate()
     rules = maintenance.DEFAULT_MAINTENANCE_RULES
-    plans, units = maintenance_plans(today)
+    plans, units = _plans_and_units(today)
     horizon = today + dt.timedelta(days=rules.proposal_horizon_days)
     rows = []
     for plan in plans:
@@ -769,7 +726,7 @@ def maintenance_due(request: HttpRequest) -> HttpResponse:
 def maintenance_propose(request: HttpRequest) -> HttpResponse:
     """Book the proposed planned visits (unassigned; the coordinator assigns them after)."""
     today = timezone.localdate()
-    plans, units = maintenance_plans(today)
+    plans, units = _plans_and_units(today)
     proposals = maintenance.propose_visits(plans, today)
     booked = book_proposed_visits(proposals, units, by=request.user)
     if booked:

@@ -151,3 +151,28 @@ def test_it_opens_one_flag_per_unit_and_kind_and_clears_it():
     third = services.refresh_flags(today=today, unit_ids=[unit.id])
     assert third.cleared == 1
     assert not Flag.objects.filter(unit=unit, cleared_at__isnull=True).exists()
+
+
+def test_maintenance_plans_count_the_last_reviewed_visit_on_the_site_calendar():
+    """The plan behind the maintenance page and the overdue flag is one: the last reviewed
+    visit is dated by the site's clock (01:30 UTC on 2 March is 1 March in Denver), and a
+    planned visit booked ahead is the next one."""
+    from diagnostics.history import maintenance_plans, unit_histories
+    from tests.factories import SiteFactory, UserFactory, VisitFactory
+
+    site = SiteFactory(time_zone="America/Denver")
+    unit = UnitFactory(site=site, pm_interval_days=30)
+    done = dt.datetime(2026, 3, 2, 1, 30, tzinfo=dt.UTC)
+    reviewed = VisitFactory(
+        site=site, status="reviewed", window_start=done, reviewed_by=UserFactory(), reviewed_at=done
+    )
+    VisitUnitFactory(visit=reviewed, unit=unit)
+    ahead = dt.datetime(2026, 6, 10, 15, 0, tzinfo=dt.UTC)
+    booked = VisitFactory(site=site, status="scheduled", window_start=ahead)
+    VisitUnitFactory(visit=booked, unit=unit)
+    today = dt.date(2026, 6, 1)
+    (plan,) = maintenance_plans(today, unit_ids=[unit.id])
+    assert plan.last_completed_on == dt.date(2026, 3, 1)
+    assert plan.next_scheduled_on == dt.date(2026, 6, 10)
+    (history,) = unit_histories(today, unit_ids=[unit.id])
+    assert history.maintenance == plan
