@@ -19,6 +19,7 @@ run: install
 	mkdir -p var
 	$(PY) manage.py migrate --no-input
 	$(PY) manage.py demo_fleet
+	$(PY) manage.py rescore
 	@echo "Rimewatch on http://127.0.0.1:8000/ (admin at /admin/, API at /api/v1/, docs at /api/docs/)"
 	$(PY) manage.py runserver 127.0.0.1:8000
 

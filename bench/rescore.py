@@ -9,8 +9,8 @@ side by side in one run, on the same stored rows:
 - vectorised: ``services.rescore`` over every row (what ``manage.py rescore`` runs), with
   the share spent in the core (``diagnose_batch`` and ``stored_rows``);
 - floor: the same reads (ids, then ``values_list`` in batches) and the same number of
-  Diagnosis rows written the same way, with no computation: the content is copied from real
-  diagnoses, so the JSON written has the same shape and size;
+  Diagnosis rows written the same way (``services.store_diagnoses``), with no computation:
+  the content is copied from real diagnoses, so the rows written have the same size;
 - one POST of a reading set with its diagnosis through the test client (median of
   ``--posts``).
 
@@ -253,11 +253,10 @@ def _build_readings(rng: np.random.Generator, unit_ids: list[int], total: int) -
 
 @contextlib.contextmanager
 def _core_time(spent: list[float]) -> Iterator[None]:
-    """Adds the seconds spent in the core (the batch and its stored rows) to ``spent[0]``."""
-    from diagnostics import services
+    """Adds the seconds spent in the core (the batch and its stored form) to ``spent[0]``."""
     from diagnostics.core import diagnose as core
 
-    batch, rows = core.diagnose_batch, core.BatchResult.stored_rows
+    originals = {name: getattr(core, name) for name in ("diagnose_batch", "stored_columns")}
 
     def timed(fn: Callable) -> Callable:
         def wrapper(*args, **kwargs):
@@ -269,16 +268,16 @@ def _core_time(spent: list[float]) -> Iterator[None]:
 
         return wrapper
 
-    services.core_diagnose.diagnose_batch = timed(batch)  # type: ignore[attr-defined]
-    core.BatchResult.stored_rows = timed(rows)  # type: ignore[method-assign]
+    for name, fn in originals.items():
+        setattr(core, name, timed(fn))
     try:
         yield
     finally:
-        services.core_diagnose.diagnose_batch = batch  # type: ignore[attr-defined]
-        core.BatchResult.stored_rows = rows  # type: ignore[method-assign]
+        for name, fn in originals.items():
+            setattr(core, name, fn)
 
 
-def _per_row(sample: int) -> tuple[float, list[dict]]:
+def _per_row(sample: int) -> tuple[float, list[tuple]]:
     """Seconds for ``sample`` rows through the one-row service, and their stored values."""
     from diagnostics import services
     from diagnostics.models import Diagnosis
@@ -290,20 +289,18 @@ def _per_row(sample: int) -> tuple[float, list[dict]]:
     for pk in chosen:
         services.diagnose_reading_set(services.reading_sets_for_diagnosis().get(pk=pk))
     seconds = time.perf_counter() - t
-    stored = list(Diagnosis.objects.values(*services._STORED_FIELDS))
-    for row in stored:
-        row.pop("computed_at")
+    stored = list(
+        Diagnosis.objects.values_list("algorithm_version", *services._STORED_FIELDS_OF_CORE)
+    )
     Diagnosis.objects.all().delete()
     return seconds, stored
 
 
-def _floor(template: list[dict], batch_size: int) -> int:
+def _floor(template: list[tuple], batch_size: int) -> int:
     """The reads and writes of ``services.rescore`` with the computation left out."""
-    from django.db import transaction
     from django.utils import timezone
 
     from diagnostics import services
-    from diagnostics.models import Diagnosis
     from fleet.models import ReadingSet, Unit
 
     now = timezone.now()
@@ -326,17 +323,19 @@ def _floor(template: list[dict], batch_size: int) -> int:
                     .prefetch_related("components")
                 ):
                     seen.add(unit.id)
-            objs = [
-                Diagnosis(reading_set_id=row[0], computed_at=now, **template[j % len(template)])
-                for j, row in enumerate(rows)
-            ]
-            with transaction.atomic():
-                Diagnosis.objects.bulk_create(
-                    objs,
-                    update_conflicts=True,
-                    unique_fields=["reading_set"],
-                    update_fields=services._STORED_FIELDS,
-                )
+            copies = [template[j % len(template)] for j in range(len(rows))]
+            services.store_diagnoses(
+                [row[0] for row in rows],
+                copies[0][0],
+                dict(
+                    zip(
+                        services._STORED_FIELDS_OF_CORE,
+                        list(zip(*copies, strict=False))[1:],
+                        strict=True,
+                    )
+                ),
+                now,
+            )
         finally:
             gc.enable()
     return len(ids)

@@ -7,26 +7,28 @@ shows what was computed then; `manage.py rescore` replaces diagnoses whose versi
 
 from __future__ import annotations
 
+from collections.abc import Iterable
+from functools import cached_property
+from typing import Any
+
 from django.conf import settings
 from django.db import models
 from django.db.models import Q
 
+from diagnostics.core import diagnose as core_diagnose
 from fleet.models import ReadingSet, RefrigerantEvent, Unit
 
 
 class Diagnosis(models.Model):
-    """The core's judgement on one reading set, as JSON plus the columns trends read."""
+    """The core's judgement on one reading set: the score and the values trends read as
+    columns, everything else (targets, metrics, findings, cautions) in ``packed``, the core's
+    stored form, which ``details`` turns back into texts."""
 
     reading_set = models.OneToOneField(
         ReadingSet, on_delete=models.CASCADE, related_name="diagnosis"
     )
     algorithm_version = models.CharField(max_length=20)
     score = models.FloatField()
-    targets = models.JSONField(default=list)
-    metrics = models.JSONField(default=list)
-    findings = models.JSONField(default=list)
-    cautions = models.JSONField(default=list)
-    glide_choice = models.TextField(blank=True)
     energy_penalty_pct = models.FloatField(null=True, blank=True)
     # Derived values kept as columns so trends read a unit's history without parsing JSON.
     evaporating_c = models.FloatField(null=True, blank=True)
@@ -37,6 +39,9 @@ class Diagnosis(models.Model):
     condenser_split_k = models.FloatField(null=True, blank=True)
     compression_ratio = models.FloatField(null=True, blank=True)
     computed_at = models.DateTimeField()
+    packed = models.BinaryField(
+        default=bytes, help_text="The core's stored form (diagnose.PACKED_COLUMNS, float32)."
+    )
 
     class Meta:
         verbose_name_plural = "diagnoses"
@@ -49,6 +54,40 @@ class Diagnosis(models.Model):
 
     def __str__(self) -> str:
         return f"score {self.score:.0f} ({self.algorithm_version})"
+
+    @cached_property
+    def details(self) -> dict[str, Any]:
+        """Targets, metrics, findings, cautions and glide choice with their texts."""
+        return core_diagnose.expand_blobs([self.packed])[0]
+
+    @staticmethod
+    def attach_details(diagnoses: Iterable[Diagnosis]) -> None:
+        """Expand many diagnoses in one pass (a page or report of them) instead of one by one."""
+        rows = [d for d in diagnoses if d is not None and "details" not in d.__dict__]
+        for diagnosis, details in zip(
+            rows, core_diagnose.expand_blobs([d.packed for d in rows]), strict=True
+        ):
+            diagnosis.details = details
+
+    @property
+    def targets(self) -> list[dict[str, Any]]:
+        return self.details["targets"]
+
+    @property
+    def metrics(self) -> list[dict[str, Any]]:
+        return self.details["metrics"]
+
+    @property
+    def findings(self) -> list[dict[str, Any]]:
+        return self.details["findings"]
+
+    @property
+    def cautions(self) -> list[dict[str, Any]]:
+        return self.details["cautions"]
+
+    @property
+    def glide_choice(self) -> str:
+        return self.details["glide_choice"]
 
 
 class LeakRate(models.Model):

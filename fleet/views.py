@@ -581,6 +581,7 @@ def _visit_page(request: HttpRequest, pk: int, review_form=None) -> HttpResponse
     visit = get_object_or_404(_visit_with_everything(request), pk=pk)
     covered = _covered_units(visit)
     diagnoses = [d for c in covered for _, d in c.readings if d is not None]
+    Diagnosis.attach_details(diagnoses)
     can_review = request.role == Role.OFFICE and visit.status == VisitStatus.SUBMITTED
     zone = _site_zone(visit.site)
     return page(
@@ -637,8 +638,12 @@ def review_queue(request: HttpRequest) -> HttpResponse:
         .order_by("submitted_at", "window_start")
     )
     rows = []
+    covered_of = {visit.pk: _covered_units(visit) for visit in visits}
+    Diagnosis.attach_details(
+        d for covered in covered_of.values() for c in covered for _, d in c.readings
+    )
     for visit in visits:
-        covered = _covered_units(visit)
+        covered = covered_of[visit.pk]
         diagnoses = [d for c in covered for _, d in c.readings if d is not None]
         added = sum(
             ev.amount_kg or 0

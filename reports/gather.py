@@ -1,13 +1,14 @@
 """One site-month turned into plain data: every query of a monthly report lives here.
 
-``gather_site_month`` runs a fixed number of queries (ten) whatever the number of units,
+``gather_site_month`` runs a fixed number of queries (nine) whatever the number of units,
 visits or readings: each asks for rows with ``values()`` over the whole site, and the rows are
 grouped per unit in plain loops. Nothing past this module holds an ORM object, so the charts
 and the templates cannot trigger a query.
 
 What is read, and why:
 - readings and their stored diagnoses over the twelve months ending with the report month
-  (the trend charts), with the JSON details (metrics, findings, cautions) of the month;
+  (the trend charts read their targets and bands from the stored form; the month's checks
+  have their details, metrics, findings and cautions, written out);
 - the stored leak rates of the refrigerant additions in that window (computed by the
   diagnostics core when the addition was recorded; not recomputed here);
 - the flags open when the report is made (what the manager must act on now; a flag
@@ -18,6 +19,7 @@ What is read, and why:
 
 from __future__ import annotations
 
+import math
 from collections import defaultdict
 from dataclasses import dataclass
 from datetime import date, datetime, tzinfo
@@ -27,9 +29,10 @@ from zoneinfo import ZoneInfo
 
 from django.db.models import Q
 
+from diagnostics.core import diagnose as core_diagnose
 from diagnostics.core import leaks
 from diagnostics.core.scoring import SCORING_TABLE
-from diagnostics.models import Diagnosis, Flag, FlagKind, FlagSeverity
+from diagnostics.models import Flag, FlagKind, FlagSeverity
 from fleet import choices
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Site, Unit, Visit, VisitUnit
 
@@ -420,21 +423,6 @@ def _evidence_rows(raw: Any) -> tuple[EvidenceRow, ...]:
     return tuple(rows)
 
 
-def _band(metrics: Any, name: str) -> tuple[float | None, float | None]:
-    """The ok range (low, high) a stored metric was judged against."""
-    for m in metrics if isinstance(metrics, list) else []:
-        if isinstance(m, dict) and m.get("name") == name:
-            return _num(m.get("low")), _num(m.get("high"))
-    return None, None
-
-
-def _target_value(targets: Any, name: str) -> float | None:
-    for t in targets if isinstance(targets, list) else []:
-        if isinstance(t, dict) and t.get("name") == name:
-            return _num(t.get("value"))
-    return None
-
-
 # --- the queries --------------------------------------------------------------------------------
 
 
@@ -463,9 +451,33 @@ _READING_COLUMNS = (
     "diagnosis__condensing_c",
     "diagnosis__superheat_k",
     "diagnosis__subcooling_k",
-    "diagnosis__targets",
-    "diagnosis__metrics",
+    "diagnosis__energy_penalty_pct",
+    "diagnosis__packed",
 )
+
+#: The stored targets and ok bands a trend point draws: HistoryPoint field -> packed column.
+_TREND_TARGETS = {
+    "evaporating_target_c": "evaporating_c",
+    "condensing_target_c": "condensing_c",
+    "superheat_low_k": "superheat:low",
+    "superheat_high_k": "superheat:high",
+    "subcooling_low_k": "subcooling:low",
+    "subcooling_high_k": "subcooling:high",
+}
+
+
+def _blob(row: dict[str, Any]) -> bytes | memoryview:
+    return row["diagnosis__packed"] or b""
+
+
+def _with_trend_targets(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """Reading rows with their stored targets and bands (``_TREND_TARGETS``) added, read
+    from the packed diagnoses in one pass; None where a diagnosis has none."""
+    columns = core_diagnose.packed_columns([_blob(r) for r in rows], list(_TREND_TARGETS.values()))
+    for key, name in _TREND_TARGETS.items():
+        for row, value in zip(rows, columns[name].tolist(), strict=True):
+            row[key] = value if math.isfinite(value) else None
+    return rows
 
 
 def _site(site_id: int) -> SiteInfo:
@@ -622,19 +634,16 @@ def _readings(site_id: int, start: datetime, end: datetime) -> dict[int, list[di
         .order_by("taken_at", "id")
         .values(*_READING_COLUMNS)
     )
-    for row in rows:
+    for row in _with_trend_targets(list(rows)):
         by_unit[row["visit_unit__unit_id"]].append(row)
     return by_unit
 
 
-def _month_details(site_id: int, start: datetime, end: datetime) -> dict[int, dict[str, Any]]:
-    """The JSON details (findings, cautions...) of the month's diagnoses, by reading set."""
-    rows = Diagnosis.objects.filter(
-        reading_set__visit_unit__unit__site_id=site_id,
-        reading_set__taken_at__gte=start,
-        reading_set__taken_at__lt=end,
-    ).values("reading_set_id", "findings", "cautions", "glide_choice", "energy_penalty_pct")
-    return {row["reading_set_id"]: row for row in rows}
+def _month_details(rows: list[dict[str, Any]]) -> dict[int, dict[str, Any]]:
+    """The details (metrics, findings, cautions, glide choice) of the month's diagnoses, by
+    reading set, expanded from their stored form in one pass."""
+    expanded = core_diagnose.expand_blobs([_blob(r) for r in rows])
+    return {row["id"]: details for row, details in zip(rows, expanded, strict=True)}
 
 
 def _visits(site_id: int, start: datetime, end: datetime, tz: ZoneInfo) -> list[VisitInfo]:
@@ -779,10 +788,8 @@ def _flags(site_id: int, as_of: datetime, tz: ZoneInfo) -> dict[int, list[FlagRo
 
 
 def history_point(row: dict[str, Any], tz: tzinfo) -> HistoryPoint:
-    """One reading row (``_READING_COLUMNS``) as a trend point dated in ``tz``."""
-    targets, metrics = row["diagnosis__targets"], row["diagnosis__metrics"]
-    sh_low, sh_high = _band(metrics, "superheat")
-    sc_low, sc_high = _band(metrics, "subcooling")
+    """One reading row (``_READING_COLUMNS`` with ``_with_trend_targets``) as a trend point
+    dated in ``tz``."""
     amps = [
         a
         for a in (row["compressor_amps_1"], row["compressor_amps_2"], row["compressor_amps_3"])
@@ -794,15 +801,15 @@ def history_point(row: dict[str, Any], tz: tzinfo) -> HistoryPoint:
         box_temp_c=row["box_temp_c"],
         entering_air_c=row["entering_air_temp_c"],
         evaporating_c=row["diagnosis__evaporating_c"],
-        evaporating_target_c=_target_value(targets, "evaporating_temp"),
+        evaporating_target_c=row["evaporating_target_c"],
         condensing_c=row["diagnosis__condensing_c"],
-        condensing_target_c=_target_value(targets, "condensing_temp"),
+        condensing_target_c=row["condensing_target_c"],
         superheat_k=row["diagnosis__superheat_k"],
-        superheat_low_k=sh_low,
-        superheat_high_k=sh_high,
+        superheat_low_k=row["superheat_low_k"],
+        superheat_high_k=row["superheat_high_k"],
         subcooling_k=row["diagnosis__subcooling_k"],
-        subcooling_low_k=sc_low,
-        subcooling_high_k=sc_high,
+        subcooling_low_k=row["subcooling_low_k"],
+        subcooling_high_k=row["subcooling_high_k"],
         # The highest leg: the one closest to its limit.
         amps_a=max(amps) if amps else None,
         compressor_running=row["compressor_running"],
@@ -825,7 +832,7 @@ def unit_trend_history(unit_id: int, since: date, tz: tzinfo) -> tuple[HistoryPo
         .order_by("taken_at", "id")
         .values(*_READING_COLUMNS)
     )
-    return tuple(history_point(r, tz) for r in rows)
+    return tuple(history_point(r, tz) for r in _with_trend_targets(list(rows)))
 
 
 def _one_per_visit(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
@@ -852,8 +859,8 @@ def _check(row: dict[str, Any], details: dict[str, Any], tz: ZoneInfo) -> Check:
         score=row["diagnosis__score"],
         algorithm_version=row["diagnosis__algorithm_version"] or "",
         glide_choice=details.get("glide_choice", "") or "",
-        energy_penalty_pct=details.get("energy_penalty_pct"),
-        metrics=_metric_rows(row["diagnosis__metrics"]),
+        energy_penalty_pct=row["diagnosis__energy_penalty_pct"],
+        metrics=_metric_rows(details.get("metrics")),
         findings=_finding_rows(details.get("findings")),
         cautions=_caution_rows(details.get("cautions")),
         notes=row["notes"],
@@ -903,7 +910,9 @@ def gather_site_month(site_id: int, month: Month, *, now: datetime) -> SiteMonth
     components = _components(site_id)
     units = _units(site_id, month, components)
     readings = _readings(site_id, start, end)
-    details = _month_details(site_id, month_start, end)
+    details = _month_details(
+        [r for rows in readings.values() for r in rows if r["taken_at"] >= month_start]
+    )
     visits = _visits(site_id, month_start, end, tz)
     additions = _refrigerant_events(site_id, window_start.first_day, month.last_day)
     flags = _flags(site_id, as_of, tz)

@@ -4,12 +4,11 @@
 derived values, metric statuses and points, the visit score, the finding masks and the energy
 penalty for every row at once, the saturation targets' pressures included.
 
-Rows come out in one of two forms, built by the same code. ``BatchResult.stored_rows()``
-gives every row as stored (JSON-ready dicts, ``stored_row``'s shape): numbers are turned
-into lists once per column and the texts (reasons, evidence, sources, cautions) come from
-templates written once per distinct case, so a million rows cost no per-row property
-lookups or dataclass conversions. ``BatchResult.diagnosis(i)`` runs that code on a selection
-of one row and types the result as dataclasses; ``diagnose`` is that on a batch of one.
+What is stored per row is ``pack``'s: numbers and codes in one float32 row (a few hundred
+bytes, no JSON), made on columns for the whole batch. ``expand`` writes the texts (reasons,
+evidence, sources, advice, cautions) when rows are read, once per distinct case; a single
+POST, ``BatchResult.diagnosis(i)`` and any page or report read diagnoses through it, so
+what is shown is always what was stored.
 
 Saturation temperatures come from ``saturation.py`` (dew and bubble, see ``targets.py`` for
 the glide choice), gauge pressures are made absolute with the standard atmosphere at the
@@ -21,7 +20,6 @@ gas-cooler approach and the head pressure are scored instead.
 
 from __future__ import annotations
 
-import dataclasses
 import functools
 import math
 import string
@@ -62,7 +60,7 @@ FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int8]
 
 #: Bump whenever a change alters any stored result; ``manage.py rescore`` keys on it.
-ALGORITHM_VERSION = "2025.1"
+ALGORITHM_VERSION = "2025.2"
 
 #: Legs per reading kept in the columns (three-phase); single-phase uses the first.
 LEGS = 3
@@ -419,10 +417,15 @@ class BatchResult:
         """Row ``i`` as the dataclasses a single POST returns."""
         return _row_diagnosis(self, i)
 
-    def stored_rows(self) -> list[dict[str, Any]]:
-        """Every row in its stored form (``stored_row(self.diagnosis(i))`` for each ``i``),
-        built on columns: the path ``manage.py rescore`` takes."""
-        return _stored_rows(self)
+    @functools.cached_property
+    def packed(self) -> NDArray[np.float32]:
+        """Every row in its stored form (``pack``), computed once."""
+        return pack(self)
+
+    def details(self) -> list[dict[str, Any]]:
+        """Every row's targets, metrics, findings and cautions with their texts, read back
+        from the stored form as any stored diagnosis is."""
+        return expand(self.packed)
 
 
 # --- the batch -----------------------------------------------------------------------------
@@ -715,10 +718,11 @@ def diagnose(unit: UnitDesign, reading: Reading, elevation_m: float = 0.0) -> Di
 
 
 def diagnose_row(unit: UnitDesign, reading: Reading, elevation_m: float = 0.0) -> Row:
-    """One reading set in its stored form (``stored_row(diagnose(...))``) without typing it
-    as dataclasses first: what the service stores for a single POST."""
+    """One reading set as stored (the version, ``stored_columns`` of a batch of one),
+    without writing its texts: what the service stores for a single POST."""
     result = diagnose_batch([unit], ReadingColumns.from_readings([reading]), elevation_m)
-    return _stored_rows(result)[0]
+    row = {name: values[0] for name, values in stored_columns(result).items()}
+    return {"algorithm_version": result.algorithm_version, **row}
 
 
 # --- rows as stored, built column-wise -----------------------------------------------------
@@ -818,36 +822,38 @@ def _design_source(origin: float, default_source: str, design_label: str = tg.DE
     return "missing"
 
 
-def _target_sources(res: BatchResult, u: int) -> dict[str, str]:
-    """Where each metric's target value came from, for unit ``u`` of the batch."""
-    app = APPLICATIONS[int(res.units.application_code[u])]
-    device = METERING_DEVICES[int(res.units.metering_code[u])]
+@functools.cache
+def _target_sources(context: tuple[float, ...]) -> dict[str, str]:
+    """Where each metric's target value came from, for one ``_SOURCE_CONTEXT`` case
+    (-1 stands for a missing receiver answer)."""
+    (
+        app_code,
+        metering_code,
+        metering_given,
+        receiver,
+        receiver_given,
+        origin_box,
+        origin_td,
+        origin_split,
+        origin_superheat,
+        origin_run_cap,
+    ) = context
+    app = APPLICATIONS[int(app_code)]
+    device = METERING_DEVICES[int(metering_code)]
     defaults = tg.APPLICATION_DEFAULTS[app]
-
-    def origin(name: str) -> float:
-        return float(res.unit_targets[f"{name}_origin"][u])
-
-    receiver = res.units.has_receiver[u]
-    receiver_note = (
-        tg.DESIGN if res.units.designs[u].has_receiver is not None else defaults.receiver_source
-    )
-    sub_source = (
-        tg.SUBCOOLING_DEFAULTS[bool(receiver)].source if not math.isnan(receiver) else "missing"
-    )
-    sh_origins = (origin("superheat_min_k"), origin("superheat_max_k"))
-    sh_device = f"metering device {device}" + (
-        "" if res.units.metering_given[u] else f" (default for {app})"
-    )
+    receiver_note = tg.DESIGN if receiver_given else defaults.receiver_source
+    sub_source = tg.SUBCOOLING_DEFAULTS[bool(receiver)].source if receiver >= 0 else "missing"
+    sh_device = f"metering device {device}" + ("" if metering_given else f" (default for {app})")
     return {
         "box_temp": _design_source(
-            origin("box_temp_c"), defaults.box_temp_c.source if defaults.box_temp_c else ""
+            origin_box, defaults.box_temp_c.source if defaults.box_temp_c else ""
         ),
         "evaporator_td": _design_source(
-            origin("evap_td_k"), defaults.evap_td_k.source if defaults.evap_td_k else ""
+            origin_td, defaults.evap_td_k.source if defaults.evap_td_k else ""
         ),
-        "condenser_split": _design_source(origin("split_k"), defaults.condenser_split_k.source),
+        "condenser_split": _design_source(origin_split, defaults.condenser_split_k.source),
         "superheat": _design_source(
-            tg.MISSING if tg.MISSING in sh_origins else max(sh_origins),
+            origin_superheat,
             f"{tg.SUPERHEAT_DEFAULTS[(app, device)].source}; {sh_device}",
         ),
         "subcooling": f"{sub_source}; receiver: {receiver_note}",
@@ -861,7 +867,7 @@ def _target_sources(res: BatchResult, u: int) -> dict[str, str]:
         "voltage_unbalance": "NEMA MG-1 14.36",
         "current_unbalance": "common practice",
         "run_capacitor": f"{tg.NAMEPLATE} rating, tolerance: "
-        + _design_source(origin("run_cap_tol_pct"), tg.RUN_CAPACITOR_TOLERANCE_PCT.source),
+        + _design_source(origin_run_cap, tg.RUN_CAPACITOR_TOLERANCE_PCT.source),
         "start_capacitor": f"{tg.NAMEPLATE} range",
     }
 
@@ -975,58 +981,185 @@ def _caution_codes(designation: str, opens_circuit: bool) -> tuple[str, ...]:
     return tuple(codes)
 
 
-def _stored_rows(res: BatchResult, rows: NDArray[np.intp] | None = None) -> list[Row]:
-    """Rows ``rows`` of the batch (all when None) as stored: JSON-ready dicts.
+# --- the stored form: numbers and codes; the texts are written when it is read --------------
 
-    Every number comes from the batch's columns (the saturation targets and their pressures
-    included), turned into a list once per column; the rows are then put together from those
-    lists, with texts from templates per code written once per distinct case.
+#: The saturation targets with the edges of their ok bands (``BatchResult.saturation_targets``).
+SATURATION_TARGETS: tuple[str, ...] = tuple(
+    key + edge
+    for key in ("evaporating_c", "suction_kpa_gauge", "condensing_c", "head_kpa_gauge")
+    for edge in ("", "_low", "_high")
+)
+_METRIC_FIELDS = (*MetricColumns.__dataclass_fields__, "missing")
+_REFRIGERANTS: tuple[str, ...] = tuple(refrigerants.CATALOGUE)
+_SIGNAL_NAMES: tuple[str, ...] = tuple(findings.SIGNALS)
+_SIGNAL_INDEX = {name: j for j, name in enumerate(_SIGNAL_NAMES)}
+#: Signal bits per stored column: float32 holds whole numbers exactly up to 2**24.
+_WORD = 16
+#: What decides the texts saying where a row's targets came from.
+_SOURCE_CONTEXT: tuple[str, ...] = (
+    "application",
+    "metering",
+    "metering_given",
+    "receiver",
+    "receiver_given",
+    "origin_box",
+    "origin_evap_td",
+    "origin_split",
+    "origin_superheat",
+    "origin_run_cap_tol",
+)
+#: The stored form of a diagnosis: one float32 per column, in this order. Numbers and codes
+#: only (a metric's status and why it was not scored, which rules fired and which signals
+#: held, where the targets came from), so a million rows are a few hundred bytes each and
+#: cost no JSON; ``expand`` writes the texts. Changing it changes what is stored: bump
+#: ``ALGORITHM_VERSION`` with it.
+PACKED_COLUMNS: tuple[str, ...] = (
+    "refrigerant",
+    "box_measured",
+    *_SOURCE_CONTEXT,
+    *SATURATION_TARGETS,
+    *(f"{name}:{f}" for name in sc.SCORING_TABLE for f in _METRIC_FIELDS),
+    "finding_mask",
+    *(f"confidence:{code}" for code in findings.RULE_CODES),
+    *(f"signals:{k}" for k in range(-(-len(_SIGNAL_NAMES) // _WORD))),
+)
+PACKED_DTYPE = np.dtype("<f4")
+PACKED_BYTES = len(PACKED_COLUMNS) * PACKED_DTYPE.itemsize
+_AT = {name: i for i, name in enumerate(PACKED_COLUMNS)}
+if len(findings.RULES) > 24:
+    raise ValueError("the stored finding mask is one float32 column: at most 24 rules")
+
+#: Stored numbers are float32 (7 significant digits); read back they are rounded to this many
+#: decimals so 5.1 stays 5.1 and not 5.099999904632568.
+_DECIMALS = 4
+
+
+def pack(res: BatchResult) -> NDArray[np.float32]:
+    """Every row of the batch in its stored form: an (n, len(PACKED_COLUMNS)) float32 array."""
+    n = len(res)
+    out = np.zeros((n, len(PACKED_COLUMNS)), dtype=PACKED_DTYPE)
+
+    def put(name: str, values: ArrayLike) -> None:
+        out[:, _AT[name]] = values
+
+    uc, u, origin = res.units, res.unit_index, res.unit_targets
+    catalogue = np.array([_REFRIGERANTS.index(d) for d in uc.refrigerants], dtype=np.intp)
+    superheat = np.stack([origin["superheat_min_k_origin"], origin["superheat_max_k_origin"]])
+    per_unit: dict[str, ArrayLike] = {
+        "refrigerant": catalogue[uc.refrigerant_code],
+        "application": uc.application_code,
+        "metering": uc.metering_code,
+        "metering_given": uc.metering_given,
+        "receiver": uc.has_receiver,
+        "receiver_given": [d.has_receiver is not None for d in uc.designs],
+        "origin_box": origin["box_temp_c_origin"],
+        "origin_evap_td": origin["evap_td_k_origin"],
+        "origin_split": origin["split_k_origin"],
+        "origin_superheat": np.where(
+            (superheat == tg.MISSING).any(axis=0), tg.MISSING, superheat.max(axis=0)
+        ),
+        "origin_run_cap_tol": origin["run_cap_tol_pct_origin"],
+    }
+    for name, values in per_unit.items():
+        put(name, np.asarray(values)[u])
+    put("box_measured", np.isfinite(res.readings.box_temp_c))
+    for name in SATURATION_TARGETS:
+        put(name, res.saturation_targets[name])
+    for name in sc.SCORING_TABLE:
+        c = res.metrics[name]
+        for f in MetricColumns.__dataclass_fields__:
+            put(f"{name}:{f}", getattr(c, f))
+        unscored = c.status == sc.NOT_SCORED
+        if unscored.any():
+            target_missing = ~np.isfinite(c.target) | np.isnan(c.low) | np.isnan(c.high)
+            keys = _missing_keys(res.readings, res.atmosphere_kpa, name, target_missing)
+            put(f"{name}:missing", np.where(unscored, keys, 0))
+    put("finding_mask", res.finding_mask)
+    for bit, code in enumerate(findings.RULE_CODES):
+        put(f"confidence:{code}", res.finding_confidence[bit])
+    bits = np.zeros(n, dtype=np.uint32)
+    for name, held in res.signals.items():
+        bits |= held.astype(np.uint32) << np.uint32(_SIGNAL_INDEX[name])
+    for k in range(-(-len(_SIGNAL_NAMES) // _WORD)):
+        put(f"signals:{k}", (bits >> np.uint32(k * _WORD)) & np.uint32((1 << _WORD) - 1))
+    return out
+
+
+def to_blobs(packed: NDArray[np.float32]) -> list[bytes]:
+    """One ``bytes`` per packed row, as the database keeps it."""
+    data = np.ascontiguousarray(packed, dtype=PACKED_DTYPE).tobytes()
+    return [data[i : i + PACKED_BYTES] for i in range(0, len(data), PACKED_BYTES)]
+
+
+def empty_details() -> Row:
+    """The details of a diagnosis stored without them (or under another layout)."""
+    return {"targets": [], "metrics": [], "findings": [], "cautions": [], "glide_choice": ""}
+
+
+def expand_blobs(blobs: Sequence[bytes | memoryview]) -> list[Row]:
+    """Stored blobs back to their details (``expand``), all at once. A blob of another
+    length (empty, or stored under another layout) has empty details until it is rescored."""
+    fit = [j for j, blob in enumerate(blobs) if len(blob) == PACKED_BYTES]
+    out = [empty_details() for _ in blobs]
+    if fit:
+        data = b"".join(bytes(blobs[j]) for j in fit)
+        matrix = np.frombuffer(data, dtype=PACKED_DTYPE).reshape(len(fit), len(PACKED_COLUMNS))
+        for j, row in zip(fit, expand(matrix), strict=True):
+            out[j] = row
+    return out
+
+
+def packed_columns(
+    blobs: Sequence[bytes | memoryview], names: Sequence[str]
+) -> dict[str, FloatArray]:
+    """Some numbers of stored rows as float columns (NaN where a blob does not fit), for
+    readers that want values, not texts: ``"superheat:low"``, ``"condensing_c"``..."""
+    out = {name: np.full(len(blobs), np.nan) for name in names}
+    fit = [j for j, blob in enumerate(blobs) if len(blob) == PACKED_BYTES]
+    if fit:
+        data = b"".join(bytes(blobs[j]) for j in fit)
+        matrix = np.frombuffer(data, dtype=PACKED_DTYPE).reshape(len(fit), len(PACKED_COLUMNS))
+        for name in names:
+            out[name][fit] = np.round(matrix[:, _AT[name]].astype(np.float64), _DECIMALS)
+    return out
+
+
+def expand(packed: NDArray[np.float32]) -> list[Row]:
+    """The details of packed rows: targets, metrics, findings, cautions and the glide choice
+    as JSON-ready dicts with their texts (reasons, sources, evidence, advice).
+
+    Numbers are turned into lists once per column and each text is written once per
+    distinct case, so expanding many rows costs little more than expanding one.
     """
-
-    def pick(a: NDArray[Any]) -> NDArray[Any]:
-        return a if rows is None else a[rows]
-
-    k = len(res) if rows is None else len(rows)
+    k = packed.shape[0]
     if k == 0:
         return []
-    unit = pick(res.unit_index)
-    unit_l: list[int] = unit.tolist()
-    ref_code = res.units.refrigerant_code[unit]
-    atm = pick(res.atmosphere_kpa)
-    readings = (
-        res.readings
-        if rows is None
-        else ReadingColumns(
-            **{
-                name: getattr(res.readings, name)[rows]
-                for name in ReadingColumns.__dataclass_fields__
-            }
-        )
-    )
-    statuses = np.array(STATUSES, dtype=object)
+    cols = packed.astype(np.float64).T
 
-    # metrics: one dict per visible (metric, row), None where the metric is hidden
+    def num(name: str) -> FloatArray:
+        return np.round(cols[_AT[name]], _DECIMALS)
+
+    def code(name: str) -> NDArray[np.int64]:
+        return cols[_AT[name]].astype(np.int64)
+
+    statuses = np.array(STATUSES, dtype=object)
     metric_cols: list[list[Row | None]] = []
     values: dict[str, dict[str, list[float | None]]] = {}
-    cols: dict[str, MetricColumns] = {}
+    reason_codes: dict[str, NDArray[np.int64]] = {}
     for name, rule in sc.SCORING_TABLE.items():
-        c = res.metrics[name]
-        col = MetricColumns(*(pick(getattr(c, f)) for f in MetricColumns.__dataclass_fields__))
-        cols[name] = col
-        v = {f: _opt_list(getattr(col, f)) for f in ("measured", "target", "low", "high")}
+        v = {f: _opt_list(num(f"{name}:{f}")) for f in ("measured", "target", "low", "high")}
         values[name] = v
+        status, reason = code(f"{name}:status"), code(f"{name}:reason")
+        reason_codes[name] = reason
         reasons = [""] * k
-        unscored = np.flatnonzero(col.status == sc.NOT_SCORED)
-        if unscored.size:
-            target_missing = ~np.isfinite(col.target) | np.isnan(col.low) | np.isnan(col.high)
-            keys = _missing_keys(readings, atm, name, target_missing)
-            for j, code, key in zip(
-                unscored.tolist(),
-                col.reason[unscored].tolist(),
-                keys[unscored].tolist(),
-                strict=True,
-            ):
-                reasons[j] = REASON_TEXT.get(code) or _missing_text(name, key)
+        unscored = np.flatnonzero(status == sc.NOT_SCORED)
+        for j, why, key in zip(
+            unscored.tolist(),
+            reason[unscored].tolist(),
+            code(f"{name}:missing")[unscored].tolist(),
+            strict=True,
+        ):
+            reasons[j] = REASON_TEXT.get(why) or _missing_text(name, key)
         unit_name = rule.unit
         metric_cols.append(
             [
@@ -1045,14 +1178,14 @@ def _stored_rows(res: BatchResult, rows: NDArray[np.intp] | None = None) -> list
                     "reason": r,
                 }
                 for hidden, m, t, lo, hi, d, s, p, r in zip(
-                    (col.reason == REASON_HIDDEN).tolist(),
+                    (reason == REASON_HIDDEN).tolist(),
                     v["measured"],
                     v["target"],
                     v["low"],
                     v["high"],
-                    _opt_list(col.deviation),
-                    statuses[col.status].tolist(),
-                    col.points.tolist(),
+                    _opt_list(num(f"{name}:deviation")),
+                    statuses[status].tolist(),
+                    num(f"{name}:points").tolist(),
                     reasons,
                     strict=True,
                 )
@@ -1060,13 +1193,14 @@ def _stored_rows(res: BatchResult, rows: NDArray[np.intp] | None = None) -> list
         )
 
     # targets: the saturation targets, then every metric target that applies to the unit
-    target_cols = _saturation_target_cols(res, pick, ref_code, readings)
-    sources = {u: _target_sources(res, u) for u in set(unit_l)}
+    refrigerant = code("refrigerant")
+    target_cols = _saturation_target_cols(num, refrigerant, code("box_measured") == 1)
+    context = np.nan_to_num(packed[:, [_AT[c] for c in _SOURCE_CONTEXT]], nan=-1.0)
+    contexts = list(map(tuple, context.tolist()))
     for name, rule in sc.SCORING_TABLE.items():
-        col, v = cols[name], values[name]
-        show = np.isfinite(col.target) & (col.reason != REASON_HIDDEN)
-        show &= ~_NOT_APPLICABLE[col.reason]
-        by_unit = {u: _metric_target_source(name, s[name]) for u, s in sources.items()}
+        v, reason = values[name], reason_codes[name]
+        show = np.isfinite(cols[_AT[f"{name}:target"]]) & (reason != REASON_HIDDEN)
+        show &= ~_NOT_APPLICABLE[reason]
         unit_name = rule.unit
         target_cols.append(
             [
@@ -1076,53 +1210,44 @@ def _stored_rows(res: BatchResult, rows: NDArray[np.intp] | None = None) -> list
                     "low": lo,
                     "high": hi,
                     "unit": unit_name,
-                    "source": by_unit[u],
+                    "source": _metric_target_source(name, _target_sources(ctx)[name]),
                 }
                 if shown
                 else None
-                for shown, t, lo, hi, u in zip(
-                    show.tolist(), v["target"], v["low"], v["high"], unit_l, strict=True
+                for shown, t, lo, hi, ctx in zip(
+                    show.tolist(), v["target"], v["low"], v["high"], contexts, strict=True
                 )
             ]
         )
 
-    found = _finding_rows(res, pick, values)
-    mask = pick(res.finding_mask)
-    opens = ((mask & _OPENS_CIRCUIT_MASK) != 0).tolist()
-    designations = [res.units.refrigerants[c] for c in ref_code.tolist()]
-    cautions = [
-        [{"code": code, "text": CAUTIONS[code]} for code in _caution_codes(d, o)]
-        for d, o in zip(designations, opens, strict=True)
-    ]
+    mask = code("finding_mask")
+    words = [code(f"signals:{w}") for w in range(-(-len(_SIGNAL_NAMES) // _WORD))]
 
-    version, glide = res.algorithm_version, tg.GLIDE_CHOICE_TEXT
-    derived = [_opt_list(pick(res.derived[name])) for name in STORED_DERIVED]
+    def signal(name: str) -> NDArray[np.bool_]:
+        j = _SIGNAL_INDEX[name]
+        return ((words[j // _WORD] >> (j % _WORD)) & 1) == 1
+
+    confidence = {c: num(f"confidence:{c}") for c in findings.RULE_CODES}
+    found = _finding_rows(mask, confidence, signal, values)
+    opens = ((mask & _OPENS_CIRCUIT_MASK) != 0).tolist()
+    cautions = [
+        [{"code": c, "text": CAUTIONS[c]} for c in _caution_codes(_REFRIGERANTS[r], o)]
+        for r, o in zip(refrigerant.tolist(), opens, strict=True)
+    ]
+    glide = tg.GLIDE_CHOICE_TEXT
     return [
         {
-            "algorithm_version": version,
-            "score": score,
             "targets": [d for d in t if d is not None],
             "metrics": [d for d in m if d is not None],
             "findings": found.get(j, []),
             "cautions": c,
             "glide_choice": glide,
-            "energy_penalty_pct": energy_pct,
-            "evaporating_c": d0,
-            "condensing_c": d1,
-            "superheat_k": d2,
-            "subcooling_k": d3,
-            "evaporator_td_k": d4,
-            "condenser_split_k": d5,
-            "compression_ratio": d6,
         }
-        for j, (score, energy_pct, t, m, c, d0, d1, d2, d3, d4, d5, d6) in enumerate(
+        for j, (t, m, c) in enumerate(
             zip(
-                pick(res.score).tolist(),
-                _opt_list(pick(res.energy_penalty_pct)),
                 zip(*target_cols, strict=True),
                 zip(*metric_cols, strict=True),
                 cautions,
-                *derived,
                 strict=True,
             )
         )
@@ -1130,19 +1255,15 @@ def _stored_rows(res: BatchResult, rows: NDArray[np.intp] | None = None) -> list
 
 
 def _saturation_target_cols(
-    res: BatchResult,
-    pick: Callable[[NDArray[Any]], NDArray[Any]],
-    ref_code: NDArray[np.intp],
-    readings: ReadingColumns,
+    num: Callable[[str], FloatArray],
+    refrigerant: NDArray[np.int64],
+    box_measured: NDArray[np.bool_],
 ) -> list[list[Row | None]]:
-    """The evaporating and condensing targets and their pressures (all computed by the
-    batch), one column each; None where a row has no such target."""
-    st = res.saturation_targets
-    blend = np.array([refrigerants.get(d).is_blend for d in res.units.refrigerants], dtype=bool)
-    glide = np.where(blend[ref_code], "mid-point of dew and bubble", "saturation").tolist()
-    box_note = np.where(
-        np.isnan(readings.box_temp_c), "design box temperature", "measured box temperature"
-    ).tolist()
+    """The evaporating and condensing targets and their pressures, one column each; None
+    where a row has no such target."""
+    blend = np.array([refrigerants.get(d).is_blend for d in _REFRIGERANTS], dtype=bool)
+    glide = np.where(blend[refrigerant], "mid-point of dew and bubble", "saturation").tolist()
+    box_note = np.where(box_measured, "measured box temperature", "design box temperature").tolist()
     out: list[list[Row | None]] = []
     for side, temp_key, pressure_key, temp_name, pressure_name in (
         (
@@ -1161,7 +1282,7 @@ def _saturation_target_cols(
         else:
             temp_sources = [f"entering air + condenser split ({g})" for g in glide]
         temp, pressure = (
-            [_opt_list(pick(st[key + edge])) for edge in ("", "_low", "_high")]
+            [_opt_list(num(key + edge)) for edge in ("", "_low", "_high")]
             for key in (temp_key, pressure_key)
         )
         out.append(
@@ -1217,27 +1338,19 @@ def _confidence(finding: Row) -> float:
 
 
 def _finding_rows(
-    res: BatchResult,
-    pick: Callable[[NDArray[Any]], NDArray[Any]],
+    mask: NDArray[np.int64],
+    confidences: Mapping[str, FloatArray],
+    signal: Callable[[str], NDArray[np.bool_]],
     values: Mapping[str, Mapping[str, list[float | None]]],
 ) -> dict[int, list[Row]]:
     """The findings of every row that has any (row position -> findings, most confident
     first); the evidence lines are formatted once per signal over the rows that show it."""
-    mask = pick(res.finding_mask)
     has_finding = mask != 0
     if not has_finding.any():
         return {}
-    picked: dict[str, NDArray[np.bool_]] = {}
-    never = np.zeros(len(mask), dtype=bool)
-
-    def signal(name: str) -> NDArray[np.bool_]:
-        if name not in picked:
-            picked[name] = pick(res.signals[name]) if name in res.signals else never
-        return picked[name]
-
     fired_rules: list[tuple[findings.Rule, list[int], list[tuple[str, ...]], list[float]]] = []
     for bit, rule in enumerate(findings.RULES):
-        fired = np.flatnonzero(mask & np.uint32(1 << bit))
+        fired = np.flatnonzero(mask & (1 << bit))
         if not fired.size:
             continue
         first = np.full(fired.size, -1, dtype=np.int64)
@@ -1253,7 +1366,7 @@ def _finding_rows(
             _evidence_names(bit, f, s)
             for f, s in zip(first.tolist(), support.tolist(), strict=True)
         ]
-        confidence = [round(c, 3) for c in pick(res.finding_confidence[bit])[fired].tolist()]
+        confidence = [round(c, 3) for c in confidences[rule.code][fired].tolist()]
         fired_rules.append((rule, fired.tolist(), names, confidence))
 
     texts: dict[str, list[str | None]] = {}
@@ -1282,21 +1395,15 @@ def _finding_rows(
     return out
 
 
-def stored_row(diagnosis: Diagnosis) -> Row:
-    """One diagnosis in its stored form: what ``BatchResult.stored_rows`` gives for its row."""
-    derived = diagnosis.derived
+def stored_columns(res: BatchResult) -> dict[str, list[Any]]:
+    """Every stored field of the batch but the version, one list per column (None where
+    missing): the score, the energy penalty, the derived values trends read, and ``packed``
+    (the stored form, one ``bytes`` per row)."""
     return {
-        "algorithm_version": diagnosis.algorithm_version,
-        "score": diagnosis.score,
-        "targets": [dataclasses.asdict(t) for t in diagnosis.targets],
-        "metrics": [dataclasses.asdict(m) for m in diagnosis.metrics],
-        "findings": [
-            {**dataclasses.asdict(f), "evidence": list(f.evidence)} for f in diagnosis.findings
-        ],
-        "cautions": [dataclasses.asdict(c) for c in diagnosis.cautions],
-        "glide_choice": diagnosis.glide_choice,
-        "energy_penalty_pct": diagnosis.energy_penalty_pct,
-        **{name: getattr(derived, name) for name in STORED_DERIVED},
+        "score": res.score.tolist(),
+        "energy_penalty_pct": _opt_list(res.energy_penalty_pct),
+        **{name: _opt_list(res.derived[name]) for name in STORED_DERIVED},
+        "packed": to_blobs(res.packed),
     }
 
 
@@ -1307,17 +1414,17 @@ def _row_derived(res: BatchResult, i: int) -> DerivedValues:
 
 
 def _row_diagnosis(res: BatchResult, i: int) -> Diagnosis:
-    """Row ``i`` as dataclasses: its stored form (built by the same code as for the whole
-    batch, on a selection of one row), typed, plus every derived value."""
-    row = _stored_rows(res, np.array([i], dtype=np.intp))[0]
+    """Row ``i`` as dataclasses: its stored form read back (the same code as for any stored
+    row), typed, plus every derived value."""
+    row = expand(res.packed[i : i + 1])[0]
     return Diagnosis(
-        score=row["score"],
-        algorithm_version=row["algorithm_version"],
+        score=float(res.score[i]),
+        algorithm_version=res.algorithm_version,
         targets=tuple(Target(**t) for t in row["targets"]),
         metrics=tuple(Metric(**m) for m in row["metrics"]),
         findings=tuple(Finding(**{**f, "evidence": tuple(f["evidence"])}) for f in row["findings"]),
         cautions=tuple(Caution(**c) for c in row["cautions"]),
-        energy_penalty_pct=row["energy_penalty_pct"],
+        energy_penalty_pct=_opt(res.energy_penalty_pct[i]),
         derived=_row_derived(res, i),
         glide_choice=row["glide_choice"],
     )

@@ -21,6 +21,7 @@ from tests.factories import (
     UserFactory,
     VisitFactory,
     VisitUnitFactory,
+    packed_for,
 )
 
 from .conftest import token_client
@@ -73,30 +74,7 @@ class Fleet:
             algorithm_version="synthetic",
             score=90,
             computed_at=timezone.now(),
-            targets=[
-                {
-                    "name": "evaporating_temp",
-                    "value": -6.0,
-                    "low": -8.0,
-                    "high": -4.0,
-                    "unit": "C",
-                    "source": "synthetic",
-                },
-            ],
-            metrics=[
-                {
-                    "name": "superheat",
-                    "measured": 5.0,
-                    "target": 4.0,
-                    "low": 3.0,
-                    "high": 6.0,
-                    "deviation": 0.0,
-                    "unit": "K",
-                    "status": "ok",
-                    "points_lost": 0.0,
-                    "reason": "",
-                },
-            ],
+            packed=packed_for(),
         )
         return f"/api/v1/visits/{self.visit.pk}/reading-sets/"
 

@@ -20,44 +20,15 @@ from tests.factories import (
     UnitFactory,
     VisitFactory,
     VisitUnitFactory,
+    packed_for,
 )
 
-METRICS = [
-    {
-        "name": "superheat",
-        "measured": 12.0,
-        "target": 5.0,
-        "low": 3.0,
-        "high": 7.0,
-        "deviation": 5.0,
-        "unit": "K",
-        "status": "fault",
-        "points_lost": 15.0,
-        "reason": "",
-    },
-    {
-        "name": "box_temp",
-        "measured": 3.0,
-        "target": 2.0,
-        "low": 0.0,
-        "high": 4.0,
-        "deviation": 0.0,
-        "unit": "C",
-        "status": "ok",
-        "points_lost": 0.0,
-        "reason": "",
-    },
-]
-FINDINGS = [
-    {
-        "code": "undercharge",
-        "title": "Short of refrigerant",
-        "evidence": ["superheat high", "bubbles in the sight glass"],
-        "confidence": 0.8,
-        "advice": "Leak-check the system before adding refrigerant.",
-    }
-]
-CAUTIONS = [{"code": "electrical", "text": "Isolate power before opening the panel."}]
+#: A fault on the superheat and a finding with the sight-glass evidence (synthetic values).
+METRICS = {
+    "superheat": (12.0, 5.0, 3.0, 7.0, "fault", 15.0),
+    "box_temp": (3.0, 2.0, 0.0, 4.0, "ok", 0.0),
+}
+PACKED = packed_for(metrics=METRICS, findings={"undercharge": 0.8}, signals=("bubbles",))
 
 
 def store_diagnosis(reading_set, score: float = 72.0) -> Diagnosis:
@@ -66,9 +37,7 @@ def store_diagnosis(reading_set, score: float = 72.0) -> Diagnosis:
         defaults={
             "algorithm_version": "test-1",
             "score": score,
-            "metrics": METRICS,
-            "findings": FINDINGS,
-            "cautions": CAUTIONS,
+            "packed": PACKED,
             "computed_at": timezone.now(),
         },
     )

@@ -5,7 +5,10 @@ from __future__ import annotations
 
 import pytest
 from django.urls import reverse
+from django.utils.html import escape
 
+from diagnostics.core.diagnose import CAUTIONS
+from diagnostics.core.findings import RULES_BY_CODE
 from fleet import audit
 from fleet.models import AuditAction
 from tests.factories import ReadingSetFactory, VisitUnitFactory
@@ -20,7 +23,7 @@ def test_it_lists_submitted_visits_with_score_and_findings(office, world):
     assert world.own_visit.reference not in page
     assert "Fair" in page
     assert "72" in page
-    assert "Short of refrigerant" in page
+    assert RULES_BY_CODE["undercharge"].title in page
     assert "Leak rate over the limit" in page
 
 
@@ -31,8 +34,8 @@ def test_it_shows_the_diagnosis_findings_and_cautions_on_the_visit(office, world
     assert "evaporator superheat" in page
     assert "\u2716</span> Fault" in page
     assert "bubbles in the sight glass" in page
-    assert "Leak-check the system" in page
-    assert "Isolate power before opening the panel." in page
+    assert escape(RULES_BY_CODE["undercharge"].advice) in page
+    assert escape(CAUTIONS["electrical"]) in page
     assert "local codes and licensed practice" in page
     assert 'name="decision"' in page
 

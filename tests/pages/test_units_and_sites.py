@@ -9,11 +9,12 @@ import pytest
 from django.urls import reverse
 from django.utils import timezone
 
+from diagnostics.core.findings import RULES_BY_CODE
 from diagnostics.models import Diagnosis
 from fleet.views import unit_charts
 from tests.factories import ComponentFactory, ReadingSetFactory, UnitFactory, VisitUnitFactory
 
-from .conftest import METRICS
+from .conftest import PACKED
 
 pytestmark = pytest.mark.django_db
 
@@ -32,7 +33,7 @@ def test_it_shows_the_latest_diagnosis_with_targets(office, world):
     assert "Latest diagnosis" in page
     assert "evaporator superheat" in page
     assert "21.6 \u00b0F" in page  # 12 K measured superheat
-    assert "Short of refrigerant" in page
+    assert RULES_BY_CODE["undercharge"].title in page
 
 
 def test_it_lists_components_fitted_and_removed(office, world):
@@ -184,7 +185,7 @@ def _diagnosed_reading(unit, days_ago: int, stage: str, superheat_k: float) -> N
         reading_set=ReadingSetFactory(visit_unit=vu, taken_at=taken, stage=stage),
         algorithm_version="test-1",
         score=80.0,
-        metrics=METRICS,
+        packed=PACKED,
         superheat_k=superheat_k,
         computed_at=timezone.now(),
     )

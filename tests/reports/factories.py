@@ -28,82 +28,9 @@ from tests.factories import (
     SiteFactory,
     UnitFactory,
     VisitFactory,
+    packed_for,
     refrigerant,
 )
-
-GLIDE_TEXT = (
-    "mid_point: evaporating and condensing temperatures are the mid-point of dew and bubble"
-)
-
-
-def metrics_for(
-    *,
-    superheat_k: float = 4.5,
-    subcooling_k: float = 3.0,
-    split_k: float = 11.0,
-    split_target_k: float = 11.0,
-    amps: float = 7.5,
-    rla: float = 10.0,
-    status: str = "ok",
-) -> list[dict]:
-    """A stored metrics list as the core writes it (synthetic values)."""
-
-    def metric(name, measured, target, low, high, unit, status="ok", points=0.0):
-        return {
-            "name": name,
-            "measured": measured,
-            "target": target,
-            "low": low,
-            "high": high,
-            "deviation": 0.0 if status == "ok" else (measured - high if high else 0.0),
-            "unit": unit,
-            "status": status,
-            "points_lost": points,
-            "reason": "",
-        }
-
-    return [
-        metric("superheat", superheat_k, 5.0, 3.3, 5.6, "K"),
-        metric("subcooling", subcooling_k, 2.0, 0.0, 2.8, "K"),
-        metric(
-            "condenser_split",
-            split_k,
-            split_target_k,
-            split_target_k - 4.0,
-            split_target_k + 3.0,
-            "K",
-            status,
-            0.0 if status == "ok" else 15.0,
-        ),
-        metric("running_amps", amps, rla, None, rla, "A"),
-    ]
-
-
-def targets_for(evaporating_target_c: float, condensing_target_c: float) -> list[dict]:
-    return [
-        {
-            "name": "evaporating_temp",
-            "value": evaporating_target_c,
-            "low": evaporating_target_c - 2,
-            "high": evaporating_target_c + 2,
-            "unit": "C",
-            "source": "synthetic",
-        },
-        {
-            "name": "condensing_temp",
-            "value": condensing_target_c,
-            "low": condensing_target_c - 4,
-            "high": condensing_target_c + 3,
-            "unit": "C",
-            "source": "synthetic",
-        },
-    ]
-
-
-CAUTIONS = [
-    {"code": "electrical", "text": "Electrical hazard (synthetic caution text)."},
-    {"code": "codes", "text": "Follow local codes (synthetic caution text)."},
-]
 
 
 class DiagnosisFactory(factory.django.DjangoModelFactory):
@@ -113,11 +40,7 @@ class DiagnosisFactory(factory.django.DjangoModelFactory):
     reading_set = factory.SubFactory(ReadingSetFactory)
     algorithm_version = "test-1"
     score = 92.0
-    targets = factory.LazyFunction(lambda: targets_for(-3.5, 36.0))
-    metrics = factory.LazyFunction(metrics_for)
-    findings = factory.LazyFunction(list)
-    cautions = factory.LazyFunction(lambda: list(CAUTIONS))
-    glide_choice = GLIDE_TEXT
+    packed = factory.LazyFunction(packed_for)
     energy_penalty_pct = None
     evaporating_c = -3.5
     condensing_c = 36.0
@@ -307,11 +230,7 @@ def bulk_site_history(
                 reading_set=rs,
                 algorithm_version="test-1",
                 score=100.0 - (15.0 if status == "fault" else 0.0) - (i % 4),
-                targets=targets_for(-3.5, ambient + 11.0),
-                metrics=metrics_for(split_k=split, status=status),
-                findings=[],
-                cautions=list(CAUTIONS),
-                glide_choice=GLIDE_TEXT,
+                packed=packed_for(split_k=split, status=status, condensing_target_c=ambient + 11.0),
                 energy_penalty_pct=2.0 * max(0.0, split - 11.0),
                 evaporating_c=-3.5,
                 condensing_c=ambient + split,

@@ -7,6 +7,7 @@ from zoneinfo import ZoneInfo
 
 import pytest
 
+from diagnostics.core.findings import RULES_BY_CODE
 from reports.gather import gather_site_month
 from reports.months import Month
 from tests.factories import (
@@ -16,6 +17,7 @@ from tests.factories import (
     UnitFactory,
     VisitFactory,
     VisitUnitFactory,
+    packed_for,
 )
 from tests.reports.factories import (
     DiagnosisFactory,
@@ -123,15 +125,7 @@ def test_the_month_check_is_the_as_found_reading_with_its_stored_findings():
     found = DiagnosisFactory(
         reading_set=ReadingSetFactory(visit_unit=vu, taken_at=taken, stage="as_found"),
         score=55.0,
-        findings=[
-            {
-                "code": "low_charge",
-                "title": "Low refrigerant charge",
-                "evidence": ["superheat high", "subcooling low"],
-                "confidence": 0.8,
-                "advice": "Find and repair the leak before charging.",
-            }
-        ],
+        packed=packed_for(findings={"undercharge": 0.8}),
     )
     DiagnosisFactory(
         reading_set=ReadingSetFactory(
@@ -144,10 +138,14 @@ def test_the_month_check_is_the_as_found_reading_with_its_stored_findings():
     assert u.current.reading_set_id == found.reading_set_id
     assert u.current.score == 55.0
     assert u.as_left.score == 96.0
-    assert u.current.findings[0].title == "Low refrigerant charge"
+    rule = RULES_BY_CODE["undercharge"]
+    assert u.current.findings[0].title == rule.title
+    assert u.current.findings[0].confidence == pytest.approx(0.8)
+    assert u.current.findings[0].evidence
     assert u.health.status == "act"
-    assert "Find and repair the leak before charging." in u.actions
+    assert rule.advice in u.actions
     assert sm.glide_choices == (found.glide_choice,)
+    assert found.glide_choice
 
 
 @pytest.mark.django_db
