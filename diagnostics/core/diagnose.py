@@ -1134,10 +1134,10 @@ def expand(packed: NDArray[np.float32]) -> list[Row]:
     k = packed.shape[0]
     if k == 0:
         return []
-    cols = packed.astype(np.float64).T
+    cols = np.round(packed.astype(np.float64), _DECIMALS).T
 
     def num(name: str) -> FloatArray:
-        return np.round(cols[_AT[name]], _DECIMALS)
+        return cols[_AT[name]]
 
     def code(name: str) -> NDArray[np.int64]:
         return cols[_AT[name]].astype(np.int64)

@@ -147,6 +147,9 @@ class AboveCritical(OutOfRange):
 #: Values per block of an array lookup: small enough that a block's temporaries stay in the
 #: processor's cache, which makes a million-value lookup about twice as fast as one pass.
 _BLOCK = 1 << 14
+#: Up to this many values a lookup runs ``at`` per value: numpy's per-call overhead costs
+#: more than the arithmetic for the handful of values of a single reading.
+_FEW = 8
 
 
 class _Uniform:
@@ -198,6 +201,10 @@ class _Uniform:
         """Values at an array (NaN outside the table), and a mask of the entries outside
         (None if there are none)."""
         flat = values.reshape(-1)
+        if flat.size <= _FEW:
+            few = np.array([self.at(v) for v in flat.tolist()], dtype=np.float64)
+            missed = np.isnan(few)  # only a value outside the table (or NaN) gives NaN
+            return few.reshape(values.shape), missed.reshape(values.shape) if missed.any() else None
         out = np.empty(flat.shape)
         outside = None
         with np.errstate(divide="ignore", invalid="ignore"):  # p <= 0 and NaN are outside
@@ -708,6 +715,8 @@ def _write(path: Path, arrays: dict[str, Any]) -> None:
 
 
 _memo: dict[tuple[str, str], SaturationTable] = {}
+#: The same tables by the arguments they were asked with (and the cache directory setting).
+_asked: dict[tuple[Any, ...], SaturationTable] = {}
 _memo_lock = threading.Lock()
 
 
@@ -718,6 +727,10 @@ def table(designation: str, cache_dir: str | os.PathLike[str] | None = None) -> 
     ``default_cache_dir``); built from CoolProp on first use. Raises
     ``refrigerants.UnknownRefrigerant`` for a designation the catalogue does not hold.
     """
+    asked = (designation, cache_dir, os.environ.get(CACHE_DIR_ENV))
+    found = _asked.get(asked)  # no hashing of the spec on every call
+    if found is not None:
+        return found
     refrigerant = refrigerants.get(designation)
     path = cache_path(refrigerant, cache_dir)
     key = (refrigerant.designation, str(path))
@@ -728,6 +741,7 @@ def table(designation: str, cache_dir: str | os.PathLike[str] | None = None) -> 
                 arrays = build_arrays(refrigerant)
                 _write(path, arrays)
             _memo[key] = SaturationTable(refrigerant, arrays)
+        _asked[asked] = _memo[key]
         return _memo[key]
 
 
@@ -735,3 +749,4 @@ def clear_memo() -> None:
     """Forget the tables held in memory (the disk cache stays)."""
     with _memo_lock:
         _memo.clear()
+        _asked.clear()
