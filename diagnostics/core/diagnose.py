@@ -1099,14 +1099,18 @@ def empty_details() -> Row:
 def expand_blobs(blobs: Sequence[bytes | memoryview]) -> list[Row]:
     """Stored blobs back to their details (``expand``), all at once. A blob of another
     length (empty, or stored under another layout) has empty details until it is rescored."""
-    fit = [j for j, blob in enumerate(blobs) if len(blob) == PACKED_BYTES]
+    fit, matrix = _fitting(blobs)
     out = [empty_details() for _ in blobs]
-    if fit:
-        data = b"".join(bytes(blobs[j]) for j in fit)
-        matrix = np.frombuffer(data, dtype=PACKED_DTYPE).reshape(len(fit), len(PACKED_COLUMNS))
-        for j, row in zip(fit, expand(matrix), strict=True):
-            out[j] = row
+    for j, row in zip(fit, expand(matrix), strict=True):
+        out[j] = row
     return out
+
+
+def _fitting(blobs: Sequence[bytes | memoryview]) -> tuple[list[int], NDArray[np.float32]]:
+    """The positions of the blobs of this layout, and those blobs as one matrix."""
+    fit = [j for j, blob in enumerate(blobs) if len(blob) == PACKED_BYTES]
+    data = b"".join(bytes(blobs[j]) for j in fit)
+    return fit, np.frombuffer(data, dtype=PACKED_DTYPE).reshape(len(fit), len(PACKED_COLUMNS))
 
 
 def packed_columns(
@@ -1115,12 +1119,9 @@ def packed_columns(
     """Some numbers of stored rows as float columns (NaN where a blob does not fit), for
     readers that want values, not texts: ``"superheat:low"``, ``"condensing_c"``..."""
     out = {name: np.full(len(blobs), np.nan) for name in names}
-    fit = [j for j, blob in enumerate(blobs) if len(blob) == PACKED_BYTES]
-    if fit:
-        data = b"".join(bytes(blobs[j]) for j in fit)
-        matrix = np.frombuffer(data, dtype=PACKED_DTYPE).reshape(len(fit), len(PACKED_COLUMNS))
-        for name in names:
-            out[name][fit] = np.round(matrix[:, _AT[name]].astype(np.float64), _DECIMALS)
+    fit, matrix = _fitting(blobs)
+    for name in names:
+        out[name][fit] = np.round(matrix[:, _AT[name]].astype(np.float64), _DECIMALS)
     return out
 
 
