@@ -6,7 +6,9 @@ with technicians' tokens for a bounded time, re-sending 10 % of the accepted one
 would after a dropped answer. Then the floor: a minimal DRF create of a row of the same
 shape (no authentication, no throttling, no diagnosis, no audit) served the same way and
 loaded the same way. Prints requests/s, median and p99 latency for both, their ratios, and
-the count check: rows stored == distinct client_ids accepted, and no duplicates.
+the count check: rows stored == distinct client_ids accepted, and no duplicates. Where /proc
+tells, it also prints the CPU the gunicorn workers spent per request: on a machine shared
+with other work the rates move with the neighbours' load, the CPU per request much less.
 
     .venv/bin/python bench/api_load.py [--seconds 8] [--clients 8]
 
@@ -207,6 +209,8 @@ class Tally:
     retries: int = 0
     retried_same_id: int = 0
     elapsed: float = 0.0
+    #: CPU seconds the server's workers spent on the measured load (None: unknown).
+    server_cpu: float | None = None
 
 
 def _reading(phone: Phone, client_id: str) -> dict:
@@ -291,6 +295,29 @@ async def _load(port: int, phones: list[Phone], clients: int, seconds: float, fl
     return tally
 
 
+def _workers_cpu_seconds(master_pid: int) -> float | None:
+    """CPU time (user + system) the gunicorn workers of ``master_pid`` have used so far;
+    None where /proc cannot tell (not Linux)."""
+    ticks = os.sysconf("SC_CLK_TCK") if hasattr(os, "sysconf") else 100
+    total = 0
+    try:
+        names = os.listdir("/proc")
+    except OSError:
+        return None
+    for name in names:
+        if not name.isdigit():
+            continue
+        try:
+            with open(f"/proc/{name}/stat") as f:
+                fields = f.read().rsplit(")", 1)[1].split()
+        except OSError:
+            continue
+        # after the command: state, ppid, ... utime (14th field overall), stime (15th)
+        if int(fields[1]) == master_pid:
+            total += int(fields[11]) + int(fields[12])
+    return total / ticks
+
+
 def _run(
     app: str, path: str, phones, clients: int, seconds: float, floor: bool
 ) -> tuple[Tally, Tally]:
@@ -301,10 +328,22 @@ def _run(
         headers = {} if floor else {"Authorization": f"Token {phones[0].token}"}
         _wait_until_up(port, path, headers)
         warm = asyncio.run(_load(port, phones, clients, min(2.0, seconds), floor))
-        return warm, asyncio.run(_load(port, phones, clients, seconds, floor))
+        cpu_before = _workers_cpu_seconds(server.pid)
+        tally = asyncio.run(_load(port, phones, clients, seconds, floor))
+        cpu_after = _workers_cpu_seconds(server.pid)
+        if cpu_before is not None and cpu_after is not None:
+            tally.server_cpu = cpu_after - cpu_before
+        return warm, tally
     finally:
         server.terminate()
         server.wait(timeout=30)
+
+
+def _server_cpu_ms(tally: Tally) -> float | None:
+    """Server CPU per request, ms: steadier than rates on a machine others are using."""
+    if tally.server_cpu is None or not tally.latencies:
+        return None
+    return tally.server_cpu * 1000 / len(tally.latencies)
 
 
 def _summary(name: str, tally: Tally) -> tuple[float, float, float]:
@@ -312,7 +351,12 @@ def _summary(name: str, tally: Tally) -> tuple[float, float, float]:
     median = statistics.median(tally.latencies) * 1000
     p99 = statistics.quantiles(tally.latencies, n=100)[98] * 1000
     codes = ", ".join(f"{code}: {n}" for code, n in sorted(tally.statuses.items()))
-    print(f"{name:<28} {rate:8.1f} req/s   median {median:7.1f} ms   p99 {p99:7.1f} ms   ({codes})")
+    cpu = _server_cpu_ms(tally)
+    cpu_text = "" if cpu is None else f"   server CPU {cpu:5.1f} ms/req"
+    print(
+        f"{name:<28} {rate:8.1f} req/s   median {median:7.1f} ms   p99 {p99:7.1f} ms"
+        f"{cpu_text}   ({codes})"
+    )
     return rate, median, p99
 
 
@@ -346,9 +390,14 @@ def main() -> None:
     )
     api_rate, api_median, api_p99 = _summary("reading sets (full API)", api)
     floor_rate, floor_median, floor_p99 = _summary("floor (bare DRF create)", floor)
+    api_cpu, floor_cpu = _server_cpu_ms(api), _server_cpu_ms(floor)
+    cpu_ratio = ""
+    if api_cpu is not None and floor_cpu:
+        cpu_ratio = f", server CPU {api_cpu / floor_cpu:.1f}x"
     print(
         f"ratio API / floor: throughput {api_rate / floor_rate:.2f}x, "
         f"median latency {api_median / floor_median:.1f}x, p99 {api_p99 / floor_p99:.1f}x"
+        f"{cpu_ratio}"
     )
 
     from django.db.models import Count

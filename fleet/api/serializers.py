@@ -21,6 +21,8 @@ from django.db.models import Q
 from django.utils import timezone
 from drf_spectacular.utils import extend_schema_field
 from rest_framework import serializers
+from rest_framework.fields import SkipField
+from rest_framework.relations import PKOnlyObject
 
 from diagnostics.api.serializers import (
     DiagnosisSerializer,
@@ -104,7 +106,93 @@ class UnitsField(serializers.Field):
         return dict(data)
 
 
-class ValidatedModelSerializer(serializers.ModelSerializer):
+#: Field types whose ``get_attribute`` and ``to_representation`` read only the instance
+#: (never the serializer's context or parent), so one set of them serves every request.
+_CONTEXT_FREE_FIELDS = (
+    serializers.BooleanField,
+    serializers.CharField,  # and EmailField, SlugField...
+    serializers.ChoiceField,
+    serializers.DateField,
+    serializers.DateTimeField,
+    serializers.DecimalField,
+    serializers.FloatField,
+    serializers.IntegerField,
+    serializers.JSONField,
+    serializers.ReadOnlyField,
+    serializers.UUIDField,
+    serializers.PrimaryKeyRelatedField,
+    serializers.SlugRelatedField,
+)
+_PLAIN, _UNITS, _METHOD = "plain", "units", "method"
+
+
+def _context_free(field: serializers.Field) -> bool:
+    if isinstance(field, serializers.ListField):
+        return _context_free(field.child)
+    if isinstance(field, serializers.ManyRelatedField):
+        return _context_free(field.child_relation)
+    if isinstance(field, serializers.HyperlinkedRelatedField):
+        return False
+    return isinstance(field, _CONTEXT_FREE_FIELDS)
+
+
+class PlainRepresentation:
+    """A response built without DRF's per-instance field machinery.
+
+    DRF builds and binds every field of a ``ModelSerializer`` afresh for each serializer
+    instance (a deep copy of the declared fields, the model fields looked up again) before
+    it writes a single value: on a reading set that is most of the cost of the answer.
+    Here the readable fields are built once per class; the context-free ones
+    (``_CONTEXT_FREE_FIELDS``) are then applied as DRF's ``Serializer.to_representation``
+    applies them, and ``units`` and ``SerializerMethodField`` are asked of this serializer
+    (they read its context).
+    A class with any other readable field keeps DRF's path (``_plan`` is None).
+    """
+
+    _plans: ClassVar[dict[type, list[tuple[str, serializers.Field, str]] | None]] = {}
+
+    @classmethod
+    def _plan(cls) -> list[tuple[str, serializers.Field, str]] | None:
+        try:
+            return PlainRepresentation._plans[cls]
+        except KeyError:
+            pass
+        plan: list[tuple[str, serializers.Field, str]] | None = []
+        for field in cls(context={})._readable_fields:  # type: ignore[call-arg,attr-defined]
+            if isinstance(field, UnitsField):
+                kind = _UNITS
+            elif isinstance(field, serializers.SerializerMethodField):
+                kind = _METHOD
+            elif _context_free(field):
+                kind = _PLAIN
+            else:
+                plan = None
+                break
+            plan.append((field.field_name, field, kind))
+        PlainRepresentation._plans[cls] = plan
+        return plan
+
+    def to_representation(self, instance: Any) -> dict[str, Any]:
+        plan = self._plan()
+        if plan is None:
+            return super().to_representation(instance)  # type: ignore[misc]
+        data: dict[str, Any] = {}
+        for name, field, kind in plan:
+            if kind is _PLAIN:
+                try:
+                    attribute = field.get_attribute(instance)
+                except SkipField:
+                    continue
+                empty = (attribute.pk if isinstance(attribute, PKOnlyObject) else attribute) is None
+                data[name] = None if empty else field.to_representation(attribute)
+            elif kind is _UNITS:
+                data[name] = response_units(self.context)  # type: ignore[attr-defined]
+            else:
+                data[name] = getattr(self, field.method_name)(instance)  # type: ignore[attr-defined]
+        return data
+
+
+class ValidatedModelSerializer(PlainRepresentation, serializers.ModelSerializer):
     """Runs the model's ``full_clean()`` on the would-be instance (NetBox's
     ``ValidatedModelSerializer``), reporting errors under the wire names."""
 

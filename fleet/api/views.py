@@ -371,6 +371,8 @@ WRITABLE = {
     TECHNICIAN: frozenset({VisitStatus.IN_PROGRESS}),
     OFFICE: frozenset({VisitStatus.IN_PROGRESS, VisitStatus.SUBMITTED, VisitStatus.REVIEWED}),
 }
+#: The answer to a client_id stored on another visit (409).
+ON_ANOTHER_VISIT = "already used for a record on another visit"
 
 
 class VisitRecordViewSet(
@@ -449,13 +451,29 @@ class VisitRecordViewSet(
             return None
         if client_id is None:
             return None
-        stored = services.stored_with_client_id(self.model, client_id)
-        self._check_same_visit(stored)
+        # Most posts are new: a bare look-up of the id first (a fraction of the cost of
+        # fetching a record with its relations), the record itself only for a retry.
+        stored_pk = (
+            self.model.objects.filter(client_id=client_id).values_list("pk", flat=True).first()
+        )
+        if stored_pk is None:
+            return None
+        stored = (
+            self.model.objects.select_related("created_by", self.relation)
+            .filter(pk=stored_pk)
+            .first()
+        )
+        if stored is None:  # deleted since
+            return None
+        units = {row.pk: row for row in self.visit.visit_units.all()}
+        if stored.visit_unit_id not in units:  # a unit-on-visit belongs to one visit only
+            raise Conflict({"client_id": [ON_ANOTHER_VISIT]})
+        stored.visit_unit = units[stored.visit_unit_id]  # its unit and site are in hand
         return stored
 
     def _check_same_visit(self, stored: Any) -> None:
         if stored is not None and stored.visit_unit.visit_id != self.visit.pk:
-            raise Conflict({"client_id": ["already used for a record on another visit"]})
+            raise Conflict({"client_id": [ON_ANOTHER_VISIT]})
 
     def create(self, request: Request, *args: Any, **kwargs: Any) -> Response:
         stored = self._repeat(request.data)
