@@ -256,20 +256,23 @@ def rescore(
     return done
 
 
-def diagnose_reading_set(reading_set: ReadingSet, now=None, *, new: bool = False) -> Diagnosis:
-    """Diagnose one reading set with the current algorithm and store (or replace) the result.
-
-    ``new`` says the reading set was stored in this transaction and has no diagnosis yet:
-    one INSERT then, not a look-up first. Either way a single write (``update_or_create``
-    brings its own savepoint), so no transaction of its own is opened here.
-    """
+def diagnosis_of(reading_set: ReadingSet, now=None) -> Diagnosis:
+    """The diagnosis of ``reading_set`` with the current algorithm, not yet stored. Reads
+    nothing but the unit's components (none when they are prefetched), so it can run
+    before the reading set itself is stored."""
     unit = reading_set.visit_unit.unit
     values = core_diagnose.diagnose_row(
         unit_design(unit), reading_of(reading_set), elevation_m=unit.site.elevation_m
     )
-    values["computed_at"] = now or timezone.now()
-    if new:
-        return Diagnosis.objects.create(reading_set=reading_set, **values)
+    return Diagnosis(reading_set=reading_set, computed_at=now or timezone.now(), **values)
+
+
+def diagnose_reading_set(reading_set: ReadingSet, now=None) -> Diagnosis:
+    """Diagnose one stored reading set with the current algorithm and store (or replace)
+    the result: one write, whose ``update_or_create`` brings its own savepoint."""
+    fresh = diagnosis_of(reading_set, now)
+    values = {f: getattr(fresh, f) for f in ("algorithm_version", *_STORED_FIELDS_OF_CORE)}
+    values["computed_at"] = fresh.computed_at
     diagnosis, _ = Diagnosis.objects.update_or_create(reading_set=reading_set, defaults=values)
     return diagnosis
 

@@ -17,7 +17,7 @@ from __future__ import annotations
 import datetime as dt
 import logging
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
-from contextlib import contextmanager
+from contextlib import contextmanager, nullcontext
 from dataclasses import dataclass
 from typing import Generic, TypeVar
 from zoneinfo import ZoneInfo
@@ -29,6 +29,7 @@ from django.utils import timezone
 from diagnostics.core.maintenance import VisitProposal
 from diagnostics.services import (
     diagnose_reading_set,
+    diagnosis_of,
     record_leak_rate,
     record_leak_rates,
     refresh_flags,
@@ -51,12 +52,13 @@ DEFAULT_VISIT_HOURS = 4
 
 
 @contextmanager
-def _logged_failure(message: str, *args: object) -> Iterator[None]:
-    """Run what follows a write (a diagnosis, leak rates, flags) in a savepoint; a failure
-    is logged, not raised. The write stands, and ``manage.py rescore`` or
-    ``manage.py refresh_flags`` computes the rest again once the core is fixed."""
+def _logged_failure(message: str, *args: object, savepoint: bool = True) -> Iterator[None]:
+    """Run what follows a write (a diagnosis, leak rates, flags) in a savepoint (none is
+    needed for a computation that writes nothing); a failure is logged, not raised. The
+    write stands, and ``manage.py rescore`` or ``manage.py refresh_flags`` computes the rest
+    again once the core is fixed."""
     try:
-        with transaction.atomic():
+        with transaction.atomic() if savepoint else nullcontext():
             yield
     except Exception:
         log.exception(message, *args)
@@ -253,15 +255,11 @@ def _insert_once(record: R, then: Callable[[R], None]) -> Stored[R]:
     return Stored(record, created=True)
 
 
-def _diagnose(reading_set: ReadingSet, *, new: bool = False) -> None:
-    """Store the diagnosis and attach it. The readings are the record and are kept even
-    if the core fails. ``new``: the set was just inserted, so it has no diagnosis yet."""
+def _diagnose(reading_set: ReadingSet) -> None:
+    """Store the diagnosis of an edited set and attach it. The readings are the record and
+    are kept even if the core fails."""
     with _logged_failure("diagnosis failed for reading set %s", reading_set.pk):
-        reading_set.diagnosis = diagnose_reading_set(reading_set, new=new)
-
-
-def _diagnose_new(reading_set: ReadingSet) -> None:
-    _diagnose(reading_set, new=True)
+        reading_set.diagnosis = diagnose_reading_set(reading_set)
 
 
 def _compute_leak_rate(event: RefrigerantEvent) -> None:
@@ -288,8 +286,28 @@ def _change(record: R, before: dict, compute: Callable[[R], None], *, by) -> R:
 
 
 def record_reading_set(reading_set: ReadingSet, *, by) -> Stored[ReadingSet]:
-    """Store a validated reading set unless its ``client_id`` is stored; diagnose it."""
-    return _record_once(reading_set, _diagnose_new, by=by)
+    """Store a validated reading set unless its ``client_id`` is stored, with its diagnosis.
+
+    The diagnosis is computed first, before any write (the core reads only what is in
+    hand), so the transaction is three inserts: the set, its diagnosis, the audit entry.
+    If the core fails, the readings are stored without a diagnosis and the failure logged.
+    """
+    diagnosis = None
+    with _logged_failure(
+        "diagnosis failed for a reading set of unit-on-visit %s",
+        reading_set.visit_unit_id,
+        savepoint=False,
+    ):
+        diagnosis = diagnosis_of(reading_set)
+
+    def store_diagnosis_and_audit(inserted: ReadingSet) -> None:
+        if diagnosis is not None:
+            diagnosis.reading_set = inserted
+            diagnosis.save(force_insert=True)
+            inserted.diagnosis = diagnosis
+        audit.record_created(inserted, by=by)
+
+    return _insert_once(reading_set, store_diagnosis_and_audit)
 
 
 @transaction.atomic

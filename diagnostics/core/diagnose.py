@@ -455,6 +455,31 @@ def _atmosphere_kpa(elevation_m: ArrayLike, n: int) -> FloatArray:
     return atm
 
 
+#: Up to this many designs, a batch's unit columns and targets are kept for the next call.
+_FEW_UNITS = 4
+
+
+@functools.lru_cache(maxsize=1024)
+def _few_units(designs: tuple[UnitDesign, ...]) -> tuple[UnitColumns, dict[str, FloatArray]]:
+    """The columns and design targets of a few units, kept per design: a single reading
+    would otherwise rebuild them on every POST, though a unit's design rarely changes (a
+    changed design is another key). The arrays are read-only, as they are shared."""
+    uc = UnitColumns.from_designs(designs)
+    per_unit = _unit_targets(uc)
+    for array in (
+        *per_unit.values(),
+        *uc.floats.values(),
+        uc.refrigerant_code,
+        uc.application_code,
+        uc.metering_code,
+        uc.metering_given,
+        uc.water_cooled,
+        uc.has_receiver,
+    ):
+        array.setflags(write=False)
+    return uc, per_unit
+
+
 def diagnose_batch(
     units: Sequence[UnitDesign] | UnitColumns,
     readings: ReadingColumns,
@@ -466,7 +491,13 @@ def diagnose_batch(
     ``units`` holds one design per reading, or (with ``unit_index``) the distinct designs
     the readings point at. ``elevation_m`` is the site elevation per row (or one value).
     """
-    uc = units if isinstance(units, UnitColumns) else UnitColumns.from_designs(units)
+    if isinstance(units, UnitColumns):
+        uc, per_unit = units, _unit_targets(units)
+    elif len(units) <= _FEW_UNITS:
+        uc, per_unit = _few_units(tuple(units))
+    else:
+        uc = UnitColumns.from_designs(units)
+        per_unit = _unit_targets(uc)
     n = len(readings)
     if unit_index is None:
         if len(uc) != n:
@@ -476,7 +507,6 @@ def diagnose_batch(
         idx = np.asarray(unit_index, dtype=np.intp)
         if idx.shape != (n,):
             raise ValueError("unit_index needs one entry per reading")
-    per_unit = _unit_targets(uc)
     # origins are only read when one row is turned into dataclasses
     t = {k: v[idx] for k, v in per_unit.items() if not k.endswith("_origin")}
     r = readings

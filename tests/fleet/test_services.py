@@ -6,10 +6,11 @@ import pytest
 from django.utils import timezone
 
 from diagnostics.core import units
-from diagnostics.models import Flag
+from diagnostics.models import Diagnosis, Flag
 from fleet.models import AuditAction, AuditEntry
 from fleet.services import IllegalTransition, move_visit
 from tests.factories import (
+    ReadingSetFactory,
     RefrigerantEventFactory,
     UnitFactory,
     UserFactory,
@@ -108,3 +109,29 @@ def test_a_reviewed_visit_raises_the_flags_of_its_units(office_user):
     move_visit(visit, "submitted")
     move_visit(visit, "reviewed", by=office_user)
     assert open_flags.count() == 1
+
+
+def test_a_reading_set_is_stored_even_when_the_core_fails(monkeypatch, caplog, office_user):
+    """The readings are the record: if the diagnosis cannot be computed, the set is stored
+    (with its audit entry) without a diagnosis, the failure is logged, and a repeat of its
+    client_id returns it; ``manage.py rescore`` diagnoses it later."""
+    from diagnostics.core import diagnose as core_diagnose
+    from fleet import services
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("core out of order")
+
+    monkeypatch.setattr(core_diagnose, "diagnose_row", broken)
+    reading = ReadingSetFactory.build(visit_unit=VisitUnitFactory(), box_temp_c=2.0)
+    stored = services.record_reading_set(reading, by=office_user)
+    assert stored.created
+    assert stored.record.pk is not None
+    assert not Diagnosis.objects.filter(reading_set=stored.record).exists()
+    assert AuditEntry.objects.filter(record_id=stored.record.pk, action="created").exists()
+    assert "diagnosis failed" in caplog.text
+    again = services.record_reading_set(
+        ReadingSetFactory.build(visit_unit=reading.visit_unit, client_id=reading.client_id),
+        by=office_user,
+    )
+    assert not again.created
+    assert again.record.pk == stored.record.pk
