@@ -379,11 +379,12 @@ def derive_signals(
         status = parts(name)[3]
         return (status == WATCH) | (status == FAULT)
 
+    # A NaN deviation (not scored) compares false either way.
     def above(name: str) -> BoolArray:
-        return off_band(name) & (np.nan_to_num(parts(name)[2]) > 0)
+        return off_band(name) & (parts(name)[2] > 0)
 
     def below(name: str) -> BoolArray:
-        return off_band(name) & (np.nan_to_num(parts(name)[2]) < 0)
+        return off_band(name) & (parts(name)[2] < 0)
 
     def far_above(name: str) -> BoolArray:
         return above(name) & (parts(name)[3] == FAULT)

@@ -348,23 +348,19 @@ class SaturationCurve(Protocol):
 
 
 def _finite_apply(fn: Callable[..., FloatArray], x: FloatArray) -> FloatArray:
-    """Apply a saturation function to the finite entries only; NaN elsewhere and on error."""
-    x = np.asarray(x, dtype=np.float64)
-    out = np.full(x.shape, np.nan)
-    mask = np.isfinite(x)
-    if mask.any():
-        out[mask] = np.asarray(fn(x[mask], strict=False), dtype=np.float64)
-    return out
+    """A lenient lookup (``strict=False``): NaN where the value is missing, not positive
+    for a pressure, or off the table; the curve says so itself, without masking first."""
+    return np.asarray(fn(np.asarray(x, dtype=np.float64), strict=False), dtype=np.float64)
 
 
 def dew_temp_c(curve: SaturationCurve, p_kpa_abs: FloatArray) -> FloatArray:
     """Dew temperature, NaN where the pressure is missing or out of the curve's range."""
-    return _finite_apply(curve.dew_temp_c, np.where(p_kpa_abs > 0, p_kpa_abs, np.nan))
+    return _finite_apply(curve.dew_temp_c, p_kpa_abs)
 
 
 def bubble_temp_c(curve: SaturationCurve, p_kpa_abs: FloatArray) -> FloatArray:
     """Bubble temperature, NaN where the pressure is missing or out of the curve's range."""
-    return _finite_apply(curve.bubble_temp_c, np.where(p_kpa_abs > 0, p_kpa_abs, np.nan))
+    return _finite_apply(curve.bubble_temp_c, p_kpa_abs)
 
 
 def mid_point_pressure_kpa_abs(curve: SaturationCurve, t_c: FloatArray) -> FloatArray:
