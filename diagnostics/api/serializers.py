@@ -55,33 +55,51 @@ def _rounded(value: float | None) -> float | None:
 
 
 class Converter:
-    """Converts stored SI values of one quantity to a response's units."""
+    """Converts stored SI values to a response's units.
+
+    Every conversion here is linear (a scale and an offset, the offset of a pressure
+    depending on the site's elevation), so each is worked out once per response through
+    ``from_si`` and then applied to the hundred-odd values of a diagnosis.
+    """
 
     def __init__(self, units: dict[str, str], elevation_m: float) -> None:
         self.units = units
         self.elevation_m = elevation_m
+        self._values = {
+            label: _line(lambda v, q=quantity: from_si(v, q, units[q], elevation_m))
+            for label, quantity in SI_LABELS.items()
+        }
+        difference = _line(
+            lambda v: from_si(v, "temperature_difference", units["temperature_difference"])
+        )
+        self._differences = {
+            "C": difference,
+            "K": difference,
+            "kPa": _line(lambda v: pressure_difference_from_kpa(v, units["pressure"])),
+        }
 
     def label(self, si_label: str) -> str:
         quantity = SI_LABELS.get(si_label)
         return self.units[quantity] if quantity else si_label
 
     def value(self, value: float | None, si_label: str) -> float | None:
-        quantity = SI_LABELS.get(si_label)
-        if value is None or quantity is None:
-            return _rounded(value)
-        unit = self.units[quantity]
-        return _rounded(from_si(value, quantity, unit, self.elevation_m))  # type: ignore[arg-type]
+        return _apply(self._values.get(si_label), value)
 
     def difference(self, value: float | None, si_label: str) -> float | None:
         """A deviation: a difference of the quantity (no offset)."""
-        if value is None:
-            return None
-        if si_label in ("C", "K"):
-            unit = self.units["temperature_difference"]
-            return _rounded(from_si(value, "temperature_difference", unit))
-        if si_label == "kPa":
-            return _rounded(pressure_difference_from_kpa(value, self.units["pressure"]))
+        return _apply(self._differences.get(si_label), value)
+
+
+def _line(convert: Any) -> tuple[float, float]:
+    """(scale, offset) of a linear conversion."""
+    offset = float(convert(0.0))
+    return float(convert(1.0)) - offset, offset
+
+
+def _apply(line: tuple[float, float] | None, value: float | None) -> float | None:
+    if value is None or line is None:
         return _rounded(value)
+    return round(line[0] * value + line[1], 3)
 
 
 class RangeSerializer(serializers.Serializer):
