@@ -3,14 +3,16 @@
 Serves the API with gunicorn (2 sync workers) on 127.0.0.1 against a throwaway PostgreSQL
 (scripts/with-postgres.sh), then has concurrent clients (asyncio + httpx) post reading sets
 with technicians' tokens for a bounded time, re-sending 10 % of the accepted ones as a phone
-would after a dropped answer. Then the floor: a minimal DRF create of a row of the same
-shape (no authentication, no throttling, no diagnosis, no audit) served the same way and
-loaded the same way. Prints requests/s, median and p99 latency for both, their ratios, and
-the count check: rows stored == distinct client_ids accepted, and no duplicates. Where /proc
-tells, it also prints the CPU the gunicorn workers spent per request: on a machine shared
-with other work the rates move with the neighbours' load, the CPU per request much less.
+would after a dropped answer; beside it the floor: a minimal DRF create of a row of the
+same shape (no authentication, no throttling, no diagnosis, no audit) served the same way
+and loaded the same way. The two are loaded in turns (``--rounds``), so a change in what
+else the machine runs falls on both alike. Prints requests/s, median and p99 latency for
+both, their ratios, and the count check: rows stored == distinct client_ids accepted, and no
+duplicates. Where /proc tells, it also prints the CPU the gunicorn workers spent per
+request: on a machine shared with other work the rates move with the neighbours' load, the
+CPU per request much less.
 
-    .venv/bin/python bench/api_load.py [--seconds 8] [--clients 8]
+    .venv/bin/python bench/api_load.py [--seconds 8] [--clients 8] [--rounds 4]
 
 Traffic goes to 127.0.0.1 only and stops by itself. The write throttle's rate is raised
 for the run (its counting still runs) so it does not cap the measurement.
@@ -318,25 +320,59 @@ def _workers_cpu_seconds(master_pid: int) -> float | None:
     return total / ticks
 
 
-def _run(
-    app: str, path: str, phones, clients: int, seconds: float, floor: bool
-) -> tuple[Tally, Tally]:
-    """The warm-up tally (workers load code and saturation tables) and the measured one."""
-    port = _free_port()
-    server = _serve(app, port)
-    try:
+def _merge(into: Tally, part: Tally) -> None:
+    into.latencies += part.latencies
+    for code, n in part.statuses.items():
+        into.statuses[code] = into.statuses.get(code, 0) + n
+    into.accepted |= part.accepted
+    into.retries += part.retries
+    into.retried_same_id += part.retried_same_id
+    into.elapsed += part.elapsed
+    if part.server_cpu is None or into.server_cpu is None:
+        into.server_cpu = None  # unknown for one turn: unknown in all
+    else:
+        into.server_cpu += part.server_cpu
+
+
+class _Target:
+    """One server under test: its gunicorn, where to post, and whether it is the floor."""
+
+    def __init__(self, app: str, path: str, phones: list[Phone], floor: bool) -> None:
+        self.port, self.floor, self.phones = _free_port(), floor, phones
+        self.server = _serve(app, self.port)
         headers = {} if floor else {"Authorization": f"Token {phones[0].token}"}
-        _wait_until_up(port, path, headers)
-        warm = asyncio.run(_load(port, phones, clients, min(2.0, seconds), floor))
-        cpu_before = _workers_cpu_seconds(server.pid)
-        tally = asyncio.run(_load(port, phones, clients, seconds, floor))
-        cpu_after = _workers_cpu_seconds(server.pid)
-        if cpu_before is not None and cpu_after is not None:
-            tally.server_cpu = cpu_after - cpu_before
-        return warm, tally
+        _wait_until_up(self.port, path, headers)
+
+    def load(self, clients: int, seconds: float) -> Tally:
+        before = _workers_cpu_seconds(self.server.pid)
+        tally = asyncio.run(_load(self.port, self.phones, clients, seconds, self.floor))
+        after = _workers_cpu_seconds(self.server.pid)
+        if before is not None and after is not None:
+            tally.server_cpu = after - before
+        return tally
+
+    def stop(self) -> None:
+        self.server.terminate()
+        self.server.wait(timeout=30)
+
+
+def _run(phones: list[Phone], clients: int, seconds: float, rounds: int) -> tuple[Tally, ...]:
+    """Warm-up, then API and floor loaded in turn, ``rounds`` times each for ``seconds`` in
+    all: whatever else the machine does drifts over both alike. Returns the API's warm-up
+    tally (its posts are stored too), the API's and the floor's."""
+    api = _Target("config.wsgi:application", "/api/v1/", phones, floor=False)
+    floor = _Target("api_load:floor_application()", "/floor/", phones, floor=True)
+    try:
+        warm = api.load(clients, 2.0)  # workers load code and saturation tables
+        floor.load(clients, 2.0)
+        totals = Tally(server_cpu=0.0), Tally(server_cpu=0.0)
+        for _ in range(rounds):
+            for total, target in zip(totals, (api, floor), strict=True):
+                _merge(total, target.load(clients, seconds / rounds))
+        return (warm, *totals)
     finally:
-        server.terminate()
-        server.wait(timeout=30)
+        api.stop()
+        floor.stop()
 
 
 def _server_cpu_ms(tally: Tally) -> float | None:
@@ -364,6 +400,7 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--seconds", type=float, default=8.0)
     parser.add_argument("--clients", type=int, default=8)
+    parser.add_argument("--rounds", type=int, default=4, help="turns of API and floor")
     args = parser.parse_args()
     if not os.environ.get("DATABASE_URL", "").startswith("postgres"):
         # Re-run inside a throwaway PostgreSQL cluster (the script says so if it is missing).
@@ -379,15 +416,10 @@ def main() -> None:
     )
     phones = seed()
     print(
-        f"API load: {args.clients} clients, {args.seconds:g} s each, gunicorn 2 workers, "
-        f"PostgreSQL; {RETRY_SHARE:.0%} of the API posts are retries"
+        f"API load: {args.clients} clients, {args.seconds:g} s each in {args.rounds} turns, "
+        f"gunicorn 2 workers, PostgreSQL; {RETRY_SHARE:.0%} of the API posts are retries"
     )
-    api_warm, api = _run(
-        "config.wsgi:application", "/api/v1/", phones, args.clients, args.seconds, False
-    )
-    _, floor = _run(
-        "api_load:floor_application()", "/floor/", phones, args.clients, args.seconds, True
-    )
+    api_warm, api, floor = _run(phones, args.clients, args.seconds, args.rounds)
     api_rate, api_median, api_p99 = _summary("reading sets (full API)", api)
     floor_rate, floor_median, floor_p99 = _summary("floor (bare DRF create)", floor)
     api_cpu, floor_cpu = _server_cpu_ms(api), _server_cpu_ms(floor)
