@@ -6,11 +6,13 @@ with technicians' tokens for a bounded time, re-sending 10 % of the accepted one
 would after a dropped answer; beside it the floor: a minimal DRF create of a row of the
 same shape (no authentication, no throttling, no diagnosis, no audit) served the same way
 and loaded the same way. The two are loaded in turns (``--rounds``), so a change in what
-else the machine runs falls on both alike. Prints requests/s, median and p99 latency for
-both, their ratios, and the count check: rows stored == distinct client_ids accepted, and no
-duplicates. Where /proc tells, it also prints the CPU the gunicorn workers spent per
-request: on a machine shared with other work the rates move with the neighbours' load, the
-CPU per request much less.
+else the machine runs falls on both alike. A closed loop of clients keeps both saturated,
+so its latency is mostly queue (clients / rate); the API is then also paced at half the
+rate it reached, new posts arriving at random, for the latency at a working load. Prints
+requests/s, median and p99 latency for each, the ratios, and the count check: rows stored
+== distinct client_ids accepted, and no duplicates. Where /proc tells, it also prints the
+CPU the gunicorn workers spent per request: on a machine shared with other work the rates
+move with the neighbours' load, the CPU per request much less.
 
     .venv/bin/python bench/api_load.py [--seconds 8] [--clients 8] [--rounds 4]
 
@@ -297,6 +299,43 @@ async def _load(port: int, phones: list[Phone], clients: int, seconds: float, fl
     return tally
 
 
+async def _paced(port: int, phones: list[Phone], rate: float, seconds: float) -> Tally:
+    """New reading sets arriving at ``rate`` a second (Poisson), each sent when it arrives
+    whatever is still in flight: the latency a technician sees at that load, without the
+    queue a saturating closed loop of clients builds by itself."""
+    import httpx
+
+    tally = Tally()
+    rng = random.Random(20261203)
+    limits = httpx.Limits(max_connections=64, max_keepalive_connections=64)
+
+    async def post(phone: Phone, http: httpx.AsyncClient) -> None:
+        client_id = str(uuid.uuid4())
+        started = time.perf_counter()
+        response = await http.post(
+            f"/api/v1/visits/{phone.visit_id}/reading-sets/",
+            json=_reading(phone, client_id),
+            headers={"Authorization": f"Token {phone.token}"},
+        )
+        tally.latencies.append(time.perf_counter() - started)
+        tally.statuses[response.status_code] = tally.statuses.get(response.status_code, 0) + 1
+        if response.status_code in (200, 201):
+            tally.accepted.add(client_id)
+
+    async with httpx.AsyncClient(
+        base_url=f"http://127.0.0.1:{port}", limits=limits, timeout=30
+    ) as http:
+        began = arrival = time.perf_counter()
+        sent: list[asyncio.Task] = []
+        while arrival - began < seconds:
+            await asyncio.sleep(max(0.0, arrival - time.perf_counter()))
+            sent.append(asyncio.create_task(post(phones[len(sent) % len(phones)], http)))
+            arrival += rng.expovariate(rate)
+        await asyncio.gather(*sent)
+        tally.elapsed = time.perf_counter() - began
+    return tally
+
+
 def _workers_cpu_seconds(master_pid: int) -> float | None:
     """CPU time (user + system) the gunicorn workers of ``master_pid`` have used so far;
     None where /proc cannot tell (not Linux)."""
@@ -358,8 +397,9 @@ class _Target:
 
 def _run(phones: list[Phone], clients: int, seconds: float, rounds: int) -> tuple[Tally, ...]:
     """Warm-up, then API and floor loaded in turn, ``rounds`` times each for ``seconds`` in
-    all: whatever else the machine does drifts over both alike. Returns the API's warm-up
-    tally (its posts are stored too), the API's and the floor's."""
+    all: whatever else the machine does drifts over both alike; then the API paced at half
+    the rate it reached. Returns the API's warm-up tally (its posts are stored too), the
+    API's, the floor's and the paced one."""
     api = _Target("config.wsgi:application", "/api/v1/", phones, floor=False)
     floor = _Target("api_load:floor_application()", "/floor/", phones, floor=True)
     try:
@@ -369,7 +409,9 @@ def _run(phones: list[Phone], clients: int, seconds: float, rounds: int) -> tupl
         for _ in range(rounds):
             for total, target in zip(totals, (api, floor), strict=True):
                 _merge(total, target.load(clients, seconds / rounds))
-        return (warm, *totals)
+        half = 0.5 * len(totals[0].latencies) / totals[0].elapsed
+        paced = asyncio.run(_paced(api.port, phones, half, seconds))
+        return (warm, *totals, paced)
     finally:
         api.stop()
         floor.stop()
@@ -419,9 +461,10 @@ def main() -> None:
         f"API load: {args.clients} clients, {args.seconds:g} s each in {args.rounds} turns, "
         f"gunicorn 2 workers, PostgreSQL; {RETRY_SHARE:.0%} of the API posts are retries"
     )
-    api_warm, api, floor = _run(phones, args.clients, args.seconds, args.rounds)
+    api_warm, api, floor, paced = _run(phones, args.clients, args.seconds, args.rounds)
     api_rate, api_median, api_p99 = _summary("reading sets (full API)", api)
     floor_rate, floor_median, floor_p99 = _summary("floor (bare DRF create)", floor)
+    _summary("API paced at half its rate", paced)
     api_cpu, floor_cpu = _server_cpu_ms(api), _server_cpu_ms(floor)
     cpu_ratio = ""
     if api_cpu is not None and floor_cpu:
@@ -444,7 +487,7 @@ def main() -> None:
     duplicates = (
         ReadingSet.objects.values("client_id").annotate(n=Count("id")).filter(n__gt=1).count()
     )
-    accepted = api_warm.accepted | api.accepted  # warm-up posts are stored too
+    accepted = api_warm.accepted | api.accepted | paced.accepted  # all of them are stored
     stored = bench_rows.filter(created_by__isnull=False).count()
     ok = stored == len(accepted) and api_ids == accepted and duplicates == 0
     print(
