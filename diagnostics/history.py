@@ -256,7 +256,7 @@ def history_queries(today: dt.date, unit_ids: Iterable[int] | None = None) -> Hi
         .order_by("taken_at")
         .values_list(*_READING_FIELDS),
         parts=Component.objects.filter(unit_id__in=ids).values(
-            "unit_id", "kind", "rating_uf_min", "rating_uf_max", "installed_on", "removed_on"
+            "id", "unit_id", "kind", "rating_uf_min", "rating_uf_max", "installed_on", "removed_on"
         ),
         events=RefrigerantEvent.objects.filter(visit_unit__unit_id__in=ids)
         .order_by("occurred_on", "id")
@@ -304,24 +304,23 @@ def _gather(
     ]
 
 
-def _capacitor_series(readings: _Readings, rows: slice, fitted: list[dict]) -> tuple:
-    """Capacitor readings as columns, judged against the rating of the part fitted then."""
+def _capacitor_series(readings: _Readings, rows: slice, parts: list[dict]) -> tuple:
+    """Capacitor readings as columns, judged against the rating of the part fitted now."""
     series = []
-    for values, kind in (
-        (readings.run_uf, ComponentKind.RUN_CAPACITOR),
-        (readings.start_uf, ComponentKind.START_CAPACITOR),
+    for values, role, component in (
+        (readings.run_uf, "run", start_risk.StartComponent.RUN_CAPACITOR),
+        (readings.start_uf, "start", start_risk.StartComponent.START_CAPACITOR),
     ):
-        rating = [p for p in fitted if p["kind"] == kind and p["rating_uf_min"] is not None]
-        if not rating:
+        current = start_risk.fitted_capacitor(parts, role)
+        if current is None:
             continue
         measured = values[rows]
         taken = ~np.isnan(measured)
         if not taken.any():
             continue
-        current = max(rating, key=lambda p: p["installed_on"] or dt.date.min)
         series.append(
             start_risk.CapacitorColumns.of(
-                _START_PARTS[kind],
+                component,
                 readings.days[rows][taken],
                 measured[taken],
                 current["rating_uf_min"],
@@ -368,9 +367,8 @@ def _history(
         for p in parts
         if p["kind"] in _START_PARTS and p["installed_on"] is not None
     )
-    in_service = [p for p in parts if p["removed_on"] is None]
     start = start_risk.StartHistory(
-        capacitor_readings=_capacitor_series(readings, rows, in_service),
+        capacitor_readings=_capacitor_series(readings, rows, parts),
         start_attempts=tuple(readings.attempts.get(u["id"], ())),
         replacements=replacements,
         lra_a=u["lra_a"],

@@ -16,7 +16,7 @@ from django.db import connection, transaction
 from django.utils import timezone
 
 from diagnostics.core import diagnose as core_diagnose
-from diagnostics.core import flags, leaks
+from diagnostics.core import flags, leaks, start_risk
 from diagnostics.core.types import SIGHT_GLASS_STATES, Reading, UnitDesign
 from fleet.choices import RefrigerantEventKind
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit
@@ -24,37 +24,26 @@ from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit
 from .history import unit_histories
 from .models import Diagnosis, Flag, LeakRate
 
-CAPACITOR_KINDS = {"run_capacitor": "run", "start_capacitor": "start", "hard_start_kit": "start"}
-
-
-def _fitted_capacitors(components: Iterable[Component]) -> dict[str, Component]:
-    """The capacitors in service now (not removed), newest first per role."""
-    fitted: dict[str, Component] = {}
-    for part in sorted(
-        components, key=lambda c: (c.installed_on is None, c.installed_on), reverse=True
-    ):
-        role = CAPACITOR_KINDS.get(part.kind)
-        if (
-            role
-            and part.removed_on is None
-            and role not in fitted
-            and part.rating_uf_min is not None
-        ):
-            fitted[role] = part
-    return fitted
+#: What ``start_risk.fitted_capacitor`` reads of a component.
+_PART_FIELDS = ("id", "kind", "installed_on", "removed_on", "rating_uf_min", "rating_uf_max")
 
 
 def unit_design(unit: Unit, components: Iterable[Component] | None = None) -> UnitDesign:
     """The core's view of a unit: design data plus the ratings of the capacitors fitted now."""
-    parts = _fitted_capacitors(unit.components.all() if components is None else components)
-    run, start = parts.get("run"), parts.get("start")
+    parts = [
+        {f: getattr(c, f) for f in _PART_FIELDS}
+        for c in (unit.components.all() if components is None else components)
+    ]
+    run, start = (
+        start_risk.fitted_capacitor(parts, "run"),
+        start_risk.fitted_capacitor(parts, "start"),
+    )
     run_nominal = run_tolerance = None
     if run is not None:
-        high = run.rating_uf_max if run.rating_uf_max is not None else run.rating_uf_min
-        run_nominal = (run.rating_uf_min + high) / 2
-        run_tolerance = (
-            100 * (high - run.rating_uf_min) / 2 / run_nominal if high > run.rating_uf_min else None
-        )
+        low = run["rating_uf_min"]
+        high = run["rating_uf_max"] if run["rating_uf_max"] is not None else low
+        run_nominal = (low + high) / 2
+        run_tolerance = 100 * (high - low) / 2 / run_nominal if high > low else None
     return UnitDesign(
         refrigerant=unit.refrigerant.designation,
         application=unit.application,
@@ -74,8 +63,10 @@ def unit_design(unit: Unit, components: Iterable[Component] | None = None) -> Un
         lra_a=unit.lra_a,
         run_capacitor_uf=run_nominal,
         run_capacitor_tolerance_pct=run_tolerance,
-        start_capacitor_min_uf=start.rating_uf_min if start else None,
-        start_capacitor_max_uf=(start.rating_uf_max or start.rating_uf_min) if start else None,
+        start_capacitor_min_uf=start["rating_uf_min"] if start else None,
+        start_capacitor_max_uf=(start["rating_uf_max"] or start["rating_uf_min"])
+        if start
+        else None,
     )
 
 

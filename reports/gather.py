@@ -30,7 +30,7 @@ from zoneinfo import ZoneInfo
 from django.db.models import Q
 
 from diagnostics.core import diagnose as core_diagnose
-from diagnostics.core import leaks
+from diagnostics.core import leaks, start_risk
 from diagnostics.core.scoring import SCORING_TABLE
 from diagnostics.models import Flag, FlagKind, FlagSeverity
 from fleet import choices
@@ -41,12 +41,6 @@ from .months import Month
 
 #: Months of history the trend charts cover, the report month included.
 WINDOW_MONTHS = 12
-
-_CAPACITOR_ROLES = {
-    "run_capacitor": "run",
-    "start_capacitor": "start",
-    "hard_start_kit": "start",
-}
 
 
 # --- the plain data -----------------------------------------------------------------------------
@@ -531,22 +525,13 @@ def _components(site_id: int) -> dict[int, list[dict[str, Any]]]:
 
 
 def _fitted_rating(parts: list[dict[str, Any]], role: str, on: date) -> CapacitorRating | None:
-    """The rating of the newest capacitor of a role in service on ``on``."""
-    labels = _labels(choices.ComponentKind)
-    fitted = [
-        p
-        for p in parts
-        if _CAPACITOR_ROLES.get(p["kind"]) == role
-        and p["rating_uf_min"] is not None
-        and (p["installed_on"] is None or p["installed_on"] <= on)
-        and (p["removed_on"] is None or p["removed_on"] > on)
-    ]
-    if not fitted:
+    """The rating of the capacitor of a role in service on ``on``."""
+    newest = start_risk.fitted_capacitor(parts, role, on)
+    if newest is None:
         return None
-    newest = max(fitted, key=lambda p: (p["installed_on"] or date.min, p["id"]))
-    high = newest["rating_uf_max"] if newest["rating_uf_max"] is not None else None
+    high = newest["rating_uf_max"]
     return CapacitorRating(
-        labels.get(newest["kind"], newest["kind"]),
+        _labels(choices.ComponentKind).get(newest["kind"], newest["kind"]),
         newest["rating_uf_min"],
         high if high is not None else newest["rating_uf_min"],
     )

@@ -11,7 +11,7 @@ their standard.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from datetime import date, timedelta
 from enum import StrEnum
@@ -23,6 +23,43 @@ from numpy.typing import ArrayLike, NDArray
 from diagnostics.core import electrical
 from diagnostics.core.sources import cite
 from diagnostics.core.trends import FloatArray, crossing_offsets, theil_sen
+
+#: Which capacitor each component kind holds: a hard-start kit carries a start capacitor.
+CAPACITOR_ROLES: dict[str, str] = {
+    "run_capacitor": "run",
+    "start_capacitor": "start",
+    "hard_start_kit": "start",
+}
+
+
+def fitted_capacitor(
+    parts: Iterable[Mapping[str, Any]], role: str, on: date | None = None
+) -> Mapping[str, Any] | None:
+    """The rated capacitor of ``role`` ("run" or "start") in service on ``on``, or still
+    fitted when ``on`` is None; None if there is none. The newest installed wins (an unknown
+    installation date counts as the oldest), then the latest recorded.
+
+    ``parts``: mappings with ``kind``, ``installed_on``, ``removed_on``, ``rating_uf_min``
+    and ``id``. One rule for the diagnosis, the start-risk history and the report.
+    """
+
+    def in_service(p: Mapping[str, Any]) -> bool:
+        if on is None:
+            return p["removed_on"] is None
+        fitted_by = p["installed_on"] is None or p["installed_on"] <= on
+        return fitted_by and (p["removed_on"] is None or p["removed_on"] > on)
+
+    return max(
+        (
+            p
+            for p in parts
+            if CAPACITOR_ROLES.get(p["kind"]) == role
+            and p["rating_uf_min"] is not None
+            and in_service(p)
+        ),
+        key=lambda p: (p["installed_on"] or date.min, p["id"] or 0),
+        default=None,
+    )
 
 
 class StartComponent(StrEnum):

@@ -16,6 +16,7 @@ from diagnostics.core.start_risk import (
     StartComponent,
     StartHistory,
     assess_start_risk,
+    fitted_capacitor,
 )
 
 TODAY = date(2026, 7, 1)
@@ -190,3 +191,46 @@ def test_columns_mean_the_same_as_readings() -> None:
     as_columns = assess_start_risk(StartHistory((columns,), replacements=replaced), TODAY)
     assert as_columns == as_readings
     assert [i.code for i in as_columns.items] == ["run_capacitor_drift"]
+
+
+def _part(pk, kind, installed_on=None, removed_on=None, rating=45.0):
+    return {
+        "id": pk,
+        "kind": kind,
+        "installed_on": installed_on,
+        "removed_on": removed_on,
+        "rating_uf_min": rating,
+        "rating_uf_max": None,
+    }
+
+
+def test_the_fitted_capacitor_is_the_newest_rated_one_still_in_service():
+    """Removed and unrated parts are not fitted; the newest installation wins, one with an
+    unknown date counts as the oldest, a later record breaks a tie; a hard-start kit holds
+    the start capacitor."""
+    parts = [
+        _part(1, "run_capacitor"),  # original equipment, date unknown
+        _part(2, "run_capacitor", date(2025, 6, 1)),
+        _part(3, "run_capacitor", date(2026, 2, 1), removed_on=date(2026, 5, 1)),
+        _part(4, "run_capacitor", date(2026, 4, 1), rating=None),
+        _part(5, "hard_start_kit", date(2026, 1, 10)),
+        _part(6, "start_relay", date(2026, 3, 1)),
+    ]
+    assert fitted_capacitor(parts, "run")["id"] == 2
+    assert fitted_capacitor(parts, "start")["id"] == 5
+    assert fitted_capacitor([*parts, _part(7, "run_capacitor", date(2025, 6, 1))], "run")["id"] == 7
+    assert fitted_capacitor(parts[:1], "start") is None
+
+
+def test_the_capacitor_fitted_on_a_day_ignores_later_changes():
+    """On a past day, a part fitted later is not yet in service and one removed later still
+    is; a part removed that very day is gone."""
+    parts = [
+        _part(1, "run_capacitor", date(2025, 1, 1)),
+        _part(2, "run_capacitor", date(2026, 2, 1), removed_on=date(2026, 5, 1)),
+        _part(3, "run_capacitor", date(2026, 5, 1)),
+    ]
+    assert fitted_capacitor(parts, "run", date(2026, 1, 31))["id"] == 1
+    assert fitted_capacitor(parts, "run", date(2026, 3, 15))["id"] == 2
+    assert fitted_capacitor(parts, "run", date(2026, 5, 1))["id"] == 3
+    assert fitted_capacitor(parts, "run", date(2024, 12, 31)) is None
