@@ -79,17 +79,19 @@ class _Readings:
     attempts: dict[int, list[start_risk.StartAttempt]]
 
     @classmethod
-    def of(cls, rows: list[tuple]) -> _Readings:
-        """The columns of values_list rows in ``_READING_FIELDS`` order (None -> NaN)."""
+    def of(cls, rows: list[tuple], zones: dict[int, str]) -> _Readings:
+        """The columns of values_list rows in ``_READING_FIELDS`` order (None -> NaN), each
+        dated on the calendar of its unit's site (``zones``: unit id -> time zone)."""
+        ordinals = _local_ordinals(rows, zones)
         # Start attempts stay objects (the core takes them so), built in the one pass that
         # leaves them in date order per unit.
         attempts: dict[int, list[start_risk.StartAttempt]] = defaultdict(list)
         found = Stage.AS_FOUND.value
-        for r in rows:
+        for r, ordinal in zip(rows, ordinals.tolist(), strict=True):
             if r[7] is not None and r[2] == found:
                 attempts[r[0]].append(
                     start_risk.StartAttempt(
-                        observed_on=r[1].date(),
+                        observed_on=dt.date.fromordinal(ordinal),
                         started=bool(r[7]),
                         peak_amps=r[8],
                         volts_at_start=r[9],
@@ -111,8 +113,6 @@ class _Readings:
         units = np.array(unit, dtype=np.int64)
         order = np.argsort(units, kind="stable")
         units = units[order]
-        # A datetime's ordinal is that of its date (in the stored UTC, as ``.date()`` gives).
-        ordinals = np.fromiter(map(dt.datetime.toordinal, taken), dtype=np.int64, count=len(rows))
         left = Stage.AS_LEFT.value
         firsts = np.flatnonzero(np.r_[True, units[1:] != units[:-1]])
         ends = np.r_[firsts[1:], len(rows)]
@@ -132,6 +132,45 @@ class _Readings:
             ),
             attempts=attempts,
         )
+
+
+_DAY_S = 86_400
+
+
+def _local_ordinals(rows: list[tuple], zones: dict[int, str]) -> NDArray[np.int64]:
+    """The day number (``date.toordinal``) of each row's ``taken_at`` in its site's time
+    zone, a reading after dark in Chicago belonging to that evening, not to the next UTC day.
+
+    The offset is looked up once per zone and UTC day (at its first and last second); only
+    rows of a day on which the offset changes are looked up one by one.
+    """
+    n = len(rows)
+    seconds = np.fromiter((r[1].timestamp() for r in rows), dtype=np.float64, count=n)
+    units, at = np.unique(
+        np.fromiter((r[0] for r in rows), dtype=np.int64, count=n), return_inverse=True
+    )
+    names = sorted({zones.get(u, "UTC") for u in units.tolist()})
+    zone_at = np.array([names.index(zones.get(u, "UTC")) for u in units.tolist()], dtype=np.intp)[
+        at
+    ]
+    out = np.empty(n, dtype=np.int64)
+    for k, name in enumerate(names):
+        zone = ZoneInfo(name)
+        sel = np.flatnonzero(zone_at == k)
+        s = seconds[sel]
+        days, index = np.unique(np.floor_divide(s, _DAY_S), return_inverse=True)
+
+        def offsets(moments: NDArray[np.float64], zone: ZoneInfo = zone) -> NDArray[np.float64]:
+            return np.array(
+                [dt.datetime.fromtimestamp(t, zone).utcoffset().total_seconds() for t in moments]
+            )
+
+        first, last = offsets(days * _DAY_S), offsets(days * _DAY_S + _DAY_S - 1)
+        offset = first[index]
+        changing = np.flatnonzero((first != last)[index])
+        offset[changing] = offsets(s[changing])
+        out[sel] = np.floor_divide(s + offset, _DAY_S).astype(np.int64) + _EPOCH_ORDINAL
+    return out
 
 
 @contextlib.contextmanager
@@ -290,7 +329,7 @@ def _gather(
     queries: HistoryQueries, method: leaks.LeakRateMethod, today: dt.date
 ) -> list[flags.UnitHistory]:
     units = list(queries.units)
-    readings = _Readings.of(list(queries.readings))
+    readings = _Readings.of(list(queries.readings), {u["id"]: u["site__time_zone"] for u in units})
     parts: dict[int, list[dict]] = defaultdict(list)
     for part in queries.parts:
         parts[part["unit_id"]].append(part)

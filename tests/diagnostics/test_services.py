@@ -176,3 +176,47 @@ def test_maintenance_plans_count_the_last_reviewed_visit_on_the_site_calendar():
     assert plan.next_scheduled_on == dt.date(2026, 6, 10)
     (history,) = unit_histories(today, unit_ids=[unit.id])
     assert history.maintenance == plan
+
+
+@pytest.mark.parametrize(
+    ("zone", "taken", "dated"),
+    [
+        # Chicago is UTC-6 in winter: 02:30 UTC on 2 March is the evening of 1 March; on
+        # 8 March, the day US clocks go forward (08:00 UTC), 05:30 UTC is 23:30 on 7 March
+        # and 15:00 UTC is 10:00 on 8 March.
+        (
+            "America/Chicago",
+            [(3, 2, 2, 30), (3, 8, 5, 30), (3, 8, 15, 0)],
+            [(3, 1), (3, 7), (3, 8)],
+        ),
+        # Santiago sets clocks back at local midnight on 5 April 2026 (03:00 UTC): 02:30
+        # and 03:30 UTC are both 23:30 on 4 April (UTC-3, then UTC-4), 04:30 UTC is 00:30
+        # on 5 April. An offset taken at the start of the UTC day would date 03:30 on 5 April.
+        (
+            "America/Santiago",
+            [(4, 5, 2, 30), (4, 5, 3, 30), (4, 5, 4, 30)],
+            [(4, 4), (4, 4), (4, 5)],
+        ),
+    ],
+)
+def test_a_units_readings_are_dated_on_its_sites_calendar(zone, taken, dated):
+    """Trends and start attempts date a reading by the site's clock, with the offset in
+    force at the moment of the reading. Offsets from the IANA tz database (zoneinfo)."""
+    from diagnostics.history import unit_histories
+    from tests.factories import SiteFactory
+
+    unit = UnitFactory(site=SiteFactory(time_zone=zone))
+    for month, day, hour, minute in taken:
+        at = dt.datetime(2026, month, day, hour, minute, tzinfo=dt.UTC)
+        ReadingSetFactory(
+            visit_unit=VisitUnitFactory(unit=unit, visit__site=unit.site),
+            taken_at=at,
+            stage="as_found",
+            compressor_running=True,
+            compressor_amps_1=8.0,
+            supply_volts_1=230.0,
+        )
+    (history,) = unit_histories(dt.date(2026, 4, 1), unit_ids=[unit.id])
+    assert [a.observed_on for a in history.start.start_attempts] == [
+        dt.date(2026, month, day) for month, day in dated
+    ]
