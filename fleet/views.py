@@ -521,8 +521,8 @@ def return_history(visit: Visit, covered: list[CoveredUnit]) -> ReturnHistory | 
 def _cautions_of(diagnoses: Iterable[Diagnosis]) -> list[dict]:
     seen: dict[str, dict] = {}
     for diagnosis in diagnoses:
-        for caution in diagnosis.cautions or ():
-            seen.setdefault(caution.get("code", caution.get("text", "")), caution)
+        for caution in diagnosis.cautions:
+            seen.setdefault(caution["code"], caution)
     return list(seen.values())
 
 
@@ -655,12 +655,8 @@ def review_queue(request: HttpRequest) -> HttpResponse:
             {
                 "visit": visit,
                 "lowest_score": min((d.score for d in diagnoses), default=None),
-                "faults": sum(
-                    1 for d in diagnoses for m in d.metrics or () if m.get("status") == "fault"
-                ),
-                "findings": sorted(
-                    {f.get("title", f.get("code", "")) for d in diagnoses for f in d.findings or ()}
-                ),
+                "faults": sum(1 for d in diagnoses for m in d.metrics if m["status"] == "fault"),
+                "findings": sorted({f["title"] for d in diagnoses for f in d.findings}),
                 "reading_count": sum(len(c.readings) for c in covered),
                 "unit_count": len(covered),
                 "added_kg": added or None,

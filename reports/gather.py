@@ -19,6 +19,7 @@ What is read, and why:
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections import defaultdict
 from dataclasses import dataclass
@@ -32,6 +33,7 @@ from django.db.models import Q
 from diagnostics.core import diagnose as core_diagnose
 from diagnostics.core import leaks, start_risk
 from diagnostics.core.scoring import SCORING_TABLE
+from diagnostics.core.types import Caution, Finding
 from diagnostics.models import Flag, FlagKind, FlagSeverity
 from fleet import choices
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Site, Unit, Visit, VisitUnit
@@ -104,6 +106,8 @@ class UnitInfo:
 
 @dataclass(frozen=True)
 class MetricRow:
+    """A stored metric (the core's ``Metric``) with the label the report prints."""
+
     name: str
     label: str
     measured: float | None
@@ -115,21 +119,6 @@ class MetricRow:
     status: str
     points_lost: float
     reason: str
-
-
-@dataclass(frozen=True)
-class FindingRow:
-    code: str
-    title: str
-    evidence: tuple[str, ...]
-    confidence: float
-    advice: str
-
-
-@dataclass(frozen=True)
-class CautionRow:
-    code: str
-    text: str
 
 
 @dataclass(frozen=True)
@@ -146,8 +135,8 @@ class Check:
     glide_choice: str
     energy_penalty_pct: float | None
     metrics: tuple[MetricRow, ...]
-    findings: tuple[FindingRow, ...]
-    cautions: tuple[CautionRow, ...]
+    findings: tuple[Finding, ...]
+    cautions: tuple[Caution, ...]
     notes: str
     compressor_running: bool | None
     mean_amps: float | None
@@ -343,57 +332,6 @@ def _person(first: str, last: str, username: str) -> str:
 
 _SEVERITY_LABELS = _labels(FlagSeverity)
 _KIND_LABELS = _labels(FlagKind)
-
-
-def _metric_rows(raw: Any) -> tuple[MetricRow, ...]:
-    rows = []
-    for m in raw if isinstance(raw, list) else []:
-        if not isinstance(m, dict):
-            continue
-        name = str(m.get("name", ""))
-        rule = SCORING_TABLE.get(name)
-        rows.append(
-            MetricRow(
-                name=name,
-                label=rule.label if rule else name.replace("_", " "),
-                measured=_num(m.get("measured")),
-                target=_num(m.get("target")),
-                low=_num(m.get("low")),
-                high=_num(m.get("high")),
-                deviation=_num(m.get("deviation")),
-                unit=str(m.get("unit", "")),
-                status=str(m.get("status", "")),
-                points_lost=_num(m.get("points_lost")) or 0.0,
-                reason=str(m.get("reason", "")),
-            )
-        )
-    return tuple(rows)
-
-
-def _finding_rows(raw: Any) -> tuple[FindingRow, ...]:
-    rows = []
-    for f in raw if isinstance(raw, list) else []:
-        if not isinstance(f, dict):
-            continue
-        evidence = f.get("evidence") or ()
-        rows.append(
-            FindingRow(
-                code=str(f.get("code", "")),
-                title=str(f.get("title", "")),
-                evidence=tuple(str(e) for e in evidence),
-                confidence=_num(f.get("confidence")) or 0.0,
-                advice=str(f.get("advice", "")),
-            )
-        )
-    return tuple(sorted(rows, key=lambda r: -r.confidence))
-
-
-def _caution_rows(raw: Any) -> tuple[CautionRow, ...]:
-    return tuple(
-        CautionRow(str(c.get("code", "")), str(c.get("text", "")))
-        for c in (raw if isinstance(raw, list) else [])
-        if isinstance(c, dict)
-    )
 
 
 def _evidence_rows(raw: Any) -> tuple[EvidenceRow, ...]:
@@ -835,6 +773,7 @@ def _one_per_visit(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
 
 def _check(row: dict[str, Any], details: dict[str, Any], tz: ZoneInfo) -> Check:
     stage = _labels(choices.Stage)
+    _, metrics, findings, cautions = core_diagnose.typed_details(details)
     return Check(
         reading_set_id=row["id"],
         visit_reference=row["visit_unit__visit__reference"],
@@ -843,11 +782,13 @@ def _check(row: dict[str, Any], details: dict[str, Any], tz: ZoneInfo) -> Check:
         stage_label=stage.get(row["stage"], row["stage"]),
         score=row["diagnosis__score"],
         algorithm_version=row["diagnosis__algorithm_version"] or "",
-        glide_choice=details.get("glide_choice", "") or "",
+        glide_choice=details["glide_choice"],
         energy_penalty_pct=row["diagnosis__energy_penalty_pct"],
-        metrics=_metric_rows(details.get("metrics")),
-        findings=_finding_rows(details.get("findings")),
-        cautions=_caution_rows(details.get("cautions")),
+        metrics=tuple(
+            MetricRow(label=SCORING_TABLE[m.name].label, **dataclasses.asdict(m)) for m in metrics
+        ),
+        findings=findings,
+        cautions=cautions,
         notes=row["notes"],
         compressor_running=row["compressor_running"],
         mean_amps=_mean(
@@ -906,7 +847,7 @@ def gather_site_month(site_id: int, month: Month, *, now: datetime) -> SiteMonth
     for unit in units:
         rows = readings.get(unit.id, [])
         month_rows = [r for r in rows if r["taken_at"] >= month_start]
-        checks = tuple(_check(r, details.get(r["id"], {}), tz) for r in month_rows)
+        checks = tuple(_check(r, details[r["id"]], tz) for r in month_rows)
         history = tuple(history_point(r, tz) for r in _one_per_visit(rows))
         unit_flags = tuple(flags.get(unit.id, ()))
         unit_leaks = tuple(additions.get(unit.id, ()))
@@ -998,7 +939,6 @@ __all__ = [
     "Check",
     "ComponentRow",
     "EvidenceRow",
-    "FindingRow",
     "FlagRow",
     "HistoryPoint",
     "LeakRateRow",

@@ -1438,6 +1438,19 @@ def stored_columns(res: BatchResult) -> dict[str, list[Any]]:
     }
 
 
+def typed_details(
+    details: Row,
+) -> tuple[tuple[Target, ...], tuple[Metric, ...], tuple[Finding, ...], tuple[Caution, ...]]:
+    """Expanded details (``expand``) as the core's dataclasses: targets, metrics, findings
+    (most confident first) and cautions."""
+    return (
+        tuple(Target(**t) for t in details["targets"]),
+        tuple(Metric(**m) for m in details["metrics"]),
+        tuple(Finding(**{**f, "evidence": tuple(f["evidence"])}) for f in details["findings"]),
+        tuple(Caution(**c) for c in details["cautions"]),
+    )
+
+
 def _row_derived(res: BatchResult, i: int) -> DerivedValues:
     values: dict[str, Any] = {name: _opt(res.derived[name][i]) for name in DERIVED_NAMES}
     values["transcritical"] = bool(res.derived["transcritical"][i] == 1.0)
@@ -1448,13 +1461,14 @@ def _row_diagnosis(res: BatchResult, i: int) -> Diagnosis:
     """Row ``i`` as dataclasses: its stored form read back (the same code as for any stored
     row), typed, plus every derived value."""
     row = expand(res.packed[i : i + 1])[0]
+    targets, metrics, found, cautions = typed_details(row)
     return Diagnosis(
         score=float(res.score[i]),
         algorithm_version=res.algorithm_version,
-        targets=tuple(Target(**t) for t in row["targets"]),
-        metrics=tuple(Metric(**m) for m in row["metrics"]),
-        findings=tuple(Finding(**{**f, "evidence": tuple(f["evidence"])}) for f in row["findings"]),
-        cautions=tuple(Caution(**c) for c in row["cautions"]),
+        targets=targets,
+        metrics=metrics,
+        findings=found,
+        cautions=cautions,
         energy_penalty_pct=_opt(res.energy_penalty_pct[i]),
         derived=_row_derived(res, i),
         glide_choice=row["glide_choice"],

@@ -18,6 +18,7 @@ from django.contrib.auth.models import User
 from django.core.exceptions import ObjectDoesNotExist
 from django.core.exceptions import ValidationError as DjangoValidationError
 from django.db.models import Q
+from django.db.models.manager import BaseManager
 from django.utils import timezone
 from drf_spectacular.utils import extend_schema_field
 from rest_framework import serializers
@@ -30,6 +31,7 @@ from diagnostics.api.serializers import (
     atmospheric_glide_k,
     response_units,
 )
+from diagnostics.models import Diagnosis
 from fleet import choices
 from fleet.api.exceptions import django_errors
 from fleet.api.wire_units import REQUEST_KEY, REQUEST_UNITS, Measure, UnitError, limit_error
@@ -693,6 +695,17 @@ class VisitRecordSerializer(MeasuredSerializer):
         return instance.visit_unit.unit.site.elevation_m
 
 
+class ReadingSetListSerializer(serializers.ListSerializer):
+    """A page of reading sets: their stored diagnoses are expanded in one pass first, not
+    one by one as each set is written out."""
+
+    def to_representation(self, data: Any) -> list[dict[str, Any]]:
+        sets = list(data.all() if isinstance(data, BaseManager) else data)
+        # A set without a diagnosis raises RelatedObjectDoesNotExist, an AttributeError.
+        Diagnosis.attach_details(getattr(rs, "diagnosis", None) for rs in sets)
+        return super().to_representation(sets)
+
+
 class ReadingSetSerializer(VisitRecordSerializer):
     clean_constraints = False
     keeps_entered_units = True
@@ -755,6 +768,7 @@ class ReadingSetSerializer(VisitRecordSerializer):
 
     class Meta:
         model = ReadingSet
+        list_serializer_class = ReadingSetListSerializer
         fields = [
             "id",
             "client_id",

@@ -237,6 +237,6 @@ def qty_range(low: float | None, high: float | None, unit: str, elevation_m: flo
 
 
 @register.filter
-def count_status(metrics: list[dict] | None, status: str) -> int:
+def count_status(metrics: list[dict], status: str) -> int:
     """How many of a diagnosis's metrics have ``status``."""
-    return sum(1 for m in metrics or () if m.get("status") == status)
+    return sum(1 for m in metrics if m["status"] == status)

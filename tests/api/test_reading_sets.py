@@ -119,6 +119,28 @@ def test_the_response_carries_the_diagnosis_in_the_response_units(technician, vi
     assert stored.diagnosis.score == pytest.approx(diagnosis["score"], abs=0.05)
 
 
+def test_a_list_expands_its_diagnoses_in_one_pass(technician, visit_unit, monkeypatch):
+    """A page of reading sets writes out every stored diagnosis (the same as each one's own
+    answer) from one expansion of their stored rows, not one per set."""
+    from diagnostics.core import diagnose as core_diagnose
+
+    client = token_client(technician)
+    posted = [
+        client.post(_url(visit_unit), _body(visit_unit, box_temp=36.0 + k), format="json").json()
+        for k in range(3)
+    ]
+    passes = []
+    expand = core_diagnose.expand_blobs
+    monkeypatch.setattr(
+        core_diagnose, "expand_blobs", lambda blobs: passes.append(len(blobs)) or expand(blobs)
+    )
+    listed = client.get(_url(visit_unit)).json()["results"]
+    assert passes == [3]
+    by_id = {row["id"]: row["diagnosis"] for row in listed}
+    for row in posted:
+        assert by_id[row["id"]] == row["diagnosis"]
+
+
 @pytest.mark.parametrize(
     ("fields", "expected"),
     [
