@@ -247,24 +247,29 @@ def rescore(
     return done
 
 
-def diagnosis_of(reading_set: ReadingSet, now=None) -> Diagnosis:
-    """The diagnosis of ``reading_set`` with the current algorithm, not yet stored. Reads
-    nothing but the unit's components (none when they are prefetched), so it can run
-    before the reading set itself is stored."""
+def _diagnosis_values(reading_set: ReadingSet, now=None) -> dict:
+    """The stored fields of ``reading_set``'s diagnosis with the current algorithm."""
     unit = reading_set.visit_unit.unit
     values = core_diagnose.diagnose_row(
         unit_design(unit), reading_of(reading_set), elevation_m=unit.site.elevation_m
     )
-    return Diagnosis(reading_set=reading_set, computed_at=now or timezone.now(), **values)
+    values["computed_at"] = now or timezone.now()
+    return values
+
+
+def diagnosis_of(reading_set: ReadingSet, now=None) -> Diagnosis:
+    """The diagnosis of ``reading_set`` with the current algorithm, not yet stored. Reads
+    nothing but the unit's components (none when they are prefetched), so it can run
+    before the reading set itself is stored."""
+    return Diagnosis(reading_set=reading_set, **_diagnosis_values(reading_set, now))
 
 
 def diagnose_reading_set(reading_set: ReadingSet, now=None) -> Diagnosis:
     """Diagnose one stored reading set with the current algorithm and store (or replace)
     the result: one write, whose ``update_or_create`` brings its own savepoint."""
-    fresh = diagnosis_of(reading_set, now)
-    values = {f: getattr(fresh, f) for f in ("algorithm_version", *_STORED_FIELDS_OF_CORE)}
-    values["computed_at"] = fresh.computed_at
-    diagnosis, _ = Diagnosis.objects.update_or_create(reading_set=reading_set, defaults=values)
+    diagnosis, _ = Diagnosis.objects.update_or_create(
+        reading_set=reading_set, defaults=_diagnosis_values(reading_set, now)
+    )
     return diagnosis
 
 

@@ -271,11 +271,11 @@ def _compute_leak_rate(event: RefrigerantEvent) -> None:
 
 
 def _record_once(record: R, compute: Callable[[R], None], *, by) -> Stored[R]:
-    def diagnose_and_audit(inserted: R) -> None:
+    def compute_and_audit(inserted: R) -> None:
         compute(inserted)
         audit.record_created(inserted, by=by)
 
-    return _insert_once(record, diagnose_and_audit)
+    return _insert_once(record, compute_and_audit)
 
 
 def _change(record: R, before: dict, compute: Callable[[R], None], *, by) -> R:
@@ -300,14 +300,12 @@ def record_reading_set(reading_set: ReadingSet, *, by) -> Stored[ReadingSet]:
     ):
         diagnosis = diagnosis_of(reading_set)
 
-    def store_diagnosis_and_audit(inserted: ReadingSet) -> None:
-        if diagnosis is not None:
-            diagnosis.reading_set = inserted
+    def store_diagnosis(inserted: ReadingSet) -> None:
+        if diagnosis is not None:  # built on this very set, which now has its id
             diagnosis.save(force_insert=True)
             inserted.diagnosis = diagnosis
-        audit.record_created(inserted, by=by)
 
-    return _insert_once(reading_set, store_diagnosis_and_audit)
+    return _record_once(reading_set, store_diagnosis, by=by)
 
 
 @transaction.atomic
