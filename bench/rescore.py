@@ -7,7 +7,7 @@ side by side in one run, on the same stored rows:
 - per-row: ``services.diagnose_reading_set`` on a sample (``--sample``), each row fetched
   with its unit as the single POST does, extrapolated to rows per second;
 - vectorised: ``services.rescore`` over every row (what ``manage.py rescore`` runs), with
-  the share spent in the core (``diagnose_batch`` and ``stored_rows``);
+  the share spent in the core (``diagnose_batch`` and ``stored_columns``);
 - floor: the same reads (ids, then ``values_list`` in batches) and the same number of
   Diagnosis rows written the same way (``services.store_diagnoses``), with no computation:
   the content is copied from real diagnoses, so the rows written have the same size;
