@@ -127,7 +127,7 @@ RIMEWATCH_REPORT_CHART_WORKERS = int(os.environ.get("RIMEWATCH_REPORT_CHART_WORK
 
 REST_FRAMEWORK = {
     "DEFAULT_AUTHENTICATION_CLASSES": [
-        "rest_framework.authentication.TokenAuthentication",
+        "fleet.api.authentication.RoleTokenAuthentication",
         "rest_framework.authentication.SessionAuthentication",
     ],
     "DEFAULT_PERMISSION_CLASSES": ["rest_framework.permissions.IsAuthenticated"],

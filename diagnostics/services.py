@@ -29,11 +29,16 @@ _PART_FIELDS = ("id", "kind", "installed_on", "removed_on", "rating_uf_min", "ra
 
 
 def unit_design(unit: Unit, components: Iterable[Component] | None = None) -> UnitDesign:
-    """The core's view of a unit: design data plus the ratings of the capacitors fitted now."""
-    parts = [
-        {f: getattr(c, f) for f in _PART_FIELDS}
-        for c in (unit.components.all() if components is None else components)
-    ]
+    """The core's view of a unit: design data plus the ratings of the capacitors fitted now.
+
+    ``components``: the unit's, where the caller has them (prefetched for many units);
+    otherwise they are read here, unordered: the model's ordering would join the unit, its
+    site and its customer for nothing.
+    """
+    if components is None:
+        parts = list(Component.objects.filter(unit=unit).order_by().values(*_PART_FIELDS))
+    else:
+        parts = [{f: getattr(c, f) for f in _PART_FIELDS} for c in components]
     run, start = (
         start_risk.fitted_capacitor(parts, "run"),
         start_risk.fitted_capacitor(parts, "start"),
@@ -93,10 +98,11 @@ def reading_of(reading_set: ReadingSet) -> Reading:
 
 
 def reading_sets_for_diagnosis():
-    """Reading sets with everything the diagnosis reads, in a fixed number of queries."""
+    """Reading sets with their unit, its site and refrigerant: what the one-row diagnosis
+    reads, but for the unit's capacitors, which ``unit_design`` reads itself."""
     return ReadingSet.objects.select_related(
         "visit_unit__unit__refrigerant", "visit_unit__unit__site"
-    ).prefetch_related("visit_unit__unit__components")
+    )
 
 
 #: Reading-set columns the batch path reads: the core's column names, which the model's
@@ -222,7 +228,7 @@ def rescore(
                     .select_related("refrigerant", "site")
                     .prefetch_related("components")
                 ):
-                    designs[unit.id] = unit_design(unit)
+                    designs[unit.id] = unit_design(unit, unit.components.all())
                     elevations[unit.id] = unit.site.elevation_m
             order = sorted(set(unit_ids.tolist()))
             position = {uid: i for i, uid in enumerate(order)}

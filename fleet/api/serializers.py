@@ -52,6 +52,11 @@ from fleet.models import (
 
 #: How far ahead of the server clock a reading may be stamped (phone clocks drift a little).
 FUTURE_SLACK = dt.timedelta(hours=1)
+#: The times a visit or a reading may carry: [start, end).
+SERVICE_ERA = (
+    dt.datetime(1970, 1, 1, tzinfo=dt.UTC),
+    dt.datetime(2200, 1, 1, tzinfo=dt.UTC),
+)
 
 _REQUEST_UNITS_SCHEMA = {
     "type": "object",
@@ -328,7 +333,18 @@ def _measure_field(help_text: str, **kwargs: Any) -> serializers.FloatField:
     return serializers.FloatField(required=False, allow_null=True, help_text=help_text, **kwargs)
 
 
+def _check_in_service_era(value: dt.datetime) -> dt.datetime:
+    """Refuse times no service record can have. Before 1900 a zone's offset may be local
+    mean time (Chicago's was -05:50:36), which an RFC 3339 date-time cannot even write."""
+    if not SERVICE_ERA[0] <= value < SERVICE_ERA[1]:
+        raise serializers.ValidationError(
+            f"must fall in the years {SERVICE_ERA[0].year} to {SERVICE_ERA[1].year - 1}"
+        )
+    return value
+
+
 def _check_not_future(value: dt.datetime) -> dt.datetime:
+    _check_in_service_era(value)
     if value > timezone.now() + FUTURE_SLACK:
         raise serializers.ValidationError(
             "is in the future (more than an hour ahead of the server clock)"
@@ -575,6 +591,10 @@ class VisitSerializer(ValidatedModelSerializer):
             "created_at",
             "updated_at",
         ]
+        extra_kwargs = {
+            "window_start": {"validators": [_check_in_service_era]},
+            "window_end": {"validators": [_check_in_service_era]},
+        }
 
     def validate(self, attrs: dict[str, Any]) -> dict[str, Any]:
         site = attrs.get("site") or (self.instance.site if self.instance else None)
@@ -656,8 +676,8 @@ def _legs_field(help_text: str) -> serializers.ListField:
 
 
 class VisitRecordSerializer(MeasuredSerializer):
-    """A record hanging off a unit of a visit (``context['visit']``, with its visit units
-    prefetched); ``unit`` must be one of them."""
+    """A record hanging off a unit of a visit (``context['visit']``, its units in
+    ``context['visit_units']``); ``unit`` must be one of them."""
 
     clean_exclude = ("client_id", "visit_unit", "created_by")
 
@@ -674,7 +694,7 @@ class VisitRecordSerializer(MeasuredSerializer):
         unit_id = attrs.pop("visit_unit", {}).get("unit_id")
         if unit_id is None:
             return self.instance.visit_unit if self.instance else None
-        for visit_unit in visit.visit_units.all():
+        for visit_unit in self.context["visit_units"]:
             if visit_unit.unit_id == unit_id:
                 attrs["visit_unit"] = visit_unit
                 return visit_unit

@@ -13,7 +13,8 @@ from typing import Any
 
 from django.contrib.auth import authenticate
 from django.db import transaction
-from django.db.models import Prefetch, QuerySet
+from django.db.models import QuerySet
+from django.http import Http404
 from django.shortcuts import get_object_or_404
 from django.utils.functional import cached_property
 from drf_spectacular.openapi import AutoSchema
@@ -41,6 +42,7 @@ from fleet.api.permissions import (
     visible_sites,
     visible_units,
     visible_visits,
+    visit_in_reach,
 )
 from fleet.api.serializers import (
     AuditEntrySerializer,
@@ -402,11 +404,22 @@ class VisitRecordViewSet(
     change: Callable[..., Any]
 
     @cached_property
+    def _reach(self) -> tuple[Visit, list[VisitUnit]]:
+        """The visit within the caller's reach and its units, each with its unit, site and
+        refrigerant (a new reading set is diagnosed against its unit's); 404 otherwise."""
+        found = visit_in_reach(self.request.user, int(self.kwargs["visit_pk"]))
+        if found is None:
+            # as get_object_or_404 words it for every other record out of reach
+            raise Http404("No Visit matches the given query.")
+        return found
+
+    @property
     def visit(self) -> Visit:
-        # the refrigerant too: a new reading set is diagnosed against its unit's
-        units = VisitUnit.objects.select_related("unit__site", "unit__refrigerant")
-        qs = visible_visits(self.request.user).prefetch_related(Prefetch("visit_units", units))
-        return get_object_or_404(qs, pk=self.kwargs["visit_pk"])
+        return self._reach[0]
+
+    @property
+    def visit_units(self) -> list[VisitUnit]:
+        return self._reach[1]
 
     def check_permissions(self, request: Request) -> None:
         if role_of(request.user) is not None:
@@ -425,7 +438,7 @@ class VisitRecordViewSet(
     def get_serializer_context(self) -> dict[str, Any]:
         context = super().get_serializer_context()
         if not getattr(self, "swagger_fake_view", False) and "visit_pk" in self.kwargs:
-            context["visit"] = self.visit
+            context["visit"], context["visit_units"] = self._reach
         return context
 
     def _check_writable(self) -> None:
@@ -453,9 +466,7 @@ class VisitRecordViewSet(
             return None
         # Most posts are new: a bare look-up of the id first (a fraction of the cost of
         # fetching a record with its relations), the record itself only for a retry.
-        stored_pk = (
-            self.model.objects.filter(client_id=client_id).values_list("pk", flat=True).first()
-        )
+        stored_pk = services.pk_with_client_id(self.model, client_id)
         if stored_pk is None:
             return None
         stored = (
@@ -465,7 +476,7 @@ class VisitRecordViewSet(
         )
         if stored is None:  # deleted since
             return None
-        units = {row.pk: row for row in self.visit.visit_units.all()}
+        units = {row.pk: row for row in self.visit_units}
         if stored.visit_unit_id not in units:  # a unit-on-visit belongs to one visit only
             raise Conflict({"client_id": [ON_ANOTHER_VISIT]})
         stored.visit_unit = units[stored.visit_unit_id]  # its unit and site are in hand

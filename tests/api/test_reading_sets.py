@@ -248,6 +248,10 @@ def test_it_refuses_a_reading_from_the_future(technician, visit_unit):
         client.post(_url(visit_unit), _body(visit_unit, taken_at=soon), format="json").status_code
         == 201
     )
+    ancient = "1800-01-01T12:00:00Z"
+    response = client.post(_url(visit_unit), _body(visit_unit, taken_at=ancient), format="json")
+    assert response.status_code == 400
+    assert response.json() == {"taken_at": ["must fall in the years 1970 to 2199"]}
 
 
 @pytest.mark.parametrize(

@@ -114,6 +114,20 @@ def test_a_visits_units_must_be_at_its_site(office_user):
     assert response.json() == {"window_end": ["must be after the start of the window"]}
 
 
+def test_a_window_outside_the_service_era_is_refused(office_user):
+    """A window in 1275 would be answered with Chicago's local mean time offset
+    (-05:50:36), which is no RFC 3339 date-time (the schema fuzzer found it)."""
+    visit = VisitFactory(status="scheduled")
+    office = token_client(office_user)
+    for field, value in [
+        ("window_start", "1275-06-14T05:40:39Z"),
+        ("window_end", "2250-01-01T00:00:00Z"),
+    ]:
+        response = office.patch(f"/api/v1/visits/{visit.pk}/", {field: value}, format="json")
+        assert response.status_code == 400
+        assert response.json() == {field: ["must fall in the years 1970 to 2199"]}
+
+
 def test_office_changes_to_a_visit_are_audited(office_user, technician):
     """Assigning a technician and a unit is recorded with the old and new lists."""
     visit = VisitFactory(status="scheduled")

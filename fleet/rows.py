@@ -1,0 +1,74 @@
+"""Model instances from statements written once, for the few reads every API request makes.
+
+Building a query set compiles its SQL anew on every request: for the token and role, or a
+visit with its units, sites and refrigerants, that compiling costs more CPU than the
+database spends answering. The statements here are written once from the models' metadata
+(table and column names, never spelled by hand), and each row is turned back into model
+instances the way the ORM does it: every column passes through the backend's and the
+field's converters (SQLite's booleans, dates and decimals), then ``Model.from_db``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from functools import cached_property
+from typing import Any
+
+from django.db import DEFAULT_DB_ALIAS, connection
+from django.db.models import Model
+
+
+def column(model: type[Model], name: str, alias: str | None = None) -> str:
+    """The quoted column of ``model.name``, qualified by ``alias`` if given."""
+    quoted = connection.ops.quote_name(model._meta.get_field(name).column)
+    return f"{alias}.{quoted}" if alias else quoted
+
+
+def table(model: type[Model], alias: str) -> str:
+    return f"{connection.ops.quote_name(model._meta.db_table)} {alias}"
+
+
+class ModelColumns:
+    """All the stored fields of ``model`` under a table alias in a hand-written SELECT."""
+
+    def __init__(self, model: type[Model], alias: str) -> None:
+        self.model, self.alias = model, alias
+        self.fields = model._meta.concrete_fields
+        self._pk = self.fields.index(model._meta.pk)
+
+    def __len__(self) -> int:
+        return len(self.fields)
+
+    @cached_property
+    def sql(self) -> str:
+        """The select list: ``alias."col", ...`` in the model's field order."""
+        return ", ".join(column(self.model, f.name, self.alias) for f in self.fields)
+
+    @cached_property
+    def _converters(self) -> list[tuple[Any, list[Callable]]]:
+        pairs = []
+        for field in self.fields:
+            col = field.get_col(self.alias)
+            converters = connection.ops.get_db_converters(col) + col.get_db_converters(connection)
+            pairs.append((col, converters))
+        return pairs
+
+    def instance(self, values: Sequence[Any]) -> Model | None:
+        """The model instance of one row's slice of values (None for a LEFT JOIN's miss)."""
+        if values[self._pk] is None:  # a LEFT JOIN that found no row
+            return None  # type: ignore[return-value]
+        converted = []
+        for value, (col, converters) in zip(values, self._converters, strict=True):
+            for convert in converters:
+                value = convert(value, col, connection)
+            converted.append(value)
+        return self.model.from_db(DEFAULT_DB_ALIAS, [f.attname for f in self.fields], converted)
+
+
+def split(row: Sequence[Any], *parts: ModelColumns) -> list[Any]:
+    """``row`` cut into one instance per part, in order; the rest of the row is dropped."""
+    out, start = [], 0
+    for part in parts:
+        out.append(part.instance(row[start : start + len(part)]))
+        start += len(part)
+    return out
