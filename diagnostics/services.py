@@ -20,6 +20,7 @@ from diagnostics.core import flags, leaks, start_risk
 from diagnostics.core.types import SIGHT_GLASS_STATES, Reading, UnitDesign
 from fleet.choices import RefrigerantEventKind
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit
+from fleet.rows import instances_where
 
 from .history import unit_histories
 from .models import Diagnosis, Flag, LeakRate
@@ -32,13 +33,13 @@ def unit_design(unit: Unit, components: Iterable[Component] | None = None) -> Un
     """The core's view of a unit: design data plus the ratings of the capacitors fitted now.
 
     ``components``: the unit's, where the caller has them (prefetched for many units);
-    otherwise they are read here, unordered: the model's ordering would join the unit, its
-    site and its customer for nothing.
+    otherwise they are read here by a statement written once (``fleet.rows``): a new
+    reading set is diagnosed on every post, and the model's ordering would join the unit,
+    its site and its customer for nothing.
     """
     if components is None:
-        parts = list(Component.objects.filter(unit=unit).order_by().values(*_PART_FIELDS))
-    else:
-        parts = [{f: getattr(c, f) for f in _PART_FIELDS} for c in components]
+        components = instances_where(Component, "unit", unit.pk)
+    parts = [{f: getattr(c, f) for f in _PART_FIELDS} for c in components]
     run, start = (
         start_risk.fitted_capacitor(parts, "run"),
         start_risk.fitted_capacitor(parts, "start"),

@@ -1,4 +1,5 @@
-"""Model instances from statements written once, for the few reads every API request makes.
+"""Model instances from statements written once, for the few reads and writes every API
+request makes.
 
 Building a query set compiles its SQL anew on every request: for the token and role, or a
 visit with its units, sites and refrigerants, that compiling costs more CPU than the
@@ -11,11 +12,11 @@ field's converters (SQLite's booleans, dates and decimals), then ``Model.from_db
 from __future__ import annotations
 
 from collections.abc import Callable, Sequence
-from functools import cached_property
+from functools import cache, cached_property
 from typing import Any
 
 from django.db import DEFAULT_DB_ALIAS, connection
-from django.db.models import Model
+from django.db.models import Field, Model
 
 
 def column(model: type[Model], name: str, alias: str | None = None) -> str:
@@ -72,3 +73,46 @@ def split(row: Sequence[Any], *parts: ModelColumns) -> list[Any]:
         out.append(part.instance(row[start : start + len(part)]))
         start += len(part)
     return out
+
+
+@cache
+def _where_statement(model: type[Model], field: str) -> tuple[ModelColumns, str]:
+    columns = ModelColumns(model, "x")
+    return columns, (
+        f"SELECT {columns.sql} FROM {table(model, 'x')} WHERE {column(model, field, 'x')} = %s"
+    )
+
+
+def instances_where(model: type[Model], field: str, value: Any) -> list[Model]:
+    """The instances of ``model`` whose ``field`` equals ``value``, unordered."""
+    columns, statement = _where_statement(model, field)
+    prepared = model._meta.get_field(field).get_db_prep_value(value, connection)
+    with connection.cursor() as cursor:
+        cursor.execute(statement, [prepared])
+        return [columns.instance(row) for row in cursor.fetchall()]
+
+
+@cache
+def _insert_statement(model: type[Model]) -> tuple[list[Field], str]:
+    meta = model._meta
+    fields = [f for f in meta.local_concrete_fields if f is not meta.auto_field]
+    names = ", ".join(column(model, f.name) for f in fields)
+    marks = ", ".join(["%s"] * len(fields))
+    statement = f"INSERT INTO {connection.ops.quote_name(meta.db_table)} ({names}) VALUES ({marks})"
+    if connection.features.can_return_columns_from_insert:
+        statement += f" RETURNING {column(model, meta.pk.name)}"
+    return fields, statement
+
+
+def insert(instance: Model) -> None:
+    """Store a new ``instance`` as ``save(force_insert=True)`` would: each field's
+    ``pre_save`` (``auto_now_add``) and database preparation, then its id from the
+    database. Foreign keys must be set by id or by a saved instance. No model signals are
+    sent; nothing in Rimewatch listens for them."""
+    fields, statement = _insert_statement(type(instance))
+    values = [f.get_db_prep_save(f.pre_save(instance, True), connection) for f in fields]
+    with connection.cursor() as cursor:
+        cursor.execute(statement, values)
+        pk = cursor.fetchone()[0] if cursor.description else cursor.lastrowid
+    instance.pk = pk
+    instance._state.adding, instance._state.db = False, DEFAULT_DB_ALIAS

@@ -40,7 +40,7 @@ from diagnostics.services import (
 from . import audit
 from .choices import VISIT_TRANSITIONS, VisitKind, VisitStatus
 from .models import AuditAction, ReadingSet, RefrigerantEvent, Unit, Visit, VisitUnit
-from .rows import column
+from .rows import column, insert
 
 log = logging.getLogger(__name__)
 
@@ -263,7 +263,7 @@ def _insert_once(record: R, then: Callable[[R], None]) -> Stored[R]:
     inserted = False
     try:
         with transaction.atomic():
-            record.save(force_insert=True)
+            insert(record)
             inserted = True
             then(record)
     except IntegrityError:
@@ -323,7 +323,8 @@ def record_reading_set(reading_set: ReadingSet, *, by) -> Stored[ReadingSet]:
 
     def store_diagnosis(inserted: ReadingSet) -> None:
         if diagnosis is not None:  # built on this very set, which now has its id
-            diagnosis.save(force_insert=True)
+            diagnosis.reading_set = inserted
+            insert(diagnosis)
             inserted.diagnosis = diagnosis
 
     return _record_once(reading_set, store_diagnosis, by=by)

@@ -1,15 +1,27 @@
-"""Statements written once (fleet.rows) give back the same instances the ORM would: every
-stored field equal, and of the same Python type (dates, booleans and decimals included,
-which SQLite stores as text and integers)."""
+"""Statements written once (fleet.rows) give back the same instances the ORM would (every
+stored field equal, and of the same Python type: dates, booleans and decimals included,
+which SQLite stores as text and integers), and store the same rows the ORM would."""
 
 from __future__ import annotations
 
 import pytest
 from django.db import connection
+from django.utils import timezone
 
-from fleet.models import Component, Refrigerant, Site, Unit, Visit, VisitUnit
-from fleet.rows import ModelColumns, column, split, table
-from tests.factories import ComponentFactory, VisitFactory, VisitUnitFactory
+from diagnostics.models import Diagnosis
+from fleet import audit
+from fleet.models import (
+    AuditEntry,
+    Component,
+    ReadingSet,
+    Refrigerant,
+    Site,
+    Unit,
+    Visit,
+    VisitUnit,
+)
+from fleet.rows import ModelColumns, column, insert, split, table
+from tests.factories import ComponentFactory, ReadingSetFactory, VisitFactory, VisitUnitFactory
 
 pytestmark = pytest.mark.django_db
 
@@ -65,3 +77,53 @@ def test_a_left_join_that_found_nothing_is_none():
     found, missing = split(row, visits, units)
     assert found.pk == visit.pk
     assert missing is None
+
+
+def test_an_insert_stores_what_the_orm_save_stores():
+    """A reading set (a UUID, a JSON dict, auto_now_add), its diagnosis (bytes) and an
+    audit entry (JSON, a content type), each stored once by ``insert`` and once by
+    ``save``: the rows read back equal but for their ids and the creation stamps."""
+    reading_set = ReadingSetFactory.build(
+        visit_unit=VisitUnitFactory(),
+        entered_units={"temperature": "F"},
+        coil_iced=False,
+        compressor_amps_1=8.5,
+    )
+    twin = ReadingSetFactory.build(
+        visit_unit=reading_set.visit_unit,
+        entered_units={"temperature": "F"},
+        coil_iced=False,
+        compressor_amps_1=8.5,
+    )
+    twin.taken_at = reading_set.taken_at
+    insert(reading_set)
+    twin.save(force_insert=True)
+    assert reading_set.pk is not None
+    assert reading_set._state.adding is False
+    skip = {"id", "client_id", "created_at"}
+    _equal_rows(ReadingSet, reading_set.pk, twin.pk, skip)
+
+    values = dict(
+        algorithm_version="t", score=71.5, computed_at=timezone.now(), packed=b"\x00\x01\xff"
+    )
+    ours, theirs = (
+        Diagnosis(reading_set=reading_set, **values),
+        Diagnosis(reading_set=twin, **values),
+    )
+    insert(ours)
+    theirs.save(force_insert=True)
+    _equal_rows(Diagnosis, ours.pk, theirs.pk, {"id", "reading_set_id"})
+
+    entry = audit.record_created(reading_set, by=None)  # stored by insert
+    orm = AuditEntry.objects.create(
+        **{f.attname: getattr(entry, f.attname) for f in AuditEntry._meta.concrete_fields[1:]}
+    )
+    _equal_rows(AuditEntry, entry.pk, orm.pk, {"id"})
+    assert entry.changes["client_id"] == [None, str(reading_set.client_id)]
+
+
+def _equal_rows(model, first: int, second: int, skip: set[str]) -> None:
+    a, b = (_fields(model.objects.get(pk=pk)) for pk in (first, second))
+    assert {k: v for k, v in a.items() if k not in skip} == {
+        k: v for k, v in b.items() if k not in skip
+    }
