@@ -144,7 +144,8 @@ def _context_free(field: serializers.Field) -> bool:
 
 
 class PlainRepresentation:
-    """A response built without DRF's per-instance field machinery.
+    """A response built without DRF's per-instance field machinery, and fields built once
+    per class for validation (``get_fields``).
 
     DRF builds and binds every field of a ``ModelSerializer`` afresh for each serializer
     instance (a deep copy of the declared fields, the model fields looked up again) before
@@ -157,6 +158,28 @@ class PlainRepresentation:
     """
 
     _plans: ClassVar[dict[type, list[tuple[str, serializers.Field, str]] | None]] = {}
+    #: Per class: its fields as built once, unbound; None where one of them is of a kind
+    #: not known to be free of per-request state.
+    _prototypes: ClassVar[dict[type, dict[str, serializers.Field] | None]] = {}
+
+    def get_fields(self) -> dict[str, serializers.Field]:
+        """DRF builds every field anew for each serializer instance, to validate a request
+        too: the declared ones deep-copied (which runs each ``__init__`` again), the model
+        ones looked up again. Fields of the known kinds hold nothing of a request until
+        they are bound, so a class builds them once and each instance binds shallow copies.
+        """
+        cls = type(self)
+        if cls not in PlainRepresentation._prototypes:
+            built = super().get_fields()  # type: ignore[misc]
+            reusable = all(
+                isinstance(f, UnitsField | serializers.SerializerMethodField) or _context_free(f)
+                for f in built.values()
+            )
+            PlainRepresentation._prototypes[cls] = built if reusable else None
+        prototypes = PlainRepresentation._prototypes[cls]
+        if prototypes is None:
+            return super().get_fields()  # type: ignore[misc]
+        return {name: copy.copy(field) for name, field in prototypes.items()}
 
     @classmethod
     def _plan(cls) -> list[tuple[str, serializers.Field, str]] | None:

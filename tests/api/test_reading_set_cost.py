@@ -135,3 +135,55 @@ def test_a_serializer_with_a_field_that_reads_its_context_keeps_drfs_path(world)
 
     assert Linked._plan() is None
     assert api_serializers.CustomerSerializer._plan() is not None
+
+
+def test_fields_built_once_per_class_validate_as_drfs_own(world, rf):
+    """Each serializer instance binds its own copies of the class's fields (never the
+    prototypes, never another instance's), of the same names and kinds DRF builds; and a
+    body validated through them gives DRF's own validated data and errors."""
+    request = rf.post("/")
+    for serializer_class, _ in _records(world):
+        first, second = (serializer_class(context={"request": request}) for _ in range(2))
+        drf = serializers.ModelSerializer.get_fields(first)
+        assert list(first.fields) == list(drf), serializer_class
+        for name, field in first.fields.items():
+            assert type(field) is type(drf[name]), (serializer_class, name)
+            assert field.parent is first
+            assert field is not second.fields[name]
+            assert (
+                field is not api_serializers.PlainRepresentation._prototypes[serializer_class][name]
+            )
+    context = {
+        "request": request,
+        "visit": world.own_visit,
+        "visit_units": list(world.own_visit.visit_units.select_related("unit__site")),
+    }
+
+    class Fresh(api_serializers.ReadingSetSerializer):
+        def get_fields(self):
+            return serializers.ModelSerializer.get_fields(self)
+
+    good = {
+        **_body(world),
+        "compressor_amps": [8.1, 8.3],
+        "sight_glass": "clear",
+        "taken_at": "2026-01-05T10:00:00-06:00",
+    }
+    bad = {**good, "box_temp": "warm", "unit": 0, "supply_volts": [-5]}
+    for body in (good, bad):
+        ours = api_serializers.ReadingSetSerializer(data=body, context=context)
+        theirs = Fresh(data=body, context=context)
+        assert ours.is_valid() is theirs.is_valid() is (body is good)
+        assert ours.errors == theirs.errors
+        assert ours.validated_data == theirs.validated_data
+
+
+def test_a_serializer_with_a_field_that_reads_its_context_builds_fields_as_drf(world):
+    class Linked(api_serializers.CustomerSerializer):
+        link = serializers.HyperlinkedIdentityField(view_name="customer-detail")
+
+        class Meta(api_serializers.CustomerSerializer.Meta):
+            fields = [*api_serializers.CustomerSerializer.Meta.fields, "link"]
+
+    assert Linked().fields["link"].parent is not None
+    assert api_serializers.PlainRepresentation._prototypes[Linked] is None
