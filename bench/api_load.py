@@ -1,7 +1,8 @@
 """Load on the reading-set endpoint, against the floor of a bare DRF create, in one run.
 
-Serves the API with gunicorn (2 sync workers) on 127.0.0.1 against a throwaway PostgreSQL
-(scripts/with-postgres.sh), then has concurrent clients (asyncio + httpx) post reading sets
+Serves the API with gunicorn (2 sync workers, config/gunicorn.conf.py) on 127.0.0.1 against
+a throwaway PostgreSQL (scripts/with-postgres.sh), then has concurrent clients (asyncio +
+httpx) post reading sets
 with technicians' tokens for a bounded time, re-sending 10 % of the accepted ones as a phone
 would after a dropped answer; beside it the floor: a minimal DRF create of a row of the
 same shape (no authentication, no throttling, no diagnosis, no audit) served the same way
@@ -179,6 +180,8 @@ def _serve(app: str, port: int) -> subprocess.Popen:
             sys.executable,
             "-m",
             "gunicorn",
+            "--config",
+            str(ROOT / "config" / "gunicorn.conf.py"),
             app,
             "--workers",
             "2",
