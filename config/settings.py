@@ -89,6 +89,16 @@ DATABASES = {
         conn_max_age=int(os.environ.get("DB_CONN_MAX_AGE", "60")),
     )
 }
+if DATABASES["default"]["ENGINE"] == "django.db.backends.postgresql" and (
+    os.environ.get("DB_PREPARED_STATEMENTS", "1") == "1"
+):
+    # Parameters bound by the server, and psycopg prepares a statement once a connection
+    # has sent it five times: every API request sends the same few, and PostgreSQL then
+    # skips planning them (a visit with its units took 0.44 ms to plan, 0.12 to run).
+    # DB_PREPARED_STATEMENTS=0 behind a pooler that cannot keep prepared statements.
+    DATABASES["default"].setdefault("OPTIONS", {}).update(
+        server_side_binding=True, prepare_threshold=5
+    )
 DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"
 
 AUTH_PASSWORD_VALIDATORS = [

@@ -33,3 +33,27 @@ def test_check_deploy_has_no_warnings(tmp_path):
     )
     assert result.returncode == 0, result.stdout + result.stderr
     assert "no issues" in result.stdout
+
+
+def _database_options(**env: str) -> str:
+    code = "import config.settings as s; print(sorted(s.DATABASES['default'].get('OPTIONS', {}).items()))"
+    result = subprocess.run(
+        [sys.executable, "-c", code],
+        cwd=ROOT,
+        env={**os.environ, "DJANGO_SETTINGS_MODULE": "config.settings", **env},
+        capture_output=True,
+        text=True,
+        timeout=60,
+        check=True,
+    )
+    return result.stdout.strip()
+
+
+def test_postgresql_prepares_the_statements_it_is_sent_often():
+    """On PostgreSQL the server binds parameters and psycopg prepares a statement sent five
+    times; DB_PREPARED_STATEMENTS=0 turns that off (for a pooler that cannot keep them)."""
+    url = "postgres://rimewatch@127.0.0.1:5432/rimewatch"
+    prepared = "[('prepare_threshold', 5), ('server_side_binding', True)]"
+    assert _database_options(DATABASE_URL=url) == prepared
+    assert _database_options(DATABASE_URL=url, DB_PREPARED_STATEMENTS="0") == "[]"
+    assert _database_options(DATABASE_URL="sqlite:////tmp/x.sqlite3") == "[]"
