@@ -36,7 +36,10 @@ def test_check_deploy_has_no_warnings(tmp_path):
 
 
 def _database_options(**env: str) -> str:
-    code = "import config.settings as s; print(sorted(s.DATABASES['default'].get('OPTIONS', {}).items()))"
+    code = (
+        "import config.settings as s; "
+        "print(sorted(s.DATABASES['default'].get('OPTIONS', {}).items()))"
+    )
     result = subprocess.run(
         [sys.executable, "-c", code],
         cwd=ROOT,
