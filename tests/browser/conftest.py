@@ -90,3 +90,22 @@ def shot():
         return path
 
     return take
+
+
+@pytest.fixture(scope="session", autouse=True)
+def _no_session_left_on_the_test_database(django_db_setup, django_db_blocker):
+    """The browser tests leave one idle PostgreSQL session behind. Its last statement is
+    one of a test body's own queries, made while Playwright's sync API runs; most likely
+    that code runs in a context of its own, where Django holds another connection that its
+    teardown never closes. PostgreSQL refuses to drop a database with a session open, so
+    any such session is ended before the test database is dropped."""
+    yield
+    from django.db import connection
+
+    if connection.vendor != "postgresql":
+        return
+    with django_db_blocker.unblock(), connection.cursor() as cursor:
+        cursor.execute(
+            "SELECT pg_terminate_backend(pid) FROM pg_stat_activity "
+            "WHERE datname = current_database() AND pid <> pg_backend_pid()"
+        )
