@@ -25,7 +25,11 @@ pytestmark = pytest.mark.django_db
 
 
 def _reviewed_visit(unit, days_ago: int) -> Visit:
-    start = timezone.now() - dt.timedelta(days=days_ago)
+    """Reviewed at noon ``days_ago`` calendar days back. Not ``days_ago`` times 24 hours:
+    from 23:30 on 1 December in Chicago that lands at 00:30 on 18 October, 44 calendar days
+    back, as daylight saving time ended in between."""
+    noon = timezone.localtime().replace(hour=12, minute=0, second=0, microsecond=0)
+    start = noon - dt.timedelta(days=days_ago)  # wall-clock arithmetic in the local zone
     visit = VisitFactory(
         site=unit.site,
         status="reviewed",
