@@ -7,15 +7,18 @@ with technicians' tokens for a bounded time, re-sending 10 % of the accepted one
 would after a dropped answer; beside it the floor: a minimal DRF create of a row of the
 same shape (no authentication, no throttling, no diagnosis, no audit) served the same way
 and loaded the same way. The two are loaded in turns (``--rounds``), so a change in what
-else the machine runs falls on both alike. A closed loop of clients keeps both saturated,
-so its latency is mostly queue (clients / rate); the API is then also paced at half the
-rate it reached, new posts arriving at random, for the latency at a working load. Prints
+else the machine runs falls on both alike. A closed loop of clients keeps both saturated:
+two clients per worker, so each worker has the next request waiting as it answers one.
+More clients add no throughput, only queue in front of the workers (latency grows as
+clients / rate: with 8, the API answered at the same rate with twice the latency); fewer
+leave a worker idle between requests. The API is then also paced at half the rate it
+reached, new posts arriving at random, for the latency at a working load. Prints
 requests/s, median and p99 latency for each, the ratios, and the count check: rows stored
 == distinct client_ids accepted, and no duplicates. Where /proc tells, it also prints the
 CPU the gunicorn workers spent per request: on a machine shared with other work the rates
 move with the neighbours' load, the CPU per request much less.
 
-    .venv/bin/python bench/api_load.py [--seconds 8] [--clients 8] [--rounds 4]
+    .venv/bin/python bench/api_load.py [--seconds 8] [--clients 4] [--rounds 4]
 
 Traffic goes to 127.0.0.1 only and stops by itself. The write throttle's rate is raised
 for the run (its counting still runs) so it does not cap the measurement.
@@ -42,6 +45,8 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent.parent
 RETRY_SHARE = 0.10
 TECHNICIANS = 8
+#: gunicorn workers, for the API and the floor alike (the speed goals are set for two).
+WORKERS = 2
 
 
 # --- the floor: served by gunicorn as 'api_load:floor_application()' ----------------------
@@ -185,7 +190,7 @@ def _serve(app: str, port: int) -> subprocess.Popen:
             str(ROOT / "config" / "gunicorn.conf.py"),
             app,
             "--workers",
-            "2",
+            str(WORKERS),
             "--bind",
             f"127.0.0.1:{port}",
             "--log-level",
@@ -445,7 +450,9 @@ def _summary(name: str, tally: Tally) -> tuple[float, float, float]:
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--seconds", type=float, default=8.0)
-    parser.add_argument("--clients", type=int, default=8)
+    parser.add_argument(
+        "--clients", type=int, default=2 * WORKERS, help="concurrent clients (two per worker)"
+    )
     parser.add_argument("--rounds", type=int, default=4, help="turns of API and floor")
     args = parser.parse_args()
     if not os.environ.get("DATABASE_URL", "").startswith("postgres"):
@@ -467,7 +474,7 @@ def main() -> None:
     gc.freeze()
     print(
         f"API load: {args.clients} clients, {args.seconds:g} s each in {args.rounds} turns, "
-        f"gunicorn 2 workers, PostgreSQL; {RETRY_SHARE:.0%} of the API posts are retries"
+        f"gunicorn {WORKERS} workers, PostgreSQL; {RETRY_SHARE:.0%} of the API posts are retries"
     )
     api_warm, api, floor, paced = _run(phones, args.clients, args.seconds, args.rounds)
     api_rate, api_median, api_p99 = _summary("reading sets (full API)", api)
