@@ -14,9 +14,11 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import pytest
+from django.contrib.auth.models import User
 from django.utils import timezone
 from rest_framework.test import APIClient
 
+from fleet.api.permissions import visible_visits, visit_in_reach
 from fleet.models import Visit
 
 from .conftest import World, token_client
@@ -357,3 +359,23 @@ def test_absurd_ids_and_queries_are_4xx_never_500(world, url):
     assert response.status_code in (200, 400, 404)
     if response.status_code == 200:
         assert response.json()["count"] == 0
+
+
+def test_the_one_statement_reach_agrees_with_visible_visits(world, outsider):
+    """``visit_in_reach`` (one hand-written statement) reaches exactly the visits that
+    ``visible_visits`` (the query set every list uses) holds, for every role, and brings
+    each visit's units with it."""
+    superuser = User.objects.create_superuser("root", password="x")  # no role group: office
+    users = [world.office, world.technician, world.other_technician, world.manager, outsider]
+    for user in [*users, superuser]:
+        for visit in (world.own_visit, world.other_visit):
+            found = visit_in_reach(User.objects.get(pk=user.pk), visit.pk)
+            visible = visible_visits(User.objects.get(pk=user.pk)).filter(pk=visit.pk).exists()
+            assert (found is not None) is visible, (user.username, visit.reference)
+            if found is not None:
+                got, units = found
+                assert got.pk == visit.pk
+                assert [vu.pk for vu in units] == list(
+                    visit.visit_units.order_by("id").values_list("pk", flat=True)
+                )
+                assert all(vu.unit.site.pk == visit.site_id for vu in units)
