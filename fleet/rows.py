@@ -93,6 +93,24 @@ def instances_where(model: type[Model], field: str, value: Any) -> list[Model]:
 
 
 @cache
+def _pk_statement(model: type[Model], field: str) -> str:
+    return (
+        f"SELECT {column(model, model._meta.pk.name)} "
+        f"FROM {connection.ops.quote_name(model._meta.db_table)} WHERE {column(model, field)} = %s"
+    )
+
+
+def pk_where(model: type[Model], field: str, value: Any) -> Any | None:
+    """The primary key of the row of ``model`` whose (unique) ``field`` equals ``value``;
+    None if there is none."""
+    prepared = model._meta.get_field(field).get_db_prep_value(value, connection)
+    with connection.cursor() as cursor:
+        cursor.execute(_pk_statement(model, field), [prepared])
+        row = cursor.fetchone()
+    return None if row is None else row[0]
+
+
+@cache
 def _insert_statement(model: type[Model]) -> tuple[list[Field], str]:
     meta = model._meta
     fields = [f for f in meta.local_concrete_fields if f is not meta.auto_field]

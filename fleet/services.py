@@ -16,16 +16,14 @@ from __future__ import annotations
 
 import datetime as dt
 import logging
-import uuid
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from contextlib import contextmanager, nullcontext
 from dataclasses import dataclass
-from functools import cache
 from typing import Generic, TypeVar
 from zoneinfo import ZoneInfo
 
 from django.contrib.auth.models import AbstractBaseUser
-from django.db import IntegrityError, connection, models, transaction
+from django.db import IntegrityError, models, transaction
 from django.utils import timezone
 
 from diagnostics.core.maintenance import VisitProposal
@@ -40,7 +38,7 @@ from diagnostics.services import (
 from . import audit
 from .choices import VISIT_TRANSITIONS, VisitKind, VisitStatus
 from .models import AuditAction, ReadingSet, RefrigerantEvent, Unit, Visit, VisitUnit
-from .rows import column, insert
+from .rows import insert
 
 log = logging.getLogger(__name__)
 
@@ -223,24 +221,6 @@ class Stored(Generic[R]):
 
     record: R
     created: bool
-
-
-@cache
-def _client_id_statement(model: type[models.Model]) -> str:
-    return (
-        f"SELECT {column(model, 'id')} FROM {connection.ops.quote_name(model._meta.db_table)} "
-        f"WHERE {column(model, 'client_id')} = %s"
-    )
-
-
-def pk_with_client_id(model: type[models.Model], client_id: uuid.UUID) -> int | None:
-    """The id of the record stored under ``client_id``, if any. Every new record asks this
-    first, so it is a statement written once (``fleet.rows``), not compiled each time."""
-    value = model._meta.get_field("client_id").get_db_prep_value(client_id, connection)
-    with connection.cursor() as cursor:
-        cursor.execute(_client_id_statement(model), [value])
-        row = cursor.fetchone()
-    return None if row is None else row[0]
 
 
 def stored_with_client_id(model: type[R], client_id) -> R | None:

@@ -73,6 +73,7 @@ from fleet.models import (
     Visit,
     VisitUnit,
 )
+from fleet.rows import pk_where
 
 UNITS_PARAMETER = OpenApiParameter(
     "units",
@@ -466,7 +467,7 @@ class VisitRecordViewSet(
             return None
         # Most posts are new: a bare look-up of the id first (a fraction of the cost of
         # fetching a record with its relations), the record itself only for a retry.
-        stored_pk = services.pk_with_client_id(self.model, client_id)
+        stored_pk = pk_where(self.model, "client_id", client_id)  # written once (fleet.rows)
         if stored_pk is None:
             return None
         stored = (
