@@ -101,6 +101,17 @@ if DATABASES["default"]["ENGINE"] == "django.db.backends.postgresql" and (
     )
 DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"
 
+# The throttles count in the cache, so it must be one for every worker process: Django's
+# default (memory) is per process, and each of N gunicorn workers would allow the full rate.
+# Files under var/ are shared by the workers of one machine; several machines need a
+# shared cache server instead.
+CACHES = {
+    "default": {
+        "BACKEND": "django.core.cache.backends.filebased.FileBasedCache",
+        "LOCATION": str(VAR_DIR / "cache"),
+    }
+}
+
 AUTH_PASSWORD_VALIDATORS = [
     {"NAME": "django.contrib.auth.password_validation.UserAttributeSimilarityValidator"},
     {"NAME": "django.contrib.auth.password_validation.MinimumLengthValidator"},

@@ -10,6 +10,8 @@ from .settings import *  # noqa: F403
 PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]
 EMAIL_BACKEND = "django.core.mail.backends.locmem.EmailBackend"
 DATABASES["default"]["CONN_MAX_AGE"] = 0  # noqa: F405
+# One process, and every test starts with no throttle counts: memory is enough.
+CACHES = {"default": {"BACKEND": "django.core.cache.backends.locmem.LocMemCache"}}
 
 # Generated reports go to a throwaway folder, not the developer's var/media.
 MEDIA_ROOT = Path(tempfile.mkdtemp(prefix="rimewatch-test-media-"))

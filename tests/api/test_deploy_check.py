@@ -60,3 +60,30 @@ def test_postgresql_prepares_the_statements_it_is_sent_often():
     assert _database_options(DATABASE_URL=url) == prepared
     assert _database_options(DATABASE_URL=url, DB_PREPARED_STATEMENTS="0") == "[]"
     assert _database_options(DATABASE_URL="sqlite:////tmp/x.sqlite3") == "[]"
+
+
+def test_the_throttles_count_in_a_cache_every_worker_process_shares(tmp_path):
+    """What one process counts (a sign-in attempt, a write), another process sees: under
+    gunicorn each worker is a process, and a cache of its own would let each one allow
+    the full rate."""
+    env = {
+        **os.environ,
+        "DJANGO_SETTINGS_MODULE": "config.settings",
+        "RIMEWATCH_VAR_DIR": str(tmp_path),
+    }
+
+    def run(code: str) -> str:
+        setup = "import django; django.setup(); from django.core.cache import cache; "
+        result = subprocess.run(
+            [sys.executable, "-c", setup + code],
+            cwd=ROOT,
+            env=env,
+            capture_output=True,
+            text=True,
+            timeout=60,
+            check=True,
+        )
+        return result.stdout.strip()
+
+    run("cache.set('throttle_auth_10.0.0.7', [1.0, 2.0], 60)")
+    assert run("print(cache.get('throttle_auth_10.0.0.7'))") == "[1.0, 2.0]"

@@ -14,6 +14,7 @@ from rest_framework.test import APIClient
 
 from fleet.api.authentication import RoleTokenAuthentication
 from fleet.api.permissions import role_of
+from fleet.api.throttles import AuthRateThrottle
 
 pytestmark = pytest.mark.django_db
 
@@ -142,3 +143,27 @@ def test_an_unknown_token_or_an_inactive_user_is_401(technician):
     response = phone.get("/api/v1/visits/")
     assert response.status_code == 401
     assert response.json() == {"detail": "User inactive or deleted."}
+
+
+def test_the_cell_rate_allows_the_rate_at_once_then_one_per_interval(rf, monkeypatch):
+    """3/minute: three attempts at once pass, the fourth waits 20 s (its Retry-After); 20 s
+    on, one more passes and the next waits again; after a quiet minute all three are back.
+    Worked by hand from the algorithm (interval 20 s, tolerance 40 s)."""
+    clock = [1000.0]
+    monkeypatch.setattr(AuthRateThrottle, "get_rate", lambda self: "3/minute")
+    monkeypatch.setattr(AuthRateThrottle, "timer", lambda self: clock[0])
+    request = rf.post(URL, REMOTE_ADDR="10.0.0.9")
+
+    def attempt() -> tuple[bool, float | None]:
+        throttle = AuthRateThrottle()
+        allowed = throttle.allow_request(request, None)
+        return allowed, None if allowed else throttle.wait()
+
+    assert [attempt() for _ in range(4)] == [(True, None)] * 3 + [(False, 20.0)]
+    clock[0] += 5
+    assert attempt() == (False, 15.0)
+    clock[0] += 15
+    assert attempt() == (True, None)
+    assert attempt() == (False, 20.0)
+    clock[0] += 60
+    assert [attempt()[0] for _ in range(4)] == [True, True, True, False]
