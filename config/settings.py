@@ -108,7 +108,7 @@ DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"
 CACHES = {
     "default": {
         "BACKEND": "django.core.cache.backends.filebased.FileBasedCache",
-        "LOCATION": str(VAR_DIR / "cache"),
+        "LOCATION": str(VAR_DIR / "django-cache"),  # var/cache holds the saturation tables
     }
 }
 
