@@ -52,7 +52,7 @@ def main() -> None:
     parser.add_argument("--keep", type=Path, help="write the PDFs into this folder")
     parser.add_argument(
         "--variants",
-        default="svg-1,svg-2,png-1",
+        default="png-2,png-1,svg-2",
         help="chart format and worker count to compare (the first is the baseline)",
     )
     args = parser.parse_args()

@@ -143,8 +143,11 @@ RIMEWATCH_DISPLAY_UNITS = os.environ.get("RIMEWATCH_DISPLAY_UNITS", "us")
 RIMEWATCH_LEAK_RULE_SET = os.environ.get("RIMEWATCH_LEAK_RULE_SET", "us_epa")
 RIMEWATCH_LEAK_RATE_METHOD = os.environ.get("RIMEWATCH_LEAK_RATE_METHOD", "rolling_average")
 
-# Processes drawing report charts in parallel (1: in-process; measured in bench/report.py).
-RIMEWATCH_REPORT_CHART_WORKERS = int(os.environ.get("RIMEWATCH_REPORT_CHART_WORKERS", "1"))
+# Processes drawing report charts in parallel (1: in-process; measured in bench/report.py):
+# one per core, up to four.
+RIMEWATCH_REPORT_CHART_WORKERS = int(
+    os.environ.get("RIMEWATCH_REPORT_CHART_WORKERS", str(min(4, os.cpu_count() or 1)))
+)
 
 REST_FRAMEWORK = {
     "DEFAULT_AUTHENTICATION_CLASSES": [
