@@ -25,8 +25,10 @@ def column(model: type[Model], name: str, alias: str | None = None) -> str:
     return f"{alias}.{quoted}" if alias else quoted
 
 
-def table(model: type[Model], alias: str) -> str:
-    return f"{connection.ops.quote_name(model._meta.db_table)} {alias}"
+def table(model: type[Model], alias: str | None = None) -> str:
+    """The quoted table of ``model``, named ``alias`` if given."""
+    quoted = connection.ops.quote_name(model._meta.db_table)
+    return f"{quoted} {alias}" if alias else quoted
 
 
 class ModelColumns:
@@ -35,6 +37,7 @@ class ModelColumns:
     def __init__(self, model: type[Model], alias: str) -> None:
         self.model, self.alias = model, alias
         self.fields = model._meta.concrete_fields
+        self._attnames = [f.attname for f in self.fields]
         self._pk = self.fields.index(model._meta.pk)
 
     def __len__(self) -> int:
@@ -57,13 +60,13 @@ class ModelColumns:
     def instance(self, values: Sequence[Any]) -> Model | None:
         """The model instance of one row's slice of values (None for a LEFT JOIN's miss)."""
         if values[self._pk] is None:  # a LEFT JOIN that found no row
-            return None  # type: ignore[return-value]
+            return None
         converted = []
         for value, (col, converters) in zip(values, self._converters, strict=True):
             for convert in converters:
                 value = convert(value, col, connection)
             converted.append(value)
-        return self.model.from_db(DEFAULT_DB_ALIAS, [f.attname for f in self.fields], converted)
+        return self.model.from_db(DEFAULT_DB_ALIAS, self._attnames, converted)
 
 
 def split(row: Sequence[Any], *parts: ModelColumns) -> list[Any]:
@@ -96,7 +99,7 @@ def instances_where(model: type[Model], field: str, value: Any) -> list[Model]:
 def _pk_statement(model: type[Model], field: str) -> str:
     return (
         f"SELECT {column(model, model._meta.pk.name)} "
-        f"FROM {connection.ops.quote_name(model._meta.db_table)} WHERE {column(model, field)} = %s"
+        f"FROM {table(model)} WHERE {column(model, field)} = %s"
     )
 
 
@@ -116,7 +119,7 @@ def _insert_statement(model: type[Model]) -> tuple[list[Field], str]:
     fields = [f for f in meta.local_concrete_fields if f is not meta.auto_field]
     names = ", ".join(column(model, f.name) for f in fields)
     marks = ", ".join(["%s"] * len(fields))
-    statement = f"INSERT INTO {connection.ops.quote_name(meta.db_table)} ({names}) VALUES ({marks})"
+    statement = f"INSERT INTO {table(model)} ({names}) VALUES ({marks})"
     if connection.features.can_return_columns_from_insert:
         statement += f" RETURNING {column(model, meta.pk.name)}"
     return fields, statement

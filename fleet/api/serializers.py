@@ -143,6 +143,16 @@ def _context_free(field: serializers.Field) -> bool:
     return isinstance(field, _CONTEXT_FREE_FIELDS)
 
 
+def _kind(field: serializers.Field) -> str | None:
+    """How a response writes ``field`` without DRF's per-instance machinery; None for a
+    field of a kind not known to be free of request state."""
+    if isinstance(field, UnitsField):
+        return _UNITS
+    if isinstance(field, serializers.SerializerMethodField):
+        return _METHOD
+    return _PLAIN if _context_free(field) else None
+
+
 class PlainRepresentation:
     """A response built without DRF's per-instance field machinery, and fields built once
     per class for validation (``get_fields``).
@@ -171,10 +181,7 @@ class PlainRepresentation:
         cls = type(self)
         if cls not in PlainRepresentation._prototypes:
             built = super().get_fields()  # type: ignore[misc]
-            reusable = all(
-                isinstance(f, UnitsField | serializers.SerializerMethodField) or _context_free(f)
-                for f in built.values()
-            )
+            reusable = all(_kind(f) is not None for f in built.values())
             PlainRepresentation._prototypes[cls] = built if reusable else None
         prototypes = PlainRepresentation._prototypes[cls]
         if prototypes is None:
@@ -189,13 +196,8 @@ class PlainRepresentation:
             pass
         plan: list[tuple[str, serializers.Field, str]] | None = []
         for field in cls(context={})._readable_fields:  # type: ignore[call-arg,attr-defined]
-            if isinstance(field, UnitsField):
-                kind = _UNITS
-            elif isinstance(field, serializers.SerializerMethodField):
-                kind = _METHOD
-            elif _context_free(field):
-                kind = _PLAIN
-            else:
+            kind = _kind(field)
+            if kind is None:
                 plan = None
                 break
             plan.append((field.field_name, field, kind))
