@@ -374,6 +374,12 @@ class ReadingSet(models.Model):
     supply_volts_3 = _reading_field("supply_volts_3")
     run_capacitor_uf = _reading_field("run_capacitor_uf")
     start_capacitor_uf = _reading_field("start_capacitor_uf")
+    call_for_cooling = models.BooleanField(
+        null=True,
+        blank=True,
+        help_text="The control was calling for the compressor: a stopped compressor with a "
+        "call is a failed start, without one it is off-cycle.",
+    )
     compressor_running = models.BooleanField(null=True, blank=True)
     condenser_fan_running = models.BooleanField(null=True, blank=True)
     evaporator_fans_running = models.BooleanField(null=True, blank=True)

@@ -77,6 +77,7 @@ READING_SCALARS: tuple[str, ...] = (
     "start_capacitor_uf",
 )
 READING_FLAGS: tuple[str, ...] = (
+    "call_for_cooling",
     "compressor_running",
     "condenser_fan_running",
     "evaporator_fans_running",
@@ -120,6 +121,7 @@ class ReadingColumns:
     start_capacitor_uf: FloatArray
     compressor_amps: FloatArray
     supply_volts: FloatArray
+    call_for_cooling: FloatArray
     compressor_running: FloatArray
     condenser_fan_running: FloatArray
     evaporator_fans_running: FloatArray
@@ -190,7 +192,7 @@ UNIT_FLOATS: tuple[str, ...] = (
     "run_capacitor_tolerance_pct",
     "start_capacitor_min_uf",
     "start_capacitor_max_uf",
-    "head_pressure_floor_c",
+    "head_pressure_setpoint_c",
 )
 
 
@@ -276,7 +278,7 @@ def _unit_targets(u: UnitColumns) -> dict[str, FloatArray]:
     out["subcooling_min_k"], out["subcooling_max_k"] = sc_low, sc_high
     put(
         "head_floor_c",
-        tg.resolve(f["head_pressure_floor_c"], tg.default_head_pressure_floor_c(app)),
+        tg.resolve(f["head_pressure_setpoint_c"], tg.default_head_pressure_floor_c(app)),
     )
     out["cr_typical_low"], _ = tg.compression_ratio_typical(app)
     out["cutout_kpa_gauge"] = f["high_pressure_cutout_kpa_gauge"]

@@ -19,6 +19,10 @@ MeteringDevice = Literal["txv", "eev", "capillary", "fixed_orifice"]
 CondenserType = Literal["air", "water"]
 SightGlass = Literal["clear", "bubbles", "none"]
 Status = Literal["ok", "watch", "fault", "not_scored"]
+#: How a unit keeps its condensing temperature up in cold weather.
+HeadPressureControl = Literal["none", "fan_cycling", "flooding", "variable_speed", "other"]
+#: Which saturation temperature a glide blend's design TD and split are given on.
+TemperatureBasis = Literal["dew", "mid_point"]
 
 APPLICATIONS: tuple[Application, ...] = (
     "medium_temp",
@@ -31,6 +35,14 @@ METERING_DEVICES: tuple[MeteringDevice, ...] = ("txv", "eev", "capillary", "fixe
 CONDENSER_TYPES: tuple[CondenserType, ...] = ("air", "water")
 SIGHT_GLASS_STATES: tuple[SightGlass, ...] = ("clear", "bubbles", "none")
 STATUSES: tuple[Status, ...] = ("ok", "watch", "fault", "not_scored")
+HEAD_PRESSURE_CONTROLS: tuple[HeadPressureControl, ...] = (
+    "none",
+    "fan_cycling",
+    "flooding",
+    "variable_speed",
+    "other",
+)
+TEMPERATURE_BASES: tuple[TemperatureBasis, ...] = ("dew", "mid_point")
 
 
 @dataclass(frozen=True)
@@ -64,8 +76,15 @@ class UnitDesign:
     run_capacitor_tolerance_pct: float | None = None
     start_capacitor_min_uf: float | None = None
     start_capacitor_max_uf: float | None = None
-    #: Lowest condensing temperature the head-pressure control holds in cold weather.
-    head_pressure_floor_c: float | None = None
+    #: How the head is held up in cold weather; ``None``: the application default.
+    head_pressure_control: HeadPressureControl | None = None
+    #: The condensing temperature that control holds (its set point); ``None``: the default
+    #: for its kind.
+    head_pressure_setpoint_c: float | None = None
+    #: The saturation temperature the design TD and split of a glide blend are given on:
+    #: the dew point (compressor ratings use it, and so does the vapour column a technician
+    #: reads for suction) unless the design data says mid-point.
+    temperature_basis: TemperatureBasis = "dew"
 
 
 @dataclass(frozen=True)
@@ -89,6 +108,9 @@ class Reading:
     supply_volts: tuple[float, ...] = ()
     run_capacitor_uf: float | None = None
     start_capacitor_uf: float | None = None
+    #: The control is calling for the compressor: with ``compressor_running`` false that is a
+    #: failed start; without a call the unit is simply off-cycle.
+    call_for_cooling: bool | None = None
     compressor_running: bool | None = None
     condenser_fan_running: bool | None = None
     evaporator_fans_running: bool | None = None

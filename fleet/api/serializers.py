@@ -833,6 +833,7 @@ class ReadingSetSerializer(VisitRecordSerializer):
             "supply_volts",
             "run_capacitor_uf",
             "start_capacitor_uf",
+            "call_for_cooling",
             "compressor_running",
             "condenser_fan_running",
             "evaporator_fans_running",
@@ -845,6 +846,7 @@ class ReadingSetSerializer(VisitRecordSerializer):
         ]
         read_only_fields = ["created_at"]
         extra_kwargs = {
+            "call_for_cooling": {"required": False, "allow_null": True},
             "compressor_running": {"required": False, "allow_null": True},
             "condenser_fan_running": {"required": False, "allow_null": True},
             "evaporator_fans_running": {"required": False, "allow_null": True},
