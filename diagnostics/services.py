@@ -366,6 +366,13 @@ class FlagRefresh:
     cleared: int
 
 
+def _forecast_json(decision: flags.FlagDecision) -> dict:
+    return {
+        "quantities": [list(q) for q in decision.forecast],
+        "dates": {name: day.isoformat() for name, day in decision.forecast_dates},
+    }
+
+
 def _evidence_json(decision: flags.FlagDecision) -> list[dict]:
     return [
         {
@@ -406,6 +413,7 @@ def refresh_flags(today=None, unit_ids=None, now=None) -> FlagRefresh:
                     summary=decision.summary[:300],
                     evidence=_evidence_json(decision),
                     projected_on=decision.projected_date,
+                    forecast=_forecast_json(decision),
                     opened_at=now,
                     updated_at=now,
                 )
@@ -417,17 +425,26 @@ def refresh_flags(today=None, unit_ids=None, now=None) -> FlagRefresh:
                 decision.summary[:300],
                 _evidence_json(decision),
                 decision.projected_date,
+                _forecast_json(decision),
             )
             # An open flag whose judgement has not changed is left alone (no write).
-            if fresh != (flag.severity, flag.summary, flag.evidence, flag.projected_on):
-                flag.severity, flag.summary, flag.evidence, flag.projected_on = fresh
+            held = (flag.severity, flag.summary, flag.evidence, flag.projected_on, flag.forecast)
+            if fresh != held:
+                (
+                    flag.severity,
+                    flag.summary,
+                    flag.evidence,
+                    flag.projected_on,
+                    flag.forecast,
+                ) = fresh
                 flag.updated_at = now
                 to_update.append(flag)
         to_clear.extend(current[kind.value].pk for kind in changes.to_close)
     with transaction.atomic():
         Flag.objects.bulk_create(to_create)
         Flag.objects.bulk_update(
-            to_update, ["severity", "summary", "evidence", "projected_on", "updated_at"]
+            to_update,
+            ["severity", "summary", "evidence", "projected_on", "forecast", "updated_at"],
         )
         Flag.objects.filter(pk__in=to_clear).update(cleared_at=now, updated_at=now)
     return FlagRefresh(opened=len(to_create), updated=len(to_update), cleared=len(to_clear))

@@ -167,20 +167,14 @@ class HistoryPoint:
     start_capacitor_uf: float | None
 
 
-#: Units the report converts for display; the core writes its evidence text in SI, so these
-#: quantities are repeated beside it in the reader's units.
-CONVERTED_UNITS = frozenset({"C", "K", "kPa", "kg"})
-
-
 @dataclass(frozen=True)
 class EvidenceRow:
+    """A flag's evidence: ``text`` names its ``quantities`` (SI) as ``{name}``; the report
+    writes them in its display units (``report_format.said``)."""
+
     text: str
     observed_on: date | None
     quantities: tuple[tuple[str, float, str], ...]
-
-    @property
-    def display_quantities(self) -> tuple[tuple[str, float, str], ...]:
-        return tuple(q for q in self.quantities if q[2] in CONVERTED_UNITS)
 
 
 @dataclass(frozen=True)
@@ -195,6 +189,8 @@ class FlagRow:
     evidence: tuple[EvidenceRow, ...]
     projected_on: date | None
     opened_on: date
+    #: The flag's numbers (SI), which ``summary`` may name as ``{name}``.
+    forecast: tuple[tuple[str, float, str], ...]
     acknowledged: bool
     acknowledgement_note: str
 
@@ -685,6 +681,7 @@ def _flags(site_id: int, as_of: datetime, tz: ZoneInfo) -> dict[int, list[FlagRo
             "opened_at",
             "acknowledged_at",
             "acknowledgement_note",
+            "forecast",
         )
     )
     for r in rows:
@@ -700,6 +697,9 @@ def _flags(site_id: int, as_of: datetime, tz: ZoneInfo) -> dict[int, list[FlagRo
                 evidence=_evidence_rows(r["evidence"]),
                 projected_on=r["projected_on"],
                 opened_on=r["opened_at"].astimezone(tz).date(),
+                forecast=tuple(
+                    (str(n), float(v), str(u)) for n, v, u in r["forecast"].get("quantities", ())
+                ),
                 acknowledged=r["acknowledged_at"] is not None,
                 acknowledgement_note=r["acknowledgement_note"],
             )

@@ -222,6 +222,6 @@ def packed_for(
         held |= RULES_BY_CODE[code].triggers[0]
     bits = sum(1 << list(SIGNALS).index(name) for name in held)
     put("finding_mask", mask)
-    put("signals:0", bits & 0xFFFF)
-    put("signals:1", bits >> 16)
+    for word in range(-(-len(SIGNALS) // 16)):
+        put(f"signals:{word}", bits >> (16 * word) & 0xFFFF)
     return row.tobytes()

@@ -212,8 +212,9 @@ def test_a_units_readings_are_dated_on_its_sites_calendar(zone, taken, dated):
             visit_unit=VisitUnitFactory(unit=unit, visit__site=unit.site),
             taken_at=at,
             stage="as_found",
-            compressor_running=True,
-            compressor_amps_1=8.0,
+            compressor_running=False,
+            call_for_cooling=True,
+            compressor_amps_1=0.0,
             supply_volts_1=230.0,
         )
     (history,) = unit_histories(dt.date(2026, 4, 1), unit_ids=[unit.id])

@@ -14,7 +14,6 @@ import numpy as np
 import pytest
 
 from diagnostics.core import findings, saturation
-from diagnostics.core import targets as tg
 from diagnostics.core.diagnose import diagnose
 from diagnostics.core.types import Reading, UnitDesign
 
