@@ -556,11 +556,13 @@ def _offset_to_date(
 ) -> date | None:
     if not math.isfinite(offset) or offset > rules.max_projection_days:
         return None
-    projected = today + timedelta(days=round(offset))
-    if earliest is not None and projected < earliest:
-        # The line was over the level before the first point: say "since the first point".
+    if earliest is not None and offset < (earliest - today).days:
+        # The line was over the level before the first point: say "since the first point"
+        # (a nearly flat line crosses it ages before any reading, past any calendar).
         return earliest
-    return projected
+    if offset < -rules.max_projection_days:
+        return None
+    return today + timedelta(days=round(offset))
 
 
 def _finite(value: float) -> float | None:

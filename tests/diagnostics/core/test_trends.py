@@ -373,3 +373,12 @@ def test_a_cutout_reached_within_the_horizon_flags_the_drift() -> None:
     assert drift.cutout_reached_on is not None
     assert drift.cutout_reached_on < drift.limit_crossed_on
     assert drift.design_day_head_at_horizon_kpa_gauge > head.high_pressure_cutout_kpa_gauge
+
+
+def test_a_nearly_flat_line_above_its_limit_dates_from_the_first_point() -> None:
+    """A split sitting above its limit on an almost flat line crossed the limit ages before
+    any reading (found at a year's end in the field, as a date out of any calendar): the
+    crossing is dated at the first point, never computed past the calendar."""
+    values = 20.0 + 1e-9 * np.arange(12)
+    drift = assess_split_drift(SplitDriftInput(monthly_points(values), DESIGN_SPLIT_K), TODAY)
+    assert drift.limit_crossed_on == TODAY - timedelta(days=30 * 11)
