@@ -294,6 +294,8 @@ def history_queries(today: dt.date, unit_ids: Iterable[int] | None = None) -> Hi
             "site__time_zone",
             "lra_a",
             "nameplate_volts",
+            "nameplate_volts_max",
+            "design_temperature_basis",
         ),
         readings=ReadingSet.objects.filter(visit_unit__unit_id__in=ids)
         .order_by("taken_at")
@@ -400,6 +402,8 @@ def _history(
                 design_day_ambient_c=u["site__design_ambient_c"],
                 high_pressure_cutout_kpa_gauge=u["high_pressure_cutout_kpa_gauge"],
                 elevation_m=u["site__elevation_m"],
+                # the stored split is on the unit's basis: the projection inverts the same
+                condensing_point=u["design_temperature_basis"],
             )
             if u["high_pressure_cutout_kpa_gauge"]
             else None
@@ -416,6 +420,7 @@ def _history(
         replacements=replacements,
         lra_a=u["lra_a"],
         nameplate_volts=u["nameplate_volts"],
+        nameplate_volts_max=u["nameplate_volts_max"],
     )
     additions, repairs = [], []
     for e in events:

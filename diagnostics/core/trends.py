@@ -289,10 +289,10 @@ class HeadPressureLimit:
     """What the design-day projection needs: refrigerant, site and the unit's cut-out.
 
     ``condensing_point`` names which saturation temperature stands for "condensing" on a glide
-    blend. The default is the mid-point of dew and bubble, the convention ``targets`` uses to
-    turn a measured head pressure into the split (``targets.GLIDE_CHOICE``), so the projection
-    inverts exactly what was measured. "bubble" gives the highest pressure for a condensing
-    temperature (the cut-out warning errs early); "dew" the lowest. Pure fluids and azeotropes
+    blend: the unit's design basis (``UnitDesign.temperature_basis``), the one its stored split
+    was measured on, so the projection inverts exactly what was measured. "bubble" gives the
+    highest pressure for a condensing temperature (the cut-out warning errs early); "dew" the
+    lowest. Pure fluids and azeotropes
     give the same pressure for all three.
     """
 
