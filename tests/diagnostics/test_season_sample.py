@@ -31,6 +31,7 @@ def _healthy_sample() -> list[sn.SeasonVisit]:
     them, spread over the units and the months (a visit counts for each confounder in
     force)."""
     healthy = [v for u, v in SEASON.all_visits() if u.fault is None]
+    order = {tag: i for i, tag in enumerate(UNITS)}
     wanted = sorted({c for v in healthy for c in v.confounders})
     picked: list[sn.SeasonVisit] = []
     for name in wanted:
@@ -39,7 +40,7 @@ def _healthy_sample() -> list[sn.SeasonVisit]:
         candidates = sorted(
             (v for v in healthy if name in v.confounders and v not in picked),
             # Units not picked yet first; months spread over the season.
-            key=lambda v: (v.tag in used_units, (v.month * 7 + 5) % sn.MONTHS, v.tag),
+            key=lambda v: (v.tag in used_units, (v.month * 7 + order[v.tag] * 5) % sn.MONTHS),
         )
         picked.extend(candidates[: max(0, PER_CONFOUNDER - have)])
     return picked
