@@ -339,6 +339,11 @@ def _unit_targets(u: UnitColumns) -> dict[str, FloatArray]:
 
 # --- metric columns and the batch result ----------------------------------------------------
 
+#: Head-pressure controls that stop the condenser fans to hold the head.
+_FAN_CONTROLS = np.array(
+    [HEAD_PRESSURE_CONTROLS.index(k) for k in ("fan_cycling", "variable_speed", "other")]
+)
+
 #: Why a metric was not scored, beyond missing inputs (which are worked out per row).
 REASON_NONE = 0
 REASON_WATER_COOLED = 1
@@ -764,6 +769,10 @@ def diagnose_batch(
         },
         compression_ratio_typical_low=t["cr_typical_low"],
         receiverless=uc.has_receiver[idx] == 0.0,
+        # a control that cycles or slows the fans stops them while the head is in its band
+        condenser_fan_may_stop=np.isin(uc.control_code[idx], _FAN_CONTROLS)
+        & ~(cond_on_basis > t["head_held_high_c"]),
+        receiver_backed_up=(uc.has_receiver[idx] == 1.0) & ~held,
     )
     fired = findings.evaluate(signals, n)
     atm_targets: dict[str, FloatArray] = {}

@@ -184,7 +184,9 @@ RULES: tuple[Rule, ...] = (
         title="Refrigerant charge looks low",
         triggers=(_t("sh_high", "sc_low"), _t("sh_high", "bubbles"), _t("bubbles", "sc_low")),
         supporting=("td_high", "split_low", "amps_low", "bubbles", "sc_low", "box_warm"),
-        excluding=("sc_high", "coil_iced", "evap_fans_off", "split_high"),
+        # a starved evaporator boils low: an evaporating temperature above target is the
+        # compressor not pulling down, not a short charge
+        excluding=("sc_high", "coil_iced", "evap_fans_off", "split_high", "td_low"),
         base_confidence=0.5,
         advice="Look for the leak before adding anything: check joints, valve cores and "
         "coils with a detector, repair, then weigh in refrigerant and record the amount "
@@ -198,8 +200,10 @@ RULES: tuple[Rule, ...] = (
     Rule(
         code="overcharge",
         title="Refrigerant charge looks high",
-        triggers=(_t("sc_high", "split_high"),),
-        supporting=("amps_high", "sh_ok", "discharge_high", "sh_low"),
+        # Liquid backs up into the condenser (high subcooling) while the evaporator is fed
+        # (superheat not high: a restriction starves it); the head rises with it.
+        triggers=(_t("sc_high"),),
+        supporting=("amps_high", "sh_ok", "discharge_high", "sh_low", "split_high"),
         excluding=("sh_high", "cond_fan_off", "bubbles"),
         base_confidence=0.5,
         advice="Make sure the condenser is clean and its fans run first; if the head and "
@@ -214,7 +218,7 @@ RULES: tuple[Rule, ...] = (
         title="Something is restricting the liquid line",
         triggers=(_t("sh_high", "sc_high"),),
         supporting=("td_high", "split_low", "amps_low", "bubbles", "box_warm"),
-        excluding=("split_high",),
+        excluding=("split_high", "td_low"),
         base_confidence=0.45,
         advice="Feel or measure the temperature across the filter-drier, solenoid and any "
         "hand valves in the liquid line: a drop of more than a few degrees marks the "
@@ -238,7 +242,7 @@ RULES: tuple[Rule, ...] = (
         title="Metering device is starving the evaporator",
         triggers=(_t("sh_high", "sc_not_low"), _t("sh_high", "sight_glass_clear")),
         supporting=("td_high", "split_low", "amps_low", "sight_glass_clear", "box_warm"),
-        excluding=("bubbles", "sc_low", "sc_high", "coil_iced", "evap_fans_off"),
+        excluding=("bubbles", "sc_low", "sc_high", "coil_iced", "evap_fans_off", "td_low"),
         base_confidence=0.4,
         advice="With a full liquid line, check the valve's inlet screen, its bulb charge "
         "(a lost charge closes the valve) and the superheat setting; on a capillary "
@@ -307,9 +311,16 @@ RULES: tuple[Rule, ...] = (
         title="Compressor is not pumping well (worn valves or rings)",
         # Evaporating above and condensing below what the box and the air call for at once:
         # the compressor is not moving the refrigerant (NISTIR 7350 valve leakage; REFERENCES 6).
-        triggers=(_t("td_low", "split_low"),),
-        supporting=("amps_low", "cr_low", "sh_high", "sc_low", "box_warm"),
-        excluding=("amps_high", "coil_iced", "evap_fans_off", "cond_fan_off"),
+        # A warm box over an evaporator that is not starved says the same: capacity is short
+        # on the compressor's side.
+        triggers=(
+            _t("td_low", "split_low"),
+            _t("td_low", "box_warm"),
+            _t("td_low", "sh_high"),
+            _t("split_low", "box_warm"),
+        ),
+        supporting=("amps_low", "cr_low", "sh_high", "sc_low", "box_warm", "td_low", "split_low"),
+        excluding=("amps_high", "coil_iced", "evap_fans_off", "cond_fan_off", "td_high"),
         base_confidence=0.4,
         advice="Confirm before condemning it: suction and discharge pressures should move "
         "apart quickly when the compressor starts and hold when it stops; a pump-down "
@@ -475,12 +486,21 @@ def derive_signals(
     flags: Mapping[str, FloatArray],
     compression_ratio_typical_low: FloatArray,
     receiverless: BoolArray,
+    condenser_fan_may_stop: BoolArray | None = None,
+    receiver_backed_up: BoolArray | None = None,
 ) -> dict[str, BoolArray]:
     """Every signal for a batch, from the graded metrics and the technician's flags.
 
+    A fan seen stopped is a symptom only while the compressor runs (off-cycle, both fans may
+    rest), and a condenser fan only where no control stops it on purpose
+    (``condenser_fan_may_stop``: a fan-cycling or variable-speed control holding the head).
+
     ``metrics`` maps a metric name to (measured, target, deviation, status); a metric that was
-    not scored makes every signal about it false. Subcooling signals are raised only for
-    receiverless units: with a receiver, subcooling is no charge indicator (REFERENCES 6).
+    not scored makes every signal about it false. Subcooling signals are raised for
+    receiverless units: with a receiver, subcooling is no charge indicator (REFERENCES 6),
+    except that a subcooling above its band while the head is not held up
+    (``receiver_backed_up`` may be raised for such units) says the receiver is full and
+    liquid is backing into the condenser.
     """
 
     def parts(name: str) -> tuple[FloatArray, FloatArray, FloatArray, NDArray[np.int8]]:
@@ -510,6 +530,10 @@ def derive_signals(
     def flag_is(name: str, value: float) -> BoolArray:
         return np.asarray(flags[name]) == value
 
+    running = flag_is("compressor_running", 1.0)
+    n = len(running)
+    backed_up = np.zeros(n, dtype=bool) if receiver_backed_up is None else receiver_backed_up
+    may_stop = np.zeros(n, dtype=bool) if condenser_fan_may_stop is None else condenser_fan_may_stop
     amps_low_fraction = SIGNAL_THRESHOLDS["amps_low_fraction_of_rla"][0]
     very_low_superheat = SIGNAL_THRESHOLDS["superheat_very_low_k"][0]
     cr = parts("compression_ratio")[0]
@@ -532,7 +556,7 @@ def derive_signals(
         "sh_very_low": less_than("superheat", very_low_superheat),
         "sh_not_high": scored("superheat") & ~above("superheat"),
         "sh_ok": parts("superheat")[3] == OK,
-        "sc_high": receiverless & above("subcooling"),
+        "sc_high": (receiverless | backed_up) & above("subcooling"),
         "sc_low": receiverless & below("subcooling"),
         "sc_not_high": receiverless & scored("subcooling") & ~above("subcooling"),
         "sc_not_low": receiverless & scored("subcooling") & ~below("subcooling"),
@@ -550,8 +574,8 @@ def derive_signals(
         "box_warm": above("box_temp"),
         "called_not_running": flag_is("call_for_cooling", 1.0) & flag_is("compressor_running", 0.0),
         "coil_iced": flag_is("coil_iced", 1.0),
-        "evap_fans_off": flag_is("evaporator_fans_running", 0.0),
-        "cond_fan_off": flag_is("condenser_fan_running", 0.0),
+        "evap_fans_off": flag_is("evaporator_fans_running", 0.0) & running,
+        "cond_fan_off": flag_is("condenser_fan_running", 0.0) & running & ~may_stop,
         "bubbles": flag_is("sight_glass", float(SIGHT_GLASS_STATES.index("bubbles"))),
         "sight_glass_clear": flag_is("sight_glass", float(SIGHT_GLASS_STATES.index("clear"))),
     }

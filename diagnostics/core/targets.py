@@ -238,7 +238,7 @@ _FIXED_RESTRICTOR = SourcedRange(
     "band means anything",
 )
 _TXV_COOLER = SourcedRange(
-    f_to_k(8.0), f_to_k(10.0), f"{COMMON}: TXV medium temp 6-10 F, 8-10 F usual"
+    f_to_k(6.0), f_to_k(10.0), f"{COMMON}: TXV medium temp 6-10 F (8-10 F usual)"
 )
 _TXV_FREEZER = SourcedRange(f_to_k(4.0), f_to_k(6.0), f"{COMMON}: TXV low temp 4-6 F")
 _TXV_ICE = SourcedRange(

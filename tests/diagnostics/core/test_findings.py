@@ -214,14 +214,18 @@ def test_missing_data_neither_triggers_nor_vetoes():
     assert codes(UNIT, sparse) == {"undercharge"}
 
 
-def test_with_a_receiver_subcooling_is_not_read_as_charge():
+def test_with_a_receiver_low_subcooling_is_not_read_as_charge():
     """With a receiver, subcooling is no charge indicator (REFERENCES 6, common practice): a
-    high subcooling with high superheat does not make a restriction finding there, while the
-    same reading on a receiverless unit does."""
-    r = reading(td=9.0, split=9.0, superheat=11.0, subcooling=9.0)
+    low subcooling with high superheat does not make a short-charge finding there (the sight
+    glass tells), while the same reading on a receiverless unit does. A subcooling far above
+    a receiver's band with the head not held up says the receiver is full and liquid backs
+    into the condenser (common practice): there it counts as on a receiverless unit."""
+    short = reading(td=9.0, split=9.0, superheat=11.0, subcooling=0.2)
     with_receiver = dataclasses.replace(UNIT, has_receiver=True)
-    assert "liquid_line_restriction" in codes(UNIT, r)
-    assert "liquid_line_restriction" not in codes(with_receiver, r)
+    assert "undercharge" in codes(UNIT, short)
+    assert "undercharge" not in codes(with_receiver, short)
+    backed_up = reading(split=18.5, subcooling=9.0)
+    assert codes(with_receiver, backed_up) == {"overcharge"}
 
 
 def test_every_rule_is_complete_data():
@@ -272,7 +276,9 @@ def test_a_short_charge_and_a_restriction_are_told_apart_by_subcooling_or_say_th
     short = diagnose(UNIT, reading(superheat=11.0, subcooling=1.0, sight_glass="bubbles"))
     assert [(f.code, f.alternatives) for f in short.findings] == [("undercharge", ())]
     with_receiver = dataclasses.replace(UNIT, has_receiver=True)
-    glass = diagnose(with_receiver, reading(superheat=11.0, sight_glass="bubbles")).findings
+    glass = diagnose(
+        with_receiver, reading(superheat=11.0, subcooling=1.0, sight_glass="bubbles")
+    ).findings
     assert [(f.code, f.alternatives) for f in glass] == [
         ("undercharge", ("liquid_line_restriction",))
     ]
