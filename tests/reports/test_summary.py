@@ -30,7 +30,6 @@ def check(score: float | None = 95.0, **kw) -> Check:
         metrics=(),
         findings=(),
         cautions=(),
-        notes="",
         compressor_running=True,
         mean_amps=7.0,
         mean_volts=230.0,
@@ -52,8 +51,11 @@ def flag(severity: str = "warning", projected: dt.date | None = None) -> FlagRow
         projected_on=projected,
         opened_on=dt.date(2026, 2, 1),
         acknowledged=False,
-        acknowledgement_note="",
     )
+
+
+#: A condenser split 6 K above the top of its ok band (synthetic).
+SPLIT_HIGH = MetricRow("condenser_split", "condenser split", 20, 11, 7, 14, 6, "K", "fault", 15, "")
 
 
 def point(day: dt.date, score: float) -> HistoryPoint:
@@ -126,7 +128,7 @@ def test_units_are_ranked_by_grade_then_flag_severity_then_date():
         check(95),
         None,
         summary.Health("sound", ()),
-        summary.Trend("steady", ""),
+        summary.Story(summary.Trend("steady", ""), ""),
         None,
         (),
     )
@@ -158,7 +160,7 @@ def test_energy_money_follows_the_worked_example():
     a 10 % penalty costs 10/110 of it = 61.71 kWh, at 0.15 USD/kWh = 9.26 USD
     (tolerance 0.01)."""
     estimate = summary.energy_estimate(
-        check(90, energy_penalty_pct=10.0),
+        check(90, energy_penalty_pct=10.0, metrics=(SPLIT_HIGH,)),
         phase=1,
         tariff_per_kwh=0.15,
         currency="USD",
@@ -172,7 +174,7 @@ def test_energy_is_not_priced_without_a_running_current():
     """A penalty measured on a compressor that was not running (or without amps) is noted
     but not priced; no penalty means nothing at stake."""
     hum = summary.energy_estimate(
-        check(40, energy_penalty_pct=12.0, compressor_running=False),
+        check(40, energy_penalty_pct=12.0, compressor_running=False, metrics=(SPLIT_HIGH,)),
         phase=1,
         tariff_per_kwh=0.15,
         currency="USD",
