@@ -34,6 +34,7 @@ from django.views.decorators.http import require_GET, require_POST
 from diagnostics.core import maintenance
 from diagnostics.history import maintenance_plans
 from diagnostics.models import Diagnosis, Flag, LeakRate
+from reports.summary import Health, judge_stored, severity_rank, worst
 
 from . import audit, forms
 from .api.permissions import role_of
@@ -518,6 +519,23 @@ def return_history(visit: Visit, covered: list[CoveredUnit]) -> ReturnHistory | 
     return history
 
 
+def diagnosis_condition(
+    diagnosis: Diagnosis, flags: Iterable[Flag] = (), application: str = ""
+) -> Health:
+    """A stored diagnosis (and the unit's open flags) judged by the rule the monthly report
+    uses (``reports.summary.judge``), so a page and the report say the same."""
+    return judge_stored(
+        diagnosis.score,
+        diagnosis.metrics,
+        diagnosis.findings,
+        [
+            (f.get_kind_display(), f.get_severity_display(), severity_rank(f.severity))
+            for f in flags
+        ],
+        application=application,
+    )
+
+
 def _cautions_of(diagnoses: Iterable[Diagnosis]) -> list[dict]:
     seen: dict[str, dict] = {}
     for diagnosis in diagnoses:
@@ -554,8 +572,18 @@ class CoveredUnit:
 
     @property
     def lowest_score(self) -> float | None:
-        scores = [d.score for _, d in self.readings if d is not None]
+        scores = [d.score for _, d in self.readings if d is not None and d.score is not None]
         return min(scores) if scores else None
+
+    @property
+    def condition(self) -> Health | None:
+        """The most urgent condition among the unit's diagnosed readings on this visit."""
+        application = self.unit.application
+        return worst(
+            diagnosis_condition(d, application=application)
+            for _, d in self.readings
+            if d is not None
+        )
 
 
 def _covered_units(visit: Visit) -> list[CoveredUnit]:
@@ -654,7 +682,11 @@ def review_queue(request: HttpRequest) -> HttpResponse:
         rows.append(
             {
                 "visit": visit,
-                "lowest_score": min((d.score for d in diagnoses), default=None),
+                "diagnosed": bool(diagnoses),
+                "condition": worst(c.condition for c in covered if c.condition),
+                "lowest_score": min(
+                    (d.score for d in diagnoses if d.score is not None), default=None
+                ),
                 "faults": sum(1 for d in diagnoses for m in d.metrics if m["status"] == "fault"),
                 "findings": sorted({f["title"] for d in diagnoses for f in d.findings}),
                 "reading_count": sum(len(c.readings) for c in covered),
@@ -758,7 +790,7 @@ def unit_charts(unit: Unit, today: dt.date) -> dict:
 
     first = dt.date(today.year - 1, today.month, 1)
     history = unit_trend_history(unit.pk, first, timezone.get_current_timezone())
-    panels = trend_panels(history, unit.rla_a, display_for())
+    panels = trend_panels(history, unit.rla_a, display_for(), unit.application)
     shown = [p for p in panels if p.point_count() >= DEFAULT_RULES.chart_min_points]
     if not shown:
         return {"svg": "", "described": [], "min_points": DEFAULT_RULES.chart_min_points}
@@ -805,6 +837,7 @@ def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
         .order_by("-window_start")[:24]
     )
     added_kg = sum(e.amount_kg or 0 for e in events if e.kind == RefrigerantEventKind.ADDED)
+    diagnosis = latest.diagnosis if latest else None
     return page(
         request,
         "fleet/unit_detail.html",
@@ -815,7 +848,10 @@ def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
             "fitted": [c for c in components if c.removed_on is None],
             "removed": [c for c in components if c.removed_on is not None],
             "latest": latest,
-            "diagnosis": latest.diagnosis if latest else None,
+            "diagnosis": diagnosis,
+            "condition": diagnosis_condition(diagnosis, flags, unit.application)
+            if diagnosis
+            else None,
             "flags": flags,
             "events": [(e, _leak_rate_of(e)) for e in events],
             "added_kg": added_kg,
@@ -940,11 +976,25 @@ def site_detail(request: HttpRequest, pk: int) -> HttpResponse:
         .select_related("refrigerant")
         .annotate(
             latest_score=_latest_diagnosis("score"),
+            latest_packed=_latest_diagnosis("packed"),
             latest_at=_latest_diagnosis("reading_set__taken_at"),
         )
         .prefetch_related(Prefetch("flags", queryset=open_flags, to_attr="open_flags"))
         .order_by("tag")
     )
+    # The latest diagnosis of each unit, rebuilt from the annotations (no query per unit):
+    # its details are judged with the unit's open flags, as the monthly report judges them.
+    for u in units:
+        u.latest = (
+            Diagnosis(score=u.latest_score, packed=u.latest_packed)
+            if u.latest_at is not None
+            else None
+        )
+    Diagnosis.attach_details(u.latest for u in units if u.latest is not None)
+    for u in units:
+        u.condition = (
+            diagnosis_condition(u.latest, u.open_flags, u.application) if u.latest else None
+        )
     upcoming = list(
         visits_for(request)
         .filter(

@@ -31,7 +31,6 @@ from zoneinfo import ZoneInfo
 from django.db.models import Q
 
 from diagnostics.core import diagnose as core_diagnose
-from diagnostics.core import findings as core_findings
 from diagnostics.core import leaks, start_risk
 from diagnostics.core.scoring import SCORING_TABLE
 from diagnostics.core.types import Caution
@@ -150,7 +149,7 @@ class FindingRow:
 
     @property
     def could_also_be(self) -> str:
-        return words.could_also_be(self.alternatives, self.deciding_check, _FINDING_TITLES)
+        return words.could_also_be(self.alternatives, self.deciding_check)
 
 
 @dataclass(frozen=True)
@@ -375,7 +374,6 @@ def _person(first: str, last: str, username: str) -> str:
 
 _SEVERITY_LABELS = _labels(FlagSeverity)
 _KIND_LABELS = _labels(FlagKind)
-_FINDING_TITLES: dict[str, str] = {r.code: r.title for r in core_findings.RULES}
 
 
 def _evidence_rows(raw: Any, provenance: list[str]) -> tuple[EvidenceRow, ...]:

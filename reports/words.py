@@ -17,6 +17,8 @@ from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
+from diagnostics.core import findings as core_findings
+
 # --- a unit's condition ---------------------------------------------------------------------
 
 
@@ -66,19 +68,21 @@ def evidence_strength(signs: int) -> str:
     return f"strong evidence: {signs} signs agree"
 
 
-def finding_name(code: str, titles: Mapping[str, str]) -> str:
-    """A finding code in words: its title where known (``titles``), else the code spelt out."""
-    return titles.get(code) or code.replace("_", " ")
+#: Finding code -> its title, as the diagnostics core names it.
+FINDING_TITLES: dict[str, str] = {rule.code: rule.title for rule in core_findings.RULES}
 
 
-def could_also_be(
-    alternatives: Sequence[str] | None, deciding_check: str | None, titles: Mapping[str, str]
-) -> str:
+def finding_name(code: str) -> str:
+    """A finding code in words: its title where the core names it, else the code spelt out."""
+    return FINDING_TITLES.get(code) or code.replace("_", " ")
+
+
+def could_also_be(alternatives: Sequence[str] | None, deciding_check: str | None) -> str:
     """'Could also be: ... To tell them apart: ...' for a finding the readings cannot single
     out; empty when the finding names no alternative."""
     if not alternatives:
         return ""
-    names = "; ".join(finding_name(code, titles).lower() for code in alternatives)
+    names = "; ".join(finding_name(code).lower() for code in alternatives)
     text = f"Could also be: {names}."
     if deciding_check:
         text += f" To tell them apart: {deciding_check.rstrip('.')}."

@@ -6,6 +6,7 @@ from __future__ import annotations
 import pytest
 
 from fleet.templatetags import rimewatch
+from reports import summary, words
 
 
 @pytest.fixture
@@ -53,10 +54,25 @@ def test_it_reads_a_metric_by_its_unit():
 def test_it_never_relies_on_colour_alone():
     """Every status badge carries a word and a symbol, not only a colour class."""
     for status in ("ok", "watch", "fault", "not_scored"):
-        html = str(rimewatch.metric_status(status))
-        symbol, word, _ = rimewatch.METRIC_STATUS[status]
-        assert symbol in html
-        assert word in html
-    assert "Poor" in str(rimewatch.health(40.0))
-    assert "Good" in str(rimewatch.health(95.0))
-    assert "No readings" in str(rimewatch.health(None))
+        html = str(rimewatch.verdict({"status": status, "deviation": 1.0}))
+        v = words.verdict(status, 1.0)
+        assert v.symbol in html
+        assert v.word in html
+    for score in (40.0, 80.0, 95.0, None):
+        html = str(rimewatch.health(score))
+        c = words.CONDITIONS[summary.score_condition(score)]
+        assert c.symbol in html
+        assert c.label in html
+
+
+def test_a_score_is_named_in_the_words_of_the_monthly_report():
+    """A check score reads as the report's conditions (one vocabulary): 95 healthy, 80 keep
+    an eye on, 40 needs attention; no score means too few readings to judge; the
+    instrument-style grade words are gone."""
+    assert "Healthy \u00b7 95" in str(rimewatch.health(95.0))
+    assert "Keep an eye on \u00b7 80" in str(rimewatch.health(80.0))
+    assert "Needs attention \u00b7 40" in str(rimewatch.health(40.0))
+    assert "Not enough readings to judge" in str(rimewatch.health(None))
+    for old in ("Good", "Fair", "Poor"):
+        assert all(old not in str(rimewatch.health(s)) for s in (40.0, 80.0, 95.0, None))
+    assert summary.HEALTH_LABELS["sound"] == words.CONDITIONS["sound"].label

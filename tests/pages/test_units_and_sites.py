@@ -28,11 +28,12 @@ def test_it_shows_the_nameplate_in_display_units(office, world):
 
 
 def test_it_shows_the_latest_diagnosis_with_targets(office, world):
-    """The unit page carries the latest diagnosis: measured against target per quantity."""
+    """The unit page carries the latest diagnosis: each reading against its aim, in one line
+    (12 K measured, aim 5 K, fine from 3 to 7 K: 21.6, 9.0, 5.4 and 12.6 F differences)."""
     page = office.get(reverse("fleet:unit", args=[world.unit.pk])).content.decode()
     assert "Latest diagnosis" in page
-    assert "evaporator superheat" in page
-    assert "21.6 \u00b0F" in page  # 12 K measured superheat
+    assert "Evaporator superheat" in page
+    assert "21.6 \u00b0F; aim 9.0 \u00b0F, fine from 5.4 \u00b0F to 12.6 \u00b0F" in page
     assert RULES_BY_CODE["undercharge"].title in page
 
 
@@ -113,10 +114,11 @@ def test_it_shows_the_leak_rate_history(office, world):
 
 
 def test_it_shows_a_sites_units_at_a_glance(boss, world):
-    """The site page lists each unit with its health band and open flags, in words."""
+    """The site page lists each unit with its condition (judged from the latest check and
+    its open flags, as the report judges it) and open flags, in words."""
     page = boss.get(reverse("fleet:site", args=[world.site.pk])).content.decode()
     assert "HD-WIC-1" in page
-    assert "Fair" in page
+    assert "Needs attention \u00b7 72" in page
     assert "Head pressure drifting up" in page
     assert "Monthly health reports" in page
 
