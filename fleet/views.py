@@ -38,7 +38,7 @@ from reports.summary import Health, judge_stored, severity_rank, worst
 
 from . import audit, forms
 from .api.permissions import role_of
-from .choices import RefrigerantEventKind, Role, VisitKind, VisitStatus
+from .choices import Application, RefrigerantEventKind, Role, Stage, VisitKind, VisitStatus
 from .display import display_for
 from .models import (
     AuditAction,
@@ -110,11 +110,14 @@ def sites_for(request: HttpRequest) -> QuerySet[Site]:
 
 
 def page(request: HttpRequest, template: str, context: dict, status: int = 200) -> HttpResponse:
-    """Render a page with what the navigation shows for the role (two counts for the office)."""
+    """Render a page with what the navigation shows for the role (two counts for the office;
+    a page that has counted one already passes it in)."""
     context = {"role": getattr(request, "role", None), **context}
     if context["role"] == Role.OFFICE:
-        context["nav_queue_count"] = Visit.objects.filter(status=VisitStatus.SUBMITTED).count()
-        context["nav_flag_count"] = Flag.objects.filter(cleared_at__isnull=True).count()
+        if "nav_queue_count" not in context:
+            context["nav_queue_count"] = Visit.objects.filter(status=VisitStatus.SUBMITTED).count()
+        if "nav_flag_count" not in context:
+            context["nav_flag_count"] = Flag.objects.filter(cleared_at__isnull=True).count()
     return render(request, template, context, status=status)
 
 
@@ -1025,13 +1028,20 @@ def site_detail(request: HttpRequest, pk: int) -> HttpResponse:
 
 @dataclass(frozen=True)
 class AttentionItem:
-    """One thing that needs the office, dated for sorting: a deadline or a flag."""
+    """One thing that needs the office, dated for sorting: a deadline, a flag, or a box
+    found far off its design temperature."""
 
     due_on: dt.date
-    kind: str  # "flag", "repair" or "verification"
+    kind: str  # "flag", "repair", "verification" or "warm_box"
     unit: Unit
     flag: Flag | None = None
     leak_rate: LeakRate | None = None
+    diagnosis: Diagnosis | None = None
+    metric: dict | None = None
+
+    @property
+    def is_deadline(self) -> bool:
+        return self.kind in ("repair", "verification")
 
 
 def _open_leak_deadlines(today: dt.date) -> list[AttentionItem]:
@@ -1071,19 +1081,67 @@ def _open_leak_deadlines(today: dt.date) -> list[AttentionItem]:
     return items
 
 
+def _warm_boxes() -> list[AttentionItem]:
+    """Units in service whose latest as-found check found the box far off its design
+    temperature (the stored box-temperature metric at ``fault``): the stock may be at risk.
+
+    One query: the latest diagnosed as-found reading of every unit in service, with its
+    diagnosis; their details are expanded in one pass. Ice machines hold no box.
+    """
+    latest = (
+        ReadingSet.objects.filter(
+            visit_unit__unit=OuterRef("pk"), stage=Stage.AS_FOUND, diagnosis__isnull=False
+        )
+        .order_by("-taken_at", "-id")
+        .values("id")[:1]
+    )
+    in_service = Unit.objects.filter(retired_on__isnull=True).exclude(
+        application=Application.ICE_MACHINE
+    )
+    diagnoses = list(
+        Diagnosis.objects.filter(
+            reading_set_id__in=in_service.annotate(latest=Subquery(latest)).values("latest")
+        ).select_related(
+            "reading_set__visit_unit__unit__site__customer", "reading_set__visit_unit__visit"
+        )
+    )
+    Diagnosis.attach_details(diagnoses)
+    items = []
+    for d in diagnoses:
+        box = next(
+            (m for m in d.metrics if m["name"] == "box_temp" and m["status"] == "fault"), None
+        )
+        if box is not None:
+            rs = d.reading_set
+            items.append(
+                AttentionItem(
+                    timezone.localdate(rs.taken_at),
+                    "warm_box",
+                    rs.visit_unit.unit,
+                    diagnosis=d,
+                    metric=box,
+                )
+            )
+    return items
+
+
 @within_reach(Role.OFFICE)
 @require_GET
 def attention(request: HttpRequest) -> HttpResponse:
-    """Every open flag and every open leak deadline across the fleet, soonest first."""
+    """Every open flag, every open leak deadline and every box found far off its design
+    temperature across the fleet, soonest first."""
     today = timezone.localdate()
-    flags = Flag.objects.filter(cleared_at__isnull=True).select_related(
-        "unit__site__customer", "acknowledged_by"
+    flags = list(
+        Flag.objects.filter(cleared_at__isnull=True).select_related(
+            "unit__site__customer", "acknowledged_by"
+        )
     )
     items = [
         AttentionItem(f.projected_on or timezone.localdate(f.opened_at), "flag", f.unit, flag=f)
         for f in flags
     ]
     items.extend(_open_leak_deadlines(today))
+    items.extend(_warm_boxes())
     items.sort(key=lambda i: (i.due_on, i.unit.tag, i.kind))
     return page(
         request,
@@ -1091,9 +1149,11 @@ def attention(request: HttpRequest) -> HttpResponse:
         {
             "items": items,
             "today": today,
-            "overdue": sum(1 for i in items if i.kind != "flag" and i.due_on < today),
-            "flag_count": sum(1 for i in items if i.kind == "flag"),
-            "deadline_count": sum(1 for i in items if i.kind != "flag"),
+            "overdue": sum(1 for i in items if i.is_deadline and i.due_on < today),
+            "flag_count": len(flags),
+            "deadline_count": sum(1 for i in items if i.is_deadline),
+            "warm_box_count": sum(1 for i in items if i.kind == "warm_box"),
+            "nav_flag_count": len(flags),
             "can_acknowledge": True,
             "ack_form": forms.AcknowledgeFlagForm(),
         },

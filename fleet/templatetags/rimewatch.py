@@ -264,6 +264,16 @@ def field_widget(bound_field):
     return bound_field.as_widget(attrs=attrs)
 
 
+@register.simple_tag
+def box_offset(metric: dict) -> str:
+    """How far a box reading lies from its design: '13.0 °F above design'."""
+    if metric["measured"] is None or metric["target"] is None:
+        return EMPTY
+    difference = metric["measured"] - metric["target"]
+    side = "above" if difference >= 0 else "below"
+    return f"{tempdiff(abs(difference))} {side} design"
+
+
 @register.filter
 def count_status(metrics: list[dict], status: str) -> int:
     """How many of a diagnosis's metrics have ``status``."""
