@@ -8,8 +8,16 @@ from zoneinfo import ZoneInfo
 
 import pytest
 
-from reports import summary
-from reports.gather import Check, FlagRow, HistoryPoint, MetricRow, UnitInfo, UnitMonth
+from reports import summary, words
+from reports.gather import (
+    Check,
+    FindingRow,
+    FlagRow,
+    HistoryPoint,
+    MetricRow,
+    UnitInfo,
+    UnitMonth,
+)
 from reports.months import Month
 
 MARCH = Month(2026, 3)
@@ -204,3 +212,112 @@ def test_months_parse_and_bound_in_local_time():
     for bad in ("2026-13", "2026-3", "26-03", "2026-00", "march"):
         with pytest.raises(ValueError, match="YYYY-MM|no such month"):
             Month.parse(bad)
+
+
+def _steady_history() -> list[HistoryPoint]:
+    """Scores of 90 in the three months before March and in March itself."""
+    return [point(dt.date(2025, m, 5), 90) for m in (12,)] + [
+        point(dt.date(2026, m, 5), 90) for m in (1, 2, 3)
+    ]
+
+
+def test_an_urgent_drift_flag_makes_the_trend_getting_worse_whatever_the_score():
+    """Scores holding at 90 read 'holding steady' on their own, but beside an open urgent
+    head-pressure drift flag the trend is 'getting worse' and names the flag: the flag rests
+    on several visits, one month's score can hide it."""
+    history = _steady_history()
+    alone = summary.story_of(check(90), history, (), MARCH)
+    flagged = summary.story_of(check(90), history, (flag("urgent"),), MARCH)
+    assert alone.trend.label == "Holding steady"
+    assert flagged.trend.label == "Getting worse"
+    assert "head pressure drifting up (urgent)" in flagged.trend.detail
+
+
+def test_a_steady_score_with_a_fault_reads_no_better():
+    """A score as steady as the months before while a reading is far off its aim is 'no
+    better', not 'holding steady'."""
+    story = summary.story_of(check(90, metrics=(SPLIT_HIGH,)), _steady_history(), (), MARCH)
+    assert story.trend.label == "No better"
+
+
+def test_a_capacitor_out_of_its_rating_is_never_called_nothing_found():
+    """With no probable cause stored but the run capacitor far off its rating, the sentence
+    in the causes' place names the capacitor; with nothing off it says nothing was found;
+    with findings listed it says nothing (the findings speak)."""
+    capacitor = MetricRow(
+        "run_capacitor", "run capacitor", 38, 45, 42.3, 47.7, -4.3, "uF", "fault", 15, ""
+    )
+    off = summary.story_of(check(85, metrics=(capacitor,)), (), (), MARCH)
+    assert "No probable cause" not in off.cause
+    assert "run capacitor is far off its aim" in off.cause
+    fine = summary.story_of(check(99), (), (), MARCH)
+    assert fine.cause == "Nothing wrong was found in this check."
+    found = FindingRow("undercharge", "Refrigerant charge looks low", ("a", "b"), 0.6, "")
+    assert summary.story_of(check(70, findings=(found,)), (), (), MARCH).cause == ""
+
+
+def test_actions_are_the_managers_decisions_not_the_technicians_steps():
+    """A stored undercharge finding asks the manager to approve a leak search; the
+    technician's advice is not among the actions; a warm box comes first; a capacitor far
+    off its rating with no finding covering it asks for its replacement."""
+    advice = "Look for the leak before adding anything"
+    found = FindingRow("undercharge", "Refrigerant charge looks low", ("a", "b"), 0.6, advice)
+    box = MetricRow("box_temp", "box temperature", 9, 2, 0, 4, 5, "C", "fault", 15, "")
+    capacitor = MetricRow(
+        "run_capacitor", "run capacitor", 38, 45, 42.3, 47.7, -4.3, "uF", "fault", 15, ""
+    )
+    actions = summary.actions_for(
+        check(50, findings=(found,), metrics=(capacitor, box)), (), (), MARCH
+    )
+    assert actions[0] == words.METRIC_ACTIONS["box_temp"].text + "."
+    assert words.FINDING_ACTIONS["undercharge"] + "." in actions
+    assert words.METRIC_ACTIONS["run_capacitor"].text + "." in actions
+    assert not any(advice in a for a in actions)
+
+
+def test_energy_is_priced_only_above_the_condensing_target():
+    """A stored penalty on a unit whose split sits inside its ok band (or whose head is held
+    up by its control, not judged) costs nothing: no estimate, so it is not listed as 'not
+    priced' either; above the band it is priced."""
+    inside = MetricRow("condenser_split", "condenser split", 12, 11, 7, 14, 0, "K", "ok", 0, "")
+    held = MetricRow(
+        "condenser_split",
+        "condenser split",
+        None,
+        11,
+        7,
+        14,
+        None,
+        "K",
+        "not_scored",
+        0,
+        "head-pressure control holds condensing up",
+    )
+
+    def estimate(metric):
+        return summary.energy_estimate(
+            check(90, energy_penalty_pct=4.0, metrics=(metric,)),
+            phase=1,
+            tariff_per_kwh=0.15,
+            currency="USD",
+            days_in_month=31,
+        )
+
+    assert estimate(inside) is None
+    assert estimate(held) is None
+    assert estimate(SPLIT_HIGH).extra_cost_per_month > 0
+
+
+def test_conditions_share_one_vocabulary_and_one_rule():
+    """The report's health statuses are the pages' condition words; a score alone maps to
+    them by the report's thresholds (85 and 70), and no score is 'not enough readings'."""
+    assert {k: c.label for k, c in words.CONDITIONS.items()} == summary.HEALTH_LABELS
+    assert [summary.score_condition(s) for s in (95, 85, 84, 70, 69, None)] == [
+        "sound",
+        "sound",
+        "watch",
+        "watch",
+        "act",
+        "unjudged",
+    ]
+    assert summary.grade_unit(check(None), (), (), MARCH).label == "Not enough readings to judge"
