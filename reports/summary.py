@@ -27,7 +27,9 @@ from .words import (
     METRIC_ACTIONS,
     NOT_FOR_ICE_MACHINES,
     SCORE_NAME,
-    follow_up_action,
+    Decision,
+    follow_up,
+    one_per_topic,
 )
 
 if TYPE_CHECKING:
@@ -477,35 +479,36 @@ def actions_for(
 ) -> tuple[str, ...]:
     """What the manager is asked to decide, most urgent first, in the manager's terms
     (``words``): stock at risk, then flags, leak deadlines, probable causes, and readings
-    far off their aim that no probable cause covers. The technician's own instructions (a
-    finding's advice) stay on the office pages."""
-    first: list[str] = []
-    out: list[str] = []
+    far off their aim; one decision per topic, in its most pressing words. The
+    technician's own instructions (a finding's advice) stay on the office pages."""
+    asked: list[tuple[Decision, str]] = []
     for flag in sorted(flags, key=lambda f: (-f.severity_rank, f.projected_on or month.last_day)):
-        action = FLAG_ACTIONS.get(flag.kind) or f"Follow up: {flag.summary}"
-        out.append(f"{action}{_when(flag, month, today)}.")
-    leak_flagged = any(f.kind == "leak_rate" for f in flags)
+        decision = FLAG_ACTIONS.get(flag.kind) or follow_up(flag.kind_label.lower())
+        asked.append((decision, decision.text + _when(flag, month, today)))
     for a in _month_leaks(leak_rows, month):
-        if a.over_threshold and a.repair_due_on and not leak_flagged:
-            out.append(f"Approve the leak repair by {a.repair_due_on:%d %b %Y} (leak-rate rules).")
+        if a.over_threshold and a.repair_due_on:
+            decision = FLAG_ACTIONS["leak_rate"]
+            asked.append((decision, f"{decision.text} (by {a.repair_due_on:%d %b %Y})"))
     if current is not None:
-        codes = {f.code for f in current.findings}
         for finding in current.findings:
-            out.append(FINDING_ACTIONS.get(finding.code) or follow_up_action(finding.title.lower()))
+            decision = FINDING_ACTIONS.get(finding.code) or follow_up(finding.title.lower())
+            asked.append((decision, decision.text))
         for m in current.metrics:
-            if m.status != "fault":
-                continue
-            rule = METRIC_ACTIONS.get(m.name)
-            if rule is None:
-                if not codes:
-                    out.append(follow_up_action(m.label))
-                continue
-            if not rule.covered_by & codes:
-                (first if rule.first else out).append(rule.text)
+            if m.status == "fault":
+                decision = METRIC_ACTIONS.get(m.name)
+                if decision is None and not current.findings:
+                    decision = follow_up(m.label)
+                if decision is not None:
+                    asked.append((decision, decision.text))
     elif flags:
-        out.append("Include this unit in the next visit: it was not checked this month.")
-    unique = list(dict.fromkeys(a.strip().rstrip(".") + "." for a in first + out if a.strip()))
-    return tuple(unique[: rules.max_actions])
+        asked.append(
+            (
+                follow_up("unit"),
+                "Include this unit in the next visit: it was not " "checked this month",
+            )
+        )
+    texts = [t.strip().rstrip(".") + "." for t in one_per_topic(asked)]
+    return tuple(texts[: rules.max_actions])
 
 
 def rank_attention(units: Iterable[UnitMonth]) -> tuple[UnitMonth, ...]:

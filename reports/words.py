@@ -226,88 +226,135 @@ def reading_sentence(
     return "; ".join(parts)
 
 
-# --- what a manager is asked to do ----------------------------------------------------------
-
-#: Finding code -> the decision asked of the site's manager (the technician's own
-#: instructions stay with the finding's advice on the office pages and the phone).
-FINDING_ACTIONS: dict[str, str] = {
-    "undercharge": "Approve a leak search and repair before any refrigerant is topped up",
-    "overcharge": "Approve correcting the refrigerant charge (the surplus is recovered, "
-    "not vented)",
-    "liquid_line_restriction": "Approve replacing the blocked part in the liquid line "
-    "(most often the filter-drier)",
-    "metering_overfeeding": "Book an adjustment of the expansion valve soon: liquid "
-    "reaching the compressor shortens its life",
-    "metering_underfeeding": "Book a check of the expansion valve; approve replacing it if "
-    "it has failed",
-    "low_evaporator_airflow": "Book a repair of the evaporator fan or defrost, and have "
-    "staff check the stock is still cold enough meanwhile",
-    "condenser_heat_rejection": "Book a condenser clean and fan check before the hot weather",
-    "non_condensables": "If a condenser clean does not bring the pressure down, approve "
-    "recovering and recharging the refrigerant",
-    "weak_compressor": "Plan for a compressor test, and budget for a replacement if it fails",
-    "compressor_not_starting": "Approve replacing the start components now: the unit may "
-    "stop cooling at any start",
-    "supply_problem": "Have an electrician check the power supply to the unit",
-    "capacitor_out_of_rating": "Approve replacing the capacitor that measured outside its "
-    "rating",
-}
-
-#: Flag kind -> the decision asked of the manager.
-FLAG_ACTIONS: dict[str, str] = {
-    "head_pressure_drift": "Book a condenser clean and fan check before the hot weather, "
-    "when the rising head pressure would trip the unit",
-    "start_components": "Approve replacing the worn start components before the compressor "
-    "fails to start",
-    "leak_rate": "Approve finding and repairing the leak; the leak-rate rules set the deadline",
-    "maintenance_overdue": "Book the overdue planned maintenance visit",
-}
+# --- what a manager is asked to do ---------------------------------------------------------
 
 
 @dataclass(frozen=True)
-class MetricAction:
-    """The decision a reading far off its aim calls for, unless a finding already covers it."""
+class Decision:
+    """What the site's manager is asked to approve or book, in the manager's terms (the
+    technician's own instructions stay with a finding's advice on the office pages).
+
+    Decisions on one ``topic`` are one decision: a flag, a probable cause and a reading may
+    all point at the start components, and the manager is asked once, in the most pressing
+    words (the highest ``pressing``).
+    """
 
     text: str
-    covered_by: frozenset[str] = frozenset()
-    #: Stock may be at risk: said before anything else.
+    topic: str
+    pressing: int = 1
+    #: Stock may be at risk: asked before anything else.
     first: bool = False
 
 
-#: Metric -> the decision a fault on it calls for when no finding explains it.
-METRIC_ACTIONS: dict[str, MetricAction] = {
-    "box_temp": MetricAction(
-        "Have staff check the stock in this box is still safe, and book a repair visit",
-        first=True,
+_CONDENSER = "Book a condenser clean and fan check before the hot weather"
+_ELECTRICIAN = "Have an electrician check the power supply to the unit"
+_START_NOW = "Approve replacing the start components now: the unit may stop cooling at any start"
+
+#: Finding code -> the decision it calls for.
+FINDING_ACTIONS: dict[str, Decision] = {
+    "undercharge": Decision(
+        "Approve a leak search and repair before any refrigerant is topped up", "leak"
     ),
-    "run_capacitor": MetricAction(
-        "Approve replacing the run capacitor: it measured outside its rating",
-        frozenset({"capacitor_out_of_rating", "compressor_not_starting"}),
+    "overcharge": Decision(
+        "Approve correcting the refrigerant charge (the surplus is recovered, not vented)",
+        "charge",
     ),
-    "start_capacitor": MetricAction(
-        "Approve replacing the start capacitor: it measured outside its rating",
-        frozenset({"capacitor_out_of_rating", "compressor_not_starting"}),
+    "liquid_line_restriction": Decision(
+        "Approve replacing the blocked part in the liquid line (most often the filter-drier)",
+        "liquid_line",
     ),
-    "supply_voltage": MetricAction(
-        "Have an electrician check the power supply to the unit", frozenset({"supply_problem"})
+    "metering_overfeeding": Decision(
+        "Book an adjustment of the expansion valve soon: liquid reaching the compressor "
+        "shortens its life",
+        "valve",
     ),
-    "voltage_unbalance": MetricAction(
-        "Have an electrician check the power supply to the unit", frozenset({"supply_problem"})
+    "metering_underfeeding": Decision(
+        "Book a check of the expansion valve; approve replacing it if it has failed", "valve"
     ),
-    "head_pressure": MetricAction(
-        "Book a condenser clean and fan check soon: the head pressure is near its cut-out",
-        frozenset({"condenser_heat_rejection", "non_condensables", "overcharge"}),
+    "low_evaporator_airflow": Decision(
+        "Book a repair of the evaporator fan or defrost, and have staff check the stock is "
+        "still cold enough meanwhile",
+        "evaporator",
+        pressing=2,
     ),
-    "standstill_amps": MetricAction(
-        "Approve replacing the start components now: the compressor did not start",
-        frozenset({"compressor_not_starting"}),
+    "condenser_heat_rejection": Decision(_CONDENSER, "condenser"),
+    "non_condensables": Decision(
+        "If a condenser clean does not bring the pressure down, approve recovering and "
+        "recharging the refrigerant",
+        "non_condensables",
+    ),
+    "weak_compressor": Decision(
+        "Plan for a compressor test, and budget for a replacement if it fails", "compressor"
+    ),
+    "compressor_not_starting": Decision(_START_NOW, "start", pressing=3),
+    "supply_problem": Decision(_ELECTRICIAN, "supply"),
+    "capacitor_out_of_rating": Decision(
+        "Approve replacing the capacitor that measured outside its rating", "start"
     ),
 }
 
+#: Flag kind -> the decision it calls for.
+FLAG_ACTIONS: dict[str, Decision] = {
+    "head_pressure_drift": Decision(
+        f"{_CONDENSER}, when the rising head pressure would trip the unit",
+        "condenser",
+        pressing=2,
+    ),
+    "start_components": Decision(
+        "Approve replacing the worn start components before the compressor fails to start",
+        "start",
+        pressing=2,
+    ),
+    "leak_rate": Decision(
+        "Approve finding and repairing the leak; the leak-rate rules set the deadline",
+        "leak",
+        pressing=3,
+    ),
+    "maintenance_overdue": Decision("Book the overdue planned maintenance visit", "maintenance"),
+}
 
-def follow_up_action(label: str) -> str:
+#: Metric -> the decision a reading far off its aim calls for (said once per topic, so a
+#: probable cause on the same topic takes its place).
+METRIC_ACTIONS: dict[str, Decision] = {
+    "box_temp": Decision(
+        "Have staff check the stock in this box is still safe, and book a repair visit",
+        "stock",
+        first=True,
+    ),
+    "run_capacitor": Decision(
+        "Approve replacing the run capacitor: it measured outside its rating", "start"
+    ),
+    "start_capacitor": Decision(
+        "Approve replacing the start capacitor: it measured outside its rating", "start"
+    ),
+    "supply_voltage": Decision(_ELECTRICIAN, "supply"),
+    "voltage_unbalance": Decision(_ELECTRICIAN, "supply"),
+    "head_pressure": Decision(
+        "Book a condenser clean and fan check soon: the head pressure is near its cut-out",
+        "condenser",
+        pressing=3,
+    ),
+    "standstill_amps": Decision(_START_NOW, "start", pressing=3),
+}
+
+
+def follow_up(subject: str) -> Decision:
     """The decision for anything the tables above do not name."""
-    return f"Book a follow-up visit to look into the {label}"
+    return Decision(f"Book a follow-up visit to look into the {subject}", subject)
+
+
+def one_per_topic(asked: Iterable[tuple[Decision, str]]) -> list[str]:
+    """The texts to ask, one per topic: each topic keeps its first place in ``asked`` (most
+    urgent first) and its most pressing words; stock at risk goes before all."""
+    chosen: dict[str, tuple[int, Decision, str]] = {}
+    for place, (decision, text) in enumerate(asked):
+        held = chosen.get(decision.topic)
+        if held is None:
+            chosen[decision.topic] = (place, decision, text)
+        elif decision.pressing > held[1].pressing:
+            chosen[decision.topic] = (held[0], decision, text)
+    ordered = sorted(chosen.values(), key=lambda c: (not c[1].first, c[0]))
+    return [text for _, _, text in ordered]
 
 
 # --- the customer's copy: provenance belongs in the methods appendix ------------------------

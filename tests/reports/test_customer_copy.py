@@ -126,7 +126,8 @@ def test_the_customers_copy_carries_no_internal_notes_nor_provenance_marks():
     assert "leak rate 31.0 % (rolling average) over the 20 % threshold" in body
     assert "The office is following this up." in body
     assert "40 CFR 84.106: 15 lb or more (GWP above 53 from memory)" in appendix
-    assert words.FINDING_ACTIONS["undercharge"] in body
+    assert words.FLAG_ACTIONS["leak_rate"].text in body  # the leak flag's decision
+    assert words.FINDING_ACTIONS["undercharge"].text not in body  # the same topic, asked once
     assert "strong evidence: 3 signs agree" in body  # two trigger signs and the bubbles
 
 

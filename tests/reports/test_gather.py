@@ -171,7 +171,7 @@ def test_the_month_check_is_the_as_found_reading_with_its_stored_findings():
     assert u.current.findings[0].confidence == pytest.approx(0.8)
     assert u.current.findings[0].evidence
     assert u.health.status == "act"
-    assert FINDING_ACTIONS["undercharge"] + "." in u.actions
+    assert FINDING_ACTIONS["undercharge"].text + "." in u.actions
     assert not any(rule.advice in a for a in u.actions)
     assert sm.glide_choices == (found.glide_choice,)
     assert found.glide_choice

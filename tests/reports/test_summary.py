@@ -270,7 +270,7 @@ def test_actions_are_the_managers_decisions_not_the_technicians_steps():
         check(50, findings=(found,), metrics=(capacitor, box)), (), (), MARCH
     )
     assert actions[0] == words.METRIC_ACTIONS["box_temp"].text + "."
-    assert words.FINDING_ACTIONS["undercharge"] + "." in actions
+    assert words.FINDING_ACTIONS["undercharge"].text + "." in actions
     assert words.METRIC_ACTIONS["run_capacitor"].text + "." in actions
     assert not any(advice in a for a in actions)
 
@@ -321,3 +321,26 @@ def test_conditions_share_one_vocabulary_and_one_rule():
         "unjudged",
     ]
     assert summary.grade_unit(check(None), (), (), MARCH).label == "Not enough readings to judge"
+
+
+def test_one_topic_is_asked_once_in_its_most_pressing_words():
+    """An urgent start-components flag, a compressor that stalled at start and a run
+    capacitor far off its rating are one decision: replace the start components now (the
+    stall's words), asked once in the flag's place; the warm box still comes first."""
+    stall = FindingRow("compressor_not_starting", "Compressor stalls at start", ("a", "b"), 0.7, "")
+    capacitor = MetricRow(
+        "run_capacitor", "run capacitor", 35, 45, 42.3, 47.7, -6.8, "uF", "fault", 15, ""
+    )
+    box = MetricRow("box_temp", "box temperature", 9, 2, 0, 4, 5, "C", "fault", 15, "")
+    start_flag = replace(flag("urgent"), kind="start_components", kind_label="Start components")
+    actions = summary.actions_for(
+        check(30, findings=(stall,), metrics=(capacitor, box)),
+        (start_flag, flag("warning")),
+        (),
+        MARCH,
+    )
+    assert actions == (
+        words.METRIC_ACTIONS["box_temp"].text + ".",
+        words.FINDING_ACTIONS["compressor_not_starting"].text + ".",
+        words.FLAG_ACTIONS["head_pressure_drift"].text + ".",
+    )
