@@ -177,7 +177,7 @@ def judge(
             f"open flag: {label.lower()} ({severity_label.lower()})"
         )
     for pct in over_threshold:
-        act.append(f"leak rate {pct or 0:.0f} %, over the legal threshold")
+        act.append(f"leak rate {pct or 0:.0f} %, over the leak-rate threshold")
     if checked:
         condition = score_condition(score, rules)
         if score is not None and condition in ("act", "watch"):
@@ -461,9 +461,9 @@ def energy_estimate(
 # --- what to do ---------------------------------------------------------------------------------
 
 
-def _when(flag: FlagRow, month: Month, today: date | None) -> str:
+def _when(flag: FlagRow, today: date | None) -> str:
     if flag.projected_on and today is not None and flag.projected_on < today:
-        return f" now (its projected date, {flag.projected_on:%d %b %Y}, has passed)"
+        return f"; its projected date ({flag.projected_on:%d %b %Y}) has passed: book it now"
     if flag.projected_on:
         return f" (by {flag.projected_on:%d %b %Y})"
     return ""
@@ -484,7 +484,7 @@ def actions_for(
     asked: list[tuple[Decision, str]] = []
     for flag in sorted(flags, key=lambda f: (-f.severity_rank, f.projected_on or month.last_day)):
         decision = FLAG_ACTIONS.get(flag.kind) or follow_up(flag.kind_label.lower())
-        asked.append((decision, decision.text + _when(flag, month, today)))
+        asked.append((decision, decision.text + _when(flag, today)))
     for a in _month_leaks(leak_rows, month):
         if a.over_threshold and a.repair_due_on:
             decision = FLAG_ACTIONS["leak_rate"]
@@ -494,12 +494,15 @@ def actions_for(
             decision = FINDING_ACTIONS.get(finding.code) or follow_up(finding.title.lower())
             asked.append((decision, decision.text))
         for m in current.metrics:
-            if m.status == "fault":
-                decision = METRIC_ACTIONS.get(m.name)
-                if decision is None and not current.findings:
-                    decision = follow_up(m.label)
-                if decision is not None:
-                    asked.append((decision, decision.text))
+            if m.status != "fault":
+                continue
+            decision = METRIC_ACTIONS.get(m.name)
+            if decision is not None:
+                asked.append((decision, decision.text))
+            # With no probable cause named, a reading far off its aim needs a visit to find
+            # one (stock at risk included: checking it is not a repair).
+            if not current.findings and (decision is None or decision.first):
+                asked.append((follow_up(m.label), follow_up(m.label).text))
     elif flags:
         asked.append(
             (

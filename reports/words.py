@@ -215,8 +215,14 @@ def reading_sentence(
         aim = f"aim {shown(target)}, " if target is not None else ""
         parts.append(f"{aim}fine from {shown(low)} to {shown(high)}")
     elif high is not None:
-        limit = f", limit {shown(target)}" if target is not None and target != high else ""
-        parts.append(f"fine up to {shown(high)}{limit}")
+        # One edge: the target is either an ideal below it (an unbalance of 0) or a limit
+        # beyond it (the cut-out a head is kept clear of).
+        if target is not None and target < high:
+            parts.append(f"aim {shown(target)}, fine up to {shown(high)}")
+        elif target is not None and target > high:
+            parts.append(f"fine up to {shown(high)}, limit {shown(target)}")
+        else:
+            parts.append(f"fine up to {shown(high)}")
     elif low is not None:
         parts.append(f"fine from {shown(low)} up")
     elif target is not None:
@@ -272,10 +278,7 @@ FINDING_ACTIONS: dict[str, Decision] = {
         "Book a check of the expansion valve; approve replacing it if it has failed", "valve"
     ),
     "low_evaporator_airflow": Decision(
-        "Book a repair of the evaporator fan or defrost, and have staff check the stock is "
-        "still cold enough meanwhile",
-        "evaporator",
-        pressing=2,
+        "Book a repair of the evaporator fan or defrost", "evaporator", pressing=2
     ),
     "condenser_heat_rejection": Decision(_CONDENSER, "condenser"),
     "non_condensables": Decision(
@@ -317,9 +320,7 @@ FLAG_ACTIONS: dict[str, Decision] = {
 #: probable cause on the same topic takes its place).
 METRIC_ACTIONS: dict[str, Decision] = {
     "box_temp": Decision(
-        "Have staff check the stock in this box is still safe, and book a repair visit",
-        "stock",
-        first=True,
+        "Have staff check the stock in this box is still safe to use", "stock", first=True
     ),
     "run_capacitor": Decision(
         "Approve replacing the run capacitor: it measured outside its rating", "start"

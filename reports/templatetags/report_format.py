@@ -18,7 +18,9 @@ DASH = "\u2013"  # an en dash: "no value"
 def _fmt(value: float | None, digits: int) -> str:
     if value is None:
         return DASH
-    return f"{value:,.{digits}f}"
+    text = f"{value:,.{digits}f}"
+    # A value that rounds to zero from below is shown as 0, not -0.
+    return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
 
 
 @register.simple_tag(takes_context=True)

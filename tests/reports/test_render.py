@@ -111,3 +111,12 @@ def test_the_fetcher_refuses_the_network_and_other_files():
     ):
         with pytest.raises(RefusedFetch):
             url_fetcher(url)
+
+
+def test_a_value_rounding_to_zero_from_below_shows_no_minus_sign():
+    """-0.4 shown without decimals is 0, not -0; -0.6 is -1."""
+    from reports.templatetags.report_format import num
+
+    assert num(-0.4, 0) == "0"
+    assert num(-0.6, 0) == "-1"
+    assert num(-0.04, 1) == "0.0"

@@ -344,3 +344,20 @@ def test_one_topic_is_asked_once_in_its_most_pressing_words():
         words.FINDING_ACTIONS["compressor_not_starting"].text + ".",
         words.FLAG_ACTIONS["head_pressure_drift"].text + ".",
     )
+
+
+def test_a_warm_box_with_no_cause_named_asks_for_the_stock_and_a_visit():
+    """A box far off its design with no probable cause stored asks staff to check the stock
+    first, then for a visit to find the cause."""
+    box = MetricRow("box_temp", "box temperature", 9, 2, 0, 4, 5, "C", "fault", 15, "")
+    assert summary.actions_for(check(85, metrics=(box,)), (), (), MARCH) == (
+        words.METRIC_ACTIONS["box_temp"].text + ".",
+        words.follow_up("box temperature").text + ".",
+    )
+
+
+def test_a_passed_projected_date_asks_for_the_work_now():
+    """A flag whose projected date has passed asks for its work now, naming the date."""
+    late = flag("urgent", projected=dt.date(2026, 2, 1))
+    (action,) = summary.actions_for(check(95), (late,), (), MARCH, today=dt.date(2026, 3, 31))
+    assert action.endswith("its projected date (01 Feb 2026) has passed: book it now.")

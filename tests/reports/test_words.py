@@ -53,11 +53,16 @@ def test_a_verdict_says_which_way_a_reading_is_off():
 
 
 def test_a_reading_reads_as_one_line_against_its_aim():
-    """Both edges: aim and band; one edge: how far is fine and the limit beside it."""
+    """Both edges: aim and band; one edge: how far is fine, with an ideal below it as the
+    aim and a limit beyond it as the limit."""
     shown = words.reading_sentence(12.0, 5.0, 3.0, 7.0, lambda v: f"{v:g} K")
     assert shown == "12 K; aim 5 K, fine from 3 K to 7 K"
     one_sided = words.reading_sentence(2400, 2800, None, 2520, lambda v: f"{v:g} kPa")
     assert one_sided == "2400 kPa; fine up to 2520 kPa, limit 2800 kPa"
+    ideal = words.reading_sentence(0.3, 0.0, None, 1.0, lambda v: f"{v:g} %")
+    assert ideal == "0.3 %; aim 0 %, fine up to 1 %"
+    at_edge = words.reading_sentence(7.5, 10.0, None, 10.0, lambda v: f"{v:g} A")
+    assert at_edge == "7.5 A; fine up to 10 A"
     unjudged = words.reading_sentence(None, None, None, None, str, "no RLA on the nameplate")
     assert unjudged == "not judged: no RLA on the nameplate"
 
