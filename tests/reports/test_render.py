@@ -14,6 +14,7 @@ from reports.figures import unit_figure
 from reports.gather import gather_site_month
 from reports.months import Month
 from reports.render import RefusedFetch, UnitChart, render_html, url_fetcher
+from reports.templatetags.report_format import num
 from tests.factories import ReadingSetFactory, UnitFactory, VisitUnitFactory
 from tests.reports.factories import DiagnosisFactory, FlagFactory
 
@@ -115,8 +116,6 @@ def test_the_fetcher_refuses_the_network_and_other_files():
 
 def test_a_value_rounding_to_zero_from_below_shows_no_minus_sign():
     """-0.4 shown without decimals is 0, not -0; -0.6 is -1."""
-    from reports.templatetags.report_format import num
-
     assert num(-0.4, 0) == "0"
     assert num(-0.6, 0) == "-1"
     assert num(-0.04, 1) == "0.0"
