@@ -152,9 +152,10 @@ def unit_figure(u: UnitMonth, display: Display, rules: ReportRules = DEFAULT_RUL
             panels.append(panel)
         else:
             visits = "no visit" if n == 0 else f"only {n} visit{'s' if n > 1 else ''}"
+            # The minimum itself is a rule value: it is quoted in the methods notes.
             notes.append(
-                f"{panel.title}: {visits} with a value in these twelve months; a trend needs "
-                f"{rules.chart_min_points}."
+                f"{panel.title}: {visits} with a value in these twelve months, too few to "
+                "draw a trend."
             )
 
     rated = [a for a in u.leak_rates if a.computed and a.leak_rate_percent is not None]
