@@ -628,7 +628,8 @@ def _visit_page(request: HttpRequest, pk: int, review_form=None) -> HttpResponse
                 {c.unit.refrigerant.designation for c in covered if c.unit.refrigerant.flammable}
             ),
             "has_findings": any(d.findings for d in diagnoses),
-            "history": return_history(visit, covered),
+            # The office's notes to its technicians are not for a customer's manager.
+            "history": return_history(visit, covered) if request.role != Role.MANAGER else None,
             "can_edit": request.role == Role.OFFICE and visit.status in forms.EDITABLE_STATUSES,
             "can_review": can_review,
             "review_form": review_form or (forms.ReviewForm() if can_review else None),

@@ -105,6 +105,28 @@ def test_it_shows_flags_read_only_to_a_manager(boss, world):
     assert "acknowledgement_note" not in page
 
 
+def test_a_manager_sees_no_internal_note_of_the_office(boss, office, world):
+    """The office's acknowledgement note, its review note to the technician and the
+    technician's reading note are shown to the office and not to a manager, who sees that
+    the flag is being followed up."""
+    world.flag.acknowledged_at = timezone.now()
+    world.flag.acknowledgement_note = "Customer slow to approve, chase Friday"
+    world.flag.save()
+    reading = world.submitted.visit_units.get().reading_sets.get()
+    reading.notes = "Gauges borrowed, numbers rough"
+    reading.save()
+    world.submitted.review_note = "Redo the amps"
+    world.submitted.save()
+    unit_url = reverse("fleet:unit", args=[world.unit.pk])
+    visit_url = reverse("fleet:visit", args=[world.submitted.pk])
+    managers = boss.get(unit_url).content.decode() + boss.get(visit_url).content.decode()
+    offices = office.get(unit_url).content.decode() + office.get(visit_url).content.decode()
+    for note in ("chase Friday", "numbers rough", "Redo the amps"):
+        assert note in offices
+        assert note not in managers
+    assert "the office is following this up" in managers
+
+
 def test_it_shows_the_leak_rate_history(office, world):
     """Each addition shows its leak rate against the limit and the repair deadline."""
     page = office.get(reverse("fleet:unit", args=[world.unit.pk])).content.decode()
