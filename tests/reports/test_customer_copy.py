@@ -63,6 +63,7 @@ def test_an_urgent_drift_flag_is_not_called_steady():
     body, _ = report(unit.site_id)
     assert "Trend: getting worse (open flag: head pressure drifting up (urgent))" in body
     assert "steady" not in body.lower()
+    assert "Open flags at the end of March 2026" in body
 
 
 def test_a_capacitor_out_of_its_rating_is_not_no_probable_cause():
