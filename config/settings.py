@@ -172,7 +172,9 @@ REST_FRAMEWORK = {
 }
 SPECTACULAR_SETTINGS = {
     "TITLE": "Rimewatch API",
-    "DESCRIPTION": "Service-fleet records, readings and diagnoses for refrigeration contractors.",
+    "DESCRIPTION": "Service-fleet records, readings and diagnoses for refrigeration contractors. "
+    "A request body naming a field its schema does not list is refused with 400 naming that "
+    "field; read-only fields sent back from a response are ignored.",
     "VERSION": "1",
     "SERVE_INCLUDE_SCHEMA": False,
 }

@@ -50,6 +50,7 @@ _READING_FIELDS = (
     "compressor_running",
     "compressor_amps_1",
     "supply_volts_1",
+    "call_for_cooling",
 )
 
 
@@ -84,17 +85,20 @@ class _Readings:
         dated on the calendar of its unit's site (``zones``: unit id -> time zone)."""
         ordinals = _local_ordinals(rows, zones)
         # Start attempts stay objects (the core takes them so), built in the one pass that
-        # leaves them in date order per unit.
+        # leaves them in date order per unit. Only a compressor found stopped can be one (the
+        # core tells a failed start from off-cycle by the call for cooling and the amps); a
+        # running compressor's supply voltage is not its voltage at start.
         attempts: dict[int, list[start_risk.StartAttempt]] = defaultdict(list)
         found = Stage.AS_FOUND.value
         for r, ordinal in zip(rows, ordinals.tolist(), strict=True):
-            if r[7] is not None and r[2] == found:
+            if r[7] is False and r[2] == found:
                 attempts[r[0]].append(
                     start_risk.StartAttempt(
                         observed_on=dt.date.fromordinal(ordinal),
-                        started=bool(r[7]),
+                        started=False,
                         peak_amps=r[8],
                         volts_at_start=r[9],
+                        called=r[10],
                     )
                 )
         if not rows:
@@ -290,6 +294,8 @@ def history_queries(today: dt.date, unit_ids: Iterable[int] | None = None) -> Hi
             "site__time_zone",
             "lra_a",
             "nameplate_volts",
+            "nameplate_volts_max",
+            "design_temperature_basis",
         ),
         readings=ReadingSet.objects.filter(visit_unit__unit_id__in=ids)
         .order_by("taken_at")
@@ -396,6 +402,8 @@ def _history(
                 design_day_ambient_c=u["site__design_ambient_c"],
                 high_pressure_cutout_kpa_gauge=u["high_pressure_cutout_kpa_gauge"],
                 elevation_m=u["site__elevation_m"],
+                # the stored split is on the unit's basis: the projection inverts the same
+                condensing_point=u["design_temperature_basis"],
             )
             if u["high_pressure_cutout_kpa_gauge"]
             else None
@@ -412,6 +420,7 @@ def _history(
         replacements=replacements,
         lra_a=u["lra_a"],
         nameplate_volts=u["nameplate_volts"],
+        nameplate_volts_max=u["nameplate_volts_max"],
     )
     additions, repairs = [], []
     for e in events:

@@ -7,7 +7,7 @@ shows what was computed then; `manage.py rescore` replaces diagnoses whose versi
 
 from __future__ import annotations
 
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
 from functools import cached_property
 from typing import Any
 
@@ -16,6 +16,8 @@ from django.db import models
 from django.db.models import Q
 
 from diagnostics.core import diagnose as core_diagnose
+from diagnostics.core import wording
+from fleet.display import display_for
 from fleet.models import ReadingSet, RefrigerantEvent, Unit
 
 
@@ -28,9 +30,12 @@ class Diagnosis(models.Model):
         ReadingSet, on_delete=models.CASCADE, related_name="diagnosis"
     )
     algorithm_version = models.CharField(max_length=20)
-    score = models.FloatField()
+    score = models.FloatField(
+        null=True, blank=True, help_text="0-100; empty when the set held nothing to judge."
+    )
     energy_penalty_pct = models.FloatField(null=True, blank=True)
-    # Derived values kept as columns so trends read a unit's history without parsing JSON.
+    # Derived values kept as columns so trends read a unit's history without reading the
+    # details; each only where the diagnosis judged it (a held head's split is empty).
     evaporating_c = models.FloatField(null=True, blank=True)
     condensing_c = models.FloatField(null=True, blank=True)
     superheat_k = models.FloatField(null=True, blank=True)
@@ -48,11 +53,14 @@ class Diagnosis(models.Model):
         indexes = [models.Index(fields=["algorithm_version"])]
         constraints = [
             models.CheckConstraint(
-                condition=Q(score__gte=0, score__lte=100), name="diagnosis_score_0_100"
+                condition=Q(score__isnull=True) | Q(score__gte=0, score__lte=100),
+                name="diagnosis_score_0_100",
             ),
         ]
 
     def __str__(self) -> str:
+        if self.score is None:
+            return f"not enough readings to judge ({self.algorithm_version})"
         return f"score {self.score:.0f} ({self.algorithm_version})"
 
     @cached_property
@@ -136,9 +144,17 @@ class Flag(models.Model):
     unit = models.ForeignKey(Unit, on_delete=models.CASCADE, related_name="flags")
     kind = models.CharField(max_length=30, choices=FlagKind.choices)
     severity = models.CharField(max_length=10, choices=FlagSeverity.choices)
-    summary = models.CharField(max_length=300)
+    summary = models.CharField(
+        max_length=300, help_text="May name forecast quantities as {name} (SI, filled when read)."
+    )
     evidence = models.JSONField(default=list)
     projected_on = models.DateField(null=True, blank=True)
+    forecast = models.JSONField(
+        default=dict,
+        blank=True,
+        help_text="The flag's numbers: quantities [[name, value, SI unit], ...] and dates "
+        "{name: ISO date}.",
+    )
     opened_at = models.DateTimeField()
     updated_at = models.DateTimeField()
     cleared_at = models.DateTimeField(null=True, blank=True)
@@ -161,3 +177,35 @@ class Flag(models.Model):
 
     def __str__(self) -> str:
         return f"{self.get_kind_display()} on unit {self.unit_id}"
+
+    @property
+    def forecast_quantities(self) -> list[tuple[str, float, str]]:
+        return [tuple(q) for q in self.forecast.get("quantities", ())]  # type: ignore[misc]
+
+    def summary_for(self, reader: Mapping[str, str]) -> str:
+        """The summary with its numbers in the reader's units (``display_for(...).units``)."""
+        return wording.fill(self.summary, self.forecast_quantities, reader)
+
+    @property
+    def shown_summary(self) -> str:
+        """The summary in the contractor's display units (the office pages)."""
+        return self.summary_for(display_for().units)
+
+    @property
+    def shown_evidence(self) -> list[dict[str, Any]]:
+        """The evidence in the contractor's display units (the office pages)."""
+        return self.evidence_for(display_for().units)
+
+    def evidence_for(self, reader: Mapping[str, str]) -> list[dict[str, Any]]:
+        """Each piece of evidence as text in the reader's units, with its date."""
+        return [
+            {
+                "text": wording.fill(
+                    e.get("text", ""), map(tuple, e.get("quantities", ())), reader
+                ),
+                "observed_on": e.get("observed_on"),
+            }
+            if isinstance(e, dict)
+            else {"text": str(e), "observed_on": None}
+            for e in self.evidence
+        ]

@@ -16,7 +16,7 @@ from django.db import connection, transaction
 from django.utils import timezone
 
 from diagnostics.core import diagnose as core_diagnose
-from diagnostics.core import flags, leaks, start_risk
+from diagnostics.core import flags, leaks, plausibility, start_risk
 from diagnostics.core.types import SIGHT_GLASS_STATES, Reading, UnitDesign
 from fleet.choices import RefrigerantEventKind
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit
@@ -29,27 +29,31 @@ from .models import Diagnosis, Flag, LeakRate
 _PART_FIELDS = ("id", "kind", "installed_on", "removed_on", "rating_uf_min", "rating_uf_max")
 
 
+def _fitted_band(components: list[Component], role: str) -> tuple[float, float] | None:
+    """The band (``Component.rating_band_uf``) of the capacitor of ``role`` fitted now."""
+    parts = [{"component": c, **{f: getattr(c, f) for f in _PART_FIELDS}} for c in components]
+    fitted = start_risk.fitted_capacitor(parts, role)
+    return None if fitted is None else fitted["component"].rating_band_uf()
+
+
 def unit_design(unit: Unit, components: Iterable[Component] | None = None) -> UnitDesign:
     """The core's view of a unit: design data plus the ratings of the capacitors fitted now.
 
-    ``components``: the unit's, where the caller has them (prefetched for many units);
-    otherwise they are read here by a statement written once (``fleet.rows``): a new
-    reading set is diagnosed on every post, and the model's ordering would join the unit,
-    its site and its customer for nothing.
+    ``components``: the unit's, where the caller has them (prefetched for many units; an
+    empty tuple where no capacitor matters, as for the plausibility check); otherwise they
+    are read here by a statement written once (``fleet.rows``): a new reading set is
+    diagnosed on every post, and the model's ordering would join the unit, its site and its
+    customer for nothing. A run capacitor's band goes to the core as its centre plus or
+    minus a percentage (a printed 45 uF +/- 6 % comes back as exactly that).
     """
     if components is None:
         components = instances_where(Component, "unit", unit.pk)
-    parts = [{f: getattr(c, f) for f in _PART_FIELDS} for c in components]
-    run, start = (
-        start_risk.fitted_capacitor(parts, "run"),
-        start_risk.fitted_capacitor(parts, "start"),
-    )
+    components = list(components)
+    run, start = _fitted_band(components, "run"), _fitted_band(components, "start")
     run_nominal = run_tolerance = None
     if run is not None:
-        low = run["rating_uf_min"]
-        high = run["rating_uf_max"] if run["rating_uf_max"] is not None else low
-        run_nominal = (low + high) / 2
-        run_tolerance = 100 * (high - low) / 2 / run_nominal if high > low else None
+        run_nominal = (run[0] + run[1]) / 2
+        run_tolerance = 100 * (run[1] - run[0]) / 2 / run_nominal
     return UnitDesign(
         refrigerant=unit.refrigerant.designation,
         application=unit.application,
@@ -63,16 +67,18 @@ def unit_design(unit: Unit, components: Iterable[Component] | None = None) -> Un
         superheat_max_k=unit.superheat_max_k,
         high_pressure_cutout_kpa_gauge=unit.high_pressure_cutout_kpa_gauge,
         nameplate_volts=unit.nameplate_volts,
+        nameplate_volts_max=unit.nameplate_volts_max,
         phase=unit.phase,
         hertz=unit.hertz,
         rla_a=unit.rla_a,
         lra_a=unit.lra_a,
         run_capacitor_uf=run_nominal,
         run_capacitor_tolerance_pct=run_tolerance,
-        start_capacitor_min_uf=start["rating_uf_min"] if start else None,
-        start_capacitor_max_uf=(start["rating_uf_max"] or start["rating_uf_min"])
-        if start
-        else None,
+        start_capacitor_min_uf=start[0] if start else None,
+        start_capacitor_max_uf=start[1] if start else None,
+        head_pressure_control=unit.head_pressure_control or None,
+        head_pressure_setpoint_c=unit.head_pressure_setpoint_c,
+        temperature_basis=unit.design_temperature_basis,
     )
 
 
@@ -96,6 +102,17 @@ def reading_of(reading_set: ReadingSet) -> Reading:
         evaporator_fans_running=reading_set.evaporator_fans_running,
         coil_iced=reading_set.coil_iced,
         sight_glass=reading_set.sight_glass or None,
+    )
+
+
+def implausible_fields(reading_set: ReadingSet) -> tuple[plausibility.Implausible, ...]:
+    """What in ``reading_set`` (stored or not; its unit, site and refrigerant at hand) no
+    working system can produce, each naming its model field (the core's name) and why, with
+    its limit in SI to be written in the units the caller shows. Sends no query: the check
+    needs no capacitor."""
+    unit = reading_set.visit_unit.unit
+    return plausibility.check(
+        unit_design(unit, components=()), reading_of(reading_set), unit.site.elevation_m
     )
 
 
@@ -366,6 +383,13 @@ class FlagRefresh:
     cleared: int
 
 
+def _forecast_json(decision: flags.FlagDecision) -> dict:
+    return {
+        "quantities": [list(q) for q in decision.forecast],
+        "dates": {name: day.isoformat() for name, day in decision.forecast_dates},
+    }
+
+
 def _evidence_json(decision: flags.FlagDecision) -> list[dict]:
     return [
         {
@@ -406,6 +430,7 @@ def refresh_flags(today=None, unit_ids=None, now=None) -> FlagRefresh:
                     summary=decision.summary[:300],
                     evidence=_evidence_json(decision),
                     projected_on=decision.projected_date,
+                    forecast=_forecast_json(decision),
                     opened_at=now,
                     updated_at=now,
                 )
@@ -417,17 +442,26 @@ def refresh_flags(today=None, unit_ids=None, now=None) -> FlagRefresh:
                 decision.summary[:300],
                 _evidence_json(decision),
                 decision.projected_date,
+                _forecast_json(decision),
             )
             # An open flag whose judgement has not changed is left alone (no write).
-            if fresh != (flag.severity, flag.summary, flag.evidence, flag.projected_on):
-                flag.severity, flag.summary, flag.evidence, flag.projected_on = fresh
+            held = (flag.severity, flag.summary, flag.evidence, flag.projected_on, flag.forecast)
+            if fresh != held:
+                (
+                    flag.severity,
+                    flag.summary,
+                    flag.evidence,
+                    flag.projected_on,
+                    flag.forecast,
+                ) = fresh
                 flag.updated_at = now
                 to_update.append(flag)
         to_clear.extend(current[kind.value].pk for kind in changes.to_close)
     with transaction.atomic():
         Flag.objects.bulk_create(to_create)
         Flag.objects.bulk_update(
-            to_update, ["severity", "summary", "evidence", "projected_on", "updated_at"]
+            to_update,
+            ["severity", "summary", "evidence", "projected_on", "forecast", "updated_at"],
         )
         Flag.objects.filter(pk__in=to_clear).update(cleared_at=now, updated_at=now)
     return FlagRefresh(opened=len(to_create), updated=len(to_update), cleared=len(to_clear))

@@ -3,6 +3,7 @@
 from django.contrib import admin
 
 from . import models
+from .forms import ReceiverSelect
 
 
 class SiteInline(admin.TabularInline):
@@ -49,6 +50,8 @@ class ComponentInline(admin.TabularInline):
     extra = 0
     fields = (
         "kind",
+        "rated_uf",
+        "tolerance_pct",
         "rating_uf_min",
         "rating_uf_max",
         "rating_volts",
@@ -80,6 +83,76 @@ class UnitAdmin(admin.ModelAdmin):
     list_select_related = ("site__customer", "refrigerant")
     autocomplete_fields = ("site",)
     inlines = [ComponentInline]
+    fieldsets = (
+        (
+            None,
+            {
+                "fields": (
+                    "site",
+                    "tag",
+                    "description",
+                    "application",
+                    "appliance_type",
+                    "installed_on",
+                    "retired_on",
+                    "pm_interval_days",
+                )
+            },
+        ),
+        (
+            "Refrigerant circuit",
+            {
+                "fields": (
+                    "refrigerant",
+                    "full_charge_kg",
+                    "metering_device",
+                    "condenser_type",
+                    "has_receiver",
+                )
+            },
+        ),
+        (
+            "Design",
+            {
+                "fields": (
+                    "design_box_temp_c",
+                    "design_evap_td_k",
+                    "design_condenser_split_k",
+                    "design_temperature_basis",
+                    "superheat_min_k",
+                    "superheat_max_k",
+                )
+            },
+        ),
+        (
+            "Head pressure",
+            {
+                "fields": (
+                    "head_pressure_control",
+                    "head_pressure_setpoint_c",
+                    "high_pressure_cutout_kpa_gauge",
+                )
+            },
+        ),
+        (
+            "Electrical nameplate",
+            {
+                "fields": (
+                    "nameplate_volts",
+                    "nameplate_volts_max",
+                    "phase",
+                    "hertz",
+                    "rla_a",
+                    "lra_a",
+                )
+            },
+        ),
+    )
+
+    def formfield_for_dbfield(self, db_field, request, **kwargs):
+        if db_field.name == "has_receiver":
+            kwargs["widget"] = ReceiverSelect()
+        return super().formfield_for_dbfield(db_field, request, **kwargs)
 
 
 @admin.register(models.Component)

@@ -32,6 +32,25 @@ class CondenserType(models.TextChoices):
     WATER = "water", "Water-cooled"
 
 
+class HeadPressureControl(models.TextChoices):
+    """How a unit keeps its condensing temperature up in cold weather (the core's
+    ``types.HEAD_PRESSURE_CONTROLS``). Blank on a unit: not known, the application default."""
+
+    NONE = "none", "None: the head follows the outdoor air"
+    FAN_CYCLING = "fan_cycling", "Condenser fans switched off and on"
+    FLOODING = "flooding", "Condenser backed up with liquid (flooding valve)"
+    VARIABLE_SPEED = "variable_speed", "Condenser fan speed varied"
+    OTHER = "other", "Another kind"
+
+
+class TemperatureBasis(models.TextChoices):
+    """Which saturation temperature a glide blend's design TD and split are given on (the
+    core's ``types.TEMPERATURE_BASES``)."""
+
+    DEW = "dew", "Dew point"
+    MID_POINT = "mid_point", "Mid-point between dew and bubble"
+
+
 class RefrigerantKind(models.TextChoices):
     PURE = "pure", "Single compound"
     AZEOTROPE = "azeotrope", "Azeotropic blend"

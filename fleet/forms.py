@@ -63,6 +63,18 @@ def site_wall_clock(value: dt.datetime | None, site: Site | None) -> dt.datetime
     return timezone.localtime(value, ZoneInfo(site.time_zone)).replace(tzinfo=None)
 
 
+class ReceiverSelect(forms.NullBooleanSelect):
+    """Has a receiver, has none, or not known (the application's default), in words."""
+
+    def __init__(self, attrs: dict | None = None) -> None:
+        super().__init__(attrs)
+        self.choices = [
+            ("unknown", "Not known: the application default"),
+            ("true", "Has a receiver"),
+            ("false", "No receiver"),
+        ]
+
+
 class VisitForm(forms.ModelForm):
     """Create a visit, or reschedule, reassign and re-scope one that has not been handed in.
 

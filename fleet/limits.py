@@ -66,10 +66,19 @@ UNIT_LIMITS: dict[str, Limit] = {
     "superheat_max_k": Limit(0, 40, "superheat cannot be negative"),
     "high_pressure_cutout_kpa_gauge": Limit(300, 15000, "outside any high-pressure control"),
     "nameplate_volts": Limit(90, 700, "outside compressor supply voltages"),
+    "nameplate_volts_max": Limit(90, 700, "outside compressor supply voltages"),
+    "head_pressure_setpoint_c": Limit(
+        10, 60, "outside the condensing temperatures a head-pressure control is set to hold"
+    ),
     "hertz": Limit(50, 60, "supply frequency is 50 or 60 Hz"),
     "rla_a": Limit(0.1, 1000, "rated-load amps must be positive"),
     "lra_a": Limit(0.1, 5000, "locked-rotor amps must be positive"),
     "pm_interval_days": Limit(7, 730, "between a week and two years"),
+}
+
+COMPONENT_LIMITS: dict[str, Limit] = {
+    "rated_uf": Limit(0.1, 2000, "a capacitor is marked with a few to a couple of thousand uF"),
+    "tolerance_pct": Limit(0.5, 30, "a printed tolerance is a few percent (commonly 5, 6 or 10 %)"),
 }
 
 SITE_LIMITS: dict[str, Limit] = {
@@ -80,3 +89,9 @@ SITE_LIMITS: dict[str, Limit] = {
 EVENT_LIMITS: dict[str, Limit] = {
     "amount_kg": Limit(0, 5000, "an amount cannot be negative"),
 }
+
+#: Refrigerant added or recovered in one event beyond this many times the unit's full
+#: charge is refused unless the request confirms it. Ours: a full recharge after a recovery
+#: is about one full charge, and nameplate charges are approximate (a line set added on
+#: site), so a quarter more is still believable; far more is usually a slipped digit or unit.
+CONFIRM_AMOUNT_ABOVE_FULL_CHARGE = 1.25

@@ -7,16 +7,21 @@ field validators (messages naming the field) and by database constraints.
 
 from __future__ import annotations
 
+import math
 import uuid
 import zoneinfo
+from typing import Any
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.db import models
 from django.db.models import Q
+from django.db.models.functions import Coalesce
+
+from diagnostics.core.electrical import DEFAULT_RUN_CAPACITOR_TOLERANCE_PCT, run_capacitor_band
 
 from . import choices
-from .limits import EVENT_LIMITS, READING_LIMITS, SITE_LIMITS, UNIT_LIMITS
+from .limits import COMPONENT_LIMITS, EVENT_LIMITS, READING_LIMITS, SITE_LIMITS, UNIT_LIMITS
 from .validation import limit_constraints, limit_validators
 
 
@@ -131,7 +136,13 @@ class Unit(models.Model):
     condenser_type = models.CharField(
         max_length=10, choices=choices.CondenserType.choices, default=choices.CondenserType.AIR
     )
-    has_receiver = models.BooleanField(default=True)
+    has_receiver = models.BooleanField(
+        null=True,
+        blank=True,
+        default=None,
+        help_text="Blank: not known, the application default (remote condensing units "
+        "usually have a receiver; self-contained reach-ins and ice machines usually do not).",
+    )
     design_box_temp_c = models.FloatField(
         validators=limit_validators(UNIT_LIMITS["design_box_temp_c"])
     )
@@ -158,7 +169,38 @@ class Unit(models.Model):
         blank=True,
         validators=limit_validators(UNIT_LIMITS["high_pressure_cutout_kpa_gauge"]),
     )
-    nameplate_volts = models.FloatField(validators=limit_validators(UNIT_LIMITS["nameplate_volts"]))
+    head_pressure_control = models.CharField(
+        max_length=20,
+        choices=choices.HeadPressureControl.choices,
+        blank=True,
+        default="",
+        help_text="How the head is held up in cold weather. Blank: not known, the "
+        "application default.",
+    )
+    head_pressure_setpoint_c = models.FloatField(
+        null=True,
+        blank=True,
+        validators=limit_validators(UNIT_LIMITS["head_pressure_setpoint_c"]),
+        help_text="The condensing temperature the head-pressure control holds, degrees C. "
+        "Blank: the default for its kind.",
+    )
+    design_temperature_basis = models.CharField(
+        max_length=10,
+        choices=choices.TemperatureBasis.choices,
+        default=choices.TemperatureBasis.DEW,
+        help_text="Which saturation temperature the design evaporator TD and condenser split "
+        "are given on for a blend with glide; no effect on a refrigerant without glide.",
+    )
+    nameplate_volts = models.FloatField(
+        validators=limit_validators(UNIT_LIMITS["nameplate_volts"]),
+        help_text="The nameplate voltage, or the lower end of a dual rating such as 208-230 V.",
+    )
+    nameplate_volts_max = models.FloatField(
+        null=True,
+        blank=True,
+        validators=limit_validators(UNIT_LIMITS["nameplate_volts_max"]),
+        help_text="The upper end of a dual rating such as 208-230 V. Blank: a single rating.",
+    )
     phase = models.PositiveSmallIntegerField(choices=[(1, "Single-phase"), (3, "Three-phase")])
     hertz = models.PositiveSmallIntegerField(choices=[(50, "50 Hz"), (60, "60 Hz")], default=60)
     rla_a = models.FloatField(validators=limit_validators(UNIT_LIMITS["rla_a"]))
@@ -193,6 +235,24 @@ class Unit(models.Model):
                 name="unit_application_valid",
             ),
             models.CheckConstraint(condition=Q(phase__in=[1, 3]), name="unit_phase_valid"),
+            models.CheckConstraint(
+                condition=Q(head_pressure_control__in=["", *choices.HeadPressureControl.values]),
+                name="unit_head_pressure_control_valid",
+            ),
+            models.CheckConstraint(
+                condition=~Q(head_pressure_control=choices.HeadPressureControl.NONE)
+                | Q(head_pressure_setpoint_c__isnull=True),
+                name="unit_no_setpoint_without_control",
+            ),
+            models.CheckConstraint(
+                condition=Q(design_temperature_basis__in=choices.TemperatureBasis.values),
+                name="unit_temperature_basis_valid",
+            ),
+            models.CheckConstraint(
+                condition=Q(nameplate_volts_max__isnull=True)
+                | Q(nameplate_volts_max__gt=models.F("nameplate_volts")),
+                name="unit_dual_rating_ordered",
+            ),
             *limit_constraints("unit", UNIT_LIMITS),
         ]
 
@@ -211,6 +271,23 @@ class Unit(models.Model):
             errors["superheat_max_k"] = "must not be below the minimum superheat"
         if self.installed_on and self.retired_on and self.retired_on < self.installed_on:
             errors["retired_on"] = "cannot be before the installation date"
+        if (
+            self.head_pressure_control == choices.HeadPressureControl.NONE
+            and self.head_pressure_setpoint_c is not None
+        ):
+            errors["head_pressure_setpoint_c"] = (
+                "a unit without head-pressure control has no set point; leave it blank or "
+                "say which control holds it"
+            )
+        if (
+            self.nameplate_volts is not None
+            and self.nameplate_volts_max is not None
+            and self.nameplate_volts_max <= self.nameplate_volts
+        ):
+            errors["nameplate_volts_max"] = (
+                "must be above the nameplate voltage (the upper end of a dual rating such as "
+                "208-230 V); leave it blank for a single rating"
+            )
         if errors:
             raise ValidationError(errors)
 
@@ -283,16 +360,62 @@ class VisitUnit(models.Model):
         return f"{self.unit.tag} on {self.visit.reference}"
 
 
+def _band_of_rating() -> Q:
+    """The range columns hold the band of the printed rating (``Component.rating_band_uf``,
+    to a billionth of the rating), so no row can carry a rating and a range of its own.
+    A change of the core's typical run-capacitor tolerance therefore comes with a migration
+    that moves the stored bands of parts printed without one."""
+    rated = models.F("rated_uf")
+    tolerance = Coalesce("tolerance_pct", models.Value(DEFAULT_RUN_CAPACITOR_TOLERANCE_PCT))
+    slack = rated * 1e-9
+    low = rated * (1.0 - tolerance / 100.0)
+    high = rated * (1.0 + tolerance / 100.0)
+    return Q(
+        rating_uf_min__gte=low - slack,
+        rating_uf_min__lte=low + slack,
+        rating_uf_max__gte=high - slack,
+        rating_uf_max__lte=high + slack,
+    )
+
+
 class Component(models.Model):
-    """A replaceable part of a unit, with its rating and its history."""
+    """A replaceable part of a unit, with its rating and its history.
+
+    A capacitor's rating is given the way it is printed on the can: a run capacitor as
+    microfarads plus or minus a tolerance (``rated_uf``, ``tolerance_pct``; EIA-456-A,
+    IEC 60252-1), a start capacitor as a range (``rating_uf_min`` to ``rating_uf_max``;
+    IEC 60252-2). ``rating_band_uf`` turns either into the band a measured value must lie
+    in, and a part given as printed stores that band in the range columns too, so every
+    reader of the range columns sees the same band.
+    """
 
     unit = models.ForeignKey(Unit, on_delete=models.CASCADE, related_name="components")
     kind = models.CharField(max_length=30, choices=choices.ComponentKind.choices)
+    rated_uf = models.FloatField(
+        null=True,
+        blank=True,
+        validators=limit_validators(COMPONENT_LIMITS["rated_uf"]),
+        help_text="Capacitors marked with a nominal value (run capacitors): the microfarads "
+        "printed on the can. Give this or the range, not both.",
+    )
+    tolerance_pct = models.FloatField(
+        null=True,
+        blank=True,
+        validators=limit_validators(COMPONENT_LIMITS["tolerance_pct"]),
+        help_text="The plus-or-minus percent printed beside rated_uf. Blank on a run "
+        "capacitor: the typical 6 %.",
+    )
     rating_uf_min = models.FloatField(
-        null=True, blank=True, help_text="Capacitors: lowest acceptable microfarads."
+        null=True,
+        blank=True,
+        help_text="Capacitors marked with a range (start capacitors): the lower end. For a "
+        "part given by rated_uf, the lower end of its band, filled in from it.",
     )
     rating_uf_max = models.FloatField(
-        null=True, blank=True, help_text="Capacitors: highest acceptable microfarads."
+        null=True,
+        blank=True,
+        help_text="Capacitors marked with a range: the upper end. For a part given by "
+        "rated_uf, the upper end of its band, filled in from it.",
     )
     rating_volts = models.FloatField(null=True, blank=True)
     installed_on = models.DateField(null=True, blank=True)
@@ -319,25 +442,132 @@ class Component(models.Model):
                 name="component_uf_range_ordered",
             ),
             models.CheckConstraint(
+                condition=Q(tolerance_pct__isnull=True) | Q(rated_uf__isnull=False),
+                name="component_tolerance_needs_rating",
+            ),
+            models.CheckConstraint(
+                condition=Q(rated_uf__isnull=True)
+                | Q(tolerance_pct__isnull=False)
+                | Q(kind=choices.ComponentKind.RUN_CAPACITOR),
+                name="component_default_tolerance_only_for_run",
+            ),
+            models.CheckConstraint(
+                condition=Q(rated_uf__isnull=True) | _band_of_rating(),
+                name="component_band_follows_rating",
+            ),
+            models.CheckConstraint(
                 condition=Q(removed_on__isnull=True)
                 | Q(installed_on__isnull=True)
                 | Q(removed_on__gte=models.F("installed_on")),
                 name="component_removed_after_installed",
             ),
+            *limit_constraints("component", COMPONENT_LIMITS),
         ]
 
     def __str__(self) -> str:
         return f"{self.get_kind_display()} on {self.unit.tag}"
 
+    def save(self, *args: Any, **kwargs: Any) -> None:
+        self._store_band()
+        update_fields = kwargs.get("update_fields")
+        if update_fields is not None and {"rated_uf", "tolerance_pct"} & set(update_fields):
+            kwargs["update_fields"] = {*update_fields, "rating_uf_min", "rating_uf_max"}
+        super().save(*args, **kwargs)
+
     def clean(self) -> None:
+        errors = {}
+        if self.rated_uf is None:
+            if self.tolerance_pct is not None:
+                errors["tolerance_pct"] = "a tolerance belongs to a printed rating: give rated_uf"
+            elif self.kind == choices.ComponentKind.RUN_CAPACITOR and (
+                self.rating_uf_min is not None and self.rating_uf_max in (None, self.rating_uf_min)
+            ):
+                errors["rating_uf_max"] = (
+                    "a run capacitor marked with one value is given as rated_uf (with the "
+                    "printed tolerance_pct, or the typical 6 %), not as a range of one value"
+                )
+        elif self.tolerance_pct is None and self.kind != choices.ComponentKind.RUN_CAPACITOR:
+            errors["tolerance_pct"] = (
+                "give the tolerance printed beside rated_uf, or the range printed on the can "
+                "(rating_uf_min to rating_uf_max), as start capacitors are marked"
+            )
+        elif self._range_given():
+            errors["rated_uf"] = (
+                "give the rating as printed: rated_uf (with tolerance_pct) or the range "
+                "rating_uf_min to rating_uf_max, not both"
+            )
         if (
             self.rating_uf_min is not None
             and self.rating_uf_max is not None
             and self.rating_uf_max < self.rating_uf_min
         ):
-            raise ValidationError({"rating_uf_max": "must not be below the lowest rating"})
+            errors["rating_uf_max"] = "must not be below the lowest rating"
         if self.installed_on and self.removed_on and self.removed_on < self.installed_on:
-            raise ValidationError({"removed_on": "cannot be before the installation date"})
+            errors["removed_on"] = "cannot be before the installation date"
+        if errors:
+            raise ValidationError(errors)
+        self._store_band()
+
+    def rating_band_uf(self) -> tuple[float, float] | None:
+        """The microfarads a measured value of this part must lie in; None when unrated.
+
+        The one rule for every reader: a printed rating plus or minus its tolerance (a run
+        capacitor with none printed: the typical 6 %, REFERENCES 4), else the range, whose
+        upper end defaults to its lower one.
+        """
+        if self.rated_uf is not None:
+            tolerance = self.applied_tolerance_pct
+            if tolerance is None:
+                return None  # refused by clean() and a constraint
+            return run_capacitor_band(self.rated_uf, tolerance)
+        if self.rating_uf_min is None:
+            return None
+        high = self.rating_uf_max if self.rating_uf_max is not None else self.rating_uf_min
+        return self.rating_uf_min, high
+
+    @property
+    def applied_tolerance_pct(self) -> float | None:
+        """The tolerance a printed rating is judged with: the printed one, else (on a run
+        capacitor only) the typical 6 %."""
+        if self.tolerance_pct is not None:
+            return self.tolerance_pct
+        if self.kind == choices.ComponentKind.RUN_CAPACITOR:
+            return DEFAULT_RUN_CAPACITOR_TOLERANCE_PCT
+        return None
+
+    @classmethod
+    def from_db(cls, db: str | None, field_names: Any, values: Any) -> Component:
+        instance = super().from_db(db, field_names, values)
+        if instance.__dict__.get("rated_uf") is not None:
+            loaded = instance.__dict__
+            instance._filled_band = (loaded.get("rating_uf_min"), loaded.get("rating_uf_max"))
+        return instance
+
+    def _range_given(self) -> bool:
+        """Whether the range columns of a part with a printed rating hold a range of their
+        own: neither empty, nor the band filled in from a rating (this one, or the one
+        stored before an edit), nor that band echoed back by a client (to a millionth)."""
+        given = (self.rating_uf_min, self.rating_uf_max)
+        if given == (None, None):
+            return False
+        return not any(
+            band is not None
+            and all(
+                value is not None and math.isclose(value, edge, rel_tol=1e-6)
+                for value, edge in zip(given, band, strict=True)
+            )
+            for band in (self.rating_band_uf(), getattr(self, "_filled_band", None))
+        )
+
+    def _store_band(self) -> None:
+        """A part given as printed keeps its band in the range columns, which the history,
+        the reports and ``start_risk.fitted_capacitor`` read."""
+        if self.rated_uf is None:
+            return
+        band = self.rating_band_uf()
+        if band is not None:
+            self.rating_uf_min, self.rating_uf_max = band
+            self._filled_band = band
 
 
 def _reading_field(name: str) -> models.FloatField:

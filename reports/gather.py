@@ -197,20 +197,14 @@ class HistoryPoint:
     start_capacitor_uf: float | None
 
 
-#: Units the report converts for display; the core writes its evidence text in SI, so these
-#: quantities are repeated beside it in the reader's units.
-CONVERTED_UNITS = frozenset({"C", "K", "kPa", "kg"})
-
-
 @dataclass(frozen=True)
 class EvidenceRow:
+    """A flag's evidence: ``text`` names its ``quantities`` (SI) as ``{name}``; the report
+    writes them in its display units (``report_format.said``)."""
+
     text: str
     observed_on: date | None
     quantities: tuple[tuple[str, float, str], ...]
-
-    @property
-    def display_quantities(self) -> tuple[tuple[str, float, str], ...]:
-        return tuple(q for q in self.quantities if q[2] in CONVERTED_UNITS)
 
 
 @dataclass(frozen=True)
@@ -225,6 +219,8 @@ class FlagRow:
     evidence: tuple[EvidenceRow, ...]
     projected_on: date | None
     opened_on: date
+    #: The flag's numbers (SI), which ``summary`` may name as ``{name}``.
+    forecast: tuple[tuple[str, float, str], ...]
     #: Acknowledged by the office by the time the flags were read (the note stays internal).
     acknowledged: bool
 
@@ -737,6 +733,7 @@ def _flags(
             "projected_on",
             "opened_at",
             "acknowledged_at",
+            "forecast",
         )
     )
     for r in rows:
@@ -752,6 +749,9 @@ def _flags(
                 evidence=_evidence_rows(r["evidence"], provenance),
                 projected_on=r["projected_on"],
                 opened_on=r["opened_at"].astimezone(tz).date(),
+                forecast=tuple(
+                    (str(n), float(v), str(u)) for n, v, u in r["forecast"].get("quantities", ())
+                ),
                 acknowledged=r["acknowledged_at"] is not None and r["acknowledged_at"] < as_of,
             )
         )

@@ -14,7 +14,7 @@ from typing import Any
 from drf_spectacular.utils import extend_schema_field
 from rest_framework import serializers
 
-from diagnostics.core import refrigerants, saturation
+from diagnostics.core import refrigerants, saturation, wording
 from diagnostics.models import Diagnosis, Flag, LeakRate
 from fleet.api.wire_units import pressure_difference_from_kpa
 from fleet.display import display_for, from_si
@@ -102,6 +102,10 @@ def _apply(line: tuple[float, float] | None, value: float | None) -> float | Non
     return round(line[0] * value + line[1], 3)
 
 
+#: What a diagnosis without a score says instead.
+NOT_JUDGED = "not enough readings to judge"
+
+
 class RangeSerializer(serializers.Serializer):
     low = serializers.FloatField(allow_null=True, help_text="Lowest value still ok; null: open.")
     high = serializers.FloatField(allow_null=True, help_text="Highest value still ok; null: open.")
@@ -135,6 +139,13 @@ class FindingSerializer(serializers.Serializer):
     evidence = serializers.ListField(child=serializers.CharField())
     confidence = serializers.FloatField(help_text="0 to 1.")
     advice = serializers.CharField()
+    alternatives = serializers.ListField(
+        child=serializers.CharField(),
+        help_text="Codes of causes these readings cannot tell apart from this one.",
+    )
+    deciding_check = serializers.CharField(
+        allow_blank=True, help_text="The check that would decide between them (empty if none)."
+    )
 
 
 class CautionSerializer(serializers.Serializer):
@@ -152,6 +163,12 @@ class ResponseUnitsSerializer(serializers.Serializer):
 class DiagnosisSerializer(serializers.ModelSerializer):
     """The stored judgement on one reading set, converted to the response's units."""
 
+    score = serializers.FloatField(
+        allow_null=True, help_text="0-100; null when the set held nothing to judge."
+    )
+    score_note = serializers.CharField(
+        help_text="Why there is no score (empty when there is one).", read_only=True
+    )
     targets = TargetSerializer(many=True, read_only=True)
     metrics = MetricSerializer(many=True, read_only=True)
     findings = FindingSerializer(many=True, read_only=True)
@@ -162,6 +179,7 @@ class DiagnosisSerializer(serializers.ModelSerializer):
         model = Diagnosis
         fields = [
             "score",
+            "score_note",
             "algorithm_version",
             "computed_at",
             "targets",
@@ -184,7 +202,8 @@ class DiagnosisSerializer(serializers.ModelSerializer):
             elevation_m = instance.reading_set.visit_unit.unit.site.elevation_m
         convert = Converter(response_units(self.context), elevation_m)
         return {
-            "score": round(instance.score, 1),
+            "score": _rounded(instance.score),
+            "score_note": NOT_JUDGED if instance.score is None else "",
             "algorithm_version": instance.algorithm_version,
             "computed_at": serializers.DateTimeField().to_representation(instance.computed_at),
             "targets": [
@@ -224,6 +243,8 @@ class DiagnosisSerializer(serializers.ModelSerializer):
                     "evidence": list(f.get("evidence", ())),
                     "confidence": f.get("confidence", 0.0),
                     "advice": f.get("advice", ""),
+                    "alternatives": list(f.get("alternatives", ())),
+                    "deciding_check": f.get("deciding_check", ""),
                 }
                 for f in instance.findings
             ],
@@ -273,7 +294,24 @@ class TrendsSerializer(serializers.Serializer):
     units = ResponseUnitsSerializer()
 
 
+class FlagEvidenceSerializer(serializers.Serializer):
+    text = serializers.CharField(help_text="In the response's units.")
+    observed_on = serializers.DateField(allow_null=True)
+
+
+class ForecastQuantitySerializer(serializers.Serializer):
+    value = serializers.FloatField()
+    unit = serializers.CharField()
+
+
 class FlagSerializer(serializers.ModelSerializer):
+    """An open flag; its summary, evidence and forecast numbers in the response's units."""
+
+    summary = serializers.SerializerMethodField()
+    evidence = serializers.SerializerMethodField()
+    forecast = serializers.SerializerMethodField()
+    units = serializers.SerializerMethodField()
+
     class Meta:
         model = Flag
         fields = [
@@ -283,13 +321,45 @@ class FlagSerializer(serializers.ModelSerializer):
             "severity",
             "summary",
             "evidence",
+            "forecast",
             "projected_on",
             "opened_at",
             "updated_at",
             "acknowledged_at",
             "acknowledgement_note",
+            "units",
         ]
         read_only_fields = fields
+
+    def get_summary(self, obj: Flag) -> str:
+        return obj.summary_for(response_units(self.context))
+
+    @extend_schema_field(FlagEvidenceSerializer(many=True))
+    def get_evidence(self, obj: Flag) -> list[dict[str, Any]]:
+        return obj.evidence_for(response_units(self.context))
+
+    @extend_schema_field(
+        {
+            "type": "object",
+            "description": "The flag's numbers by name (e.g. split_slope, split_now, "
+            "design_day_head_now, cutout), each {value, unit} in the response's units, and "
+            "its projected dates (limit_crossed_on, cutout_reached_on) as ISO dates.",
+            "additionalProperties": True,
+        }
+    )
+    def get_forecast(self, obj: Flag) -> dict[str, Any]:
+        reader = response_units(self.context)
+        out: dict[str, Any] = {}
+        for name, value, unit in obj.forecast_quantities:
+            shown, shown_unit = wording.convert(value, unit, reader)
+            per_year = "/year" if unit.endswith("/year") else ""
+            out[name] = {"value": round(shown, 3), "unit": shown_unit + per_year}
+        out.update(obj.forecast.get("dates", {}))
+        return out
+
+    @extend_schema_field(ResponseUnitsSerializer)
+    def get_units(self, obj: Flag) -> dict[str, str]:
+        return response_units(self.context)
 
 
 class SaturationQuerySerializer(serializers.Serializer):

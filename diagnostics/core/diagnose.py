@@ -43,6 +43,7 @@ from diagnostics.core import scoring as sc
 from diagnostics.core import targets as tg
 from diagnostics.core.types import (
     APPLICATIONS,
+    HEAD_PRESSURE_CONTROLS,
     METERING_DEVICES,
     SIGHT_GLASS_STATES,
     STATUSES,
@@ -60,7 +61,7 @@ FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int8]
 
 #: Bump whenever a change alters any stored result; ``manage.py rescore`` keys on it.
-ALGORITHM_VERSION = "2025.2"
+ALGORITHM_VERSION = "2026.1"
 
 #: Legs per reading kept in the columns (three-phase); single-phase uses the first.
 LEGS = 3
@@ -208,6 +209,12 @@ class UnitColumns:
     metering_given: NDArray[np.bool_]
     water_cooled: NDArray[np.bool_]
     has_receiver: FloatArray
+    #: Kind of head-pressure control (index into ``types.HEAD_PRESSURE_CONTROLS``), the
+    #: unit's or its application's default, and whether the unit gave it.
+    control_code: NDArray[np.intp]
+    control_given: NDArray[np.bool_]
+    #: The design TD and split are given on the mid-point (else the dew point).
+    basis_mid: NDArray[np.bool_]
     floats: Mapping[str, FloatArray]
 
     def __len__(self) -> int:
@@ -236,6 +243,17 @@ class UnitColumns:
             [None if d.has_receiver is None else float(d.has_receiver) for d in designs]
         )
         receiver = np.where(np.isnan(receiver), tg.default_has_receiver(app_code), receiver)
+        control_given = np.array(
+            [d.head_pressure_control in HEAD_PRESSURE_CONTROLS for d in designs], dtype=bool
+        )
+        control = np.array(
+            [
+                HEAD_PRESSURE_CONTROLS.index(d.head_pressure_control) if given else 0
+                for d, given in zip(designs, control_given, strict=True)
+            ],
+            dtype=np.intp,
+        )
+        control = np.where(control_given, control, tg.default_head_pressure_control_codes(app_code))
         return cls(
             designs=tuple(designs),
             refrigerants=distinct,
@@ -245,6 +263,9 @@ class UnitColumns:
             metering_given=given,
             water_cooled=np.array([d.condenser_type == "water" for d in designs], dtype=bool),
             has_receiver=receiver,
+            control_code=control,
+            control_given=control_given,
+            basis_mid=np.array([d.temperature_basis == "mid_point" for d in designs], dtype=bool),
             floats={name: _col([getattr(d, name) for d in designs]) for name in UNIT_FLOATS},
         )
 
@@ -276,10 +297,20 @@ def _unit_targets(u: UnitColumns) -> dict[str, FloatArray]:
     put("superheat_max_k", tg.resolve(f["superheat_max_k"], sh_high))
     sc_low, sc_high = tg.subcooling_range_k(u.has_receiver)
     out["subcooling_min_k"], out["subcooling_max_k"] = sc_low, sc_high
-    put(
-        "head_floor_c",
-        tg.resolve(f["head_pressure_setpoint_c"], tg.default_head_pressure_floor_c(app)),
+    setpoint, held_low, held_high = tg.head_control_band(
+        u.control_code, f["head_pressure_setpoint_c"]
     )
+    out["head_setpoint_c"], out["head_held_low_c"], out["head_held_high_c"] = (
+        setpoint,
+        held_low,
+        held_high,
+    )
+    out["head_setpoint_c_origin"] = np.where(
+        np.isnan(setpoint),
+        tg.MISSING,
+        np.where(np.isnan(f["head_pressure_setpoint_c"]), tg.FROM_DEFAULT, tg.FROM_DESIGN),
+    ).astype(np.float64)
+    out["basis_mid"] = u.basis_mid.astype(np.float64)
     out["cr_typical_low"], _ = tg.compression_ratio_typical(app)
     out["cutout_kpa_gauge"] = f["high_pressure_cutout_kpa_gauge"]
     out["rla_a"], out["lra_a"] = f["rla_a"], f["lra_a"]
@@ -322,8 +353,9 @@ REASON_TEXT: dict[int, str] = {
     REASON_WATER_COOLED: "water-cooled condenser: there is no air split to score",
     REASON_TRANSCRITICAL: "R-744 above its critical pressure: no condensing temperature or "
     "subcooling exists; the gas-cooler approach and head pressure are scored instead",
-    REASON_HEAD_CONTROL: "head-pressure control holds condensing up at this entering-air "
-    "temperature, so a high split is expected",
+    REASON_HEAD_CONTROL: "the head-pressure control was holding condensing up at this "
+    "entering-air temperature, so the split says nothing about the condenser; judge the coil "
+    "by eye or on a warmer day",
     REASON_RUNNING_UNKNOWN: "whether the compressor was running was not given",
     REASON_SINGLE_PHASE: "single-phase supply: there is no three-phase unbalance",
     REASON_COMPRESSOR_OFF: "compressor reported not running: cycle readings are not judged",
@@ -477,6 +509,9 @@ def _few_units(designs: tuple[UnitDesign, ...]) -> tuple[UnitColumns, dict[str, 
         uc.metering_given,
         uc.water_cooled,
         uc.has_receiver,
+        uc.control_code,
+        uc.control_given,
+        uc.basis_mid,
     ):
         array.setflags(write=False)
     return uc, per_unit
@@ -528,9 +563,10 @@ def diagnose_batch(
     t_evap = np.stack([t_evap_target, evap_base - td_high, evap_base - td_low])
     t_cond = np.stack([t_cond_target, cond_base + split_low, cond_base + split_high])
 
+    mid_basis = t["basis_mid"] == 1.0
     nan = np.full(n, np.nan)
     evap_dew, evap_bub, cond_dew, cond_bub = nan.copy(), nan.copy(), nan.copy(), nan.copy()
-    p_crit, t_cond_target_dew, penalty = nan.copy(), nan.copy(), nan.copy()
+    p_crit, t_cond_target_dew = nan.copy(), nan.copy()
     p_evap, p_cond = np.full((3, n), np.nan), np.full((3, n), np.nan)
     for code, designation in enumerate(uc.refrigerants):
         sel = np.flatnonzero(ref_code == code)
@@ -542,9 +578,9 @@ def diagnose_batch(
         cond_dew[sel] = tg.dew_temp_c(curve, p_h[sel])
         cond_bub[sel] = tg.bubble_temp_c(curve, p_h[sel])
         p_crit[sel] = float(curve.critical_pressure_kpa_abs)
-        # target and both band edges in one lookup per side
-        p_evap[:, sel] = tg.mid_point_pressure_kpa_abs(curve, t_evap[:, sel])
-        p_cond[:, sel] = tg.mid_point_pressure_kpa_abs(curve, t_cond[:, sel])
+        # target and both band edges in one lookup per side, on each unit's basis
+        p_evap[:, sel] = tg.basis_pressure_kpa_abs(curve, t_evap[:, sel], mid_basis[sel])
+        p_cond[:, sel] = tg.basis_pressure_kpa_abs(curve, t_cond[:, sel], mid_basis[sel])
         t_cond_target_dew[sel] = tg.dew_temp_c(curve, p_cond[0, sel])
     transcritical = p_h >= p_crit
     cond_dew[transcritical] = np.nan
@@ -553,22 +589,11 @@ def diagnose_batch(
     p_cond[:, transcritical] = np.nan
     t_cond[:, transcritical] = np.nan
 
-    running = r.compressor_running
+    # Stopped as reported; not reported, a suction at or above head says it was not running.
+    running = np.where(np.isnan(r.compressor_running) & (p_s >= p_h), 0.0, r.compressor_running)
     stopped = running == 0.0
-    for code, designation in enumerate(uc.refrigerants):
-        sel = np.flatnonzero((ref_code == code) & ~stopped)
-        ok = sel[np.isfinite(evap_dew[sel] + cond_dew[sel] + t_cond_target_dew[sel])]
-        if ok.size == 0:
-            continue
-        try:
-            penalty[ok] = energy.energy_penalty_pct(
-                designation, evap_dew[ok], cond_dew[ok], t_cond_target_dew[ok]
-            )
-        except ValueError:
-            penalty[ok] = np.nan  # no cycle model for this refrigerant: no figure, no guess
-
-    evap_mid = 0.5 * (evap_dew + evap_bub)
-    cond_mid = 0.5 * (cond_dew + cond_bub)
+    evap_on_basis = np.where(mid_basis, 0.5 * (evap_dew + evap_bub), evap_dew)
+    cond_on_basis = np.where(mid_basis, 0.5 * (cond_dew + cond_bub), cond_dew)
     amps_max = _leg_extreme(r.compressor_amps, largest=True)
     volts_min = _leg_extreme(r.supply_volts, largest=False)
     volts_max = _leg_extreme(r.supply_volts, largest=True)
@@ -584,15 +609,15 @@ def diagnose_batch(
         "head_kpa_abs": p_h,
         "evaporating_dew_c": evap_dew,
         "evaporating_bubble_c": evap_bub,
-        "evaporating_c": evap_mid,
+        "evaporating_c": evap_on_basis,
         "condensing_dew_c": cond_dew,
         "condensing_bubble_c": cond_bub,
-        "condensing_c": cond_mid,
+        "condensing_c": cond_on_basis,
         "superheat_k": r.suction_line_temp_c - evap_dew,
         "subcooling_k": cond_bub - r.liquid_line_temp_c,
-        "evaporator_td_k": r.box_temp_c - evap_mid,
+        "evaporator_td_k": r.box_temp_c - evap_on_basis,
         "condenser_split_k": np.where(
-            t["water_cooled"] == 1.0, np.nan, cond_mid - r.entering_air_temp_c
+            t["water_cooled"] == 1.0, np.nan, cond_on_basis - r.entering_air_temp_c
         ),
         "compression_ratio": _finite(p_h / p_s),
         "transcritical": transcritical.astype(np.float64),
@@ -667,8 +692,15 @@ def diagnose_batch(
         m, *rest = inputs[name]
         inputs[name] = (np.where(stopped, np.nan, m), *rest)  # type: ignore[assignment]
 
+    # Cold weather: a head the unit's control holds up says nothing about the condenser.
+    held = (
+        (r.entering_air_temp_c + t["split_k"] < t["head_setpoint_c"])
+        & (cond_on_basis >= t["head_held_low_c"])
+        & (cond_on_basis <= t["head_held_high_c"])
+    )
     metrics: dict[str, MetricColumns] = {}
     total_points = np.zeros(n)
+    judged = np.zeros(n, dtype=bool)
     for name, rule in sc.SCORING_TABLE.items():
         measured, target, own_low, own_high = inputs[name]
         low, high = sc.ok_band(rule, target, own_low, own_high)
@@ -679,13 +711,10 @@ def diagnose_batch(
         if name == "condenser_split":
             reason[t["water_cooled"] == 1.0] = REASON_WATER_COOLED
             reason[transcritical] = REASON_TRANSCRITICAL
-            # Cold weather: the control holds condensing at its floor, so the split grows.
-            held = (r.entering_air_temp_c + t["split_k"] < t["head_floor_c"]) & (
-                cond_mid <= t["head_floor_c"] + 1.0
-            )
-            excused = held & (deviation > 0)
+            excused = held & (status != sc.NOT_SCORED)
             status[excused] = sc.NOT_SCORED
             points[excused] = 0.0
+            deviation[excused] = np.nan
             reason[excused] = REASON_HEAD_CONTROL
         elif name == "subcooling":
             reason[transcritical] = REASON_TRANSCRITICAL
@@ -701,13 +730,33 @@ def diagnose_batch(
             if name == "current_unbalance":
                 reason[stopped] = REASON_HIDDEN
         total_points += points
+        judged |= status != sc.NOT_SCORED
         metrics[name] = MetricColumns(
             measured, target, low, high, deviation, status, points, reason
         )
 
+    # Energy money only where the condenser is off its target: the split judged and above
+    # its band. Judged and on target costs nothing; not judged (held, off-cycle) says nothing.
+    split = metrics["condenser_split"]
+    off_target = (split.status != sc.NOT_SCORED) & (split.deviation > 0)
+    penalty = np.where(split.status != sc.NOT_SCORED, 0.0, np.nan)
+    for code, designation in enumerate(uc.refrigerants):
+        sel = np.flatnonzero((ref_code == code) & off_target)
+        ok = sel[np.isfinite(evap_dew[sel] + cond_dew[sel] + t_cond_target_dew[sel])]
+        if ok.size == 0:
+            continue
+        try:
+            penalty[ok] = energy.energy_penalty_pct(
+                designation, evap_dew[ok], cond_dew[ok], t_cond_target_dew[ok]
+            )
+        except ValueError:
+            penalty[ok] = np.nan  # no cycle model for this refrigerant: no figure, no guess
+
     signals = findings.derive_signals(
         {name: (m.measured, m.target, m.deviation, m.status) for name, m in metrics.items()},
         flags={
+            "call_for_cooling": r.call_for_cooling,
+            "compressor_running": running,
             "coil_iced": r.coil_iced,
             "evaporator_fans_running": r.evaporator_fans_running,
             "condenser_fan_running": r.condenser_fan_running,
@@ -727,7 +776,7 @@ def diagnose_batch(
             atm_targets[pressure + suffix] = pressures[k] - atm
     return BatchResult(
         algorithm_version=ALGORITHM_VERSION,
-        score=sc.visit_score(total_points),
+        score=sc.visit_score(total_points, judged),
         metrics=metrics,
         derived=derived,
         saturation_targets=atm_targets,
@@ -759,7 +808,8 @@ def diagnose_row(unit: UnitDesign, reading: Reading, elevation_m: float = 0.0) -
 
 # --- rows as stored, built column-wise -----------------------------------------------------
 
-#: Derived values stored as columns beside the JSON (trends read them without parsing it).
+#: Derived values stored as columns (trends read them without reading the details), each
+#: where it was judged only (``judged_derived``).
 STORED_DERIVED: tuple[str, ...] = (
     "evaporating_c",
     "condensing_c",
@@ -771,6 +821,15 @@ STORED_DERIVED: tuple[str, ...] = (
 )
 
 Row = dict[str, Any]
+
+#: Stored derived value -> the metric whose judgement it follows (the others: running only).
+_JUDGED_BY: dict[str, str] = {
+    "superheat_k": "superheat",
+    "subcooling_k": "subcooling",
+    "evaporator_td_k": "evaporator_td",
+    "condenser_split_k": "condenser_split",
+    "compression_ratio": "compression_ratio",
+}
 
 
 def _opt(x: float) -> float | None:
@@ -869,6 +928,10 @@ def _target_sources(context: tuple[float, ...]) -> dict[str, str]:
         origin_split,
         origin_superheat,
         origin_run_cap,
+        control,
+        control_given,
+        origin_setpoint,
+        basis_mid,
     ) = context
     app = APPLICATIONS[int(app_code)]
     device = METERING_DEVICES[int(metering_code)]
@@ -876,14 +939,27 @@ def _target_sources(context: tuple[float, ...]) -> dict[str, str]:
     receiver_note = tg.DESIGN if receiver_given else defaults.receiver_source
     sub_source = tg.SUBCOOLING_DEFAULTS[bool(receiver)].source if receiver >= 0 else "missing"
     sh_device = f"metering device {device}" + ("" if metering_given else f" (default for {app})")
+    kind = HEAD_PRESSURE_CONTROLS[int(control)]
+    control_note = f"head-pressure control: {kind.replace('_', ' ')}" + (
+        "" if control_given else f" ({defaults.head_pressure_control_source})"
+    )
+    if kind != "none":
+        control_note += ", set point " + (
+            tg.DESIGN
+            if origin_setpoint == tg.FROM_DESIGN
+            else f"default ({tg.HEAD_PRESSURE_CONTROL_DEFAULTS[kind].source})"
+        )
+    basis = "mid-point" if basis_mid else "dew point"
     return {
         "box_temp": _design_source(
             origin_box, defaults.box_temp_c.source if defaults.box_temp_c else ""
         ),
         "evaporator_td": _design_source(
             origin_td, defaults.evap_td_k.source if defaults.evap_td_k else ""
-        ),
-        "condenser_split": _design_source(origin_split, defaults.condenser_split_k.source),
+        )
+        + f"; on the {basis}",
+        "condenser_split": _design_source(origin_split, defaults.condenser_split_k.source)
+        + f"; on the {basis}; {control_note}",
         "superheat": _design_source(
             origin_superheat,
             f"{tg.SUPERHEAT_DEFAULTS[(app, device)].source}; {sh_device}",
@@ -906,7 +982,10 @@ def _target_sources(context: tuple[float, ...]) -> dict[str, str]:
 
 def _metric_target_source(name: str, source: str) -> str:
     rule = sc.SCORING_TABLE[name]
-    return rule.source if source in rule.source else f"target: {source}; ok band: {rule.source}"
+    text = rule.source if source in rule.source else f"target: {source}; ok band: {rule.source}"
+    if rule.margin:
+        text += f"; widened each side by {rule.margin_source}"
+    return text
 
 
 # Why a metric was not scored for want of data is packed into a small integer per row (two
@@ -1039,6 +1118,10 @@ _SOURCE_CONTEXT: tuple[str, ...] = (
     "origin_split",
     "origin_superheat",
     "origin_run_cap_tol",
+    "control",
+    "control_given",
+    "origin_setpoint",
+    "basis_mid",
 )
 #: The stored form of a diagnosis: one float32 per column, in this order. Numbers and codes
 #: only (a metric's status and why it was not scored, which rules fired and which signals
@@ -1060,6 +1143,8 @@ PACKED_BYTES = len(PACKED_COLUMNS) * PACKED_DTYPE.itemsize
 _AT = {name: i for i, name in enumerate(PACKED_COLUMNS)}
 if len(findings.RULES) > 24:
     raise ValueError("the stored finding mask is one float32 column: at most 24 rules")
+if len(_SIGNAL_NAMES) > 64:
+    raise ValueError("signals are packed from one 64-bit word: at most 64 signals")
 
 #: Stored numbers are float32 (7 significant digits); read back they are rounded to this many
 #: decimals so 5.1 stays 5.1 and not 5.099999904632568.
@@ -1091,6 +1176,10 @@ def pack(res: BatchResult) -> NDArray[np.float32]:
             (superheat == tg.MISSING).any(axis=0), tg.MISSING, superheat.max(axis=0)
         ),
         "origin_run_cap_tol": origin["run_cap_tol_pct_origin"],
+        "control": uc.control_code,
+        "control_given": uc.control_given,
+        "origin_setpoint": origin["head_setpoint_c_origin"],
+        "basis_mid": uc.basis_mid,
     }
     for name, values in per_unit.items():
         put(name, np.asarray(values)[u])
@@ -1109,11 +1198,11 @@ def pack(res: BatchResult) -> NDArray[np.float32]:
     put("finding_mask", res.finding_mask)
     for bit, code in enumerate(findings.RULE_CODES):
         put(f"confidence:{code}", res.finding_confidence[bit])
-    bits = np.zeros(n, dtype=np.uint32)
+    bits = np.zeros(n, dtype=np.uint64)
     for name, held in res.signals.items():
-        bits |= held.astype(np.uint32) << np.uint32(_SIGNAL_INDEX[name])
+        bits |= held.astype(np.uint64) << np.uint64(_SIGNAL_INDEX[name])
     for k in range(-(-len(_SIGNAL_NAMES) // _WORD)):
-        put(f"signals:{k}", (bits >> np.uint32(k * _WORD)) & np.uint32((1 << _WORD) - 1))
+        put(f"signals:{k}", (bits >> np.uint64(k * _WORD)) & np.uint64((1 << _WORD) - 1))
     return out
 
 
@@ -1227,7 +1316,9 @@ def expand(packed: NDArray[np.float32]) -> list[Row]:
 
     # targets: the saturation targets, then every metric target that applies to the unit
     refrigerant = code("refrigerant")
-    target_cols = _saturation_target_cols(num, refrigerant, code("box_measured") == 1)
+    target_cols = _saturation_target_cols(
+        num, refrigerant, code("box_measured") == 1, code("basis_mid") == 1
+    )
     context = np.nan_to_num(packed[:, [_AT[c] for c in _SOURCE_CONTEXT]], nan=-1.0)
     contexts = list(map(tuple, context.tolist()))
     for name, rule in sc.SCORING_TABLE.items():
@@ -1267,14 +1358,16 @@ def expand(packed: NDArray[np.float32]) -> list[Row]:
         [{"code": c, "text": CAUTIONS[c]} for c in _caution_codes(_REFRIGERANTS[r], o)]
         for r, o in zip(refrigerant.tolist(), opens, strict=True)
     ]
-    glide = tg.GLIDE_CHOICE_TEXT
+    basis_text = [
+        tg.BASIS_TEXT["mid_point" if mid else "dew"] for mid in (code("basis_mid") == 1).tolist()
+    ]
     return [
         {
             "targets": [d for d in t if d is not None],
             "metrics": [d for d in m if d is not None],
             "findings": found.get(j, []),
             "cautions": c,
-            "glide_choice": glide,
+            "glide_choice": basis_text[j],
         }
         for j, (t, m, c) in enumerate(
             zip(
@@ -1291,11 +1384,16 @@ def _saturation_target_cols(
     num: Callable[[str], FloatArray],
     refrigerant: NDArray[np.int64],
     box_measured: NDArray[np.bool_],
+    basis_mid: NDArray[np.bool_],
 ) -> list[list[Row | None]]:
     """The evaporating and condensing targets and their pressures, one column each; None
     where a row has no such target."""
     blend = np.array([refrigerants.get(d).is_blend for d in _REFRIGERANTS], dtype=bool)
-    glide = np.where(blend[refrigerant], "mid-point of dew and bubble", "saturation").tolist()
+    glide = np.where(
+        blend[refrigerant],
+        np.where(basis_mid, "mid-point of dew and bubble", "dew point"),
+        "saturation",
+    ).tolist()
     box_note = np.where(box_measured, "measured box temperature", "design box temperature").tolist()
     out: list[list[Row | None]] = []
     for side, temp_key, pressure_key, temp_name, pressure_name in (
@@ -1381,7 +1479,9 @@ def _finding_rows(
     has_finding = mask != 0
     if not has_finding.any():
         return {}
-    fired_rules: list[tuple[findings.Rule, list[int], list[tuple[str, ...]], list[float]]] = []
+    fired_rules: list[
+        tuple[findings.Rule, list[int], list[tuple[str, ...]], list[float], list[tuple[str, ...]]]
+    ] = []
     for bit, rule in enumerate(findings.RULES):
         fired = np.flatnonzero(mask & (1 << bit))
         if not fired.size:
@@ -1400,10 +1500,19 @@ def _finding_rows(
             for f, s in zip(first.tolist(), support.tolist(), strict=True)
         ]
         confidence = [round(c, 3) for c in confidences[rule.code][fired].tolist()]
-        fired_rules.append((rule, fired.tolist(), names, confidence))
+        open_: list[tuple[str, ...]] = [()] * fired.size
+        for alternative in rule.alternatives:
+            ruled_out = np.zeros(fired.size, dtype=bool)
+            for name in alternative.unless:
+                ruled_out |= signal(name)[fired]
+            open_ = [
+                (*kept, alternative.code) if not out else kept
+                for kept, out in zip(open_, ruled_out.tolist(), strict=True)
+            ]
+        fired_rules.append((rule, fired.tolist(), names, confidence, open_))
 
     texts: dict[str, list[str | None]] = {}
-    for name in set().union(*(set(n) for _, _, names, _ in fired_rules for n in set(names))):
+    for name in set().union(*(set(n) for _, _, names, _, _ in fired_rules for n in set(names))):
         at = np.flatnonzero(signal(name) & has_finding).tolist()
         column: list[str | None] = [None] * len(mask)
         for j, text in zip(at, _evidence_texts(name, at, values), strict=True):
@@ -1411,8 +1520,8 @@ def _finding_rows(
         texts[name] = column
 
     out: dict[int, list[Row]] = {}
-    for rule, rows, names, confidence in fired_rules:
-        for j, behind, c in zip(rows, names, confidence, strict=True):
+    for rule, rows, names, confidence, alternatives in fired_rules:
+        for j, behind, c, alt in zip(rows, names, confidence, alternatives, strict=True):
             out.setdefault(j, []).append(
                 {
                     "code": rule.code,
@@ -1420,6 +1529,8 @@ def _finding_rows(
                     "evidence": [texts[s][j] for s in behind],
                     "confidence": c,
                     "advice": rule.advice,
+                    "alternatives": list(alt),
+                    "deciding_check": rule.deciding_check if alt else "",
                 }
             )
     for found in out.values():
@@ -1433,11 +1544,23 @@ def stored_columns(res: BatchResult) -> dict[str, list[Any]]:
     missing): the score, the energy penalty, the derived values trends read, and ``packed``
     (the stored form, one ``bytes`` per row)."""
     return {
-        "score": res.score.tolist(),
+        "score": _opt_list(res.score),
         "energy_penalty_pct": _opt_list(res.energy_penalty_pct),
-        **{name: _opt_list(res.derived[name]) for name in STORED_DERIVED},
+        **{name: _opt_list(judged_derived(res, name)) for name in STORED_DERIVED},
         "packed": to_blobs(res.packed),
     }
+
+
+def judged_derived(res: BatchResult, name: str) -> FloatArray:
+    """A stored derived value where the diagnosis judged it (``STORED_DERIVED``), NaN
+    elsewhere: trends and charts then follow exactly what was judged, never a split the
+    head-pressure control held up or a pressure read with the compressor off."""
+    metric = _JUDGED_BY.get(name)
+    values = res.derived[name]
+    if metric is None:
+        stopped = res.metrics["superheat"].reason == REASON_COMPRESSOR_OFF
+        return np.where(stopped, np.nan, values)
+    return np.where(res.metrics[metric].status != sc.NOT_SCORED, values, np.nan)
 
 
 def typed_details(
@@ -1448,7 +1571,12 @@ def typed_details(
     return (
         tuple(Target(**t) for t in details["targets"]),
         tuple(Metric(**m) for m in details["metrics"]),
-        tuple(Finding(**{**f, "evidence": tuple(f["evidence"])}) for f in details["findings"]),
+        tuple(
+            Finding(
+                **{**f, "evidence": tuple(f["evidence"]), "alternatives": tuple(f["alternatives"])}
+            )
+            for f in details["findings"]
+        ),
         tuple(Caution(**c) for c in details["cautions"]),
     )
 
@@ -1465,7 +1593,7 @@ def _row_diagnosis(res: BatchResult, i: int) -> Diagnosis:
     row = expand(res.packed[i : i + 1])[0]
     targets, metrics, found, cautions = typed_details(row)
     return Diagnosis(
-        score=float(res.score[i]),
+        score=_opt(res.score[i]),
         algorithm_version=res.algorithm_version,
         targets=targets,
         metrics=metrics,

@@ -8,10 +8,14 @@ flag was not given) is simply not true, so missing data never triggers a finding
 one: it only lowers the confidence.
 
 A rule fires when all signals of any one of its ``triggers`` hold and none of its
-``excluding`` signals holds. Its confidence starts at ``base_confidence`` and rises with
-each ``supporting`` signal that holds, up to ``MAX_CONFIDENCE``. Everything runs on numpy
-boolean arrays, so one pass judges a whole batch; the per-row text (evidence) is built only
-when a single diagnosis is asked for.
+``excluding`` signals holds: the excluding signals are the symptoms that tell a neighbouring
+cause apart, so a rule needs evidence against its neighbours, not one metric off its band.
+Where the readings cannot tell two causes apart (a dirty condenser and non-condensables run
+alike), the finding names the other as an alternative and the check that would decide.
+Its confidence starts at ``base_confidence`` and rises with each ``supporting`` signal that
+holds, up to ``MAX_CONFIDENCE``. Everything runs on numpy boolean arrays, so one pass
+judges a whole batch; the per-row text (evidence) is built only when a single diagnosis is
+asked for.
 """
 
 from __future__ import annotations
@@ -111,6 +115,11 @@ SIGNALS: dict[str, Signal] = {
         ),
         Signal("run_cap_bad", "run capacitor {run_capacitor} outside {run_capacitor:band}"),
         Signal("start_cap_bad", "start capacitor {start_capacitor} outside {start_capacitor:band}"),
+        Signal("box_warm", "box temperature {box_temp} above its ok band {box_temp:band}"),
+        Signal(
+            "called_not_running",
+            "compressor not running although the control is calling for cooling",
+        ),
         Signal("coil_iced", "evaporator coil reported iced"),
         Signal("evap_fans_off", "evaporator fans reported not running"),
         Signal("cond_fan_off", "condenser fan reported not running"),
@@ -121,8 +130,23 @@ SIGNALS: dict[str, Signal] = {
 
 
 @dataclass(frozen=True)
+class Alternative:
+    """A neighbouring cause the readings cannot rule out, unless one of ``unless`` holds."""
+
+    code: str
+    unless: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
 class Rule:
-    """One troubleshooting pattern turned into a rule over signals."""
+    """One troubleshooting pattern turned into a rule over signals.
+
+    A rule fires on the symptoms that tell it apart from its neighbours, not on one metric:
+    its ``excluding`` signals are the neighbours' distinguishing symptoms. Where the readings
+    cannot separate two causes the rule names the other as an ``alternative`` and the
+    ``deciding_check`` that would settle it. A rule with no triggers is a cause that no
+    reading set can tell apart on its own: it is only ever named as an alternative.
+    """
 
     code: str
     title: str
@@ -133,6 +157,8 @@ class Rule:
     advice: str
     #: The likely repair opens the refrigerant circuit (certified handling applies).
     opens_circuit: bool
+    alternatives: tuple[Alternative, ...] = ()
+    deciding_check: str = ""
     source: str = "REFERENCES 6 troubleshooting table (common practice)"
 
 
@@ -140,37 +166,54 @@ def _t(*names: str) -> frozenset[str]:
     return frozenset(names)
 
 
-#: The rules, in bit order of the batch masks (append only: stored masks depend on it).
+_DRIER_CHECK = (
+    "Measure the temperature across the filter-drier, the solenoid and any hand valve in the "
+    "liquid line: a drop of more than a few degrees marks a restriction; none points to the "
+    "charge."
+)
+_STANDING_CHECK = (
+    "With the condenser clean and its fans running, stop the unit and let the pressures "
+    "settle: a standing head pressure above the saturation pressure at the surrounding "
+    "temperature points to non-condensables."
+)
+
+#: The rules, in bit order of the batch masks.
 RULES: tuple[Rule, ...] = (
     Rule(
         code="undercharge",
         title="Refrigerant charge looks low",
-        triggers=(_t("sh_high", "sc_low"), _t("sh_high", "bubbles")),
-        supporting=("td_high", "split_low", "amps_low", "bubbles", "sc_low"),
-        excluding=("sc_high", "coil_iced", "evap_fans_off"),
+        triggers=(_t("sh_high", "sc_low"), _t("sh_high", "bubbles"), _t("bubbles", "sc_low")),
+        supporting=("td_high", "split_low", "amps_low", "bubbles", "sc_low", "box_warm"),
+        excluding=("sc_high", "coil_iced", "evap_fans_off", "split_high"),
         base_confidence=0.5,
         advice="Look for the leak before adding anything: check joints, valve cores and "
         "coils with a detector, repair, then weigh in refrigerant and record the amount "
         "added for the leak-rate log.",
         opens_circuit=True,
+        # On a receiverless unit the low subcooling tells a short charge from a restriction
+        # (which backs liquid up and raises it); with a receiver only the drier check does.
+        alternatives=(Alternative("liquid_line_restriction", unless=("sc_low",)),),
+        deciding_check=_DRIER_CHECK,
     ),
     Rule(
         code="overcharge",
         title="Refrigerant charge looks high",
         triggers=(_t("sc_high", "split_high"),),
-        supporting=("amps_high", "sh_ok", "discharge_high"),
+        supporting=("amps_high", "sh_ok", "discharge_high", "sh_low"),
         excluding=("sh_high", "cond_fan_off", "bubbles"),
         base_confidence=0.5,
         advice="Make sure the condenser is clean and its fans run first; if the head and "
         "subcooling stay high, recover refrigerant until the subcooling is back in range "
         "and record the amount recovered.",
         opens_circuit=True,
+        alternatives=(Alternative("non_condensables"),),
+        deciding_check=_STANDING_CHECK,
     ),
     Rule(
         code="liquid_line_restriction",
         title="Something is restricting the liquid line",
         triggers=(_t("sh_high", "sc_high"),),
-        supporting=("td_high", "split_low", "amps_low", "bubbles"),
+        supporting=("td_high", "split_low", "amps_low", "bubbles", "box_warm"),
         excluding=("split_high",),
         base_confidence=0.45,
         advice="Feel or measure the temperature across the filter-drier, solenoid and any "
@@ -183,7 +226,7 @@ RULES: tuple[Rule, ...] = (
         title="Metering device is overfeeding the evaporator",
         triggers=(_t("sh_low"),),
         supporting=("sh_very_low", "amps_high", "td_not_high"),
-        excluding=("td_high", "coil_iced", "evap_fans_off"),
+        excluding=("td_high", "coil_iced", "evap_fans_off", "sc_high", "split_high"),
         base_confidence=0.5,
         advice="Check the expansion valve's bulb is tight, insulated and on the suction "
         "line, and that the superheat setting has not been turned in; liquid reaching "
@@ -194,19 +237,30 @@ RULES: tuple[Rule, ...] = (
         code="metering_underfeeding",
         title="Metering device is starving the evaporator",
         triggers=(_t("sh_high", "sc_not_low"), _t("sh_high", "sight_glass_clear")),
-        supporting=("td_high", "split_low", "amps_low", "sight_glass_clear"),
-        excluding=("bubbles", "sc_low", "coil_iced"),
+        supporting=("td_high", "split_low", "amps_low", "sight_glass_clear", "box_warm"),
+        excluding=("bubbles", "sc_low", "sc_high", "coil_iced", "evap_fans_off"),
         base_confidence=0.4,
         advice="With a full liquid line, check the valve's inlet screen, its bulb charge "
         "(a lost charge closes the valve) and the superheat setting; on a capillary "
         "system look for a kinked or blocked tube.",
         opens_circuit=True,
+        # A restriction past the sight glass starves the valve the same way; on a
+        # receiverless unit its high subcooling gives it away (and excludes this rule).
+        alternatives=(Alternative("liquid_line_restriction", unless=("sc_not_high",)),),
+        deciding_check=_DRIER_CHECK,
     ),
     Rule(
         code="low_evaporator_airflow",
         title="Too little air through the evaporator (fans, dirt or ice)",
         triggers=(_t("td_high", "sh_not_high"), _t("coil_iced"), _t("evap_fans_off")),
-        supporting=("td_very_high", "split_low", "coil_iced", "evap_fans_off", "sh_low"),
+        supporting=(
+            "td_very_high",
+            "split_low",
+            "coil_iced",
+            "evap_fans_off",
+            "sh_low",
+            "box_warm",
+        ),
         excluding=(),
         base_confidence=0.5,
         advice="Check the evaporator fans and blades, the coil for dirt or ice, and the "
@@ -224,30 +278,38 @@ RULES: tuple[Rule, ...] = (
             "cond_fan_off",
             "sc_not_high",
         ),
-        excluding=(),
+        # A receiverless unit with high subcooling is holding too much liquid: overcharge.
+        excluding=("sc_high",),
         base_confidence=0.45,
         advice="Clean the condenser coil, check every condenser fan runs and turns the "
         "right way, and that discharge air is not being drawn back into the inlet.",
         opens_circuit=False,
+        alternatives=(Alternative("non_condensables", unless=("cond_fan_off",)),),
+        deciding_check=_STANDING_CHECK,
     ),
     Rule(
         code="non_condensables",
         title="Air or other non-condensables may be in the system",
-        triggers=(_t("split_high"),),
-        supporting=("amps_high", "discharge_high", "split_very_high"),
-        excluding=("cond_fan_off",),
+        triggers=(),
+        supporting=(),
+        excluding=(),
         base_confidence=0.25,
         advice="Once the condenser is clean and its fans run, confirm with the unit off: a "
         "standing pressure above the saturation pressure at the ambient temperature "
         "points to non-condensables. Recover, evacuate and recharge by weight.",
         opens_circuit=True,
+        deciding_check=_STANDING_CHECK,
+        source="REFERENCES 6 troubleshooting table (common practice): its running symptoms "
+        "are a dirty condenser's, so it is named beside that finding, never alone",
     ),
     Rule(
         code="weak_compressor",
         title="Compressor is not pumping well (worn valves or rings)",
-        triggers=(_t("cr_low", "td_low"), _t("cr_low", "split_low")),
-        supporting=("amps_low", "sh_high", "sc_low", "td_low", "split_low"),
-        excluding=("amps_high",),
+        # Evaporating above and condensing below what the box and the air call for at once:
+        # the compressor is not moving the refrigerant (NISTIR 7350 valve leakage; REFERENCES 6).
+        triggers=(_t("td_low", "split_low"),),
+        supporting=("amps_low", "cr_low", "sh_high", "sc_low", "box_warm"),
+        excluding=("amps_high", "coil_iced", "evap_fans_off", "cond_fan_off"),
         base_confidence=0.4,
         advice="Confirm before condemning it: suction and discharge pressures should move "
         "apart quickly when the compressor starts and hold when it stops; a pump-down "
@@ -256,15 +318,35 @@ RULES: tuple[Rule, ...] = (
     ),
     Rule(
         code="compressor_not_starting",
-        title="Compressor stalls at start (start components suspect)",
-        triggers=(_t("locked_rotor"),),
-        supporting=("run_cap_bad", "start_cap_bad", "volts_low", "voltage_unbalanced"),
+        title="Compressor does not start when called (start components suspect)",
+        triggers=(_t("locked_rotor"), _t("called_not_running")),
+        supporting=(
+            "locked_rotor",
+            "run_cap_bad",
+            "start_cap_bad",
+            "volts_low",
+            "voltage_unbalanced",
+        ),
         excluding=(),
         base_confidence=0.6,
         advice="With the power locked out, discharge and test the run and start capacitors "
         "and the start relay; check the voltage at the compressor terminals while it "
-        "tries to start. If all are good the compressor may be mechanically locked.",
+        "tries to start, and the overload and contactor. If all are good the compressor "
+        "may be mechanically locked.",
         opens_circuit=False,
+    ),
+    Rule(
+        code="capacitor_out_of_rating",
+        title="A capacitor reads outside its rating",
+        triggers=(_t("run_cap_bad"), _t("start_cap_bad")),
+        supporting=("run_cap_bad", "start_cap_bad", "amps_high", "current_unbalanced"),
+        excluding=("locked_rotor", "called_not_running"),
+        base_confidence=0.7,
+        advice="With the power locked out and the capacitor discharged, confirm the reading "
+        "with the capacitor out of circuit and replace it with one of the rating on the "
+        "nameplate; a weak run capacitor raises the running amps and heats the windings.",
+        opens_circuit=False,
+        source="IEC 60252-1 / EIA-456-A marked tolerance (run), IEC 60252-2 marked range (start)",
     ),
     Rule(
         code="supply_problem",
@@ -287,9 +369,16 @@ RULES_BY_CODE: dict[str, Rule] = {r.code: r for r in RULES}
 
 def _check_rules() -> None:
     for rule in RULES:
-        for name in (*(s for t in rule.triggers for s in t), *rule.supporting, *rule.excluding):
+        unless = (s for a in rule.alternatives for s in a.unless)
+        names = (*(s for t in rule.triggers for s in t), *rule.supporting, *rule.excluding, *unless)
+        for name in names:
             if name not in SIGNALS:
                 raise ValueError(f"rule {rule.code} names unknown signal {name}")
+        for alternative in rule.alternatives:
+            if alternative.code not in RULES_BY_CODE:
+                raise ValueError(f"rule {rule.code} names unknown alternative {alternative.code}")
+        if alternative_less := [a for a in rule.alternatives if not rule.deciding_check]:
+            raise ValueError(f"rule {rule.code} names {alternative_less} without a deciding check")
     if len(RULES) > 32:
         raise ValueError("finding masks are 32 bits wide")
 
@@ -343,8 +432,23 @@ def rules_in_mask(mask: int) -> tuple[Rule, ...]:
     return tuple(rule for bit, rule in enumerate(RULES) if mask >> bit & 1)
 
 
+#: A stronger signal -> the weaker ones it says already (so evidence is never listed twice).
+SUBSUMES: dict[str, tuple[str, ...]] = {
+    "td_very_high": ("td_high", "td_not_high"),
+    "td_high": ("td_not_high",),
+    "split_very_high": ("split_high",),
+    "sh_very_low": ("sh_low",),
+    "sh_ok": ("sh_not_high",),
+    "sh_low": ("sh_not_high",),
+    "sc_low": ("sc_not_high",),
+    "sc_high": ("sc_not_low",),
+    "locked_rotor": ("called_not_running",),
+}
+
+
 def signals_behind(rule: Rule, row_signals: Mapping[str, bool]) -> tuple[str, ...]:
-    """The signal names that justify a fired rule on one row, triggers first."""
+    """The signal names that justify a fired rule on one row, triggers first, each piece of
+    evidence once (a signal said by a stronger one that holds is left out)."""
     names: list[str] = []
     for trigger in rule.triggers:
         if all(row_signals.get(s, False) for s in trigger):
@@ -353,7 +457,17 @@ def signals_behind(rule: Rule, row_signals: Mapping[str, bool]) -> tuple[str, ..
     for name in rule.supporting:
         if row_signals.get(name, False) and name not in names:
             names.append(name)
-    return tuple(names)
+    said = {weaker for name in names for weaker in SUBSUMES.get(name, ())}
+    return tuple(name for name in names if name not in said)
+
+
+def alternatives_of(rule: Rule, row_signals: Mapping[str, bool]) -> tuple[str, ...]:
+    """The neighbouring causes a fired rule cannot rule out on one row."""
+    return tuple(
+        a.code
+        for a in rule.alternatives
+        if not any(row_signals.get(name, False) for name in a.unless)
+    )
 
 
 def derive_signals(
@@ -433,6 +547,8 @@ def derive_signals(
         "current_unbalanced": above("current_unbalance"),
         "run_cap_bad": parts("run_capacitor")[3] == FAULT,
         "start_cap_bad": parts("start_capacitor")[3] == FAULT,
+        "box_warm": above("box_temp"),
+        "called_not_running": flag_is("call_for_cooling", 1.0) & flag_is("compressor_running", 0.0),
         "coil_iced": flag_is("coil_iced", 1.0),
         "evap_fans_off": flag_is("evaporator_fans_running", 0.0),
         "cond_fan_off": flag_is("condenser_fan_running", 0.0),

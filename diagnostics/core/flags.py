@@ -64,7 +64,8 @@ class Severity(StrEnum):
 
 @dataclass(frozen=True)
 class Evidence:
-    """One fact behind a flag; quantities are (name, value, unit) in SI for the report."""
+    """One fact behind a flag. ``text`` may name its ``quantities`` ((name, value, unit) in
+    SI) as ``{name}``, written in the reader's units when read (``wording.fill``)."""
 
     text: str
     quantities: tuple[tuple[str, float, str], ...] = ()
@@ -73,11 +74,17 @@ class Evidence:
 
 @dataclass(frozen=True)
 class FlagDecision:
+    """A flag to hold open. ``summary`` may name ``forecast`` quantities as ``{name}``; the
+    forecast is the flag's numbers (SI) and ``forecast_dates`` its projected dates, so a
+    reader gets them as numbers in its own units, not only as prose."""
+
     kind: FlagKind
     severity: Severity
     summary: str
     evidence: tuple[Evidence, ...]
     projected_date: date | None = None
+    forecast: tuple[tuple[str, float, str], ...] = ()
+    forecast_dates: tuple[tuple[str, date], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -123,7 +130,8 @@ DEFAULT_FLAG_RULES = FlagRules()
 def drift_flag(
     drift: SplitDrift, today: date, rules: FlagRules = DEFAULT_FLAG_RULES
 ) -> FlagDecision | None:
-    """A head-pressure drift flag when the drift judgement says so, graded by how soon."""
+    """A head-pressure flag when the drift judgement says so (a rising split, or one that
+    stays above its ok band), graded by how soon a limit is reached."""
     if not drift.flag:
         return None
     dates = [d for d in (drift.limit_crossed_on, drift.cutout_reached_on) if d is not None]
@@ -131,53 +139,94 @@ def drift_flag(
     days_left = (projected - today).days if projected is not None else None
     if days_left is not None and days_left <= rules.drift_urgent_within_days:
         severity = Severity.URGENT
-    elif days_left is not None and days_left <= rules.drift_warning_within_days:
+    elif (days_left is not None and days_left <= rules.drift_warning_within_days) or (
+        drift.persistently_high
+    ):
         severity = Severity.WARNING
     else:
         severity = Severity.NOTICE
-    slope = drift.slope_k_per_year or 0.0
-    evidence = [
-        Evidence(
-            f"condenser split rising {slope:.1f} K/year "
-            f"({drift.slope_low_k_per_year or 0:.1f} to {drift.slope_high_k_per_year or 0:.1f}) "
-            f"over {drift.points_used} visits in {drift.span_days} days, "
-            f"confidence {drift.confidence or 0:.2f}",
-            (
-                ("slope", slope, "K/year"),
-                ("points", float(drift.points_used), "1"),
-                ("span", float(drift.span_days), "d"),
-            ),
-        ),
-        Evidence(
-            f"split now about {drift.split_now_k or 0:.1f} K against a design of "
-            f"{drift.design_split_k:.1f} K and a limit of {drift.split_limit_k:.1f} K",
-            (
-                ("split_now", drift.split_now_k or 0.0, "K"),
-                ("design_split", drift.design_split_k, "K"),
-                ("split_limit", drift.split_limit_k, "K"),
-            ),
-        ),
-    ]
+    forecast = tuple(
+        (name, float(value), unit)
+        for name, value, unit in (
+            ("split_slope", drift.slope_k_per_year, "K/year"),
+            ("split_now", drift.split_now_k, "K"),
+            ("design_split", drift.design_split_k, "K"),
+            ("split_limit", drift.split_limit_k, "K"),
+            ("design_day_head_now", drift.design_day_head_now_kpa_gauge, "kPa_gauge"),
+            ("design_day_head_at_horizon", drift.design_day_head_at_horizon_kpa_gauge, "kPa_gauge"),
+            ("cutout", drift.high_pressure_cutout_kpa_gauge, "kPa_gauge"),
+        )
+        if value is not None
+    )
+    have = {name for name, _, _ in forecast}
+    rising = drift.rising
+    evidence = []
+    if drift.persistently_high:
+        evidence.append(
+            Evidence(
+                "condenser split above its ok band at most of the last "
+                f"{rules.drift.persistent_window} visits where it could be judged"
+            )
+        )
+    if rising and "split_slope" in have:
+        evidence.append(
+            Evidence(
+                "condenser split rising {split_slope} a year ({slope_low} to {slope_high}) "
+                f"over {drift.points_used} visits in {drift.span_days} days, "
+                f"confidence {drift.confidence or 0:.2f}",
+                tuple(
+                    (name, float(value), "K/year")
+                    for name, value in (
+                        ("split_slope", drift.slope_k_per_year),
+                        ("slope_low", drift.slope_low_k_per_year),
+                        ("slope_high", drift.slope_high_k_per_year),
+                    )
+                    if value is not None
+                ),
+            )
+        )
+    if "split_now" in have:
+        evidence.append(
+            Evidence(
+                "split now about {split_now} against a design of {design_split} and a limit "
+                "of {split_limit}",
+                tuple(q for q in forecast if q[0] in ("split_now", "design_split", "split_limit")),
+            )
+        )
     if drift.limit_crossed_on is not None:
         evidence.append(
             Evidence(f"split limit reached on {drift.limit_crossed_on.isoformat()} on this trend")
         )
-    if drift.high_pressure_cutout_kpa_gauge is not None:
-        head = drift.design_day_head_at_horizon_kpa_gauge
-        text = f"high-pressure cut-out {drift.high_pressure_cutout_kpa_gauge:.0f} kPa gauge"
-        if head is not None:
-            text = f"design-day head {head:.0f} kPa gauge at the horizon against the {text}"
+    if "cutout" in have:
+        text = "high-pressure cut-out {cutout}"
+        if "design_day_head_now" in have:
+            text = "design-day head today {design_day_head_now} against the " + text
         if drift.cutout_reached_on is not None:
             text += f"; a design day trips it from {drift.cutout_reached_on.isoformat()}"
         evidence.append(
-            Evidence(text, (("cutout", drift.high_pressure_cutout_kpa_gauge, "kPa_gauge"),))
+            Evidence(text, tuple(q for q in forecast if q[0] in ("cutout", "design_day_head_now")))
         )
+    summary = (
+        "head pressure creeping up: condenser split rising {split_slope} a year"
+        if rising and not drift.persistently_high
+        else "condenser not getting rid of its heat: split about {split_now} against a "
+        "design of {design_split}"
+    )
     return FlagDecision(
         kind=FlagKind.HEAD_PRESSURE_DRIFT,
         severity=severity,
-        summary=f"head pressure creeping up: condenser split +{slope:.1f} K/year",
+        summary=summary,
         evidence=tuple(evidence),
         projected_date=projected,
+        forecast=forecast,
+        forecast_dates=tuple(
+            (name, day)
+            for name, day in (
+                ("limit_crossed_on", drift.limit_crossed_on),
+                ("cutout_reached_on", drift.cutout_reached_on),
+            )
+            if day is not None
+        ),
     )
 
 
@@ -238,7 +287,7 @@ def leak_flag(
     rate = latest.leak_rate_percent or 0.0
     evidence = [
         Evidence(
-            f"{latest.amount_kg:.2f} kg added on {latest.occurred_on.isoformat()}: leak rate "
+            "{added} added on " + f"{latest.occurred_on.isoformat()}: leak rate "
             f"{rate:.1f} % ({latest.method.value.replace('_', ' ')}) over the "
             f"{latest.threshold_percent:g} % threshold ({latest.threshold_source})",
             (
@@ -268,8 +317,10 @@ def leak_flag(
     for y in chronic:
         evidence.append(
             Evidence(
-                f"chronic leaker in {y.year}: {y.percent_of_full_charge:.0f} % of full charge "
-                f"added; report due {y.report_due_on.isoformat()}",
+                f"chronic leaker in {y.year}: "
+                + "{added_in_year} added, "
+                + f"{y.percent_of_full_charge:.0f} % of full charge; report due "
+                f"{y.report_due_on.isoformat()}",
                 (("added_in_year", y.added_kg, "kg"),),
             )
         )

@@ -39,6 +39,13 @@ OK, WATCH, FAULT, NOT_SCORED = 0, 1, 2, 3
 
 OURS = "Rimewatch choice"
 
+#: Uncertainty of a line temperature minus a saturation temperature read off a gauge.
+_LINE_MINUS_SATURATION_K = 2.0 / 1.8
+_LINE_MINUS_SATURATION_SOURCE = (
+    "ours: 2 F, a clamp thermometer's error (about 1 K, from memory) with a gauge's 7 kPa "
+    "(1 psi) read as a saturation temperature (0.3-1 K from medium to low temperature)"
+)
+
 
 @dataclass(frozen=True)
 class ScoreRule:
@@ -55,6 +62,10 @@ class ScoreRule:
     fault_points: float
     source: str
     relative: bool = False
+    #: Instrument uncertainty added to each finite edge of the ok band, so a reading is off
+    #: its band only when it is off by more than the instruments can be wrong.
+    margin: float = 0.0
+    margin_source: str = ""
 
 
 #: metric -> rule. Temperatures in C, differences in K, pressures in kPa, currents in A.
@@ -112,6 +123,8 @@ SCORING_TABLE: dict[str, ScoreRule] = {
             fault_points=15,
             source="range by metering device and application (targets.py); "
             f"{OURS}: fault 2 K below (flood-back risk) or 10 F above the range",
+            margin=_LINE_MINUS_SATURATION_K,
+            margin_source=_LINE_MINUS_SATURATION_SOURCE,
         ),
         ScoreRule(
             "subcooling",
@@ -125,6 +138,8 @@ SCORING_TABLE: dict[str, ScoreRule] = {
             fault_points=10,
             source="range with and without a receiver (targets.py); "
             f"{OURS}: fault 5 F below or 10 F above the range",
+            margin=_LINE_MINUS_SATURATION_K,
+            margin_source=_LINE_MINUS_SATURATION_SOURCE,
         ),
         ScoreRule(
             "discharge_line_temp",
@@ -292,7 +307,10 @@ def ok_band(
             return target * (1.0 + offset)
         return target + offset
 
-    return edge(rule.ok_low, range_low), edge(rule.ok_high, range_high)
+    low, high = edge(rule.ok_low, range_low), edge(rule.ok_high, range_high)
+    if rule.margin:
+        low, high = low - rule.margin, high + rule.margin
+    return low, high
 
 
 def grade(
@@ -329,6 +347,8 @@ def grade(
     return status, points, deviation
 
 
-def visit_score(points_lost: FloatArray) -> FloatArray:
-    """100 minus the points lost, kept within 0..100."""
-    return np.clip(100.0 - np.asarray(points_lost, dtype=np.float64), 0.0, 100.0)
+def visit_score(points_lost: FloatArray, judged: NDArray[np.bool_] | None = None) -> FloatArray:
+    """100 minus the points lost, kept within 0..100; NaN for a row where nothing was
+    judged (``judged`` false): a set with nothing to judge is not a healthy one."""
+    score = np.clip(100.0 - np.asarray(points_lost, dtype=np.float64), 0.0, 100.0)
+    return score if judged is None else np.where(judged, score, np.nan)

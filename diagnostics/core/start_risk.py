@@ -207,12 +207,18 @@ class CapacitorColumns:
 
 @dataclass(frozen=True)
 class StartAttempt:
-    """A start the technician watched (or a call-out for a unit that would not start)."""
+    """A start the technician watched, or a compressor found stopped.
+
+    A stopped compressor is a failed start only when the control was calling for it
+    (``called``) or it was drawing near locked-rotor current (trying and failing); found
+    stopped without a call it is simply off-cycle, and says nothing about its start."""
 
     observed_on: date
     started: bool
     peak_amps: float | None = None
     volts_at_start: float | None = None
+    #: The control was calling for cooling (None: not recorded).
+    called: bool | None = None
 
 
 @dataclass(frozen=True)
@@ -415,7 +421,10 @@ def _attempt_items(
         and a.peak_amps is not None
         and a.peak_amps >= rules.locked_rotor_fraction * lra
     ]
-    failed = [a for a in attempts if not a.started and a not in locked]
+    failed = [a for a in attempts if not a.started and a not in locked and a.called is True]
+    # Only a real start says anything about the voltage at start: a watched start, a locked
+    # rotor or a failed call; an off-cycle compressor's supply is the idle line voltage.
+    starts = [a for a in attempts if a.started or a in locked or a in failed]
     if locked:
         worst = max(a.peak_amps or 0.0 for a in locked)
         items.append(
@@ -442,7 +451,7 @@ def _attempt_items(
         low, _ = electrical.voltage_tolerance_band(
             history.nameplate_volts, history.nameplate_volts_max, rules.voltage_tolerance_pct
         )
-        sagging = [a for a in attempts if a.volts_at_start is not None and a.volts_at_start < low]
+        sagging = [a for a in starts if a.volts_at_start is not None and a.volts_at_start < low]
         if sagging:
             lowest = min(a.volts_at_start or 0.0 for a in sagging)
             items.append(

@@ -15,14 +15,26 @@ Glide blends: which saturation temperature stands for "evaporating" and "condens
 A zeotropic blend (R-407A, R-448A, R-449A, ...) boils over a range of temperatures at one
 pressure: it starts at the bubble point and ends at the dew point. Superheat is always
 measured from the dew point and subcooling from the bubble point (that is where the vapour
-or the liquid stops being saturated). For the evaporator TD and the condenser split we use
-the **mid-point**, the average of the dew and bubble temperatures at the measured pressure
-(``GLIDE_CHOICE``). TD and split are rules of the trade from single-component refrigerants,
-where the refrigerant sits at one temperature through the whole coil; the mid-point keeps
-the mean temperature difference between air and refrigerant, which sets the heat flow, the
-same as the rule intends. Target pressures are therefore the pressures whose mid-point
-temperature equals the target temperature. For a pure fluid or an azeotrope dew, bubble and
-mid-point coincide, so the choice changes nothing there.
+or the liquid stops being saturated). The evaporator TD and the condenser split are taken on
+the basis the unit's design data is given on (``UnitDesign.temperature_basis``): the **dew
+point** unless the design says mid-point. Dew is the basis of compressor ratings and of the
+vapour column a technician reads for suction on a pressure-temperature chart, so a design TD
+or split copied from a catalogue is a dew-point figure; measuring it on the mid-point would
+add half the glide to every TD (and take it off every split), which on R-407A is enough to
+call a healthy evaporator starved of air. Target pressures are the pressures whose temperature
+on that basis equals the target temperature. For a pure fluid or an azeotrope dew, bubble and
+mid-point coincide, so the basis changes nothing there.
+
+Head-pressure control
+---------------------
+In cold weather an air-cooled condenser would condense far below its design temperature, so
+most remote units hold the head up (fan cycling, a flooding valve, or variable-speed fans) at
+a set point. While the control holds the head, the split says nothing about the condenser:
+such a reading is excused (not scored, not trended, not charged as energy). A reading counts
+as held only when the unit has a control, a clean condenser would condense below the set
+point at that entering air, and the measured condensing temperature sits in the band the kind
+of control holds (``HEAD_PRESSURE_CONTROL_DEFAULTS``); a unit without control is never
+excused, and a condensing temperature above the band is the condenser's own doing.
 """
 
 from __future__ import annotations
@@ -36,24 +48,38 @@ from numpy.typing import NDArray
 
 from diagnostics.core.electrical import DEFAULT_RUN_CAPACITOR_TOLERANCE_PCT
 from diagnostics.core.sources import Sourced
-from diagnostics.core.types import APPLICATIONS, METERING_DEVICES, Application, MeteringDevice
+from diagnostics.core.types import (
+    APPLICATIONS,
+    HEAD_PRESSURE_CONTROLS,
+    METERING_DEVICES,
+    Application,
+    HeadPressureControl,
+    MeteringDevice,
+    TemperatureBasis,
+)
 
 FloatArray = NDArray[np.float64]
 
-GLIDE_CHOICE = "mid_point"
-GLIDE_CHOICE_TEXT = (
-    "Superheat is measured from the dew point and subcooling from the bubble point. The "
-    "evaporating temperature used for the evaporator TD and the condensing temperature used "
-    "for the condenser split are the mid-point of the dew and bubble temperatures at the "
-    "measured pressure, so the mean air-to-refrigerant temperature difference of a glide "
-    "blend matches what the single-refrigerant rule intends. Pure refrigerants and "
-    "azeotropes have no glide: all three temperatures are the same."
-)
+#: What each temperature basis means, in words for the diagnosis, page and report.
+BASIS_TEXT: dict[TemperatureBasis, str] = {
+    "dew": (
+        "Superheat is measured from the dew point and subcooling from the bubble point. The "
+        "evaporator TD and the condenser split are taken on the dew point, the basis the "
+        "unit's design data is given on (and the basis of compressor ratings). Pure "
+        "refrigerants and azeotropes have no glide: dew and bubble are the same."
+    ),
+    "mid_point": (
+        "Superheat is measured from the dew point and subcooling from the bubble point. The "
+        "evaporator TD and the condenser split are taken on the mid-point of the dew and "
+        "bubble temperatures, the basis the unit's design data is given on. Pure refrigerants "
+        "and azeotropes have no glide: dew and bubble are the same."
+    ),
+}
 
-COMMON = "common practice"
 TROTT_TD = "Trott & Welch, Refrigeration and Air-Conditioning, 4th ed., 10.3"
 TROTT_SPLIT = "Trott & Welch, 3rd ed., Table 10.2 (14-15 K above design dry bulb)"
 OURS = "Rimewatch choice"
+COMMON = "common practice"
 
 
 def f_to_k(delta_f: float) -> float:
@@ -86,14 +112,58 @@ class ApplicationDefaults:
     has_receiver: bool | None
     receiver_source: str
     compression_ratio: SourcedRange
-    head_pressure_floor_c: Sourced[float]
+    head_pressure_control: HeadPressureControl
+    head_pressure_control_source: str
 
 
-_HP_FLOOR = Sourced(
-    f_to_c(100.0),
-    "common practice (from memory): head-pressure control holds condensing near 80-100 F "
-    "in cold weather; the upper end is used so a held-up head is not marked as a fault",
+@dataclass(frozen=True)
+class HeadControlDefaults:
+    """What a kind of head-pressure control holds: its usual set point and the band of
+    condensing temperatures (below, above the set point) a held head is found in."""
+
+    setpoint_c: float
+    below_k: float
+    above_k: float
+    source: str
+
+
+_SETPOINT = (
+    "common practice (from memory): head-pressure controls hold condensing near 85-100 F; "
+    "90 F is taken when the unit does not say"
 )
+#: Kind of control -> its defaults. "none" holds nothing (never excused).
+HEAD_PRESSURE_CONTROL_DEFAULTS: dict[HeadPressureControl, HeadControlDefaults] = {
+    "flooding": HeadControlDefaults(
+        f_to_c(90.0),
+        f_to_k(5.0),
+        f_to_k(4.0),
+        f"{_SETPOINT}; {OURS}: a flooding valve holds within a few F of its setting",
+    ),
+    "variable_speed": HeadControlDefaults(
+        f_to_c(90.0),
+        f_to_k(5.0),
+        f_to_k(4.0),
+        f"{_SETPOINT}; {OURS}: variable-speed fans hold within a few F of the set point",
+    ),
+    "fan_cycling": HeadControlDefaults(
+        f_to_c(90.0),
+        f_to_k(15.0),
+        f_to_k(6.0),
+        f"{_SETPOINT}; {OURS}: cycling fans let the head swing between cut-in and cut-out, "
+        "about 15 F below to 6 F above the set point",
+    ),
+    "other": HeadControlDefaults(
+        f_to_c(90.0),
+        f_to_k(15.0),
+        f_to_k(6.0),
+        f"{_SETPOINT}; {OURS}: an unnamed control is given the widest band",
+    ),
+}
+_REMOTE_CONTROL = (
+    f"{COMMON}: remote condensing units usually hold the head up in cold weather; the kind "
+    "is not known, so the widest band applies"
+)
+_NO_CONTROL = f"{COMMON}: self-contained units usually have no head-pressure control"
 
 #: Application -> defaults. Temperatures in C, differences in K.
 APPLICATION_DEFAULTS: dict[Application, ApplicationDefaults] = {
@@ -108,7 +178,8 @@ APPLICATION_DEFAULTS: dict[Application, ApplicationDefaults] = {
         has_receiver=True,
         receiver_source=f"{COMMON}: remote condensing units usually have a receiver",
         compression_ratio=SourcedRange(3.0, 5.5, "trade education notes: medium temp 3-5.5"),
-        head_pressure_floor_c=_HP_FLOOR,
+        head_pressure_control="other",
+        head_pressure_control_source=_REMOTE_CONTROL,
     ),
     "low_temp": ApplicationDefaults(
         box_temp_c=Sourced(f_to_c(-10.0), f"{COMMON}: walk-in freezers are held at -10 to 0 F"),
@@ -118,7 +189,8 @@ APPLICATION_DEFAULTS: dict[Application, ApplicationDefaults] = {
         has_receiver=True,
         receiver_source=f"{COMMON}: remote condensing units usually have a receiver",
         compression_ratio=SourcedRange(6.0, 13.0, "trade education notes: low temp 6-13"),
-        head_pressure_floor_c=_HP_FLOOR,
+        head_pressure_control="other",
+        head_pressure_control_source=_REMOTE_CONTROL,
     ),
     "reach_in": ApplicationDefaults(
         box_temp_c=Sourced(f_to_c(36.0), f"{COMMON}: reach-in coolers are held at 34-38 F"),
@@ -129,7 +201,8 @@ APPLICATION_DEFAULTS: dict[Application, ApplicationDefaults] = {
         receiver_source=f"{COMMON}: self-contained reach-ins are usually critically charged "
         "without a receiver",
         compression_ratio=SourcedRange(3.0, 5.5, "trade education notes: medium temp 3-5.5"),
-        head_pressure_floor_c=_HP_FLOOR,
+        head_pressure_control="none",
+        head_pressure_control_source=_NO_CONTROL,
     ),
     "ice_machine": ApplicationDefaults(
         box_temp_c=None,
@@ -141,7 +214,9 @@ APPLICATION_DEFAULTS: dict[Application, ApplicationDefaults] = {
         compression_ratio=SourcedRange(
             3.0, 13.0, f"{OURS}: spans medium and low temp, the freeze cycle runs through both"
         ),
-        head_pressure_floor_c=_HP_FLOOR,
+        head_pressure_control="fan_cycling",
+        head_pressure_control_source=f"{COMMON} (from memory): air-cooled ice machines usually "
+        "cycle their condenser fan on head pressure",
     ),
     "other": ApplicationDefaults(
         box_temp_c=None,
@@ -151,7 +226,8 @@ APPLICATION_DEFAULTS: dict[Application, ApplicationDefaults] = {
         has_receiver=None,
         receiver_source="unknown: give has_receiver in the design data",
         compression_ratio=SourcedRange(3.0, 13.0, f"{OURS}: spans medium and low temp"),
-        head_pressure_floor_c=_HP_FLOOR,
+        head_pressure_control="other",
+        head_pressure_control_source=_REMOTE_CONTROL,
     ),
 }
 
@@ -274,9 +350,32 @@ def default_condenser_split_k(app_codes: NDArray[np.integer]) -> FloatArray:
     return _by_application(app_codes, lambda d: d.condenser_split_k.value)
 
 
-def default_head_pressure_floor_c(app_codes: NDArray[np.integer]) -> FloatArray:
-    """Condensing temperature the head-pressure control is assumed to hold, per unit."""
-    return _by_application(app_codes, lambda d: d.head_pressure_floor_c.value)
+def default_head_pressure_control_codes(app_codes: NDArray[np.integer]) -> NDArray[np.intp]:
+    """Default kind of head-pressure control (index into ``HEAD_PRESSURE_CONTROLS``)."""
+    lookup = np.array(
+        [
+            HEAD_PRESSURE_CONTROLS.index(APPLICATION_DEFAULTS[a].head_pressure_control)
+            for a in APPLICATIONS
+        ],
+        dtype=np.intp,
+    )
+    return lookup[np.asarray(app_codes, dtype=np.intp)]
+
+
+def head_control_band(
+    control_codes: NDArray[np.integer], setpoint_c: FloatArray
+) -> tuple[FloatArray, FloatArray, FloatArray]:
+    """Per unit: the set point (the unit's, else its kind's default) and the lowest and
+    highest condensing temperature a held head is found at; NaN for a unit without control."""
+    kinds = [HEAD_PRESSURE_CONTROL_DEFAULTS.get(k) for k in HEAD_PRESSURE_CONTROLS]
+    nan = float("nan")
+    default = np.array([nan if d is None else d.setpoint_c for d in kinds])
+    below = np.array([nan if d is None else d.below_k for d in kinds])
+    above = np.array([nan if d is None else d.above_k for d in kinds])
+    c = np.asarray(control_codes, dtype=np.intp)
+    setpoint = np.where(np.isnan(setpoint_c), default[c], setpoint_c)
+    setpoint = np.where(np.isnan(default[c]), np.nan, setpoint)
+    return setpoint, setpoint - below[c], setpoint + above[c]
 
 
 def compression_ratio_typical(app_codes: NDArray[np.integer]) -> tuple[FloatArray, FloatArray]:
@@ -393,3 +492,16 @@ def mid_point_pressure_kpa_abs(curve: SaturationCurve, t_c: FloatArray) -> Float
     closer = np.abs(m1 - t) <= np.abs(m2 - t)
     best = np.where(closer, x1, x2)
     return np.exp(best)
+
+
+def basis_pressure_kpa_abs(
+    curve: SaturationCurve, t_c: FloatArray, mid_point: NDArray[np.bool_]
+) -> FloatArray:
+    """The pressure whose temperature on each unit's basis equals ``t_c``: the dew pressure,
+    or where ``mid_point`` (per column of ``t_c``) the mid-point pressure."""
+    t = np.asarray(t_c, dtype=np.float64)
+    out = _finite_apply(curve.dew_pressure_kpa_abs, t)
+    cols = np.flatnonzero(mid_point)
+    if cols.size:
+        out[..., cols] = mid_point_pressure_kpa_abs(curve, t[..., cols])
+    return out

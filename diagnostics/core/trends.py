@@ -7,9 +7,10 @@ is the one-sided Mann-Kendall test, built on the same pairs (Kendall's S and Sen
 ties), so the number and the spread of the points both count.
 
 Why the condenser split (condensing temperature minus entering air): it removes most of the
-ambient effect, so readings from a mild spring day and a hot summer day sit on one line. Points
-where head-pressure control was holding the condensing temperature up (cold weather) say
-nothing about the condenser and are left out.
+ambient effect, so readings from a mild spring day and a hot summer day sit on one line. Only
+the splits the diagnosis judged are stored for trending: a split held up by head-pressure
+control in cold weather or read with the compressor off never reaches the trend, so the trend
+and the visit's judgement tell one story.
 
 Everything is computed over padded numpy arrays, one row per unit, so a fleet refresh is a few
 array operations; the property engine is called once per unit at most, never per point.
@@ -29,6 +30,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy.special import ndtr, ndtri
 
+from diagnostics.core.scoring import SCORING_TABLE
 from diagnostics.core.sources import cite
 
 FloatArray = NDArray[np.float64]
@@ -78,15 +80,25 @@ class DriftRules:
         default=0.90,
         metadata=cite("ours: two-sided confidence of the reported slope interval (Sen 1968)"),
     )
-    head_control_margin_k: float = field(
-        default=1.0,
-        metadata=cite(
-            "common practice: score the split only above the head-pressure control set point; "
-            "1 K margin is ours"
-        ),
-    )
     max_projection_days: int = field(
         default=3653, metadata=cite("ours: projections beyond ten years are reported as none")
+    )
+    high_split_excess_k: float = field(
+        default=SCORING_TABLE["condenser_split"].ok_high or 0.0,
+        metadata=cite(
+            "the condenser split's ok band in the scoring table: above it the visit names the "
+            "condenser"
+        ),
+    )
+    persistent_window: int = field(
+        default=4, metadata=cite("ours: the last four judged visits, about a season")
+    )
+    persistent_min: int = field(
+        default=3,
+        metadata=cite(
+            "ours: three of them high (the latest included) is a condenser that stays dirty, "
+            "not one odd reading"
+        ),
     )
 
 
@@ -277,10 +289,10 @@ class HeadPressureLimit:
     """What the design-day projection needs: refrigerant, site and the unit's cut-out.
 
     ``condensing_point`` names which saturation temperature stands for "condensing" on a glide
-    blend. The default is the mid-point of dew and bubble, the convention ``targets`` uses to
-    turn a measured head pressure into the split (``targets.GLIDE_CHOICE``), so the projection
-    inverts exactly what was measured. "bubble" gives the highest pressure for a condensing
-    temperature (the cut-out warning errs early); "dew" the lowest. Pure fluids and azeotropes
+    blend: the unit's design basis (``UnitDesign.temperature_basis``), the one its stored split
+    was measured on, so the projection inverts exactly what was measured. "bubble" gives the
+    highest pressure for a condensing temperature (the cut-out warning errs early); "dew" the
+    lowest. Pure fluids and azeotropes
     give the same pressure for all three.
     """
 
@@ -330,7 +342,6 @@ class SplitDriftInput:
     points: tuple[SplitPoint, ...] | SplitColumns
     design_split_k: float
     head: HeadPressureLimit | None = None
-    head_pressure_control_setpoint_c: float | None = None
 
 
 class DriftStatus(StrEnum):
@@ -365,6 +376,10 @@ class SplitDrift:
     design_day_head_at_horizon_kpa_gauge: float | None = None
     high_pressure_cutout_kpa_gauge: float | None = None
     condensing_point: str | None = None
+    #: The latest judged splits stay above the ok band, rising or not.
+    persistently_high: bool = False
+    #: A confident rise of at least the minimum slope.
+    rising: bool = False
 
     @property
     def flag(self) -> bool:
@@ -447,6 +462,8 @@ class DriftArrays:
     fit: TheilSenFit
     enough_history: NDArray[np.bool_]
     rising: NDArray[np.bool_]
+    #: The latest judged splits stay above the split's ok band (a condenser left dirty).
+    persistently_high: NDArray[np.bool_]
     flag: NDArray[np.bool_]
     split_limit_k: FloatArray
     limit_offset_days: FloatArray
@@ -484,28 +501,41 @@ def assess_split_drift_arrays(
     t_limit = crossing_offsets(fit.intercept, fit.slope, limit)
     t_cut = crossing_offsets(fit.intercept, fit.slope, cut)
     soon = (t_limit <= rules.horizon_days) | (t_cut <= rules.horizon_days)
+    high = _persistently_high(np.asarray(split_k, dtype=float), design, rules)
     return DriftArrays(
         fit=fit,
         enough_history=enough,
         rising=rising,
-        flag=rising & soon,
+        persistently_high=high,
+        flag=(rising & soon) | high,
         split_limit_k=limit,
         limit_offset_days=t_limit,
         cutout_offset_days=t_cut,
     )
 
 
+def _persistently_high(
+    split_k: FloatArray, design_split_k: FloatArray, rules: DriftRules
+) -> NDArray[np.bool_]:
+    """Per row (points in date order, NaN padding after them): at least
+    ``persistent_min`` of the last ``persistent_window`` points above the split's ok band,
+    the latest among them."""
+    split = np.atleast_2d(split_k)
+    count = np.isfinite(split).sum(axis=1)
+    window = rules.persistent_window
+    at = count[:, None] - window + np.arange(window)
+    last = np.take_along_axis(split, np.clip(at, 0, None), axis=1)
+    with np.errstate(invalid="ignore"):
+        above = (at >= 0) & (last > (design_split_k + rules.high_split_excess_k)[:, None])
+    return (above.sum(axis=1) >= rules.persistent_min) & above[:, -1]
+
+
 def _usable(inp: SplitDriftInput, today: date, rules: DriftRules) -> tuple[FloatArray, FloatArray]:
-    """(days before today, splits) of the as-found points up to today, in date order, without
-    those taken while head-pressure control held the condensing temperature up."""
-    setpoint = inp.head_pressure_control_setpoint_c
-    floor = None if setpoint is None else setpoint + rules.head_control_margin_k
+    """(days before today, splits) of the as-found points up to today, in date order."""
     pts = inp.points
     if isinstance(pts, SplitColumns):
         days = (pts.taken_on - np.datetime64(today, "D")).astype(float)
         keep = ~pts.as_left & (days <= 0) & np.isfinite(pts.split_k)
-        if floor is not None:
-            keep &= pts.entering_air_c + pts.split_k > floor
         days, split = days[keep], pts.split_k[keep]
         order = np.argsort(days, kind="stable")
         return days[order], split[order]
@@ -513,10 +543,7 @@ def _usable(inp: SplitDriftInput, today: date, rules: DriftRules) -> tuple[Float
     kept = sorted(
         (p.taken_on.toordinal() - today_ord, p.split_k)
         for p in pts
-        if not p.as_left
-        and p.taken_on <= today
-        and math.isfinite(p.split_k)
-        and (floor is None or p.entering_air_c + p.split_k > floor)
+        if not p.as_left and p.taken_on <= today and math.isfinite(p.split_k)
     )
     return (
         np.array([d for d, _ in kept], dtype=float),
@@ -529,11 +556,13 @@ def _offset_to_date(
 ) -> date | None:
     if not math.isfinite(offset) or offset > rules.max_projection_days:
         return None
-    projected = today + timedelta(days=round(offset))
-    if earliest is not None and projected < earliest:
-        # The line was over the level before the first point: say "since the first point".
+    if earliest is not None and offset < (earliest - today).days:
+        # The line was over the level before the first point: say "since the first point"
+        # (a nearly flat line crosses it ages before any reading, past any calendar).
         return earliest
-    return projected
+    if offset < -rules.max_projection_days:
+        return None
+    return today + timedelta(days=round(offset))
 
 
 def _finite(value: float) -> float | None:
@@ -635,7 +664,13 @@ def _judgement(
     conf = _finite(float(fit.trend_confidence[row]))
     limit_on = _offset_to_date(float(arrays.limit_offset_days[row]), today, earliest, rules)
     cut_on = _offset_to_date(float(arrays.cutout_offset_days[row]), today, earliest, rules)
-    if arrays.flag[row]:
+    if arrays.flag[row] and not arrays.rising[row]:
+        status = DriftStatus.DRIFT
+        reason = (
+            f"split above its ok band at {rules.persistent_min} or more of the last "
+            f"{rules.persistent_window} judged visits"
+        )
+    elif arrays.flag[row]:
         status = DriftStatus.DRIFT
         reason = f"split rising {slope_y:.1f} K/year (confidence {conf or 0:.2f})"
     elif arrays.rising[row]:
@@ -650,6 +685,8 @@ def _judgement(
     return SplitDrift(
         status=status,
         reason=reason,
+        persistently_high=bool(arrays.persistently_high[row]),
+        rising=bool(arrays.rising[row]),
         slope_k_per_year=slope_y,
         slope_low_k_per_year=_finite(float(fit.low_slope[row]) * DAYS_PER_YEAR),
         slope_high_k_per_year=_finite(float(fit.high_slope[row]) * DAYS_PER_YEAR),

@@ -160,6 +160,10 @@ class Finding:
     evidence: tuple[str, ...]
     confidence: float
     advice: str
+    #: Codes of neighbouring causes these readings cannot tell apart from this one.
+    alternatives: tuple[str, ...] = ()
+    #: The check that would decide between this cause and its alternatives.
+    deciding_check: str = ""
 
 
 @dataclass(frozen=True)
@@ -202,7 +206,8 @@ class DerivedValues:
 class Diagnosis:
     """The whole judgement on one reading set, as stored with its algorithm version."""
 
-    score: float
+    #: 0-100, or None when the set held nothing to judge.
+    score: float | None
     algorithm_version: str
     targets: tuple[Target, ...]
     metrics: tuple[Metric, ...]

@@ -12,6 +12,8 @@ from __future__ import annotations
 
 import copy
 import datetime as dt
+import difflib
+from collections.abc import Mapping
 from typing import Any, ClassVar
 
 from django.contrib.auth.models import User
@@ -32,11 +34,25 @@ from diagnostics.api.serializers import (
     response_units,
 )
 from diagnostics.models import Diagnosis
+from diagnostics.services import implausible_fields
 from fleet import choices
 from fleet.api.exceptions import django_errors
-from fleet.api.wire_units import REQUEST_KEY, REQUEST_UNITS, Measure, UnitError, limit_error
+from fleet.api.wire_units import (
+    REQUEST_KEY,
+    REQUEST_UNITS,
+    Measure,
+    UnitError,
+    in_units,
+    limit_error,
+)
 from fleet.display import from_si, to_si
-from fleet.limits import EVENT_LIMITS, READING_LIMITS, SITE_LIMITS, UNIT_LIMITS
+from fleet.limits import (
+    CONFIRM_AMOUNT_ABOVE_FULL_CHARGE,
+    EVENT_LIMITS,
+    READING_LIMITS,
+    SITE_LIMITS,
+    UNIT_LIMITS,
+)
 from fleet.models import (
     AuditEntry,
     Component,
@@ -224,7 +240,48 @@ class PlainRepresentation:
         return data
 
 
-class ValidatedModelSerializer(PlainRepresentation, serializers.ModelSerializer):
+class RefusesUnknownFields:
+    """A request body naming a field the serializer does not have is refused with a 400
+    naming it (a misspelt field is never silently dropped). Read-only fields a client sends
+    back, such as ``id`` or ``diagnosis`` from a response it kept, are known and ignored as
+    DRF ignores them: only names the contract does not know are refused."""
+
+    #: What the body describes, for the message ("not a field of a <noun>"); model
+    #: serializers default to their model's verbose name.
+    noun: ClassVar[str] = ""
+
+    def _unknown_field_errors(self, data: Any) -> dict[str, list[str]]:
+        if not isinstance(data, Mapping):
+            return {}  # DRF answers that the body is not an object
+        fields = self.fields  # type: ignore[attr-defined]
+        unknown = [name for name in data if name not in fields]
+        if not unknown:
+            return {}
+        noun = self.noun or self.Meta.model._meta.verbose_name  # type: ignore[attr-defined]
+        writable = [name for name, field in fields.items() if not field.read_only]
+        errors = {}
+        for name in unknown:
+            close = difflib.get_close_matches(str(name), writable, n=1)
+            hint = f"did you mean {close[0]}?" if close else "the schema lists its fields"
+            errors[str(name)] = [f"not a field of a {noun}; {hint}"]
+        return errors
+
+    def to_internal_value(self, data: Any) -> Any:
+        unknown = self._unknown_field_errors(data)
+        try:
+            value = super().to_internal_value(data)  # type: ignore[misc]
+        except serializers.ValidationError as exc:
+            if unknown and isinstance(exc.detail, dict):
+                raise serializers.ValidationError({**unknown, **exc.detail}) from exc
+            raise
+        if unknown:
+            raise serializers.ValidationError(unknown)
+        return value
+
+
+class ValidatedModelSerializer(
+    RefusesUnknownFields, PlainRepresentation, serializers.ModelSerializer
+):
     """Runs the model's ``full_clean()`` on the would-be instance (NetBox's
     ``ValidatedModelSerializer``), reporting errors under the wire names."""
 
@@ -256,6 +313,10 @@ class ValidatedModelSerializer(PlainRepresentation, serializers.ModelSerializer)
             )
         except DjangoValidationError as exc:
             raise serializers.ValidationError(django_errors(exc, self.wire_names())) from exc
+        self.check_instance(instance)
+
+    def check_instance(self, instance: Any) -> None:
+        """Judge the would-be instance as a whole, after the model's own rules passed."""
 
     def validate(self, attrs: dict[str, Any]) -> dict[str, Any]:
         attrs = super().validate(attrs)
@@ -274,6 +335,8 @@ class MeasuredSerializer(ValidatedModelSerializer):
     measures: ClassVar[dict[str, Measure]] = {}
     #: Whether the record keeps the units the client entered (``entered_units``).
     keeps_entered_units: ClassVar[bool] = False
+    #: The ``units`` object of the request being validated (set by ``convert_measures``).
+    request_units: dict[str, str]
     units = UnitsField()
 
     def elevation_for(self, attrs: dict[str, Any]) -> float:
@@ -288,6 +351,7 @@ class MeasuredSerializer(ValidatedModelSerializer):
 
     def convert_measures(self, attrs: dict[str, Any], errors: dict[str, list[str]]) -> None:
         units = attrs.pop("units", None) or {}
+        self.request_units = units
         elevation_m = self.elevation_for(attrs)
         for wire, measure in self.measures.items():
             value = attrs.get(measure.column)
@@ -332,6 +396,17 @@ class MeasuredSerializer(ValidatedModelSerializer):
                 attrs.setdefault(name, value)
         return super().validate(attrs)
 
+    def message_unit(self, quantity: str, instance: Any = None) -> str:
+        """The unit to word a message about ``quantity`` in: the request's, else the one the
+        record was entered in, else the response's."""
+        key = REQUEST_KEY[quantity]  # type: ignore[index]
+        entered = getattr(instance, "entered_units", None) or {}
+        return (
+            getattr(self, "request_units", {}).get(key)
+            or entered.get(key)
+            or response_units(self.context)[quantity]
+        )
+
     @staticmethod
     def _request_unit(measure: Measure, units: dict[str, str]) -> str | None:
         if measure.quantity is None:
@@ -375,6 +450,22 @@ def _check_not_future(value: dt.datetime) -> dt.datetime:
             "is in the future (more than an hour ahead of the server clock)"
         )
     return value
+
+
+class UnknownAsNullChoiceField(serializers.ChoiceField):
+    """A choice a record may leave unknown: stored blank, written ``null`` (like every other
+    design value left to a default); ``null`` or ``""`` in a request mean unknown."""
+
+    def __init__(self, **kwargs: Any) -> None:
+        kwargs.setdefault("required", False)
+        super().__init__(allow_null=True, allow_blank=True, **kwargs)
+
+    def run_validation(self, data: Any = serializers.empty) -> Any:
+        value = super().run_validation(data)
+        return "" if value is None else value
+
+    def to_representation(self, value: Any) -> Any:
+        return None if value in ("", None) else super().to_representation(value)
 
 
 # --- fleet records -------------------------------------------------------------------------
@@ -455,6 +546,9 @@ class RefrigerantSerializer(serializers.ModelSerializer):
 
 
 class UnitSerializer(MeasuredSerializer):
+    """A refrigeration system: its nameplate and the design data a technician knows. Design
+    values left null fall back to the defaults of the unit's application."""
+
     measures = {
         "full_charge": Measure("full_charge_kg", "mass", UNIT_LIMITS["full_charge_kg"]),
         "design_box_temp": Measure(
@@ -478,6 +572,9 @@ class UnitSerializer(MeasuredSerializer):
             "high_pressure_cutout_kpa_gauge",
             "pressure",
             UNIT_LIMITS["high_pressure_cutout_kpa_gauge"],
+        ),
+        "head_pressure_setpoint": Measure(
+            "head_pressure_setpoint_c", "temperature", UNIT_LIMITS["head_pressure_setpoint_c"]
         ),
     }
     refrigerant = serializers.SlugRelatedField(
@@ -503,6 +600,23 @@ class UnitSerializer(MeasuredSerializer):
         "High-pressure control cut-out (units.pressure).",
         source="high_pressure_cutout_kpa_gauge",
     )
+    head_pressure_control = UnknownAsNullChoiceField(
+        choices=choices.HeadPressureControl.choices,
+        help_text="How the head is held up in cold weather; null: not known, the "
+        "application default.",
+    )
+    head_pressure_setpoint = _measure_field(
+        "The condensing temperature the head-pressure control holds (units.temperature); "
+        "null: the default for its kind. Refused with head_pressure_control none.",
+        source="head_pressure_setpoint_c",
+    )
+    design_temperature_basis = serializers.ChoiceField(
+        choices=choices.TemperatureBasis.choices,
+        required=False,
+        help_text="Which saturation temperature design_evap_td and design_condenser_split are "
+        "given on for a blend with glide (dew point unless stated); no effect on a refrigerant "
+        "without glide.",
+    )
 
     class Meta:
         model = Unit
@@ -524,7 +638,11 @@ class UnitSerializer(MeasuredSerializer):
             "superheat_min",
             "superheat_max",
             "high_pressure_cutout",
+            "head_pressure_control",
+            "head_pressure_setpoint",
+            "design_temperature_basis",
             "nameplate_volts",
+            "nameplate_volts_max",
             "phase",
             "hertz",
             "rla_a",
@@ -534,6 +652,17 @@ class UnitSerializer(MeasuredSerializer):
             "retired_on",
             "units",
         ]
+        extra_kwargs = {
+            "has_receiver": {
+                "help_text": "Whether the unit has a liquid receiver; null: not known, the "
+                "application default (remote condensing units usually have one; "
+                "self-contained reach-ins and ice machines usually do not)."
+            },
+            "nameplate_volts_max": {
+                "help_text": "The upper end of a dual voltage rating such as 208-230 V "
+                "(nameplate_volts is the lower end); null: a single rating."
+            },
+        }
 
     def elevation_for(self, attrs: dict[str, Any]) -> float:
         site = attrs.get("site") or (self.instance.site if self.instance else None)
@@ -544,12 +673,21 @@ class UnitSerializer(MeasuredSerializer):
 
 
 class ComponentSerializer(ValidatedModelSerializer):
+    """A replaceable part of a unit. A capacitor's rating is given as printed on the can:
+    `rated_uf` with `tolerance_pct` (a run capacitor, e.g. 45 uF +/- 6 %; without a printed
+    tolerance the typical 6 % applies), or the range `rating_uf_min` to `rating_uf_max` (a
+    start capacitor, e.g. 88-108 uF); never both. Either way the response carries the band a
+    measured value must lie in as `rating_uf_min` and `rating_uf_max`. To change a part from
+    one way to the other, send the pair it leaves as null."""
+
     class Meta:
         model = Component
         fields = [
             "id",
             "unit",
             "kind",
+            "rated_uf",
+            "tolerance_pct",
             "rating_uf_min",
             "rating_uf_max",
             "rating_volts",
@@ -665,13 +803,17 @@ class AuditEntrySerializer(serializers.ModelSerializer):
         read_only_fields = fields
 
 
-class SubmitSerializer(serializers.Serializer):
+class SubmitSerializer(RefusesUnknownFields, serializers.Serializer):
+    noun = "submission"
+
     work_summary = serializers.CharField(
         required=False, allow_blank=True, help_text="What was done; replaces the stored summary."
     )
 
 
-class ReviewSerializer(serializers.Serializer):
+class ReviewSerializer(RefusesUnknownFields, serializers.Serializer):
+    noun = "review"
+
     decision = serializers.ChoiceField(
         choices=[("accept", "Accept"), ("return", "Return to the technician")]
     )
@@ -687,7 +829,9 @@ class ReviewSerializer(serializers.Serializer):
         return attrs
 
 
-class CancelSerializer(serializers.Serializer):
+class CancelSerializer(RefusesUnknownFields, serializers.Serializer):
+    noun = "cancellation"
+
     note = serializers.CharField(required=False, allow_blank=True, help_text="Why.")
 
 
@@ -888,6 +1032,24 @@ class ReadingSetSerializer(VisitRecordSerializer):
     def new_record_defaults(self) -> dict[str, Any]:
         return {"taken_at": timezone.now()}
 
+    def check_instance(self, instance: ReadingSet) -> None:
+        """Refuse readings no working system can produce (a gauge on the wrong port, a
+        digit too many), each under its wire field with the limit in the request's units."""
+        problems = implausible_fields(instance)
+        if not problems:
+            return
+        elevation_m = instance.visit_unit.unit.site.elevation_m
+        names = self.wire_names()
+        errors: dict[str, list[str]] = {}
+        for problem in problems:
+            why = problem.why
+            if problem.limit is not None and problem.quantity is not None:
+                unit = self.message_unit(problem.quantity, instance)
+                limit = in_units(problem.limit, problem.quantity, unit, elevation_m)
+                why = why.replace("{limit}", limit)
+            errors.setdefault(names.get(problem.field, problem.field), []).append(why)
+        raise serializers.ValidationError(errors)
+
     def wire_names(self) -> dict[str, str]:
         names = super().wire_names()
         for wire, (prefix, _label) in self.legs.items():
@@ -902,7 +1064,16 @@ class RefrigerantEventSerializer(VisitRecordSerializer):
         required=False, help_text="Chosen by the phone; a repeat returns the stored event (200)."
     )
     amount = _measure_field(
-        "Refrigerant mass (units.mass); required for added and recovered.", source="amount_kg"
+        "Refrigerant mass (units.mass); required for added and recovered. More than "
+        f"{CONFIRM_AMOUNT_ABOVE_FULL_CHARGE:g} times the unit's full charge is refused unless "
+        "confirm_amount is true.",
+        source="amount_kg",
+    )
+    confirm_amount = serializers.BooleanField(
+        write_only=True,
+        required=False,
+        help_text="True when an amount far beyond the unit's full charge is right (a new "
+        "line set, a nameplate charge that was wrong); not stored.",
     )
     occurred_on = serializers.DateField(required=False, help_text="Default: today.")
     leak_rate_exemption = serializers.ChoiceField(
@@ -919,6 +1090,7 @@ class RefrigerantEventSerializer(VisitRecordSerializer):
             "unit",
             "kind",
             "amount",
+            "confirm_amount",
             "units",
             "occurred_on",
             "leak_rate_exemption",
@@ -940,6 +1112,30 @@ class RefrigerantEventSerializer(VisitRecordSerializer):
         except ObjectDoesNotExist:
             return None
         return None if leak_rate is None else LeakRateSerializer(leak_rate).data
+
+    def check_wire(self, attrs: dict[str, Any], errors: dict[str, list[str]]) -> None:
+        confirmed = attrs.pop("confirm_amount", False)
+        visit_unit = self._visit_unit(attrs, errors)
+        self.convert_measures(attrs, errors)
+        amount_kg = attrs.get("amount_kg")
+        kind = attrs.get("kind") or (self.instance.kind if self.instance else None)
+        if (
+            confirmed
+            or visit_unit is None
+            or "amount" in errors
+            or amount_kg is None
+            or kind
+            not in {choices.RefrigerantEventKind.ADDED, choices.RefrigerantEventKind.RECOVERED}
+        ):
+            return
+        full_charge_kg = visit_unit.unit.full_charge_kg
+        if amount_kg > CONFIRM_AMOUNT_ABOVE_FULL_CHARGE * full_charge_kg:
+            full = in_units(full_charge_kg, "mass", self.message_unit("mass", self.instance))
+            errors["amount"] = [
+                f"over {CONFIRM_AMOUNT_ABOVE_FULL_CHARGE:g} times the unit's full charge "
+                f"({full}); if the amount is right, send it again with "
+                '"confirm_amount": true'
+            ]
 
     def validate_occurred_on(self, value: dt.date) -> dt.date:
         if value > timezone.localdate() + dt.timedelta(days=1):

@@ -62,6 +62,13 @@ def _shown(value: float) -> str:
     return f"{round(value, 1) + 0.0:g}"
 
 
+def in_units(
+    value_si: float, quantity: Quantity | None, unit: str, elevation_m: float = 0.0
+) -> str:
+    """A stored SI value written in the client's ``unit``, e.g. ``-14.7 psig``."""
+    return f"{_shown(from_si(value_si, quantity, unit, elevation_m))} {unit}"
+
+
 def limit_error(
     value_si: float, measure: Measure, unit: str, elevation_m: float = 0.0
 ) -> str | None:
@@ -83,9 +90,9 @@ def limit_error(
     # A tolerance of a millionth keeps a bound typed exactly in another unit on the right side.
     slack = 1e-6 * max(1.0, abs(low or 0.0), abs(high or 0.0))
     if low is not None and value_si < low - slack:
-        bound = from_si(low, measure.quantity, unit, elevation_m)
-        return f"below the lowest {noun} possible ({_shown(bound)} {unit})"
+        bound = in_units(low, measure.quantity, unit, elevation_m)
+        return f"below the lowest {noun} possible ({bound})"
     if high is not None and value_si > high + slack:
-        bound = from_si(high, measure.quantity, unit, elevation_m)
-        return f"above the highest {noun} possible ({_shown(bound)} {unit})"
+        bound = in_units(high, measure.quantity, unit, elevation_m)
+        return f"above the highest {noun} possible ({bound})"
     return None

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from django import template
 
+from diagnostics.core import wording
 from reports import words as vocabulary
 
 register = template.Library()
@@ -73,6 +74,12 @@ def quantity(context, value, unit: str, digits: int = 1, elevation_m: float = 0.
         return f"{_fmt(d.mass(value), digits)} {d.mass_symbol}"
     shown = {"uF": "µF", "": ""}.get(unit, unit)
     return f"{_fmt(value, digits)} {shown}".strip()
+
+
+@register.simple_tag(takes_context=True)
+def said(context, text: str, quantities) -> str:
+    """A flag's sentence with its named quantities in the report's display units."""
+    return wording.fill(text, quantities, context["display"].units)
 
 
 @register.simple_tag(takes_context=True)

@@ -74,6 +74,63 @@ def test_it_reads_the_fitted_run_capacitor_rating_from_components():
     assert design.run_capacitor_tolerance_pct == pytest.approx(6.0)
 
 
+def test_it_reads_a_printed_run_capacitor_and_a_start_capacitor_range():
+    """A run capacitor printed 45 uF with no tolerance goes to the core as 45 uF +/- 6 %
+    (REFERENCES 4: typically +/- 6 %); a start capacitor marked 88-108 uF as that range
+    (IEC 60252-2). Tolerance 1e-9."""
+    unit = UnitFactory()
+    ComponentFactory(unit=unit, rated_uf=45.0, rating_uf_min=None, rating_uf_max=None)
+    ComponentFactory(unit=unit, kind="start_capacitor", rating_uf_min=88.0, rating_uf_max=108.0)
+    design = services.unit_design(unit)
+    assert design.run_capacitor_uf == pytest.approx(45.0, abs=1e-9)
+    assert design.run_capacitor_tolerance_pct == pytest.approx(6.0, abs=1e-9)
+    assert (design.start_capacitor_min_uf, design.start_capacitor_max_uf) == (88.0, 108.0)
+
+
+def test_it_maps_the_design_data_to_the_core():
+    """Every design field reaches the core under the core's name; a control not known
+    (stored blank) reaches it as None, the application default."""
+    unit = UnitFactory(
+        has_receiver=None,
+        head_pressure_control="",
+        head_pressure_setpoint_c=None,
+        design_temperature_basis="mid_point",
+        nameplate_volts=208,
+        nameplate_volts_max=230,
+    )
+    design = services.unit_design(unit, components=())
+    assert design.has_receiver is None
+    assert design.head_pressure_control is None
+    assert design.temperature_basis == "mid_point"
+    assert (design.nameplate_volts, design.nameplate_volts_max) == (208, 230)
+    unit.head_pressure_control, unit.head_pressure_setpoint_c = "flooding", 30.0
+    design = services.unit_design(unit, components=())
+    assert (design.head_pressure_control, design.head_pressure_setpoint_c) == ("flooding", 30.0)
+
+
+def test_the_plausibility_check_sends_no_query(django_assert_num_queries):
+    """A reading set not yet stored, its unit, site and refrigerant in hand, is checked
+    without touching the database: suction 900 kPa over head 800 kPa on a running
+    compressor names both fields, with the other's pressure as the limit (SI, kPa gauge)."""
+    vu = VisitUnitFactory()
+    unit = type(vu.unit).objects.select_related("site", "refrigerant").get(pk=vu.unit_id)
+    vu.unit = unit
+    reading = ReadingSetFactory.build(
+        visit_unit=vu,
+        suction_kpa_gauge=900.0,
+        head_kpa_gauge=800.0,
+        suction_line_temp_c=None,
+        liquid_line_temp_c=None,
+        compressor_running=True,
+    )
+    with django_assert_num_queries(0):
+        problems = services.implausible_fields(reading)
+    assert [(p.field, p.limit) for p in problems] == [
+        ("suction_kpa_gauge", pytest.approx(800.0)),
+        ("head_kpa_gauge", pytest.approx(900.0)),
+    ]
+
+
 def test_rescore_matches_the_one_row_path_and_only_touches_stale_rows():
     """The vectorised batch stores the same score as the per-row service, and a second run
     finds nothing stale."""
@@ -212,8 +269,9 @@ def test_a_units_readings_are_dated_on_its_sites_calendar(zone, taken, dated):
             visit_unit=VisitUnitFactory(unit=unit, visit__site=unit.site),
             taken_at=at,
             stage="as_found",
-            compressor_running=True,
-            compressor_amps_1=8.0,
+            compressor_running=False,
+            call_for_cooling=True,
+            compressor_amps_1=0.0,
             supply_volts_1=230.0,
         )
     (history,) = unit_histories(dt.date(2026, 4, 1), unit_ids=[unit.id])

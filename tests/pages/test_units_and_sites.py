@@ -27,6 +27,36 @@ def test_it_shows_the_nameplate_in_display_units(office, world):
     assert "R-404A" in page
 
 
+def test_it_shows_the_design_data_a_technician_needs(office, world):
+    """Head-pressure control and its set point (32.2 C shows as 90.0 F), the TD and split
+    basis in words, a dual rating as 208-230 V, and the receiver left to the application."""
+    unit = world.unit
+    unit.head_pressure_control = "fan_cycling"
+    unit.head_pressure_setpoint_c = 32.22
+    unit.nameplate_volts, unit.nameplate_volts_max = 208, 230
+    unit.has_receiver = None
+    unit.design_temperature_basis = "mid_point"
+    unit.save()
+    page = office.get(reverse("fleet:unit", args=[unit.pk])).content.decode()
+    assert "Condenser fans switched off and on; holds 90.0 \u00b0F condensing" in page
+    assert "208-230 V" in page
+    assert "receiver not recorded" in page
+    assert "the mid-point between dew and bubble" in page
+    assert "(no glide: makes no difference)" not in page  # R-404A is a zeotropic blend
+
+
+def test_it_says_when_the_design_data_is_left_to_defaults(office, world):
+    """No control recorded, the dew point, a single rating and a unit without receiver."""
+    unit = world.unit
+    unit.has_receiver = False
+    unit.save()
+    page = office.get(reverse("fleet:unit", args=[unit.pk])).content.decode()
+    assert 'not recorded <span class="muted">(default for the application)</span>' in page
+    assert "the dew point" in page
+    assert "230 V, single-phase" in page
+    assert "no receiver" in page
+
+
 def test_it_shows_the_latest_diagnosis_with_targets(office, world):
     """The unit page carries the latest diagnosis: each reading against its aim, in one line
     (12 K measured, aim 5 K, fine from 3 to 7 K: 21.6, 9.0, 5.4 and 12.6 F differences)."""
@@ -38,8 +68,11 @@ def test_it_shows_the_latest_diagnosis_with_targets(office, world):
 
 
 def test_it_lists_components_fitted_and_removed(office, world):
-    """Fitted parts and removed ones are listed apart, with ratings."""
-    ComponentFactory(unit=world.unit, kind="run_capacitor", rating_uf_min=35, rating_uf_max=35)
+    """Fitted parts and removed ones are listed apart, with ratings as printed: a run
+    capacitor's rating with the typical 6 % when none is printed."""
+    ComponentFactory(
+        unit=world.unit, kind="run_capacitor", rated_uf=35, rating_uf_min=None, rating_uf_max=None
+    )
     ComponentFactory(
         unit=world.unit,
         kind="start_capacitor",
@@ -49,7 +82,7 @@ def test_it_lists_components_fitted_and_removed(office, world):
         reason="bulged",
     )
     page = office.get(reverse("fleet:unit", args=[world.unit.pk])).content.decode()
-    assert "Run capacitor</strong> 35.0 \u00b5F" in page
+    assert 'Run capacitor</strong> 35 \u00b5F \u00b16 % <span class="muted">(typical' in page
     assert "Removed" in page
     assert "bulged" in page
 

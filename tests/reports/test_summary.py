@@ -58,6 +58,7 @@ def flag(severity: str = "warning", projected: dt.date | None = None) -> FlagRow
         evidence=(),
         projected_on=projected,
         opened_on=dt.date(2026, 2, 1),
+        forecast=(),
         acknowledged=False,
     )
 

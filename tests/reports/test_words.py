@@ -20,13 +20,13 @@ def test_it_names_what_a_finding_could_also_be_and_the_check_that_decides():
     """Alternatives are named by their titles (or their codes spelt out, for a code the
     core does not name yet) with the deciding check; no alternative, no sentence."""
     text = words.could_also_be(
-        ["non_condensables", "capacitor_out_of_rating"],
+        ["non_condensables", "a_later_code"],
         "with the unit off, compare the standing pressure with the saturation pressure",
     )
     assert text == (
-        f"Could also be: {RULES_BY_CODE['non_condensables'].title.lower()}; capacitor out of "
-        "rating. To tell them apart: with the unit off, compare the standing pressure with "
-        "the saturation pressure."
+        f"Could also be: {RULES_BY_CODE['non_condensables'].title.lower()}; a later code. "
+        "To tell them apart: with the unit off, compare the standing pressure with the "
+        "saturation pressure."
     )
     assert words.could_also_be([], "anything") == ""
     assert words.could_also_be(None, None) == ""

@@ -12,7 +12,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from diagnostics.core import saturation
+from diagnostics.core import findings, saturation
 from diagnostics.core.diagnose import (
     ALGORITHM_VERSION,
     PACKED_BYTES,
@@ -23,6 +23,7 @@ from diagnostics.core.diagnose import (
     diagnose_row,
     expand_blobs,
 )
+from diagnostics.core.targets import f_to_c
 from diagnostics.core.types import Reading, UnitDesign
 
 ATM = 101.325
@@ -92,21 +93,56 @@ def test_it_measures_superheat_from_dew_and_subcooling_from_bubble_on_r448a():
     assert derived.superheat_k < bubble_only_superheat - 2.0
     dew_based_subcooling = dew_h - 21.0
     assert derived.subcooling_k < dew_based_subcooling - 2.0
-    assert derived.evaporating_c == pytest.approx(0.5 * (dew_s + bubble_s), abs=1e-9)
+    # TD and split on the dew point unless the design data says mid-point
+    assert derived.evaporating_c == pytest.approx(dew_s, abs=1e-9)
+    mid = diagnose(dataclasses.replace(unit, temperature_basis="mid_point"), reading).derived
+    assert mid.evaporating_c == pytest.approx(0.5 * (dew_s + bubble_s), abs=1e-9)
+    assert mid.superheat_k == derived.superheat_k
 
 
-def test_it_derives_td_split_and_compression_ratio_from_the_mid_point():
-    """The documented glide choice: TD = box - mid-point evaporating, split = mid-point
-    condensing - entering air, compression ratio from absolute pressures (the elevation
-    enters through the standard atmosphere, REFERENCES 5: 89.875 kPa at 1000 m)."""
+def test_it_derives_td_split_and_compression_ratio_on_the_units_basis():
+    """TD = box - evaporating, split = condensing - entering air, both on the basis the
+    design data is given on (dew point by default, stated in the diagnosis); compression
+    ratio from absolute pressures (the elevation enters through the standard atmosphere,
+    REFERENCES 5: 89.875 kPa at 1000 m)."""
     result = diagnose(R404A_MT, FULL, elevation_m=1000.0)
     d = result.derived
     assert d.suction_kpa_abs == pytest.approx(330.0 + 89.875, abs=0.01)
+    assert d.evaporating_c == d.evaporating_dew_c
     assert d.evaporator_td_k == pytest.approx(2.0 - d.evaporating_c, abs=1e-9)
     assert d.condenser_split_k == pytest.approx(d.condensing_c - 24.0, abs=1e-9)
     assert d.compression_ratio == pytest.approx((1550.0 + 89.875) / (330.0 + 89.875), rel=1e-4)
-    assert "mid-point" in result.glide_choice
+    assert "dew point" in result.glide_choice
     assert result.algorithm_version == ALGORITHM_VERSION
+
+
+@pytest.mark.parametrize("designation", ["R-407A", "R-448A", "R-449A"])
+def test_a_healthy_glide_blend_cooler_is_not_short_of_air(designation):
+    """Issue seen in the field: healthy units on zeotropic blends got "too little air
+    through the evaporator" at every visit, because the TD was taken on the mid-point while
+    the design TD (10 F, common practice for a general cooler) was a dew-point figure. A
+    cooler whose dew-point TD is exactly its design TD is on target, with no finding; the
+    same reading read on the mid-point is half a glide (R-407A glides about 4 K at
+    evaporating pressures: Lemmon 2003 gives R-407C, its sibling, a larger one) higher."""
+    unit = UnitDesign(designation, "medium_temp", metering_device="txv", design_evap_td_k=10 / 1.8)
+    curve = saturation.table(designation)
+    evap_dew_c = 2.0 - 10 / 1.8
+    p_s = float(curve.dew_pressure_kpa_abs(evap_dew_c))
+    reading = Reading(
+        box_temp_c=2.0,
+        suction_kpa_gauge=p_s - ATM,
+        suction_line_temp_c=evap_dew_c + 9 / 1.8,
+        compressor_running=True,
+    )
+    result = diagnose(unit, reading)
+    assert _metrics(result)["evaporator_td"].status == "ok"
+    assert result.findings == ()
+    glide_k = float(curve.dew_temp_c(p_s) - curve.bubble_temp_c(p_s))
+    assert glide_k > 2.0
+    mid = diagnose(dataclasses.replace(unit, temperature_basis="mid_point"), reading)
+    assert _metrics(mid)["evaporator_td"].measured == pytest.approx(
+        10 / 1.8 + glide_k / 2, abs=1e-3
+    )
 
 
 def test_a_compressor_that_will_not_start_draws_near_lra_one_that_runs_near_rla():
@@ -136,10 +172,12 @@ def test_a_stopped_compressor_leaves_the_cycle_unjudged():
 
 
 def test_an_empty_reading_scores_nothing_and_says_so():
-    """A reading with no fields costs no points (score 100), fires no finding, and every
-    metric is not_scored with a reason naming what is missing."""
+    """Issue seen in the field: a set with nothing to judge scored 100. It has no score
+    (None: "not enough readings to judge"), fires no finding, and every metric is not_scored
+    with a reason naming what is missing; one judged metric is enough for a score."""
     result = diagnose(R404A_MT, Reading())
-    assert result.score == 100.0
+    assert result.score is None
+    assert diagnose(R404A_MT, Reading(box_temp_c=2.0)).score == 100.0
     assert result.findings == ()
     assert result.energy_penalty_pct is None
     for metric in result.metrics:
@@ -209,9 +247,70 @@ def test_head_pressure_control_excuses_a_high_split_in_cold_weather():
     assert _metrics(hot)["condenser_split"].status == "fault"
 
 
+def _at_condensing(unit, air_f: float, condensing_f: float):
+    """FULL with the given air and condensing (dew) temperatures, 5 K superheat and 8 F
+    subcooling (inside their ranges), so only the condenser can be judged off."""
+    curve = saturation.table("R-404A")
+    p_h = float(curve.dew_pressure_kpa_abs(f_to_c(condensing_f)))
+    reading = dataclasses.replace(
+        FULL,
+        entering_air_temp_c=f_to_c(air_f),
+        head_kpa_gauge=p_h - ATM,
+        liquid_line_temp_c=float(curve.bubble_temp_c(p_h)) - 8 / 1.8,
+        suction_line_temp_c=float(curve.dew_temp_c(FULL.suction_kpa_gauge + ATM)) + 5.0,
+    )
+    return diagnose(unit, reading)
+
+
+def test_a_head_held_at_the_units_own_set_point_is_not_a_condenser_fault():
+    """Issue seen in the field: a unit whose control holds 90 F got condenser findings in
+    spring and autumn. With its flooding control at 90 F (design data), a 55 F spring day
+    condensing at 91 F is the control's doing: the split is not judged, no finding, no
+    energy money. Common practice (REFERENCES 6): score the split only above the set point."""
+    unit = dataclasses.replace(
+        R404A_MT, head_pressure_control="flooding", head_pressure_setpoint_c=f_to_c(90.0)
+    )
+    result = _at_condensing(unit, 55.0, 91.0)
+    split = _metrics(result)["condenser_split"]
+    assert split.status == "not_scored"
+    assert "head-pressure control" in split.reason
+    assert not {"condenser_heat_rejection", "overcharge"} & {f.code for f in result.findings}
+    assert result.energy_penalty_pct is None
+
+
+def test_a_unit_without_head_pressure_control_has_its_dirty_condenser_found_in_cold_air():
+    """Issue seen in the field: a fouled condenser found at 57 F entering air on a unit with
+    no head-pressure control scored 95 with no finding (an assumed control excused it). With
+    no control nothing holds the head: 57 F air condensing at 100 F is a 43 F split against
+    a 25 F design (Trott & Welch's 14 K), a fault with the condenser named and energy charged
+    (REFERENCES 7 cycle)."""
+    unit = dataclasses.replace(R404A_MT, head_pressure_control="none")
+    result = _at_condensing(unit, 57.0, 100.0)
+    assert _metrics(result)["condenser_split"].status == "fault"
+    assert "condenser_heat_rejection" in {f.code for f in result.findings}
+    assert result.energy_penalty_pct > 0.0
+    # the same reading on a unit with a control holding 100 F is excused, held in its band
+    held = dataclasses.replace(
+        unit, head_pressure_control="fan_cycling", head_pressure_setpoint_c=f_to_c(100.0)
+    )
+    assert _metrics(_at_condensing(held, 57.0, 100.0))["condenser_split"].status == "not_scored"
+
+
+def test_a_controlled_head_far_above_its_band_is_the_condensers_own_doing():
+    """A control holds the head at its set point, never far above it: at 57 F air a unit held
+    at 90 F by a flooding valve that condenses at 110 F has a condenser problem."""
+    unit = dataclasses.replace(
+        R404A_MT, head_pressure_control="flooding", head_pressure_setpoint_c=f_to_c(90.0)
+    )
+    result = _at_condensing(unit, 57.0, 110.0)
+    assert _metrics(result)["condenser_split"].status == "fault"
+    assert "condenser_heat_rejection" in {f.code for f in result.findings}
+
+
 def test_the_energy_penalty_follows_the_head():
     """A head above target costs energy (REFERENCES 7 method): the penalty is positive for a
-    high head, larger for a higher one, and zero on a head below target."""
+    high head, larger for a higher one, and zero on a head below target; a head inside its
+    ok band is on target and costs nothing (energy money only where a unit is off it)."""
     curve = saturation.table("R-404A")
     penalties = []
     for condensing in (30.0, 45.0, 55.0):
@@ -221,6 +320,11 @@ def test_the_energy_penalty_follows_the_head():
         )
     assert penalties[0] == 0.0
     assert 0.0 < penalties[1] < penalties[2]
+    on_target = float(curve.dew_pressure_kpa_abs(24.0 + 14.0 + 2.0)) - ATM
+    assert (
+        diagnose(R404A_MT, dataclasses.replace(FULL, head_kpa_gauge=on_target)).energy_penalty_pct
+        == 0.0
+    )
 
 
 @pytest.mark.parametrize(
@@ -274,7 +378,10 @@ def test_one_post_and_the_batch_share_one_implementation():
     for i, r in enumerate(readings):
         single = diagnose(units[index[i]], r)
         assert batch.diagnosis(i) == single
-        assert batch.score[i] == single.score
+        if single.score is None:
+            assert np.isnan(batch.score[i])
+        else:
+            assert batch.score[i] == single.score
 
 
 def test_the_batch_reports_columns_and_finding_bits():
@@ -324,8 +431,13 @@ UNITS = [
 def test_any_subset_of_fields_gives_a_score_and_never_crashes(unit, values, elevation):
     """Property: whatever subset of the fields is present (values anywhere in a wide
     physical range, including out of the saturation range), the diagnosis returns, the score
-    lies in 0..100, an unscored metric costs nothing and says why, and points add up."""
+    lies in 0..100 (None exactly when nothing was judged), an unscored metric costs nothing
+    and says why, and points add up."""
     result = diagnose(unit, Reading(**values), elevation_m=elevation)
+    judged = [m for m in result.metrics if m.status != "not_scored"]
+    if not judged:
+        assert result.score is None
+        return
     assert 0.0 <= result.score <= 100.0
     lost = 0.0
     for metric in result.metrics:
@@ -347,7 +459,14 @@ def _varied_inputs():
     FULL on a receiverless R-404A cooler, a compressor stalled at start, a low supply, an
     empty reading, R-744 above its critical point, a water-cooled unit, the R-448A glide
     blend, and a site whose elevation is unusable."""
-    r448a = UnitDesign("R-448A", "low_temp", has_receiver=True, rla_a=12.0, lra_a=70.0)
+    r448a = UnitDesign(
+        "R-448A",
+        "low_temp",
+        has_receiver=True,
+        rla_a=12.0,
+        lra_a=70.0,
+        temperature_basis="mid_point",
+    )
     r744 = UnitDesign("R-744", "medium_temp", has_receiver=True)
     water = dataclasses.replace(R404A_MT, condenser_type="water")
     units = [R404A_MT, r448a, r744, water]
@@ -371,6 +490,7 @@ def _varied_inputs():
             index.append(0)
     readings += [
         dataclasses.replace(FULL, compressor_running=False, compressor_amps=(57.0,)),
+        dataclasses.replace(FULL, run_capacitor_uf=38.0),
         dataclasses.replace(FULL, supply_volts=(190.0,)),
         dataclasses.replace(FULL, coil_iced=True, evaporator_fans_running=False),
         Reading(),
@@ -388,7 +508,7 @@ def _varied_inputs():
         dataclasses.replace(FULL, supply_volts=(), compressor_amps=()),
         FULL,
     ]
-    index += [0, 0, 0, 0, 1, 1, 2, 2, 3, 3, 0]
+    index += [0, 0, 0, 0, 0, 1, 1, 2, 2, 3, 3, 0]
     elevation = np.zeros(len(readings))
     elevation[-1] = np.nan  # an unusable site elevation: no gauge pressure can be made absolute
     return units, readings, index, elevation
@@ -414,7 +534,9 @@ def test_the_stored_form_of_a_batch_equals_each_row_diagnosed_alone():
     batch = _varied_batch()
     rows = batch.details()
     fired = {f["code"] for row in rows for f in row["findings"]}
-    assert fired == set(batch.finding_codes)
+    assert fired == {rule.code for rule in findings.RULES if rule.triggers}
+    named = {a for row in rows for f in row["findings"] for a in f["alternatives"]}
+    assert "non_condensables" in named
     assert batch.derived["transcritical"].any()
     assert any(m["reason"].startswith("water-cooled") for row in rows for m in row["metrics"])
     assert any("mid-point" in t["source"] for row in rows for t in row["targets"])
@@ -461,18 +583,27 @@ def test_the_one_post_path_stores_what_the_dataclass_path_gives():
     special cases of the varied batch: a stalled start, a low supply, an iced coil, an empty
     reading, R-448A glide, R-744 above its critical point and a water-cooled unit."""
     units, readings, index, _ = _varied_inputs()
-    special = list(zip(readings, index, strict=True))[-11:-1]
-    assert len(special) == 10
+    special = list(zip(readings, index, strict=True))[-12:-1]
+    assert len(special) == 11
     for reading, u in special:
         row = diagnose_row(units[u], reading)
         expected = diagnose(units[u], reading)
         assert row["algorithm_version"] == ALGORITHM_VERSION
         assert row["score"] == expected.score
-        assert row["superheat_k"] == expected.derived.superheat_k
-        assert row["condenser_split_k"] == expected.derived.condenser_split_k
+        judged = {m.name for m in expected.metrics if m.status != "not_scored"}
+        for name, value in (
+            ("superheat", expected.derived.superheat_k),
+            ("condenser_split", expected.derived.condenser_split_k),
+        ):
+            assert row[f"{name}_k"] == (value if name in judged else None)
         details = expand_blobs([row["packed"]])[0]
         for name in ("targets", "metrics", "cautions"):
             assert details[name] == [dataclasses.asdict(x) for x in getattr(expected, name)]
         assert details["findings"] == [
-            {**dataclasses.asdict(f), "evidence": list(f.evidence)} for f in expected.findings
+            {
+                **dataclasses.asdict(f),
+                "evidence": list(f.evidence),
+                "alternatives": list(f.alternatives),
+            }
+            for f in expected.findings
         ]

@@ -5,6 +5,7 @@ from __future__ import annotations
 from datetime import date, timedelta
 
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -50,12 +51,18 @@ def kinds(history: UnitHistory) -> dict[FlagKind, Severity]:
 
 def test_a_drift_reaching_its_limit_soon_is_a_high_flag_with_its_date() -> None:
     """Synthetic: split 19.0 K rising 0.03 K/day reaches the 19.6 K limit in 20 days: urgent
-    (within 30 days), projected on that date, evidence naming the slope."""
+    (within 30 days), projected on that date, evidence naming the slope, and the forecast
+    as numbers (slope 10.96 K/year = 0.03 x 365.25; split now 19 K) with its dates."""
     (decision,) = decide_flags(UnitHistory(1, split=rising_split(0.03, 19.0)), TODAY)
     assert decision.kind is FlagKind.HEAD_PRESSURE_DRIFT
     assert decision.severity is Severity.URGENT
     assert decision.projected_date == TODAY + timedelta(days=20)
-    assert "K/year" in decision.evidence[0].text
+    forecast = {name: (value, unit) for name, value, unit in decision.forecast}
+    assert forecast["split_slope"] == (pytest.approx(0.03 * 365.25, abs=1e-6), "K/year")
+    assert forecast["split_now"][0] == pytest.approx(19.0, abs=1e-6)
+    assert dict(decision.forecast_dates)["limit_crossed_on"] == TODAY + timedelta(days=20)
+    rising = next(e for e in decision.evidence if "rising" in e.text)
+    assert ("split_slope", forecast["split_slope"][0], "K/year") in rising.quantities
 
 
 def test_drift_severity_follows_how_soon_the_limit_comes() -> None:

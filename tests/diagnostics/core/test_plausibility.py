@@ -51,9 +51,9 @@ def test_it_refuses_suction_at_or_above_head_while_running() -> None:
 
 
 def test_it_refuses_pressures_outside_the_saturation_range() -> None:
-    """R-404A's tables end at -60 C (about 47 kPa abs dew, 50 kPa abs bubble) and just below its critical point
-    (about 3.7 MPa): a deeper suction or a higher head has no saturation temperature. R-744
-    above its critical pressure runs transcritical and is accepted."""
+    """R-404A's tables end at -60 C (about 47 kPa abs dew, 50 kPa abs bubble) and just below
+    its critical point (about 3.7 MPa): a deeper suction or a higher head has no saturation
+    temperature. R-744 above its critical pressure runs transcritical and is accepted."""
     deep = Reading(suction_kpa_gauge=-80.0, head_kpa_gauge=HEAD_236_PSIG)
     assert fields(deep) == {"suction_kpa_gauge"}
     problem = plausibility.check(UNIT, deep)[0]

@@ -64,12 +64,16 @@ def test_it_marks_half_of_lra_at_standstill_as_a_fault():
 
 
 def test_it_grades_a_range_target_with_watch_then_fault_on_each_side():
-    """Superheat with a synthetic 4.4-5.6 K range: inside ok; 1 K outside watch; beyond the
-    table's fault margins (2 K below, 5.6 K above) fault; the deviation is signed."""
-    measured = [5.0, 3.4, 2.0, 6.6, 12.0]
+    """Superheat with a synthetic 4.4-5.6 K range widened by the rule's 2 F (1.11 K)
+    instrument margin to 3.29-6.71 K: inside ok (1 K outside the bare range is still
+    within instrument error); 1 K beyond the widened band watch; beyond the table's fault
+    margins (2 K below, 5.6 K above the widened band) fault; the deviation is signed and
+    measured from the widened band."""
+    m = sc.SCORING_TABLE["superheat"].margin
+    measured = [5.0, 3.4, 4.4 - m - 1.0, 4.4 - m - 2.5, 5.6 + m + 1.0, 5.6 + m + 6.0]
     status, _, deviation = _grade("superheat", measured, 5.0, 4.4, 5.6)
-    assert status.tolist() == [sc.OK, sc.WATCH, sc.FAULT, sc.WATCH, sc.FAULT]
-    assert deviation.tolist() == pytest.approx([0.0, -1.0, -2.4, 1.0, 6.4])
+    assert status.tolist() == [sc.OK, sc.OK, sc.WATCH, sc.FAULT, sc.WATCH, sc.FAULT]
+    assert deviation.tolist() == pytest.approx([0.0, 0.0, -1.0, -2.5, 1.0, 6.0])
 
 
 def test_it_only_watches_a_side_that_never_faults():

@@ -100,12 +100,12 @@ def test_readings_of_a_replaced_capacitor_do_not_count() -> None:
 def test_a_locked_rotor_start_and_a_plain_failed_start() -> None:
     """A compressor that hums near LRA without starting points at start components, a locked
     compressor or low voltage (common practice, REFERENCES.md section 4); 'near' is our 80 %.
-    Synthetic LRA 60 A: 55 A without starting is locked-rotor; 10 A without starting is a
-    failed start; 58 A inrush on a good start is normal."""
+    Synthetic LRA 60 A: 55 A without starting is locked-rotor; 10 A without starting while
+    the control calls is a failed start; 58 A inrush on a good start is normal."""
     history = StartHistory(
         start_attempts=(
             StartAttempt(ago(10), started=False, peak_amps=55.0),
-            StartAttempt(ago(20), started=False, peak_amps=10.0),
+            StartAttempt(ago(20), started=False, peak_amps=10.0, called=True),
             StartAttempt(ago(30), started=True, peak_amps=58.0),
         ),
         lra_a=60.0,
@@ -114,6 +114,24 @@ def test_a_locked_rotor_start_and_a_plain_failed_start() -> None:
     assert {i.code for i in result.items} == {"locked_rotor", "failed_start"}
     assert result.score == pytest.approx(3.0)
     assert result.level is RiskLevel.ELEVATED
+
+
+def test_a_compressor_found_off_cycle_is_not_a_failed_start() -> None:
+    """Issue seen in the field: a compressor found off-cycle (0 A, box at its set point) was
+    counted as a failed start, and two such visits opened a start-component flag. Without a
+    call for cooling (or not recorded) and far from locked-rotor current it is off-cycle:
+    no sign, whatever the idle line voltage reads."""
+    history = StartHistory(
+        start_attempts=(
+            StartAttempt(ago(10), started=False, peak_amps=0.0, volts_at_start=150.0, called=False),
+            StartAttempt(ago(40), started=False, peak_amps=0.0, volts_at_start=150.0),
+        ),
+        lra_a=60.0,
+        nameplate_volts=230.0,
+    )
+    result = assess_start_risk(history, TODAY)
+    assert result.items == ()
+    assert result.level is RiskLevel.LOW
 
 
 def test_low_voltage_at_start_against_the_nameplate_band() -> None:
