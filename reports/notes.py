@@ -121,7 +121,7 @@ def method_notes(sm: SiteMonth) -> tuple[Note, ...]:
             "Words this report uses",
             f"A unit is “{HEALTH_LABELS['sound']}” when its {SCORE_NAME} is "
             f"{DEFAULT_RULES.healthy_score_min:.0f} or more, no reading is off its aim and no "
-            f"flag is open; “{HEALTH_LABELS['watch']}” when a reading is a little off, the "
+            f"flag is open; “{HEALTH_LABELS['watch']}” when a reading is off its aim, the "
             f"score is below {DEFAULT_RULES.healthy_score_min:.0f} or a flag of lower urgency "
             f"is open; “{HEALTH_LABELS['act']}” when a reading is far off its aim, the score "
             f"is below {DEFAULT_RULES.attention_score_below:.0f}, an urgent flag is open or a "

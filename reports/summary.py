@@ -141,6 +141,10 @@ def _month_leaks(leak_rows: Iterable[LeakRateRow], month: Month) -> list[LeakRat
     ]
 
 
+def _whose(labels: Sequence[str]) -> str:
+    return "its" if len(labels) == 1 else "their"
+
+
 def score_condition(score: float | None, rules: ReportRules = DEFAULT_RULES) -> str:
     """The condition a check score alone stands for (``words.CONDITIONS``); None is a check
     with too few readings to score."""
@@ -186,9 +190,9 @@ def judge(
         faults = [label for label, status in statuses if status == "fault"]
         watches = [label for label, status in statuses if status == "watch"]
         if faults:
-            act.append("far off its aim: " + ", ".join(faults))
+            act.append(f"far off {_whose(faults)} aim: " + ", ".join(faults))
         if watches:
-            watch.append("a little off: " + ", ".join(watches))
+            watch.append(f"off {_whose(watches)} aim: " + ", ".join(watches))
         if finding_titles and not faults:
             watch.append("probable cause: " + finding_titles[0].lower())
     if act:
@@ -338,8 +342,8 @@ def cause_sentence(
     if watches:
         one = len(watches) == 1
         return (
-            f"No fault found; the {_listed(watches)} {'is' if one else 'are'} a little off "
-            "and worth watching."
+            f"No fault found; the {_listed(watches)} {'is' if one else 'are'} off "
+            f"{'its' if one else 'their'} aim and worth watching."
         )
     return "Nothing wrong was found in this check."
 

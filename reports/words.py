@@ -189,7 +189,7 @@ def verdict(status: str, deviation: float | None = None) -> Verdict:
     if status == "ok":
         return Verdict("in range", "\u2714", "good")
     if status == "watch":
-        word = "a little high" if high else "a little low" if low else "a little off"
+        word = "high" if high else "low" if low else "off its aim"
         return Verdict(word, "\u25b2", "warn")
     if status == "fault":
         word = "far too high" if high else "far too low" if low else "far off"

@@ -125,7 +125,7 @@ def _badge(symbol: str, word: str, modifier: str, extra: str = ""):
 
 @register.simple_tag
 def verdict(metric: dict):
-    """A reading's verdict against its aim ('a little high'), from its stored status."""
+    """A reading's verdict against its aim ('high', 'far too low'), from its stored status."""
     v = words.verdict(metric["status"], metric.get("deviation"))
     return _badge(v.symbol, v.word, v.modifier)
 

@@ -45,8 +45,8 @@ def test_every_scored_metric_belongs_to_a_group():
 
 
 def test_a_verdict_says_which_way_a_reading_is_off():
-    """A watch above its band is 'a little high', a fault below it 'far too low'."""
-    assert words.verdict("watch", 1.2).word == "a little high"
+    """A watch above its band is 'high', a fault below it 'far too low'."""
+    assert words.verdict("watch", 1.2).word == "high"
     assert words.verdict("fault", -3.0).word == "far too low"
     assert words.verdict("ok", 0.0).word == "in range"
     assert words.verdict("not_scored").word == "not judged"
