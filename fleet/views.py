@@ -34,10 +34,11 @@ from django.views.decorators.http import require_GET, require_POST
 from diagnostics.core import maintenance
 from diagnostics.history import maintenance_plans
 from diagnostics.models import Diagnosis, Flag, LeakRate
+from reports.summary import Health, judge_stored, severity_rank, worst
 
 from . import audit, forms
 from .api.permissions import role_of
-from .choices import RefrigerantEventKind, Role, VisitKind, VisitStatus
+from .choices import Application, RefrigerantEventKind, Role, Stage, VisitKind, VisitStatus
 from .display import display_for
 from .models import (
     AuditAction,
@@ -109,11 +110,14 @@ def sites_for(request: HttpRequest) -> QuerySet[Site]:
 
 
 def page(request: HttpRequest, template: str, context: dict, status: int = 200) -> HttpResponse:
-    """Render a page with what the navigation shows for the role (two counts for the office)."""
+    """Render a page with what the navigation shows for the role (two counts for the office;
+    a page that has counted one already passes it in)."""
     context = {"role": getattr(request, "role", None), **context}
     if context["role"] == Role.OFFICE:
-        context["nav_queue_count"] = Visit.objects.filter(status=VisitStatus.SUBMITTED).count()
-        context["nav_flag_count"] = Flag.objects.filter(cleared_at__isnull=True).count()
+        if "nav_queue_count" not in context:
+            context["nav_queue_count"] = Visit.objects.filter(status=VisitStatus.SUBMITTED).count()
+        if "nav_flag_count" not in context:
+            context["nav_flag_count"] = Flag.objects.filter(cleared_at__isnull=True).count()
     return render(request, template, context, status=status)
 
 
@@ -518,6 +522,23 @@ def return_history(visit: Visit, covered: list[CoveredUnit]) -> ReturnHistory | 
     return history
 
 
+def diagnosis_condition(
+    diagnosis: Diagnosis, flags: Iterable[Flag] = (), application: str = ""
+) -> Health:
+    """A stored diagnosis (and the unit's open flags) judged by the rule the monthly report
+    uses (``reports.summary.judge``), so a page and the report say the same."""
+    return judge_stored(
+        diagnosis.score,
+        diagnosis.metrics,
+        diagnosis.findings,
+        [
+            (f.get_kind_display(), f.get_severity_display(), severity_rank(f.severity))
+            for f in flags
+        ],
+        application=application,
+    )
+
+
 def _cautions_of(diagnoses: Iterable[Diagnosis]) -> list[dict]:
     seen: dict[str, dict] = {}
     for diagnosis in diagnoses:
@@ -554,8 +575,18 @@ class CoveredUnit:
 
     @property
     def lowest_score(self) -> float | None:
-        scores = [d.score for _, d in self.readings if d is not None]
+        scores = [d.score for _, d in self.readings if d is not None and d.score is not None]
         return min(scores) if scores else None
+
+    @property
+    def condition(self) -> Health | None:
+        """The most urgent condition among the unit's diagnosed readings on this visit."""
+        application = self.unit.application
+        return worst(
+            diagnosis_condition(d, application=application)
+            for _, d in self.readings
+            if d is not None
+        )
 
 
 def _covered_units(visit: Visit) -> list[CoveredUnit]:
@@ -597,7 +628,8 @@ def _visit_page(request: HttpRequest, pk: int, review_form=None) -> HttpResponse
                 {c.unit.refrigerant.designation for c in covered if c.unit.refrigerant.flammable}
             ),
             "has_findings": any(d.findings for d in diagnoses),
-            "history": return_history(visit, covered),
+            # The office's notes to its technicians are not for a customer's manager.
+            "history": return_history(visit, covered) if request.role != Role.MANAGER else None,
             "can_edit": request.role == Role.OFFICE and visit.status in forms.EDITABLE_STATUSES,
             "can_review": can_review,
             "review_form": review_form or (forms.ReviewForm() if can_review else None),
@@ -654,7 +686,11 @@ def review_queue(request: HttpRequest) -> HttpResponse:
         rows.append(
             {
                 "visit": visit,
-                "lowest_score": min((d.score for d in diagnoses), default=None),
+                "diagnosed": bool(diagnoses),
+                "condition": worst(c.condition for c in covered if c.condition),
+                "lowest_score": min(
+                    (d.score for d in diagnoses if d.score is not None), default=None
+                ),
                 "faults": sum(1 for d in diagnoses for m in d.metrics if m["status"] == "fault"),
                 "findings": sorted({f["title"] for d in diagnoses for f in d.findings}),
                 "reading_count": sum(len(c.readings) for c in covered),
@@ -758,7 +794,7 @@ def unit_charts(unit: Unit, today: dt.date) -> dict:
 
     first = dt.date(today.year - 1, today.month, 1)
     history = unit_trend_history(unit.pk, first, timezone.get_current_timezone())
-    panels = trend_panels(history, unit.rla_a, display_for())
+    panels = trend_panels(history, unit.rla_a, display_for(), unit.application)
     shown = [p for p in panels if p.point_count() >= DEFAULT_RULES.chart_min_points]
     if not shown:
         return {"svg": "", "described": [], "min_points": DEFAULT_RULES.chart_min_points}
@@ -805,6 +841,7 @@ def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
         .order_by("-window_start")[:24]
     )
     added_kg = sum(e.amount_kg or 0 for e in events if e.kind == RefrigerantEventKind.ADDED)
+    diagnosis = latest.diagnosis if latest else None
     return page(
         request,
         "fleet/unit_detail.html",
@@ -815,7 +852,10 @@ def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
             "fitted": [c for c in components if c.removed_on is None],
             "removed": [c for c in components if c.removed_on is not None],
             "latest": latest,
-            "diagnosis": latest.diagnosis if latest else None,
+            "diagnosis": diagnosis,
+            "condition": diagnosis_condition(diagnosis, flags, unit.application)
+            if diagnosis
+            else None,
             "flags": flags,
             "events": [(e, _leak_rate_of(e)) for e in events],
             "added_kg": added_kg,
@@ -940,11 +980,25 @@ def site_detail(request: HttpRequest, pk: int) -> HttpResponse:
         .select_related("refrigerant")
         .annotate(
             latest_score=_latest_diagnosis("score"),
+            latest_packed=_latest_diagnosis("packed"),
             latest_at=_latest_diagnosis("reading_set__taken_at"),
         )
         .prefetch_related(Prefetch("flags", queryset=open_flags, to_attr="open_flags"))
         .order_by("tag")
     )
+    # The latest diagnosis of each unit, rebuilt from the annotations (no query per unit):
+    # its details are judged with the unit's open flags, as the monthly report judges them.
+    for u in units:
+        u.latest = (
+            Diagnosis(score=u.latest_score, packed=u.latest_packed)
+            if u.latest_at is not None
+            else None
+        )
+    Diagnosis.attach_details(u.latest for u in units if u.latest is not None)
+    for u in units:
+        u.condition = (
+            diagnosis_condition(u.latest, u.open_flags, u.application) if u.latest else None
+        )
     upcoming = list(
         visits_for(request)
         .filter(
@@ -975,13 +1029,20 @@ def site_detail(request: HttpRequest, pk: int) -> HttpResponse:
 
 @dataclass(frozen=True)
 class AttentionItem:
-    """One thing that needs the office, dated for sorting: a deadline or a flag."""
+    """One thing that needs the office, dated for sorting: a deadline, a flag, or a box
+    found far off its design temperature."""
 
     due_on: dt.date
-    kind: str  # "flag", "repair" or "verification"
+    kind: str  # "flag", "repair", "verification" or "warm_box"
     unit: Unit
     flag: Flag | None = None
     leak_rate: LeakRate | None = None
+    diagnosis: Diagnosis | None = None
+    metric: dict | None = None
+
+    @property
+    def is_deadline(self) -> bool:
+        return self.kind in ("repair", "verification")
 
 
 def _open_leak_deadlines(today: dt.date) -> list[AttentionItem]:
@@ -1021,19 +1082,67 @@ def _open_leak_deadlines(today: dt.date) -> list[AttentionItem]:
     return items
 
 
+def _warm_boxes() -> list[AttentionItem]:
+    """Units in service whose latest as-found check found the box far off its design
+    temperature (the stored box-temperature metric at ``fault``): the stock may be at risk.
+
+    One query: the latest diagnosed as-found reading of every unit in service, with its
+    diagnosis; their details are expanded in one pass. Ice machines hold no box.
+    """
+    latest = (
+        ReadingSet.objects.filter(
+            visit_unit__unit=OuterRef("pk"), stage=Stage.AS_FOUND, diagnosis__isnull=False
+        )
+        .order_by("-taken_at", "-id")
+        .values("id")[:1]
+    )
+    in_service = Unit.objects.filter(retired_on__isnull=True).exclude(
+        application=Application.ICE_MACHINE
+    )
+    diagnoses = list(
+        Diagnosis.objects.filter(
+            reading_set_id__in=in_service.annotate(latest=Subquery(latest)).values("latest")
+        ).select_related(
+            "reading_set__visit_unit__unit__site__customer", "reading_set__visit_unit__visit"
+        )
+    )
+    Diagnosis.attach_details(diagnoses)
+    items = []
+    for d in diagnoses:
+        box = next(
+            (m for m in d.metrics if m["name"] == "box_temp" and m["status"] == "fault"), None
+        )
+        if box is not None:
+            rs = d.reading_set
+            items.append(
+                AttentionItem(
+                    timezone.localdate(rs.taken_at),
+                    "warm_box",
+                    rs.visit_unit.unit,
+                    diagnosis=d,
+                    metric=box,
+                )
+            )
+    return items
+
+
 @within_reach(Role.OFFICE)
 @require_GET
 def attention(request: HttpRequest) -> HttpResponse:
-    """Every open flag and every open leak deadline across the fleet, soonest first."""
+    """Every open flag, every open leak deadline and every box found far off its design
+    temperature across the fleet, soonest first."""
     today = timezone.localdate()
-    flags = Flag.objects.filter(cleared_at__isnull=True).select_related(
-        "unit__site__customer", "acknowledged_by"
+    flags = list(
+        Flag.objects.filter(cleared_at__isnull=True).select_related(
+            "unit__site__customer", "acknowledged_by"
+        )
     )
     items = [
         AttentionItem(f.projected_on or timezone.localdate(f.opened_at), "flag", f.unit, flag=f)
         for f in flags
     ]
     items.extend(_open_leak_deadlines(today))
+    items.extend(_warm_boxes())
     items.sort(key=lambda i: (i.due_on, i.unit.tag, i.kind))
     return page(
         request,
@@ -1041,9 +1150,11 @@ def attention(request: HttpRequest) -> HttpResponse:
         {
             "items": items,
             "today": today,
-            "overdue": sum(1 for i in items if i.kind != "flag" and i.due_on < today),
-            "flag_count": sum(1 for i in items if i.kind == "flag"),
-            "deadline_count": sum(1 for i in items if i.kind != "flag"),
+            "overdue": sum(1 for i in items if i.is_deadline and i.due_on < today),
+            "flag_count": len(flags),
+            "deadline_count": sum(1 for i in items if i.is_deadline),
+            "warm_box_count": sum(1 for i in items if i.kind == "warm_box"),
+            "nav_flag_count": len(flags),
             "can_acknowledge": True,
             "ack_form": forms.AcknowledgeFlagForm(),
         },

@@ -32,11 +32,23 @@ def window_of(site_month: SiteMonth) -> Window:
     return Window.months(site_month.window_start.first_day, site_month.month.last_day)
 
 
-def trend_panels(h: Sequence[HistoryPoint], rla_a: float, display: Display) -> list[Panel]:
+def trend_panels(
+    h: Sequence[HistoryPoint], rla_a: float, display: Display, application: str = ""
+) -> list[Panel]:
     """Condensing and evaporating temperatures against their targets, superheat and
-    subcooling against their ok ranges, and the compressor current against its RLA."""
+    subcooling against their ok ranges, and the compressor current against its RLA.
+
+    An ice machine's evaporating panel has no box-air line: it is not judged on a box.
+    """
     dates = [p.taken_on for p in h]
     t, d = display.temperature, display.difference
+    ice_machine = application == "ice_machine"
+    evaporating_lines = (
+        Line("evaporating", dates, [t(p.evaporating_c) for p in h], "measured"),
+        Line("target", dates, [t(p.evaporating_target_c) for p in h], "target"),
+    )
+    if not ice_machine:
+        evaporating_lines += (Line("box air", dates, [t(p.box_temp_c) for p in h], "ambient"),)
     t_axis = f"Temperature ({display.temperature_symbol})"
     d_axis = f"Difference ({display.difference_symbol})"
     return [
@@ -54,12 +66,9 @@ def trend_panels(h: Sequence[HistoryPoint], rla_a: float, display: Display) -> l
         Panel(
             "Evaporating temperature",
             t_axis,
-            (
-                Line("evaporating", dates, [t(p.evaporating_c) for p in h], "measured"),
-                Line("target", dates, [t(p.evaporating_target_c) for p in h], "target"),
-                Line("box air", dates, [t(p.box_temp_c) for p in h], "ambient"),
-            ),
-            alt="evaporating saturation temperature against its target, with the box air",
+            evaporating_lines,
+            alt="evaporating saturation temperature against its target"
+            + ("" if ice_machine else ", with the box air"),
         ),
         Panel(
             "Superheat",
@@ -111,7 +120,7 @@ def trend_panels(h: Sequence[HistoryPoint], rla_a: float, display: Display) -> l
 def unit_figure(u: UnitMonth, display: Display, rules: ReportRules = DEFAULT_RULES) -> UnitFigure:
     h = u.history
     dates = [p.taken_on for p in h]
-    candidates = trend_panels(h, u.unit.rla_a, display)
+    candidates = trend_panels(h, u.unit.rla_a, display, u.unit.application)
     for kind, rating, values in (
         ("Run capacitor", u.unit.run_capacitor, [p.run_capacitor_uf for p in h]),
         ("Start capacitor", u.unit.start_capacitor, [p.start_capacitor_uf for p in h]),
@@ -143,9 +152,10 @@ def unit_figure(u: UnitMonth, display: Display, rules: ReportRules = DEFAULT_RUL
             panels.append(panel)
         else:
             visits = "no visit" if n == 0 else f"only {n} visit{'s' if n > 1 else ''}"
+            # The minimum itself is a rule value: it is quoted in the methods notes.
             notes.append(
-                f"{panel.title}: {visits} with a value in these twelve months; a trend needs "
-                f"{rules.chart_min_points}."
+                f"{panel.title}: {visits} with a value in these twelve months, too few to "
+                "draw a trend."
             )
 
     rated = [a for a in u.leak_rates if a.computed and a.leak_rate_percent is not None]

@@ -11,15 +11,15 @@ What is read, and why:
   have their details, metrics, findings and cautions, written out);
 - the stored leak rates of the refrigerant additions in that window (computed by the
   diagnostics core when the addition was recorded; not recomputed here);
-- the flags open when the report is made (what the manager must act on now; a flag
-  opened overnight on the 1st from the month's readings belongs in that month's report);
+- the flags as they stood at the end of the month (or now, for a month not over yet): a
+  report for a past month shows the fleet as it was then, so a flag opened after the
+  month is left out and one cleared after it shows as open;
 - the month's visits, their technicians and units;
 - the components fitted or removed in the window.
 """
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from collections import defaultdict
 from dataclasses import dataclass
@@ -33,12 +33,12 @@ from django.db.models import Q
 from diagnostics.core import diagnose as core_diagnose
 from diagnostics.core import leaks, start_risk
 from diagnostics.core.scoring import SCORING_TABLE
-from diagnostics.core.types import Caution, Finding
+from diagnostics.core.types import Caution
 from diagnostics.models import Flag, FlagKind, FlagSeverity
 from fleet import choices
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Site, Unit, Visit, VisitUnit
 
-from . import summary
+from . import summary, words
 from .months import Month
 
 #: Months of history the trend charts cover, the report month included.
@@ -103,6 +103,11 @@ class UnitInfo:
         """Safety classes 2L, 2 and 3 (ASHRAE 34) burn; class 1 does not."""
         return not self.safety_class.upper().endswith("1")
 
+    @property
+    def is_ice_machine(self) -> bool:
+        """Judged on its refrigerant circuit and electrics, not on a box temperature."""
+        return self.application == "ice_machine"
+
 
 @dataclass(frozen=True)
 class MetricRow:
@@ -120,6 +125,32 @@ class MetricRow:
     points_lost: float
     reason: str
 
+    @property
+    def verdict(self) -> words.Verdict:
+        return words.verdict(self.status, self.deviation)
+
+
+@dataclass(frozen=True)
+class FindingRow:
+    """A stored finding as the report reads it; ``alternatives`` (codes the readings cannot
+    tell apart from it) and ``deciding_check`` are empty where the stored form has none."""
+
+    code: str
+    title: str
+    evidence: tuple[str, ...]
+    confidence: float
+    advice: str
+    alternatives: tuple[str, ...] = ()
+    deciding_check: str = ""
+
+    @property
+    def strength(self) -> str:
+        return words.evidence_strength(len(self.evidence))
+
+    @property
+    def could_also_be(self) -> str:
+        return words.could_also_be(self.alternatives, self.deciding_check)
+
 
 @dataclass(frozen=True)
 class Check:
@@ -135,9 +166,8 @@ class Check:
     glide_choice: str
     energy_penalty_pct: float | None
     metrics: tuple[MetricRow, ...]
-    findings: tuple[Finding, ...]
+    findings: tuple[FindingRow, ...]
     cautions: tuple[Caution, ...]
-    notes: str
     compressor_running: bool | None
     mean_amps: float | None
     mean_volts: float | None
@@ -191,8 +221,8 @@ class FlagRow:
     opened_on: date
     #: The flag's numbers (SI), which ``summary`` may name as ``{name}``.
     forecast: tuple[tuple[str, float, str], ...]
+    #: Acknowledged by the office by the time the flags were read (the note stays internal).
     acknowledged: bool
-    acknowledgement_note: str
 
 
 @dataclass(frozen=True)
@@ -265,9 +295,13 @@ class UnitMonth:
     current: Check | None
     as_left: Check | None
     health: summary.Health
-    trend: summary.Trend
+    story: summary.Story
     energy: summary.EnergyEstimate | None
     actions: tuple[str, ...]
+
+    @property
+    def trend(self) -> summary.Trend:
+        return self.story.trend
 
 
 @dataclass(frozen=True)
@@ -277,7 +311,8 @@ class SiteMonth:
     site: SiteInfo
     month: Month
     window_start: Month
-    #: When the report was made: the open flags are those open then.
+    #: When the flags were read: the end of the month, or when the report was made if the
+    #: month was not over yet.
     as_of: datetime
     units: tuple[UnitMonth, ...]
     visits: tuple[VisitInfo, ...]
@@ -287,6 +322,13 @@ class SiteMonth:
     algorithm_versions: tuple[str, ...]
     glide_choices: tuple[str, ...]
     leak_rules: tuple[tuple[str, str], ...]
+    #: Where the flags' limits come from, taken out of their texts for the methods appendix.
+    provenance: tuple[str, ...] = ()
+
+    @property
+    def month_closed(self) -> bool:
+        """The flags are read at the month's end (the month was over when it was made)."""
+        return self.as_of >= self.month.end_in(self.as_of.tzinfo)
 
     @property
     def has_visits(self) -> bool:
@@ -330,11 +372,13 @@ _SEVERITY_LABELS = _labels(FlagSeverity)
 _KIND_LABELS = _labels(FlagKind)
 
 
-def _evidence_rows(raw: Any) -> tuple[EvidenceRow, ...]:
+def _evidence_rows(raw: Any, provenance: list[str]) -> tuple[EvidenceRow, ...]:
+    """A flag's stored evidence; the asides saying where a limit came from go to
+    ``provenance`` (the methods appendix), not into the customer's copy."""
     rows = []
     for item in raw if isinstance(raw, list) else []:
         if isinstance(item, str):
-            rows.append(EvidenceRow(item, None, ()))
+            rows.append(EvidenceRow(_customer_text(item, provenance), None, ()))
             continue
         if not isinstance(item, dict):
             continue
@@ -347,8 +391,15 @@ def _evidence_rows(raw: Any) -> tuple[EvidenceRow, ...]:
         for q in item.get("quantities") or ():
             if isinstance(q, list | tuple) and len(q) == 3 and _num(q[1]) is not None:
                 quantities.append((str(q[0]), float(q[1]), str(q[2])))
-        rows.append(EvidenceRow(str(item.get("text", "")), observed_on, tuple(quantities)))
+        text = _customer_text(str(item.get("text", "")), provenance)
+        rows.append(EvidenceRow(text, observed_on, tuple(quantities)))
     return tuple(rows)
+
+
+def _customer_text(text: str, provenance: list[str]) -> str:
+    kept, moved = words.split_provenance(text)
+    provenance.extend(moved)
+    return kept
 
 
 # --- the queries --------------------------------------------------------------------------------
@@ -371,7 +422,6 @@ _READING_COLUMNS = (
     "run_capacitor_uf",
     "start_capacitor_uf",
     "compressor_running",
-    "notes",
     "diagnosis__id",
     "diagnosis__score",
     "diagnosis__algorithm_version",
@@ -663,12 +713,15 @@ def _refrigerant_events(site_id: int, first: date, last: date) -> dict[int, list
     return by_unit
 
 
-def _flags(site_id: int, as_of: datetime, tz: ZoneInfo) -> dict[int, list[FlagRow]]:
-    """Flags open at ``as_of``: opened before it and not cleared by then."""
+def _flags(
+    site_id: int, as_of: datetime, tz: ZoneInfo, provenance: list[str]
+) -> dict[int, list[FlagRow]]:
+    """Flags open at ``as_of``: opened before it and not cleared by then (one cleared later
+    shows as open, as it was)."""
     by_unit: dict[int, list[FlagRow]] = defaultdict(list)
     rows = (
-        Flag.objects.filter(unit__site_id=site_id, opened_at__lte=as_of)
-        .filter(Q(cleared_at__isnull=True) | Q(cleared_at__gt=as_of))
+        Flag.objects.filter(unit__site_id=site_id, opened_at__lt=as_of)
+        .filter(Q(cleared_at__isnull=True) | Q(cleared_at__gte=as_of))
         .order_by("unit_id", "opened_at", "id")
         .values(
             "id",
@@ -680,7 +733,6 @@ def _flags(site_id: int, as_of: datetime, tz: ZoneInfo) -> dict[int, list[FlagRo
             "projected_on",
             "opened_at",
             "acknowledged_at",
-            "acknowledgement_note",
             "forecast",
         )
     )
@@ -693,15 +745,14 @@ def _flags(site_id: int, as_of: datetime, tz: ZoneInfo) -> dict[int, list[FlagRo
                 severity=r["severity"],
                 severity_label=_SEVERITY_LABELS.get(r["severity"], r["severity"].title()),
                 severity_rank=summary.severity_rank(r["severity"]),
-                summary=r["summary"],
-                evidence=_evidence_rows(r["evidence"]),
+                summary=_customer_text(r["summary"], provenance),
+                evidence=_evidence_rows(r["evidence"], provenance),
                 projected_on=r["projected_on"],
                 opened_on=r["opened_at"].astimezone(tz).date(),
                 forecast=tuple(
                     (str(n), float(v), str(u)) for n, v, u in r["forecast"].get("quantities", ())
                 ),
-                acknowledged=r["acknowledged_at"] is not None,
-                acknowledgement_note=r["acknowledgement_note"],
+                acknowledged=r["acknowledged_at"] is not None and r["acknowledged_at"] < as_of,
             )
         )
     return by_unit
@@ -771,9 +822,41 @@ def _one_per_visit(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
     return sorted(chosen.values(), key=lambda r: (r["taken_at"], r["id"]))
 
 
-def _check(row: dict[str, Any], details: dict[str, Any], tz: ZoneInfo) -> Check:
+def _metric_row(m: dict[str, Any]) -> MetricRow:
+    rule = SCORING_TABLE.get(m["name"])
+    return MetricRow(
+        name=m["name"],
+        label=rule.label if rule else m["name"].replace("_", " "),
+        measured=m["measured"],
+        target=m["target"],
+        low=m["low"],
+        high=m["high"],
+        deviation=m["deviation"],
+        unit=m["unit"],
+        status=m["status"],
+        points_lost=m["points_lost"],
+        reason=m.get("reason", ""),
+    )
+
+
+def _finding_row(f: dict[str, Any]) -> FindingRow:
+    return FindingRow(
+        code=f["code"],
+        title=f["title"],
+        evidence=tuple(f["evidence"]),
+        confidence=f["confidence"],
+        advice=f["advice"],
+        alternatives=tuple(f.get("alternatives") or ()),
+        deciding_check=f.get("deciding_check") or "",
+    )
+
+
+def _check(row: dict[str, Any], details: dict[str, Any], tz: ZoneInfo, unit: UnitInfo) -> Check:
+    """A month's diagnosed reading set. An ice machine's box metrics are left out: it is
+    judged on its circuit and electrics (``words.ICE_MACHINE_BASIS``)."""
     stage = _labels(choices.Stage)
-    _, metrics, findings, cautions = core_diagnose.typed_details(details)
+    skip = words.NOT_FOR_ICE_MACHINES if unit.is_ice_machine else frozenset()
+    findings = sorted(details["findings"], key=lambda f: -f["confidence"])
     return Check(
         reading_set_id=row["id"],
         visit_reference=row["visit_unit__visit__reference"],
@@ -784,12 +867,9 @@ def _check(row: dict[str, Any], details: dict[str, Any], tz: ZoneInfo) -> Check:
         algorithm_version=row["diagnosis__algorithm_version"] or "",
         glide_choice=details["glide_choice"],
         energy_penalty_pct=row["diagnosis__energy_penalty_pct"],
-        metrics=tuple(
-            MetricRow(label=SCORING_TABLE[m.name].label, **dataclasses.asdict(m)) for m in metrics
-        ),
-        findings=findings,
-        cautions=cautions,
-        notes=row["notes"],
+        metrics=tuple(_metric_row(m) for m in details["metrics"] if m["name"] not in skip),
+        findings=tuple(_finding_row(f) for f in findings),
+        cautions=tuple(Caution(c["code"], c["text"]) for c in details["cautions"]),
         compressor_running=row["compressor_running"],
         mean_amps=_mean(
             [row["compressor_amps_1"], row["compressor_amps_2"], row["compressor_amps_3"]]
@@ -825,13 +905,15 @@ def gather_site_month(site_id: int, month: Month, *, now: datetime) -> SiteMonth
     """The site-month as plain data, in a fixed number of queries.
 
     Readings, visits and additions are those of the month (and the eleven before it for
-    the trends); flags are those open at ``now``, the moment the report is made.
+    the trends); flags are those open at the month's end, or at ``now`` (the moment the
+    report is made) for a month not over yet.
     """
     site = _site(site_id)
     tz = ZoneInfo(site.time_zone)
     window_start = month.shift(-(WINDOW_MONTHS - 1))
     start, month_start, end = window_start.start_in(tz), month.start_in(tz), month.end_in(tz)
-    as_of = now
+    as_of = min(now, end)
+    provenance: list[str] = []
 
     components = _components(site_id)
     units = _units(site_id, month, components)
@@ -841,13 +923,13 @@ def gather_site_month(site_id: int, month: Month, *, now: datetime) -> SiteMonth
     )
     visits = _visits(site_id, month_start, end, tz)
     additions = _refrigerant_events(site_id, window_start.first_day, month.last_day)
-    flags = _flags(site_id, as_of, tz)
+    flags = _flags(site_id, as_of, tz, provenance)
 
     unit_months = []
     for unit in units:
         rows = readings.get(unit.id, [])
         month_rows = [r for r in rows if r["taken_at"] >= month_start]
-        checks = tuple(_check(r, details[r["id"]], tz) for r in month_rows)
+        checks = tuple(_check(r, details[r["id"]], tz, unit) for r in month_rows)
         history = tuple(history_point(r, tz) for r in _one_per_visit(rows))
         unit_flags = tuple(flags.get(unit.id, ()))
         unit_leaks = tuple(additions.get(unit.id, ()))
@@ -857,7 +939,6 @@ def gather_site_month(site_id: int, month: Month, *, now: datetime) -> SiteMonth
         current = summary.current_check(checks)
         as_left = summary.as_left_check(checks, current)
         health = summary.grade_unit(current, unit_flags, unit_leaks, month)
-        trend = summary.trend_of(history, month)
         energy = summary.energy_estimate(
             current,
             phase=unit.phase,
@@ -881,10 +962,10 @@ def gather_site_month(site_id: int, month: Month, *, now: datetime) -> SiteMonth
                 current=current,
                 as_left=as_left,
                 health=health,
-                trend=trend,
+                story=summary.story_of(current, history, unit_flags, month),
                 energy=energy,
                 actions=summary.actions_for(
-                    current, unit_flags, unit_leaks, month, today=now.astimezone(tz).date()
+                    current, unit_flags, unit_leaks, month, today=as_of.astimezone(tz).date()
                 ),
             )
         )
@@ -931,6 +1012,7 @@ def gather_site_month(site_id: int, month: Month, *, now: datetime) -> SiteMonth
                 }
             )
         ),
+        provenance=tuple(dict.fromkeys(provenance)),
     )
 
 
@@ -939,6 +1021,7 @@ __all__ = [
     "Check",
     "ComponentRow",
     "EvidenceRow",
+    "FindingRow",
     "FlagRow",
     "HistoryPoint",
     "LeakRateRow",

@@ -16,7 +16,8 @@ from diagnostics.core import costs, leaks
 from diagnostics.core.sources import describe_rules
 
 from .gather import SiteMonth
-from .summary import DEFAULT_RULES
+from .summary import DEFAULT_RULES, HEALTH_LABELS
+from .words import SCORE_NAME
 
 
 @dataclass(frozen=True)
@@ -117,6 +118,21 @@ def method_notes(sm: SiteMonth) -> tuple[Note, ...]:
             cost_sources,
         ),
         Note(
+            "Words this report uses",
+            f"A unit is “{HEALTH_LABELS['sound']}” when its {SCORE_NAME} is "
+            f"{DEFAULT_RULES.healthy_score_min:.0f} or more, no reading is off its aim and no "
+            f"flag is open; “{HEALTH_LABELS['watch']}” when a reading is off its aim, the "
+            f"score is below {DEFAULT_RULES.healthy_score_min:.0f} or a flag of lower urgency "
+            f"is open; “{HEALTH_LABELS['act']}” when a reading is far off its aim, the score "
+            f"is below {DEFAULT_RULES.attention_score_below:.0f}, an urgent flag is open or a "
+            f"leak rate passed its threshold. “{HEALTH_LABELS['unjudged']}”: too few readings "
+            "were taken to score the check. The check score starts at 100 and loses points "
+            "for each reading off its aim. A probable cause is described by how many separate "
+            "signs in the readings agree on it (a single sign, some evidence, strong "
+            "evidence), not as a probability. A trend reads “getting worse” while a flag that "
+            "follows a change over several visits is open, whatever one month's score says.",
+        ),
+        Note(
             "How this report grades units",
             "Thresholds of this report (ours, not a published rule): "
             + "; ".join(
@@ -124,6 +140,23 @@ def method_notes(sm: SiteMonth) -> tuple[Note, ...]:
                 for name, value, why in describe_rules(DEFAULT_RULES)
             )
             + ".",
+        ),
+        *provenance_notes(sm),
+    )
+
+
+def provenance_notes(sm: SiteMonth) -> tuple[Note, ...]:
+    """Where the limits quoted by the flags come from, as the flags' records say (taken out
+    of the flag texts in the body of the report)."""
+    if not sm.provenance:
+        return ()
+    return (
+        Note(
+            "Where the flags' limits come from",
+            "As recorded with the flags shown in this report; “from memory” marks a value "
+            "recalled but not read in its source, “common practice” a rule of thumb of the "
+            "trade, “ours” a choice of Rimewatch.",
+            sm.provenance,
         ),
     )
 

@@ -23,12 +23,13 @@ from fleet.display import Display
 from .figures import UnitFigure
 from .gather import SiteMonth
 from .notes import method_notes, safety_cautions
+from .words import ICE_MACHINE_BASIS
 
 logger = logging.getLogger(__name__)
 
 STYLE_SHEET = "reports/report.css"
 #: Changes when the layout of the report changes; stored with each report.
-LAYOUT_VERSION = "1"
+LAYOUT_VERSION = "2"
 
 
 class RefusedFetch(ValueError):
@@ -101,6 +102,7 @@ def render_html(
         "version": version,
         "notes": method_notes(sm),
         "cautions": safety_cautions(sm),
+        "ice_machine_basis": ICE_MACHINE_BASIS,
         "css": style_sheet(),
         "page_size": "Letter" if display.system == "us" else "A4",
         "layout_version": LAYOUT_VERSION,

@@ -15,9 +15,22 @@ from statistics import fmean, median
 from typing import TYPE_CHECKING
 
 from diagnostics.core import costs
+from diagnostics.core.scoring import SCORING_TABLE
 from diagnostics.core.sources import cite
 
 from .months import Month
+from .words import (
+    CONDITION_ORDER,
+    CONDITIONS,
+    FINDING_ACTIONS,
+    FLAG_ACTIONS,
+    METRIC_ACTIONS,
+    NOT_FOR_ICE_MACHINES,
+    SCORE_NAME,
+    Decision,
+    follow_up,
+    one_per_topic,
+)
 
 if TYPE_CHECKING:
     from .gather import Check, FlagRow, HistoryPoint, LeakRateRow, UnitMonth, VisitInfo
@@ -82,14 +95,9 @@ def severity_rank(severity: str) -> int:
 
 # --- health of one unit -------------------------------------------------------------------------
 
-HEALTH_LABELS: dict[str, str] = {
-    "act": "Needs attention",
-    "watch": "Keep an eye on",
-    "unseen": "Not checked this month",
-    "sound": "Healthy",
-}
-#: Order of urgency: lower sorts first.
-HEALTH_ORDER: dict[str, int] = {"act": 0, "watch": 1, "unseen": 2, "sound": 3}
+#: The condition words (``words.CONDITIONS``) by key, and their order of urgency.
+HEALTH_LABELS: dict[str, str] = {key: c.label for key, c in CONDITIONS.items()}
+HEALTH_ORDER: dict[str, int] = CONDITION_ORDER
 
 
 @dataclass(frozen=True)
@@ -133,6 +141,71 @@ def _month_leaks(leak_rows: Iterable[LeakRateRow], month: Month) -> list[LeakRat
     ]
 
 
+def _whose(labels: Sequence[str]) -> str:
+    return "its" if len(labels) == 1 else "their"
+
+
+def score_condition(score: float | None, rules: ReportRules = DEFAULT_RULES) -> str:
+    """The condition a check score alone stands for (``words.CONDITIONS``); None is a check
+    with too few readings to score."""
+    if score is None:
+        return "unjudged"
+    if score < rules.attention_score_below:
+        return "act"
+    if score < rules.healthy_score_min:
+        return "watch"
+    return "sound"
+
+
+def judge(
+    score: float | None,
+    metrics: Iterable[tuple[str, str]],
+    finding_titles: Sequence[str],
+    flags: Iterable[tuple[str, str, int]] = (),
+    over_threshold: Iterable[float | None] = (),
+    *,
+    checked: bool = True,
+    rules: ReportRules = DEFAULT_RULES,
+) -> Health:
+    """A unit's condition and the reasons, in the customer's words (no rule values).
+
+    The one rule behind every condition shown, on the pages and in the report: ``metrics``
+    are (label, status) pairs of the check, ``flags`` (label, severity label, severity rank)
+    of the flags open, ``over_threshold`` the leak rates over their threshold; ``checked``
+    is False where no check was made in the period.
+    """
+    act: list[str] = []
+    watch: list[str] = []
+    for label, severity_label, rank in flags:
+        (act if rank >= 3 else watch).append(
+            f"open flag: {label.lower()} ({severity_label.lower()})"
+        )
+    for pct in over_threshold:
+        act.append(f"leak rate {pct or 0:.0f} %, over the leak-rate threshold")
+    if checked:
+        condition = score_condition(score, rules)
+        if score is not None and condition in ("act", "watch"):
+            (act if condition == "act" else watch).append(f"{SCORE_NAME} {score:.0f} of 100")
+        statuses = list(metrics)
+        faults = [label for label, status in statuses if status == "fault"]
+        watches = [label for label, status in statuses if status == "watch"]
+        if faults:
+            act.append(f"far off {_whose(faults)} aim: " + ", ".join(faults))
+        if watches:
+            watch.append(f"off {_whose(watches)} aim: " + ", ".join(watches))
+        if finding_titles and not faults:
+            watch.append("probable cause: " + finding_titles[0].lower())
+    if act:
+        return Health("act", tuple(act + watch))
+    if watch:
+        return Health("watch", tuple(watch))
+    if not checked:
+        return Health("unseen", ("no readings taken this month",))
+    if score is None:
+        return Health("unjudged", ("too few readings to judge",))
+    return Health("sound", ())
+
+
 def grade_unit(
     current: Check | None,
     flags: Sequence[FlagRow],
@@ -140,46 +213,64 @@ def grade_unit(
     month: Month,
     rules: ReportRules = DEFAULT_RULES,
 ) -> Health:
-    """Needs attention / keep an eye on / healthy / not checked, with the reasons why."""
-    act: list[str] = []
-    watch: list[str] = []
-    for flag in flags:
-        text = f"open flag: {flag.kind_label.lower()} ({flag.severity_label.lower()})"
-        (act if flag.severity_rank >= 3 else watch).append(text)
-    for a in _month_leaks(leak_rows, month):
-        if a.over_threshold:
-            act.append(f"leak rate {a.leak_rate_percent or 0:.0f} % over the threshold")
-    if current is not None:
-        score = current.score
-        if score is not None and score < rules.attention_score_below:
-            act.append(f"score {score:.0f}, below {rules.attention_score_below:.0f}")
-        elif score is not None and score < rules.healthy_score_min:
-            watch.append(f"score {score:.0f}, below {rules.healthy_score_min:.0f}")
-        faults = [m.label for m in current.metrics if m.status == "fault"]
-        watches = [m.label for m in current.metrics if m.status == "watch"]
-        if faults:
-            act.append("past the fault limit: " + ", ".join(faults))
-        if watches:
-            watch.append("outside the ok range: " + ", ".join(watches))
-        if current.findings and not faults:
-            watch.append("probable cause: " + current.findings[0].title.lower())
-    if act:
-        return Health("act", tuple(act + watch))
-    if watch:
-        return Health("watch", tuple(watch))
-    if current is None:
-        return Health("unseen", ("no readings taken this month",))
-    return Health("sound", ())
+    """The unit-month's condition (``judge``) from its check, open flags and the month's
+    leak rates."""
+    return judge(
+        current.score if current else None,
+        ((m.label, m.status) for m in current.metrics) if current else (),
+        [f.title for f in current.findings] if current else (),
+        [(f.kind_label, f.severity_label, f.severity_rank) for f in flags],
+        [a.leak_rate_percent for a in _month_leaks(leak_rows, month) if a.over_threshold],
+        checked=current is not None,
+        rules=rules,
+    )
 
 
-# --- trend --------------------------------------------------------------------------------------
+def judge_stored(
+    score: float | None,
+    metrics: Iterable[dict],
+    findings: Sequence[dict],
+    flags: Iterable[tuple[str, str, int]] = (),
+    *,
+    application: str = "",
+    rules: ReportRules = DEFAULT_RULES,
+) -> Health:
+    """``judge`` over a stored diagnosis's details (``Diagnosis.details``), as the office
+    pages hold them; an ice machine's box metrics do not count (``words``)."""
+    skip = NOT_FOR_ICE_MACHINES if application == "ice_machine" else frozenset()
+    return judge(
+        score,
+        ((metric_label(m["name"]), m["status"]) for m in metrics if m["name"] not in skip),
+        [f["title"] for f in findings],
+        flags,
+        rules=rules,
+    )
+
+
+def metric_label(name: str) -> str:
+    """The scoring table's own words for a metric ('evaporator superheat')."""
+    rule = SCORING_TABLE.get(name)
+    return rule.label if rule is not None else name.replace("_", " ")
+
+
+def worst(healths: Iterable[Health]) -> Health | None:
+    """The most urgent of several conditions (a visit's readings), None for none."""
+    return min(healths, key=lambda h: h.order, default=None)
+
+
+# --- trend and the story of the month ----------------------------------------------------------
 
 TREND_LABELS: dict[str, str] = {
     "worse": "Getting worse",
     "better": "Improving",
-    "steady": "Steady",
+    "steady": "Holding steady",
+    "stuck": "No better",
     "unknown": "Too little history",
 }
+
+#: Flag kinds that follow a change over several visits: while one is open the unit is
+#: getting worse, whatever one month's score says.
+DRIFT_KINDS = frozenset({"head_pressure_drift", "start_components", "leak_rate"})
 
 
 @dataclass(frozen=True)
@@ -204,7 +295,8 @@ def monthly_scores(history: Iterable[HistoryPoint]) -> dict[Month, float]:
 def trend_of(
     history: Sequence[HistoryPoint], month: Month, rules: ReportRules = DEFAULT_RULES
 ) -> Trend:
-    """This month's score against the median of the months before it."""
+    """This month's score against the median of the months before it (the scores alone;
+    ``story_of`` weighs them with the flags and the check)."""
     scores = monthly_scores(history)
     now = scores.get(month)
     before = [s for m, s in scores.items() if m < month][-rules.trend_months_compared :]
@@ -212,7 +304,7 @@ def trend_of(
         return Trend("unknown", "not enough scored months to compare")
     reference = median(before)
     change = now - reference
-    detail = f"score {now:.0f} against {reference:.0f} over the {len(before)} months before"
+    detail = f"{SCORE_NAME} {now:.0f} against {reference:.0f} over the {len(before)} months before"
     if change <= -rules.trend_change_points:
         return Trend("worse", detail)
     if change >= rules.trend_change_points:
@@ -220,7 +312,102 @@ def trend_of(
     return Trend("steady", detail)
 
 
+def _listed(labels: Sequence[str]) -> str:
+    if len(labels) <= 1:
+        return "".join(labels)
+    return ", ".join(labels[:-1]) + " and " + labels[-1]
+
+
+def cause_sentence(
+    has_findings: bool,
+    faults: Sequence[str],
+    watches: Sequence[str],
+    drifting: Sequence[str] = (),
+) -> str:
+    """What to say where no probable cause is listed, so the sentence never contradicts the
+    readings beside it: "" when findings are listed (they speak for themselves)."""
+    if has_findings:
+        return ""
+    if faults:
+        one = len(faults) == 1
+        return (
+            f"No single cause could be named from these readings, but the {_listed(faults)} "
+            f"{'is' if one else 'are'} far off {'its' if one else 'their'} aim: see what to do."
+        )
+    if drifting:
+        return (
+            f"Nothing is off in this check, but the open flag ({_listed(drifting)}) follows a "
+            "change over several visits."
+        )
+    if watches:
+        one = len(watches) == 1
+        return (
+            f"No fault found; the {_listed(watches)} {'is' if one else 'are'} off "
+            f"{'its' if one else 'their'} aim and worth watching."
+        )
+    return "Nothing wrong was found in this check."
+
+
+@dataclass(frozen=True)
+class Story:
+    """What the report says of a unit's month in words: its trend and, where no probable
+    cause is listed, the sentence in its place. Both come from one reading of the same
+    data (``story_of``), so they cannot contradict each other or the flags."""
+
+    trend: Trend
+    cause: str
+
+
+def story_of(
+    current: Check | None,
+    history: Sequence[HistoryPoint],
+    flags: Sequence[FlagRow],
+    month: Month,
+    rules: ReportRules = DEFAULT_RULES,
+) -> Story:
+    """The trend word and the cause sentence from the scores, the check and the open flags.
+
+    An open flag of a drifting kind makes the trend 'getting worse' (the flag rests on
+    several visits; one month's score can hide it); a steady score with something still
+    off reads 'no better', not 'holding steady'.
+    """
+    scores = trend_of(history, month, rules)
+    drifting = sorted(
+        (f for f in flags if f.kind in DRIFT_KINDS), key=lambda f: (-f.severity_rank, f.id)
+    )
+    metrics = current.metrics if current else ()
+    faults = [m.label for m in metrics if m.status == "fault"]
+    watches = [m.label for m in metrics if m.status == "watch"]
+    has_findings = bool(current and current.findings)
+    if drifting:
+        top = drifting[0]
+        trend = Trend(
+            "worse", f"open flag: {top.kind_label.lower()} ({top.severity_label.lower()})"
+        )
+    elif scores.direction == "steady" and (faults or has_findings):
+        trend = Trend("stuck", scores.detail + ", and still off its aim")
+    else:
+        trend = scores
+    if current is None:
+        return Story(trend, "")
+    cause = cause_sentence(has_findings, faults, watches, [f.kind_label.lower() for f in drifting])
+    return Story(trend, cause)
+
+
 # --- energy money -------------------------------------------------------------------------------
+
+
+#: The metrics that say a unit condenses above its target (air-cooled split; R-744 gas-cooler
+#: approach above its critical point).
+CONDENSING_METRICS = frozenset({"condenser_split", "gas_cooler_approach"})
+
+
+def off_condensing_target(current: Check) -> bool:
+    """The check found the condensing side above its target band (watch or fault, above)."""
+    return any(
+        m.name in CONDENSING_METRICS and m.status in ("watch", "fault") and (m.deviation or 0.0) > 0
+        for m in current.metrics
+    )
 
 
 @dataclass(frozen=True)
@@ -248,8 +435,15 @@ def energy_estimate(
     currency: str,
     days_in_month: int,
 ) -> EnergyEstimate | None:
-    """Money at stake from the stored energy penalty; None where there is no penalty."""
+    """Money at stake from the stored energy penalty; None where there is none to price.
+
+    Only a unit condensing above its target band is charged (``off_condensing_target``): a
+    penalty stored for a head inside its band, or none stored for a head held up on purpose
+    by its control, costs nothing here.
+    """
     if current is None or current.energy_penalty_pct is None or current.energy_penalty_pct <= 0:
+        return None
+    if not off_condensing_target(current):
         return None
     penalty = current.energy_penalty_pct
     if current.compressor_running is False or current.mean_amps is None:
@@ -270,15 +464,13 @@ def energy_estimate(
 
 # --- what to do ---------------------------------------------------------------------------------
 
-#: The next step each kind of flag calls for (our wording of common service practice).
-FLAG_ACTIONS: dict[str, str] = {
-    "head_pressure_drift": "Clean the condenser coil and check its fans before the head "
-    "pressure reaches the cut-out",
-    "start_components": "Test the start components (capacitors, relay, contactor) and the "
-    "supply voltage at start; replace what fails",
-    "leak_rate": "Find and repair the leak, then verify the repair (leak-rate rules)",
-    "maintenance_overdue": "Book the planned maintenance visit",
-}
+
+def _when(flag: FlagRow, today: date | None) -> str:
+    if flag.projected_on and today is not None and flag.projected_on < today:
+        return f"; its projected date ({flag.projected_on:%d %b %Y}) has passed: book it now"
+    if flag.projected_on:
+        return f" (by {flag.projected_on:%d %b %Y})"
+    return ""
 
 
 def actions_for(
@@ -289,27 +481,41 @@ def actions_for(
     rules: ReportRules = DEFAULT_RULES,
     today: date | None = None,
 ) -> tuple[str, ...]:
-    """Plain next steps, most urgent first: flags, leak deadlines, then the findings' advice."""
-    out: list[str] = []
+    """What the manager is asked to decide, most urgent first, in the manager's terms
+    (``words``): stock at risk, then flags, leak deadlines, probable causes, and readings
+    far off their aim; one decision per topic, in its most pressing words. The
+    technician's own instructions (a finding's advice) stay on the office pages."""
+    asked: list[tuple[Decision, str]] = []
     for flag in sorted(flags, key=lambda f: (-f.severity_rank, f.projected_on or month.last_day)):
-        when = ""
-        if flag.projected_on and today is not None and flag.projected_on < today:
-            when = f" now (its projected date, {flag.projected_on:%d %b %Y}, has passed)"
-        elif flag.projected_on:
-            when = f" (by {flag.projected_on:%d %b %Y})"
-        out.append(f"{FLAG_ACTIONS.get(flag.kind, flag.summary)}{when}.")
-    leak_flagged = any(f.kind == "leak_rate" for f in flags)
+        decision = FLAG_ACTIONS.get(flag.kind) or follow_up(flag.kind_label.lower())
+        asked.append((decision, decision.text + _when(flag, today)))
     for a in _month_leaks(leak_rows, month):
-        if a.over_threshold and a.repair_due_on and not leak_flagged:
-            out.append(f"Repair the leak by {a.repair_due_on:%d %b %Y} (leak-rate rules).")
+        if a.over_threshold and a.repair_due_on:
+            decision = FLAG_ACTIONS["leak_rate"]
+            asked.append((decision, f"{decision.text} (by {a.repair_due_on:%d %b %Y})"))
     if current is not None:
         for finding in current.findings:
-            if finding.advice:
-                out.append(finding.advice)
+            decision = FINDING_ACTIONS.get(finding.code) or follow_up(finding.title.lower())
+            asked.append((decision, decision.text))
+        for m in current.metrics:
+            if m.status != "fault":
+                continue
+            decision = METRIC_ACTIONS.get(m.name)
+            if decision is not None:
+                asked.append((decision, decision.text))
+            # With no probable cause named, a reading far off its aim needs a visit to find
+            # one (stock at risk included: checking it is not a repair).
+            if not current.findings and (decision is None or decision.first):
+                asked.append((follow_up(m.label), follow_up(m.label).text))
     elif flags:
-        out.append("Not checked this month: include it in the next visit.")
-    unique = list(dict.fromkeys(a.strip() for a in out if a.strip()))
-    return tuple(unique[: rules.max_actions])
+        asked.append(
+            (
+                follow_up("unit"),
+                "Include this unit in the next visit: it was not " "checked this month",
+            )
+        )
+    texts = [t.strip().rstrip(".") + "." for t in one_per_topic(asked)]
+    return tuple(texts[: rules.max_actions])
 
 
 def rank_attention(units: Iterable[UnitMonth]) -> tuple[UnitMonth, ...]:
@@ -357,10 +563,12 @@ class SiteOverview:
 
     @property
     def status(self) -> str:
-        """The site's grade: its worst unit's, ignoring units merely not checked."""
-        present = [s for s, _, n in self.counts if n and s != "unseen"]
+        """The site's grade: its worst unit's, ignoring units not checked or not judged
+        (unless no unit was judged)."""
+        counted = [s for s, _, n in self.counts if n]
+        present = [s for s in counted if s not in ("unseen", "unjudged")]
         if not present:
-            return "unseen"
+            return "unjudged" if "unjudged" in counted else "unseen"
         return min(present, key=lambda s: HEALTH_ORDER[s])
 
     @property

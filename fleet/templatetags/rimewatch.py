@@ -14,8 +14,8 @@ from django import template
 from django.utils import timezone
 from django.utils.html import format_html
 
-from diagnostics.core.scoring import SCORING_TABLE
 from fleet.display import display_for
+from reports import summary, words
 
 register = template.Library()
 
@@ -96,14 +96,9 @@ def qty(value: float | None, unit: str, elevation_m: float = 0.0, kind: str = "v
 
 
 # --- status words and symbols --------------------------------------------------------------
+# The words of a unit's condition, a reading's verdict and a finding's evidence are
+# ``reports.words``: the monthly report says them the same way.
 
-#: status -> (symbol, word, css modifier). Symbols and words carry the meaning; colour helps.
-METRIC_STATUS = {
-    "ok": ("\u2714", "OK", "good"),
-    "watch": ("\u25b2", "Watch", "warn"),
-    "fault": ("\u2716", "Fault", "bad"),
-    "not_scored": ("\u2013", "Not scored", "none"),
-}
 VISIT_STATUS = {
     "scheduled": ("\u25f7", "Scheduled", "none"),
     "in_progress": ("\u25b6", "In progress", "info"),
@@ -117,14 +112,6 @@ FLAG_SEVERITY = {
     "urgent": ("\u203c", "Urgent", "bad"),
 }
 
-#: Health bands of a visit score (0-100). Ours: the score loses 5-40 points per metric out of
-#: range (diagnostics/core/scoring.py), so below 70 means at least two faults or worse.
-SCORE_BANDS: tuple[tuple[float, str, str, str], ...] = (
-    (85.0, "\u25cf", "Good", "good"),  # ours: at most one metric on watch
-    (70.0, "\u25d0", "Fair", "warn"),  # ours: watches, or one fault
-    (0.0, "\u25cb", "Poor", "bad"),  # ours: several faults
-)
-
 
 def _badge(symbol: str, word: str, modifier: str, extra: str = ""):
     return format_html(
@@ -137,8 +124,10 @@ def _badge(symbol: str, word: str, modifier: str, extra: str = ""):
 
 
 @register.simple_tag
-def metric_status(status: str):
-    return _badge(*METRIC_STATUS.get(status, ("?", status, "none")))
+def verdict(metric: dict):
+    """A reading's verdict against its aim ('high', 'far too low'), from its stored status."""
+    v = words.verdict(metric["status"], metric.get("deviation"))
+    return _badge(v.symbol, v.word, v.modifier)
 
 
 @register.simple_tag
@@ -151,21 +140,82 @@ def flag_severity(severity: str):
     return _badge(*FLAG_SEVERITY.get(severity, ("?", severity, "none")))
 
 
-def score_band(score: float | None) -> tuple[str, str, str]:
-    if score is None:
-        return ("\u2013", "No readings", "none")
-    for floor, symbol, word, modifier in SCORE_BANDS:
-        if score >= floor:
-            return (symbol, word, modifier)
-    return SCORE_BANDS[-1][1:]
+def _condition_badge(key: str, score: float | None):
+    c = words.CONDITIONS[key]
+    extra = "" if score is None else f" \u00b7 {score:.0f}"
+    return _badge(c.symbol, c.label, c.modifier, extra)
 
 
 @register.simple_tag
 def health(score: float | None):
-    """A score with its band word, e.g. '● Good 92'."""
-    symbol, word, modifier = score_band(score)
-    extra = "" if score is None else f" {score:.0f}"
-    return _badge(symbol, word, modifier, extra)
+    """A check score with the condition it stands for on its own, e.g. '✔ Healthy · 92';
+    None: too few readings to judge."""
+    return _condition_badge(summary.score_condition(score), score)
+
+
+@register.simple_tag
+def condition(judged: summary.Health | None, score: float | None = None):
+    """A condition judged from a check and its flags (``summary.judge``), with the score."""
+    if judged is None:
+        return health(score)
+    return _condition_badge(judged.status, score)
+
+
+@register.simple_tag
+def judged(diagnosis, application: str = ""):
+    """The condition of one stored diagnosis, by the rule the report uses."""
+    found = summary.judge_stored(
+        diagnosis.score, diagnosis.metrics, diagnosis.findings, application=application
+    )
+    return _condition_badge(found.status, diagnosis.score)
+
+
+@register.filter
+def strength(finding: dict) -> str:
+    """How much evidence stands behind a finding: the signs that agree on it."""
+    return words.evidence_strength(len(finding.get("evidence") or ()))
+
+
+@register.filter
+def could_also_be(finding: dict) -> str:
+    """The findings the readings cannot tell apart from this one, and the deciding check."""
+    return words.could_also_be(finding.get("alternatives"), finding.get("deciding_check"))
+
+
+@register.filter
+def readings(metrics: list[dict], application: str = ""):
+    """A diagnosis's metrics grouped by what they tell (``words.group_readings``)."""
+    return words.group_readings(metrics, application=application)
+
+
+@register.simple_tag
+def reading_line(metric: dict, elevation_m: float = 0.0) -> str:
+    """A reading against its aim in one line, in the display units."""
+    return words.reading_sentence(
+        metric["measured"],
+        metric["target"],
+        metric["low"],
+        metric["high"],
+        lambda v: qty(v, metric["unit"], elevation_m),
+        metric.get("reason", ""),
+    )
+
+
+@register.simple_tag
+def ice_machine_basis() -> str:
+    return words.ICE_MACHINE_BASIS
+
+
+@register.simple_tag
+def cause_line(diagnosis, application: str = "") -> str:
+    """Where no probable cause is listed: the sentence the report would say."""
+    skip = words.NOT_FOR_ICE_MACHINES if application == "ice_machine" else frozenset()
+    metrics = [m for m in diagnosis.metrics if m["name"] not in skip]
+    return summary.cause_sentence(
+        bool(diagnosis.findings),
+        [summary.metric_label(m["name"]) for m in metrics if m["status"] == "fault"],
+        [summary.metric_label(m["name"]) for m in metrics if m["status"] == "watch"],
+    )
 
 
 @register.filter
@@ -173,15 +223,6 @@ def percent(value: float | None, places: int = 1) -> str:
     if value is None:
         return EMPTY
     return f"{_number(value, int(places))} %"
-
-
-@register.filter
-def confidence(value: float | None) -> str:
-    """A finding's confidence (0-1) in words a coordinator can act on."""
-    if value is None:
-        return EMPTY
-    word = "likely" if value >= 0.7 else "possible" if value >= 0.4 else "weak sign"
-    return f"{word} ({value * 100:.0f} %)"
 
 
 @register.simple_tag
@@ -208,8 +249,7 @@ def person(user) -> str:
 @register.filter
 def metric_label(name: str) -> str:
     """The scoring table's own words for a metric ('evaporator superheat')."""
-    rule = SCORING_TABLE.get(name)
-    return rule.label if rule is not None else name.replace("_", " ")
+    return summary.metric_label(name)
 
 
 @register.simple_tag
@@ -225,15 +265,13 @@ def field_widget(bound_field):
 
 
 @register.simple_tag
-def qty_range(low: float | None, high: float | None, unit: str, elevation_m: float = 0.0) -> str:
-    """An accepted range in words: 'a to b', 'at most b', 'at least a', or a dash."""
-    if low is not None and high is not None:
-        return f"{qty(low, unit, elevation_m)} to {qty(high, unit, elevation_m)}"
-    if high is not None:
-        return f"at most {qty(high, unit, elevation_m)}"
-    if low is not None:
-        return f"at least {qty(low, unit, elevation_m)}"
-    return EMPTY
+def box_offset(metric: dict) -> str:
+    """How far a box reading lies from its design: '13.0 °F above design'."""
+    if metric["measured"] is None or metric["target"] is None:
+        return EMPTY
+    difference = metric["measured"] - metric["target"]
+    side = "above" if difference >= 0 else "below"
+    return f"{tempdiff(abs(difference))} {side} design"
 
 
 @register.filter

@@ -9,6 +9,7 @@ from __future__ import annotations
 from django import template
 
 from diagnostics.core import wording
+from reports import words as vocabulary
 
 register = template.Library()
 
@@ -18,7 +19,9 @@ DASH = "\u2013"  # an en dash: "no value"
 def _fmt(value: float | None, digits: int) -> str:
     if value is None:
         return DASH
-    return f"{value:,.{digits}f}"
+    text = f"{value:,.{digits}f}"
+    # A value that rounds to zero from below is shown as 0, not -0.
+    return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
 
 
 @register.simple_tag(takes_context=True)
@@ -117,3 +120,24 @@ def money(amount, currency: str) -> str:
         return DASH
     symbol = {"USD": "$", "CAD": "CA$", "EUR": "€", "GBP": "£"}.get(currency)
     return f"{symbol}{amount:,.2f}" if symbol else f"{amount:,.2f} {currency}"
+
+
+@register.simple_tag(takes_context=True)
+def reading(context, m, elevation_m: float = 0.0) -> str:
+    """A metric against its aim in one line (``vocabulary.reading_sentence``)."""
+    return vocabulary.reading_sentence(
+        m.measured,
+        m.target,
+        m.low,
+        m.high,
+        lambda v: quantity(context, v, m.unit, 1, elevation_m),
+        m.reason,
+    )
+
+
+@register.filter
+def grouped(metrics, application: str = ""):
+    """The judged metrics in our groups by what they tell (``vocabulary.group_readings``)."""
+    return vocabulary.group_readings(
+        metrics, application=application, shown=("ok", "watch", "fault")
+    )

@@ -31,13 +31,13 @@ METRICS = {
 PACKED = packed_for(metrics=METRICS, findings={"undercharge": 0.8}, signals=("bubbles",))
 
 
-def store_diagnosis(reading_set, score: float = 72.0) -> Diagnosis:
+def store_diagnosis(reading_set, score: float = 72.0, packed: bytes = PACKED) -> Diagnosis:
     diagnosis, _ = Diagnosis.objects.update_or_create(
         reading_set=reading_set,
         defaults={
             "algorithm_version": "test-1",
             "score": score,
-            "packed": PACKED,
+            "packed": packed,
             "computed_at": timezone.now(),
         },
     )

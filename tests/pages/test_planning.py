@@ -1,5 +1,5 @@
 """Maintenance due with one action to book the proposed visits, and the attention page of
-open flags and leak deadlines, soonest first."""
+open flags, leak deadlines and boxes far off their design temperature, soonest first."""
 
 from __future__ import annotations
 
@@ -11,15 +11,18 @@ from django.utils import timezone
 
 from fleet.models import Visit
 from tests.factories import (
+    ReadingSetFactory,
     RefrigerantEventFactory,
     SiteFactory,
     UnitFactory,
     UserFactory,
     VisitFactory,
     VisitUnitFactory,
+    packed_for,
 )
 
-from .conftest import open_flag, over_limit_addition
+from .conftest import open_flag, over_limit_addition, store_diagnosis
+from .test_query_counts import BOUNDS
 
 pytestmark = pytest.mark.django_db
 
@@ -94,3 +97,45 @@ def test_it_lists_flags_and_deadlines_soonest_first(office):
     assert page.count("AT-DONE") == 1  # its verification test is still due, its repair is not
     assert "Initial verification test due" in page
     assert "local codes and licensed practice" in page
+
+
+def _checked(unit, taken_at: dt.datetime, box: tuple, stage: str = "as_found") -> None:
+    """A diagnosed reading of ``unit`` whose stored box-temperature metric is ``box``
+    (measured, target, low, high, status, points; synthetic values)."""
+    reading = ReadingSetFactory(
+        visit_unit=VisitUnitFactory(unit=unit), taken_at=taken_at, stage=stage
+    )
+    store_diagnosis(reading, packed=packed_for(metrics={"box_temp": box}))
+
+
+#: A freezer box 7.2 K above its -23.3 C design, past the fault margin (synthetic).
+WARM = (-16.1, -23.3, -25.3, -21.3, "fault", 15.0)
+#: The same box back within its band.
+COLD = (-23.0, -23.3, -25.3, -21.3, "ok", 0.0)
+
+
+def test_it_lists_a_box_found_far_off_its_design_temperature(office, django_assert_max_num_queries):
+    """A unit whose latest as-found check found its box 7.2 K above design (13.0 F: a
+    difference of 1 K is 1.8 F by the definition of the scales) is on the attention list
+    with the stock at risk; a unit warm at an older check but back in range at its latest,
+    and one warm only in its as-left reading, are not. The page stays within its query
+    bound."""
+    site = SiteFactory()
+    warm = UnitFactory(site=site, tag="AT-WARM", application="low_temp")
+    mended = UnitFactory(site=site, tag="AT-MENDED", application="low_temp")
+    left = UnitFactory(site=site, tag="AT-LEFT", application="low_temp")
+    now = timezone.now()
+    _checked(warm, now - dt.timedelta(days=40), COLD)
+    _checked(warm, now - dt.timedelta(days=2), WARM)
+    _checked(mended, now - dt.timedelta(days=40), WARM)
+    _checked(mended, now - dt.timedelta(days=2), COLD)
+    _checked(left, now - dt.timedelta(days=2), COLD)
+    _checked(left, now - dt.timedelta(days=1), WARM, stage="as_left")
+    with django_assert_max_num_queries(BOUNDS["attention"]):
+        page = office.get(reverse("fleet:attention")).content.decode()
+    assert "Box far off its design temperature" in page
+    assert "AT-WARM" in page
+    assert "13.0 \u00b0F above design" in page
+    assert "1 box far off design" in page
+    assert "AT-MENDED" not in page
+    assert "AT-LEFT" not in page

@@ -17,22 +17,24 @@ pytestmark = pytest.mark.django_db
 
 
 def test_it_lists_submitted_visits_with_score_and_findings(office, world):
-    """The queue shows the waiting visit, its lowest score band and its probable causes."""
+    """The queue shows the waiting visit, its worst reading's condition (a superheat far off
+    its aim needs attention) with the score, and its probable causes."""
     page = office.get(reverse("fleet:review-queue")).content.decode()
     assert world.submitted.reference in page
     assert world.own_visit.reference not in page
-    assert "Fair" in page
-    assert "72" in page
+    assert "Needs attention \u00b7 72" in page
     assert RULES_BY_CODE["undercharge"].title in page
     assert "Leak rate over the limit" in page
 
 
 def test_it_shows_the_diagnosis_findings_and_cautions_on_the_visit(office, world):
-    """The review page lays out targets against measurements, the finding with its
-    evidence and advice, and the safety cautions that go with advice to act."""
+    """The review page lays out each reading against its aim, grouped by what it tells, the
+    finding with its evidence and the technician's advice, and the safety cautions that go
+    with advice to act."""
     page = office.get(reverse("fleet:visit", args=[world.submitted.pk])).content.decode()
-    assert "evaporator superheat" in page
-    assert "\u2716</span> Fault" in page
+    assert "Refrigerant charge and feed" in page
+    assert "Evaporator superheat" in page
+    assert "\u2716</span> far too high" in page
     assert "bubbles in the sight glass" in page
     assert escape(RULES_BY_CODE["undercharge"].advice) in page
     assert escape(CAUTIONS["electrical"]) in page

@@ -58,11 +58,12 @@ def test_it_says_when_the_design_data_is_left_to_defaults(office, world):
 
 
 def test_it_shows_the_latest_diagnosis_with_targets(office, world):
-    """The unit page carries the latest diagnosis: measured against target per quantity."""
+    """The unit page carries the latest diagnosis: each reading against its aim, in one line
+    (12 K measured, aim 5 K, fine from 3 to 7 K: 21.6, 9.0, 5.4 and 12.6 F differences)."""
     page = office.get(reverse("fleet:unit", args=[world.unit.pk])).content.decode()
     assert "Latest diagnosis" in page
-    assert "evaporator superheat" in page
-    assert "21.6 \u00b0F" in page  # 12 K measured superheat
+    assert "Evaporator superheat" in page
+    assert "21.6 \u00b0F; aim 9.0 \u00b0F, fine from 5.4 \u00b0F to 12.6 \u00b0F" in page
     assert RULES_BY_CODE["undercharge"].title in page
 
 
@@ -137,6 +138,28 @@ def test_it_shows_flags_read_only_to_a_manager(boss, world):
     assert "acknowledgement_note" not in page
 
 
+def test_a_manager_sees_no_internal_note_of_the_office(boss, office, world):
+    """The office's acknowledgement note, its review note to the technician and the
+    technician's reading note are shown to the office and not to a manager, who sees that
+    the flag is being followed up."""
+    world.flag.acknowledged_at = timezone.now()
+    world.flag.acknowledgement_note = "Customer slow to approve, chase Friday"
+    world.flag.save()
+    reading = world.submitted.visit_units.get().reading_sets.get()
+    reading.notes = "Gauges borrowed, numbers rough"
+    reading.save()
+    world.submitted.review_note = "Redo the amps"
+    world.submitted.save()
+    unit_url = reverse("fleet:unit", args=[world.unit.pk])
+    visit_url = reverse("fleet:visit", args=[world.submitted.pk])
+    managers = boss.get(unit_url).content.decode() + boss.get(visit_url).content.decode()
+    offices = office.get(unit_url).content.decode() + office.get(visit_url).content.decode()
+    for note in ("chase Friday", "numbers rough", "Redo the amps"):
+        assert note in offices
+        assert note not in managers
+    assert "the office is following this up" in managers
+
+
 def test_it_shows_the_leak_rate_history(office, world):
     """Each addition shows its leak rate against the limit and the repair deadline."""
     page = office.get(reverse("fleet:unit", args=[world.unit.pk])).content.decode()
@@ -146,10 +169,11 @@ def test_it_shows_the_leak_rate_history(office, world):
 
 
 def test_it_shows_a_sites_units_at_a_glance(boss, world):
-    """The site page lists each unit with its health band and open flags, in words."""
+    """The site page lists each unit with its condition (judged from the latest check and
+    its open flags, as the report judges it) and open flags, in words."""
     page = boss.get(reverse("fleet:site", args=[world.site.pk])).content.decode()
     assert "HD-WIC-1" in page
-    assert "Fair" in page
+    assert "Needs attention \u00b7 72" in page
     assert "Head pressure drifting up" in page
     assert "Monthly health reports" in page
 

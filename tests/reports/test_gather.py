@@ -10,6 +10,7 @@ import pytest
 from diagnostics.core.findings import RULES_BY_CODE
 from reports.gather import gather_site_month
 from reports.months import Month
+from reports.words import FINDING_ACTIONS
 from tests.factories import (
     ReadingSetFactory,
     RefrigerantEventFactory,
@@ -71,21 +72,48 @@ def test_it_names_every_unit_shows_open_flags_and_stored_leak_rates():
 
 
 @pytest.mark.django_db
-def test_it_shows_the_flags_open_when_the_report_is_made():
-    """A flag open when the report is made shows, even if it was opened just after the month
-    ended (from that month's readings); a cleared flag does not."""
+def test_a_past_months_report_shows_the_flags_as_they_stood_at_its_end():
+    """A report for March made in May shows the flags open at the end of March: one opened
+    just after the month is left out, one cleared in April shows as open (it was then), one
+    cleared in March is left out; an acknowledgement made in April is not counted."""
     unit = UnitFactory()
     end = MARCH.end_in(CHICAGO)
-    made = end + dt.timedelta(hours=8)
-    shown = FlagFactory(unit=unit, kind="leak_rate", opened_at=end + dt.timedelta(hours=2))
+    FlagFactory(unit=unit, kind="leak_rate", opened_at=end + dt.timedelta(hours=2))
+    was_open = FlagFactory(
+        unit=unit,
+        kind="head_pressure_drift",
+        opened_at=end - dt.timedelta(days=20),
+        cleared_at=end + dt.timedelta(days=3),
+        acknowledged_at=end + dt.timedelta(days=1),
+    )
     FlagFactory(
         unit=unit,
         kind="start_components",
         opened_at=end - dt.timedelta(days=20),
         cleared_at=end - dt.timedelta(days=2),
     )
+    sm = gather_site_month(unit.site.pk, MARCH, now=end + dt.timedelta(days=40))
+    assert [f.id for f in sm.units[0].flags] == [was_open.id]
+    assert sm.units[0].flags[0].acknowledged is False
+    assert sm.month_closed
+
+
+@pytest.mark.django_db
+def test_a_report_for_the_month_under_way_shows_the_flags_open_now():
+    """A report for March made on 20 March reads the flags open on 20 March: one opened on
+    the 19th shows, one cleared on the 18th does not."""
+    unit = UnitFactory()
+    made = dt.datetime(2026, 3, 20, 12, tzinfo=CHICAGO)
+    shown = FlagFactory(unit=unit, kind="leak_rate", opened_at=made - dt.timedelta(days=1))
+    FlagFactory(
+        unit=unit,
+        kind="start_components",
+        opened_at=made - dt.timedelta(days=10),
+        cleared_at=made - dt.timedelta(days=2),
+    )
     sm = gather_site_month(unit.site.pk, MARCH, now=made)
     assert [f.id for f in sm.units[0].flags] == [shown.id]
+    assert not sm.month_closed
 
 
 @pytest.mark.django_db
@@ -143,7 +171,8 @@ def test_the_month_check_is_the_as_found_reading_with_its_stored_findings():
     assert u.current.findings[0].confidence == pytest.approx(0.8)
     assert u.current.findings[0].evidence
     assert u.health.status == "act"
-    assert rule.advice in u.actions
+    assert FINDING_ACTIONS["undercharge"].text + "." in u.actions
+    assert not any(rule.advice in a for a in u.actions)
     assert sm.glide_choices == (found.glide_choice,)
     assert found.glide_choice
 

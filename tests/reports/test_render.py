@@ -14,6 +14,7 @@ from reports.figures import unit_figure
 from reports.gather import gather_site_month
 from reports.months import Month
 from reports.render import RefusedFetch, UnitChart, render_html, url_fetcher
+from reports.templatetags.report_format import num
 from tests.factories import ReadingSetFactory, UnitFactory, VisitUnitFactory
 from tests.reports.factories import DiagnosisFactory, FlagFactory
 
@@ -48,8 +49,9 @@ def test_an_empty_month_still_makes_a_report_that_says_so():
 
 @pytest.mark.django_db
 def test_a_unit_with_too_little_history_says_so_instead_of_a_chart():
-    """With one visit in twelve months a unit's page explains that a trend needs three
-    visits and shows no chart image."""
+    """With one visit in twelve months a unit's page explains there are too few visits for
+    a trend (without quoting the minimum, a rule value kept for the methods notes) and shows
+    no chart image."""
     taken = dt.datetime(2026, 3, 10, 9, tzinfo=CHICAGO)
     vu = VisitUnitFactory(
         visit__window_start=taken, visit__window_end=taken + dt.timedelta(hours=1)
@@ -57,8 +59,8 @@ def test_a_unit_with_too_little_history_says_so_instead_of_a_chart():
     DiagnosisFactory(reading_set=ReadingSetFactory(visit_unit=vu, taken_at=taken))
     html = html_for(vu.unit.site_id)
     assert (
-        "Condensing temperature: only 1 visit with a value in these twelve months; a trend needs 3."
-        in html
+        "Condensing temperature: only 1 visit with a value in these twelve months, too few "
+        "to draw a trend." in html
     )
     assert "<img" not in html
 
@@ -111,3 +113,10 @@ def test_the_fetcher_refuses_the_network_and_other_files():
     ):
         with pytest.raises(RefusedFetch):
             url_fetcher(url)
+
+
+def test_a_value_rounding_to_zero_from_below_shows_no_minus_sign():
+    """-0.4 shown without decimals is 0, not -0; -0.6 is -1."""
+    assert num(-0.4, 0) == "0"
+    assert num(-0.6, 0) == "-1"
+    assert num(-0.04, 1) == "0.0"
