@@ -1509,13 +1509,13 @@ def _finding_rows(
             for f, s in zip(first.tolist(), support.tolist(), strict=True)
         ]
         confidence = [round(c, 3) for c in confidences[rule.code][fired].tolist()]
-        open_: list[tuple[str, ...]] = [()] * fired.size
+        open_: list[tuple[findings.Alternative, ...]] = [()] * fired.size
         for alternative in rule.alternatives:
             ruled_out = np.zeros(fired.size, dtype=bool)
             for name in alternative.unless:
                 ruled_out |= signal(name)[fired]
             open_ = [
-                (*kept, alternative.code) if not out else kept
+                (*kept, alternative) if not out else kept
                 for kept, out in zip(open_, ruled_out.tolist(), strict=True)
             ]
         fired_rules.append((rule, fired.tolist(), names, confidence, open_))
@@ -1538,8 +1538,8 @@ def _finding_rows(
                     "evidence": [texts[s][j] for s in behind],
                     "confidence": c,
                     "advice": rule.advice,
-                    "alternatives": list(alt),
-                    "deciding_check": rule.deciding_check if alt else "",
+                    "alternatives": [a.code for a in alt],
+                    "deciding_check": " ".join(dict.fromkeys(a.check for a in alt)),
                 }
             )
     for found in out.values():

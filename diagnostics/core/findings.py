@@ -117,6 +117,11 @@ SIGNALS: dict[str, Signal] = {
         Signal("start_cap_bad", "start capacitor {start_capacitor} outside {start_capacitor:band}"),
         Signal("box_warm", "box temperature {box_temp} above its ok band {box_temp:band}"),
         Signal(
+            "warm_but_fed",
+            "box temperature {box_temp} above its ok band while the evaporator TD "
+            "{evaporator_td} is not above its own",
+        ),
+        Signal(
             "called_not_running",
             "compressor not running although the control is calling for cooling",
         ),
@@ -131,9 +136,11 @@ SIGNALS: dict[str, Signal] = {
 
 @dataclass(frozen=True)
 class Alternative:
-    """A neighbouring cause the readings cannot rule out, unless one of ``unless`` holds."""
+    """A neighbouring cause the readings cannot rule out, unless one of ``unless`` holds,
+    and the check on site that tells the two apart."""
 
     code: str
+    check: str
     unless: tuple[str, ...] = ()
 
 
@@ -143,9 +150,9 @@ class Rule:
 
     A rule fires on the symptoms that tell it apart from its neighbours, not on one metric:
     its ``excluding`` signals are the neighbours' distinguishing symptoms. Where the readings
-    cannot separate two causes the rule names the other as an ``alternative`` and the
-    ``deciding_check`` that would settle it. A rule with no triggers is a cause that no
-    reading set can tell apart on its own: it is only ever named as an alternative.
+    cannot separate two causes the rule names the other as an ``alternative`` with the check
+    that would settle it. A rule with no triggers is a cause that no reading set can tell
+    apart on its own: it is only ever named as an alternative.
     """
 
     code: str
@@ -158,7 +165,6 @@ class Rule:
     #: The likely repair opens the refrigerant circuit (certified handling applies).
     opens_circuit: bool
     alternatives: tuple[Alternative, ...] = ()
-    deciding_check: str = ""
     source: str = "REFERENCES 6 troubleshooting table (common practice)"
 
 
@@ -171,6 +177,11 @@ _DRIER_CHECK = (
     "liquid line: a drop of more than a few degrees marks a restriction; none points to the "
     "charge."
 )
+_COMPRESSOR_CHECK = (
+    "Compare the running pressures with the compressor maker's data at these conditions, "
+    "and watch them when it stops: suction and head racing toward each other point to "
+    "leaking valves; a pump-down test settles it."
+)
 _STANDING_CHECK = (
     "With the condenser clean and its fans running, stop the unit and let the pressures "
     "settle: a standing head pressure above the saturation pressure at the surrounding "
@@ -182,11 +193,21 @@ RULES: tuple[Rule, ...] = (
     Rule(
         code="undercharge",
         title="Refrigerant charge looks low",
-        triggers=(_t("sh_high", "sc_low"), _t("sh_high", "bubbles"), _t("bubbles", "sc_low")),
+        # Receiverless, the subcooling falls first (a TXV holds its superheat until the liquid
+        # seal thins: charging by subcooling, common practice; NISTIR 7350 finds subcooling
+        # the most sensitive feature with a TXV); with a receiver, flash gas in the glass.
+        triggers=(_t("sc_low"), _t("sh_high", "bubbles")),
         supporting=("td_high", "split_low", "amps_low", "bubbles", "sc_low", "box_warm"),
         # a starved evaporator boils low: an evaporating temperature above target is the
         # compressor not pulling down, not a short charge
-        excluding=("sc_high", "coil_iced", "evap_fans_off", "split_high", "td_low"),
+        excluding=(
+            "sc_high",
+            "coil_iced",
+            "evap_fans_off",
+            "split_high",
+            "td_low",
+            "warm_but_fed",
+        ),
         base_confidence=0.5,
         advice="Look for the leak before adding anything: check joints, valve cores and "
         "coils with a detector, repair, then weigh in refrigerant and record the amount "
@@ -194,8 +215,12 @@ RULES: tuple[Rule, ...] = (
         opens_circuit=True,
         # On a receiverless unit the low subcooling tells a short charge from a restriction
         # (which backs liquid up and raises it); with a receiver only the drier check does.
-        alternatives=(Alternative("liquid_line_restriction", unless=("sc_low",)),),
-        deciding_check=_DRIER_CHECK,
+        alternatives=(
+            Alternative("liquid_line_restriction", _DRIER_CHECK, unless=("sc_low",)),
+            # with a receiver and an evaporator not boiling low, a compressor that does not
+            # pump its share leaves the same glass and superheat
+            Alternative("weak_compressor", _COMPRESSOR_CHECK, unless=("td_high", "sc_low")),
+        ),
     ),
     Rule(
         code="overcharge",
@@ -210,15 +235,14 @@ RULES: tuple[Rule, ...] = (
         "subcooling stay high, recover refrigerant until the subcooling is back in range "
         "and record the amount recovered.",
         opens_circuit=True,
-        alternatives=(Alternative("non_condensables"),),
-        deciding_check=_STANDING_CHECK,
+        alternatives=(Alternative("non_condensables", _STANDING_CHECK),),
     ),
     Rule(
         code="liquid_line_restriction",
         title="Something is restricting the liquid line",
         triggers=(_t("sh_high", "sc_high"),),
         supporting=("td_high", "split_low", "amps_low", "bubbles", "box_warm"),
-        excluding=("split_high", "td_low"),
+        excluding=("split_high", "td_low", "warm_but_fed"),
         base_confidence=0.45,
         advice="Feel or measure the temperature across the filter-drier, solenoid and any "
         "hand valves in the liquid line: a drop of more than a few degrees marks the "
@@ -242,7 +266,15 @@ RULES: tuple[Rule, ...] = (
         title="Metering device is starving the evaporator",
         triggers=(_t("sh_high", "sc_not_low"), _t("sh_high", "sight_glass_clear")),
         supporting=("td_high", "split_low", "amps_low", "sight_glass_clear", "box_warm"),
-        excluding=("bubbles", "sc_low", "sc_high", "coil_iced", "evap_fans_off", "td_low"),
+        excluding=(
+            "bubbles",
+            "sc_low",
+            "sc_high",
+            "coil_iced",
+            "evap_fans_off",
+            "td_low",
+            "warm_but_fed",
+        ),
         base_confidence=0.4,
         advice="With a full liquid line, check the valve's inlet screen, its bulb charge "
         "(a lost charge closes the valve) and the superheat setting; on a capillary "
@@ -250,8 +282,9 @@ RULES: tuple[Rule, ...] = (
         opens_circuit=True,
         # A restriction past the sight glass starves the valve the same way; on a
         # receiverless unit its high subcooling gives it away (and excludes this rule).
-        alternatives=(Alternative("liquid_line_restriction", unless=("sc_not_high",)),),
-        deciding_check=_DRIER_CHECK,
+        # A restriction starves the valve the same way; its subcooling runs high, but within
+        # the healthy band the two overlap (REFERENCES 6: N/up against up).
+        alternatives=(Alternative("liquid_line_restriction", _DRIER_CHECK),),
     ),
     Rule(
         code="low_evaporator_airflow",
@@ -288,8 +321,7 @@ RULES: tuple[Rule, ...] = (
         advice="Clean the condenser coil, check every condenser fan runs and turns the "
         "right way, and that discharge air is not being drawn back into the inlet.",
         opens_circuit=False,
-        alternatives=(Alternative("non_condensables", unless=("cond_fan_off",)),),
-        deciding_check=_STANDING_CHECK,
+        alternatives=(Alternative("non_condensables", _STANDING_CHECK, unless=("cond_fan_off",)),),
     ),
     Rule(
         code="non_condensables",
@@ -302,7 +334,6 @@ RULES: tuple[Rule, ...] = (
         "standing pressure above the saturation pressure at the ambient temperature "
         "points to non-condensables. Recover, evacuate and recharge by weight.",
         opens_circuit=True,
-        deciding_check=_STANDING_CHECK,
         source="REFERENCES 6 troubleshooting table (common practice): its running symptoms "
         "are a dirty condenser's, so it is named beside that finding, never alone",
     ),
@@ -315,9 +346,8 @@ RULES: tuple[Rule, ...] = (
         # on the compressor's side.
         triggers=(
             _t("td_low", "split_low"),
-            _t("td_low", "box_warm"),
             _t("td_low", "sh_high"),
-            _t("split_low", "box_warm"),
+            _t("warm_but_fed"),
         ),
         supporting=("amps_low", "cr_low", "sh_high", "sc_low", "box_warm", "td_low", "split_low"),
         excluding=("amps_high", "coil_iced", "evap_fans_off", "cond_fan_off", "td_high"),
@@ -388,8 +418,8 @@ def _check_rules() -> None:
         for alternative in rule.alternatives:
             if alternative.code not in RULES_BY_CODE:
                 raise ValueError(f"rule {rule.code} names unknown alternative {alternative.code}")
-        if alternative_less := [a for a in rule.alternatives if not rule.deciding_check]:
-            raise ValueError(f"rule {rule.code} names {alternative_less} without a deciding check")
+        if unchecked := [a.code for a in rule.alternatives if not a.check]:
+            raise ValueError(f"rule {rule.code} names {unchecked} without a deciding check")
     if len(RULES) > 32:
         raise ValueError("finding masks are 32 bits wide")
 
@@ -453,6 +483,7 @@ SUBSUMES: dict[str, tuple[str, ...]] = {
     "sh_low": ("sh_not_high",),
     "sc_low": ("sc_not_high",),
     "sc_high": ("sc_not_low",),
+    "warm_but_fed": ("box_warm",),
     "locked_rotor": ("called_not_running",),
 }
 
@@ -470,15 +501,6 @@ def signals_behind(rule: Rule, row_signals: Mapping[str, bool]) -> tuple[str, ..
             names.append(name)
     said = {weaker for name in names for weaker in SUBSUMES.get(name, ())}
     return tuple(name for name in names if name not in said)
-
-
-def alternatives_of(rule: Rule, row_signals: Mapping[str, bool]) -> tuple[str, ...]:
-    """The neighbouring causes a fired rule cannot rule out on one row."""
-    return tuple(
-        a.code
-        for a in rule.alternatives
-        if not any(row_signals.get(name, False) for name in a.unless)
-    )
 
 
 def derive_signals(
@@ -572,6 +594,7 @@ def derive_signals(
         "run_cap_bad": parts("run_capacitor")[3] == FAULT,
         "start_cap_bad": parts("start_capacitor")[3] == FAULT,
         "box_warm": above("box_temp"),
+        "warm_but_fed": above("box_temp") & scored("evaporator_td") & ~above("evaporator_td"),
         "called_not_running": flag_is("call_for_cooling", 1.0) & flag_is("compressor_running", 0.0),
         "coil_iced": flag_is("coil_iced", 1.0),
         "evap_fans_off": flag_is("evaporator_fans_running", 0.0) & running,

@@ -112,7 +112,7 @@ def test_a_coordinators_day(live_server, browser_context, shot):
     assert row.is_visible()
     shot(page, "review-queue")
     row.get_by_role("link", name=visit.reference).click()
-    assert page.locator(".metrics").first.is_visible()
+    assert page.locator(".tally").first.is_visible()
     shot(page, "visit-review")
     page.get_by_label("Accept the visit").check()
     page.get_by_role("button", name="Record the decision").click()

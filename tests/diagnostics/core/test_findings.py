@@ -83,7 +83,7 @@ CASES = [
     (
         "undercharge",
         dict(td=9.0, split=9.0, superheat=11.0, subcooling=1.0, amps=(4.0,)),
-        dict(td=9.0, split=9.0, superheat=5.0, subcooling=1.0, amps=(4.0,)),
+        dict(td=9.0, split=9.0, superheat=11.0, subcooling=4.4, amps=(4.0,)),
     ),
     (
         "overcharge",
@@ -240,7 +240,7 @@ def test_every_rule_is_complete_data():
         assert 0.0 < rule.base_confidence < findings.MAX_CONFIDENCE
         for trigger in rule.triggers:
             assert trigger <= set(findings.SIGNALS)
-        assert not rule.alternatives or rule.deciding_check
+        assert all(a.check for a in rule.alternatives)
 
 
 def test_a_high_split_names_non_condensables_beside_the_condenser_not_alone():
@@ -271,18 +271,25 @@ def test_an_overcharged_receiverless_txv_unit_is_not_read_as_overfeeding():
 def test_a_short_charge_and_a_restriction_are_told_apart_by_subcooling_or_say_they_cannot():
     """Receiverless: a short charge lowers the subcooling, a restriction raises it
     (REFERENCES 6), so each is named alone. With a receiver the subcooling says nothing;
-    bubbles and a high superheat then read as a short charge that cannot rule out a
-    restriction ahead of the sight glass, and the drier check decides."""
+    bubbles and a high superheat over an evaporator boiling low (TD high) then read as a
+    short charge that cannot rule out a restriction ahead of the sight glass, and the drier
+    check decides; with the TD on target a compressor not pumping its share cannot be ruled
+    out either, and its check is added."""
     short = diagnose(UNIT, reading(superheat=11.0, subcooling=1.0, sight_glass="bubbles"))
     assert [(f.code, f.alternatives) for f in short.findings] == [("undercharge", ())]
     with_receiver = dataclasses.replace(UNIT, has_receiver=True)
     glass = diagnose(
-        with_receiver, reading(superheat=11.0, subcooling=1.0, sight_glass="bubbles")
+        with_receiver, reading(td=9.0, superheat=11.0, subcooling=1.0, sight_glass="bubbles")
     ).findings
     assert [(f.code, f.alternatives) for f in glass] == [
         ("undercharge", ("liquid_line_restriction",))
     ]
     assert "filter-drier" in glass[0].deciding_check
+    on_target = diagnose(
+        with_receiver, reading(superheat=11.0, subcooling=1.0, sight_glass="bubbles")
+    ).findings
+    assert on_target[0].alternatives == ("liquid_line_restriction", "weak_compressor")
+    assert "pump-down" in on_target[0].deciding_check
 
 
 @pytest.mark.parametrize(
