@@ -51,6 +51,7 @@ _READING_FIELDS = (
     "compressor_amps_1",
     "supply_volts_1",
     "call_for_cooling",
+    "in_defrost",
 )
 
 
@@ -87,11 +88,12 @@ class _Readings:
         # Start attempts stay objects (the core takes them so), built in the one pass that
         # leaves them in date order per unit. Only a compressor found stopped can be one (the
         # core tells a failed start from off-cycle by the call for cooling and the amps); a
-        # running compressor's supply voltage is not its voltage at start.
+        # running compressor's supply voltage is not its voltage at start; nor is one stopped
+        # for defrost a start attempt.
         attempts: dict[int, list[start_risk.StartAttempt]] = defaultdict(list)
         found = Stage.AS_FOUND.value
         for r, ordinal in zip(rows, ordinals.tolist(), strict=True):
-            if r[7] is False and r[2] == found:
+            if r[7] is False and r[2] == found and not r[11]:
                 attempts[r[0]].append(
                     start_risk.StartAttempt(
                         observed_on=dt.date.fromordinal(ordinal),

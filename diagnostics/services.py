@@ -97,6 +97,7 @@ def reading_of(reading_set: ReadingSet) -> Reading:
         run_capacitor_uf=reading_set.run_capacitor_uf,
         start_capacitor_uf=reading_set.start_capacitor_uf,
         call_for_cooling=reading_set.call_for_cooling,
+        in_defrost=reading_set.in_defrost,
         compressor_running=reading_set.compressor_running,
         condenser_fan_running=reading_set.condenser_fan_running,
         evaporator_fans_running=reading_set.evaporator_fans_running,

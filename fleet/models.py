@@ -610,6 +610,11 @@ class ReadingSet(models.Model):
         help_text="The control was calling for the compressor: a stopped compressor with a "
         "call is a failed start, without one it is off-cycle.",
     )
+    in_defrost = models.BooleanField(
+        null=True,
+        blank=True,
+        help_text="The unit was defrosting when read: the box and the cycle are not judged.",
+    )
     compressor_running = models.BooleanField(null=True, blank=True)
     condenser_fan_running = models.BooleanField(null=True, blank=True)
     evaporator_fans_running = models.BooleanField(null=True, blank=True)

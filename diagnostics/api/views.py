@@ -137,15 +137,14 @@ class UnitTrendsView(_UnitView):
 
 
 class UnitFlagsView(_UnitView):
-    """The unit's open flags, newest first."""
-
-    states_units = False
+    """The unit's open flags, newest first; their sentences and forecast numbers in the
+    response's units (``?units=``)."""
 
     @extend_schema(parameters=[UNIT_PK], responses={200: FlagSerializer(many=True)})
     def get(self, request: Request, unit_pk: int) -> Response:
         unit = self.unit(unit_pk)
         flags = Flag.objects.filter(unit=unit, cleared_at__isnull=True).order_by("-opened_at")
-        return Response(FlagSerializer(flags, many=True).data)
+        return Response(FlagSerializer(flags, many=True, context=self.unit_context()).data)
 
 
 class SaturationView(UnitSystemMixin, APIView):

@@ -79,6 +79,7 @@ READING_SCALARS: tuple[str, ...] = (
 )
 READING_FLAGS: tuple[str, ...] = (
     "call_for_cooling",
+    "in_defrost",
     "compressor_running",
     "condenser_fan_running",
     "evaporator_fans_running",
@@ -123,6 +124,7 @@ class ReadingColumns:
     compressor_amps: FloatArray
     supply_volts: FloatArray
     call_for_cooling: FloatArray
+    in_defrost: FloatArray
     compressor_running: FloatArray
     condenser_fan_running: FloatArray
     evaporator_fans_running: FloatArray
@@ -353,6 +355,7 @@ REASON_HIDDEN = 4
 REASON_RUNNING_UNKNOWN = 5
 REASON_SINGLE_PHASE = 6
 REASON_COMPRESSOR_OFF = 7
+REASON_DEFROST = 8
 
 REASON_TEXT: dict[int, str] = {
     REASON_WATER_COOLED: "water-cooled condenser: there is no air split to score",
@@ -364,6 +367,8 @@ REASON_TEXT: dict[int, str] = {
     REASON_RUNNING_UNKNOWN: "whether the compressor was running was not given",
     REASON_SINGLE_PHASE: "single-phase supply: there is no three-phase unbalance",
     REASON_COMPRESSOR_OFF: "compressor reported not running: cycle readings are not judged",
+    REASON_DEFROST: "the unit was defrosting: the box and the refrigeration cycle are not "
+    "judged until it is back on cooling",
 }
 
 #: Per metric: the reading fields it needs and the design data its target needs (for the
@@ -693,9 +698,11 @@ def diagnose_batch(
             t["start_cap_high"],
         ),
     }
-    for name in CYCLE_METRICS:
+    defrost = r.in_defrost == 1.0
+    for name in (*CYCLE_METRICS, "box_temp"):
         m, *rest = inputs[name]
-        inputs[name] = (np.where(stopped, np.nan, m), *rest)  # type: ignore[assignment]
+        off = defrost | stopped if name != "box_temp" else defrost
+        inputs[name] = (np.where(off, np.nan, m), *rest)  # type: ignore[assignment]
 
     # Cold weather: a head the unit's control holds up says nothing about the condenser.
     held = (
@@ -713,6 +720,8 @@ def diagnose_batch(
         reason = np.zeros(n, dtype=np.int8)
         if name in CYCLE_METRICS:
             reason[stopped] = REASON_COMPRESSOR_OFF
+        if name in (*CYCLE_METRICS, "box_temp"):
+            reason[defrost] = REASON_DEFROST
         if name == "condenser_split":
             reason[t["water_cooled"] == 1.0] = REASON_WATER_COOLED
             reason[transcritical] = REASON_TRANSCRITICAL
@@ -761,7 +770,8 @@ def diagnose_batch(
         {name: (m.measured, m.target, m.deviation, m.status) for name, m in metrics.items()},
         flags={
             "call_for_cooling": r.call_for_cooling,
-            "compressor_running": running,
+            # defrosting, the fans stop and the coil carries frost on purpose
+            "compressor_running": np.where(defrost, np.nan, running),
             "coil_iced": r.coil_iced,
             "evaporator_fans_running": r.evaporator_fans_running,
             "condenser_fan_running": r.condenser_fan_running,
@@ -1567,8 +1577,8 @@ def judged_derived(res: BatchResult, name: str) -> FloatArray:
     metric = _JUDGED_BY.get(name)
     values = res.derived[name]
     if metric is None:
-        stopped = res.metrics["superheat"].reason == REASON_COMPRESSOR_OFF
-        return np.where(stopped, np.nan, values)
+        off = np.isin(res.metrics["superheat"].reason, (REASON_COMPRESSOR_OFF, REASON_DEFROST))
+        return np.where(off, np.nan, values)
     return np.where(res.metrics[metric].status != sc.NOT_SCORED, values, np.nan)
 
 

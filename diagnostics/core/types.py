@@ -111,6 +111,8 @@ class Reading:
     #: The control is calling for the compressor: with ``compressor_running`` false that is a
     #: failed start; without a call the unit is simply off-cycle.
     call_for_cooling: bool | None = None
+    #: The unit was defrosting when read: the box and the cycle are not judged.
+    in_defrost: bool | None = None
     compressor_running: bool | None = None
     condenser_fan_running: bool | None = None
     evaporator_fans_running: bool | None = None

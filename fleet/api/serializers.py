@@ -978,6 +978,7 @@ class ReadingSetSerializer(VisitRecordSerializer):
             "run_capacitor_uf",
             "start_capacitor_uf",
             "call_for_cooling",
+            "in_defrost",
             "compressor_running",
             "condenser_fan_running",
             "evaporator_fans_running",
@@ -991,6 +992,7 @@ class ReadingSetSerializer(VisitRecordSerializer):
         read_only_fields = ["created_at"]
         extra_kwargs = {
             "call_for_cooling": {"required": False, "allow_null": True},
+            "in_defrost": {"required": False, "allow_null": True},
             "compressor_running": {"required": False, "allow_null": True},
             "condenser_fan_running": {"required": False, "allow_null": True},
             "evaporator_fans_running": {"required": False, "allow_null": True},

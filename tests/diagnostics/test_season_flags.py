@@ -130,3 +130,22 @@ def test_off_cycle_finds_open_no_start_component_flag():
     services.refresh_flags(today=YEAR_END)
     assert "start_components" not in _open_kinds(quiet)
     assert "start_components" in _open_kinds(failing)
+
+
+def test_a_running_supply_voltage_is_not_taken_as_the_voltage_at_start():
+    """Issue seen in the field: the supply voltage read with the compressor running was
+    taken as its voltage at start. A 230 V unit running on 195 V (under the 207 V floor,
+    NEMA MG-1 12.44: -10 %) at two visits is a supply finding at each visit, not two starts
+    at low voltage: no start-component flag."""
+    unit = UnitFactory()
+    for month in (10, 11):
+        _visit(unit, dt.date(2026, month, 10), air_c=20.0, cond_c=31.0, supply_volts_1=195.0)
+    codes = {
+        f["code"]
+        for visit_unit in unit.visit_units.all()
+        for rs in visit_unit.reading_sets.all()
+        for f in rs.diagnosis.findings
+    }
+    assert "supply_problem" in codes
+    services.refresh_flags(today=YEAR_END)
+    assert "start_components" not in _open_kinds(unit)

@@ -90,7 +90,7 @@ def test_the_customers_copy_carries_no_internal_notes_nor_provenance_marks():
         unit,
         IN_MARCH,
         score=60.0,
-        packed=packed_for(findings={"undercharge": 0.8}, signals=("bubbles",)),
+        packed=packed_for(findings={"undercharge": 0.8}, signals=("bubbles", "td_high")),
         notes="Customer's compressor is older than they told us",
     )
     visit = diagnosis.reading_set.visit_unit.visit
@@ -129,7 +129,7 @@ def test_the_customers_copy_carries_no_internal_notes_nor_provenance_marks():
     assert "40 CFR 84.106: 15 lb or more (GWP above 53 from memory)" in appendix
     assert words.FLAG_ACTIONS["leak_rate"].text in body  # the leak flag's decision
     assert words.FINDING_ACTIONS["undercharge"].text not in body  # the same topic, asked once
-    assert "strong evidence: 3 signs agree" in body  # two trigger signs and the bubbles
+    assert "strong evidence: 3 signs agree" in body  # the trigger sign, the TD, the bubbles
 
 
 def test_energy_money_comes_only_from_units_above_their_condensing_target():
