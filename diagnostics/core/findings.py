@@ -177,11 +177,6 @@ _DRIER_CHECK = (
     "liquid line: a drop of more than a few degrees marks a restriction; none points to the "
     "charge."
 )
-_COMPRESSOR_CHECK = (
-    "Compare the running pressures with the compressor maker's data at these conditions, "
-    "and watch them when it stops: suction and head racing toward each other point to "
-    "leaking valves; a pump-down test settles it."
-)
 _STANDING_CHECK = (
     "With the condenser clean and its fans running, stop the unit and let the pressures "
     "settle: a standing head pressure above the saturation pressure at the surrounding "
@@ -215,12 +210,7 @@ RULES: tuple[Rule, ...] = (
         opens_circuit=True,
         # On a receiverless unit the low subcooling tells a short charge from a restriction
         # (which backs liquid up and raises it); with a receiver only the drier check does.
-        alternatives=(
-            Alternative("liquid_line_restriction", _DRIER_CHECK, unless=("sc_low",)),
-            # with a receiver and an evaporator not boiling low, a compressor that does not
-            # pump its share leaves the same glass and superheat
-            Alternative("weak_compressor", _COMPRESSOR_CHECK, unless=("td_high", "sc_low")),
-        ),
+        alternatives=(Alternative("liquid_line_restriction", _DRIER_CHECK, unless=("sc_low",)),),
     ),
     Rule(
         code="overcharge",
@@ -347,10 +337,20 @@ RULES: tuple[Rule, ...] = (
         triggers=(
             _t("td_low", "split_low"),
             _t("td_low", "sh_high"),
-            _t("warm_but_fed"),
+            _t("warm_but_fed", "sh_high"),
+            _t("warm_but_fed", "sc_low"),
+            _t("warm_but_fed", "split_low"),
         ),
         supporting=("amps_low", "cr_low", "sh_high", "sc_low", "box_warm", "td_low", "split_low"),
-        excluding=("amps_high", "coil_iced", "evap_fans_off", "cond_fan_off", "td_high"),
+        # flash gas in the glass is the charge's or the liquid line's sign, never the pump's
+        excluding=(
+            "amps_high",
+            "coil_iced",
+            "evap_fans_off",
+            "cond_fan_off",
+            "td_high",
+            "bubbles",
+        ),
         base_confidence=0.4,
         advice="Confirm before condemning it: suction and discharge pressures should move "
         "apart quickly when the compressor starts and hold when it stops; a pump-down "
