@@ -288,7 +288,14 @@ def _unit_targets(u: UnitColumns) -> dict[str, FloatArray]:
         out[name] = resolved.value
         out[f"{name}_origin"] = resolved.origin.astype(np.float64)
 
-    put("box_temp_c", tg.resolve(f["design_box_temp_c"], tg.default_box_temp_c(app)))
+    box = tg.resolve(f["design_box_temp_c"], tg.default_box_temp_c(app))
+    # An ice machine makes ice: its bin is no box held at a set point, so no box target.
+    ice = app == APPLICATIONS.index("ice_machine")
+    put(
+        "box_temp_c",
+        tg.Resolved(np.where(ice, np.nan, box.value), np.where(ice, tg.MISSING, box.origin)),
+    )
+    out["ice_machine"] = ice.astype(np.float64)
     put("evap_td_k", tg.resolve(f["design_evap_td_k"], tg.default_evap_td_k(app)))
     put(
         "split_k",
@@ -356,6 +363,7 @@ REASON_RUNNING_UNKNOWN = 5
 REASON_SINGLE_PHASE = 6
 REASON_COMPRESSOR_OFF = 7
 REASON_DEFROST = 8
+REASON_ICE_MACHINE = 9
 
 REASON_TEXT: dict[int, str] = {
     REASON_WATER_COOLED: "water-cooled condenser: there is no air split to score",
@@ -369,6 +377,8 @@ REASON_TEXT: dict[int, str] = {
     REASON_COMPRESSOR_OFF: "compressor reported not running: cycle readings are not judged",
     REASON_DEFROST: "the unit was defrosting: the box and the refrigeration cycle are not "
     "judged until it is back on cooling",
+    REASON_ICE_MACHINE: "an ice machine is judged on its refrigeration cycle and electrics, "
+    "not on the temperature of its bin",
 }
 
 #: Per metric: the reading fields it needs and the design data its target needs (for the
@@ -392,7 +402,12 @@ METRIC_NEEDS: dict[str, tuple[tuple[str, ...], str]] = {
     "start_capacitor": (("start_capacitor_uf",), "the start capacitor's range"),
 }
 #: Reasons that make a metric inapplicable to the unit (its target is not listed either).
-NOT_APPLICABLE = (REASON_WATER_COOLED, REASON_TRANSCRITICAL, REASON_SINGLE_PHASE)
+NOT_APPLICABLE = (
+    REASON_WATER_COOLED,
+    REASON_TRANSCRITICAL,
+    REASON_SINGLE_PHASE,
+    REASON_ICE_MACHINE,
+)
 _NOT_APPLICABLE = np.isin(np.arange(max(REASON_TEXT) + 1), NOT_APPLICABLE)
 CYCLE_METRICS = (
     "evaporator_td",
@@ -722,6 +737,8 @@ def diagnose_batch(
             reason[stopped] = REASON_COMPRESSOR_OFF
         if name in (*CYCLE_METRICS, "box_temp"):
             reason[defrost] = REASON_DEFROST
+        if name == "box_temp":
+            reason[t["ice_machine"] == 1.0] = REASON_ICE_MACHINE
         if name == "condenser_split":
             reason[t["water_cooled"] == 1.0] = REASON_WATER_COOLED
             reason[transcritical] = REASON_TRANSCRITICAL

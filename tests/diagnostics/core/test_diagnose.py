@@ -607,3 +607,16 @@ def test_the_one_post_path_stores_what_the_dataclass_path_gives():
             }
             for f in expected.findings
         ]
+
+
+def test_an_ice_machine_is_not_judged_on_a_box_temperature():
+    """An ice machine makes ice; its bin is no box held at a set point (common practice),
+    so a bin temperature is neither scored nor targeted, and says why; its cycle and
+    electrics still are."""
+    unit = UnitDesign("R-404A", "ice_machine", design_box_temp_c=-1.0, nameplate_volts=230.0)
+    result = diagnose(unit, Reading(box_temp_c=6.0, supply_volts=(228.0,)))
+    box = _metrics(result)["box_temp"]
+    assert box.status == "not_scored"
+    assert "ice machine" in box.reason
+    assert "box_temp" not in {t.name for t in result.targets}
+    assert _metrics(result)["supply_voltage"].status == "ok"
