@@ -184,11 +184,11 @@ class DerivedValues:
     head_kpa_abs: float | None = None
     evaporating_dew_c: float | None = None
     evaporating_bubble_c: float | None = None
-    #: The evaporating temperature used for the evaporator TD (see ``GLIDE_CHOICE``).
+    #: The evaporating temperature used for the evaporator TD, on the unit's design basis.
     evaporating_c: float | None = None
     condensing_dew_c: float | None = None
     condensing_bubble_c: float | None = None
-    #: The condensing temperature used for the condenser split (see ``GLIDE_CHOICE``).
+    #: The condensing temperature used for the condenser split, on the unit's design basis.
     condensing_c: float | None = None
     superheat_k: float | None = None
     subcooling_k: float | None = None
@@ -217,5 +217,5 @@ class Diagnosis:
     cautions: tuple[Caution, ...]
     energy_penalty_pct: float | None
     derived: DerivedValues = field(default_factory=DerivedValues)
-    #: The documented choice of saturation point for TD and split on glide blends.
+    #: The saturation point TD and split are taken on for this unit (its design basis), in words.
     glide_choice: str = ""
