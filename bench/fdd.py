@@ -132,11 +132,6 @@ def _run(folder: Path, seed: int, started: float) -> None:
 
     site_ids = {key: api.site(site) for key, site in sn.SITES.items()}
     unit_ids = {u.tag: api.unit(u, site_ids[u.site]) for u in season.units}
-    if api.unknown_fields():
-        print(
-            "the server does not know these fields yet; sent without them: "
-            + ", ".join(api.unknown_fields())
-        )
 
     by_fault: dict[tuple[str, str], Tally] = collections.defaultdict(Tally)
     healthy: dict[str, list[int]] = collections.defaultdict(lambda: [0, 0])
