@@ -54,13 +54,17 @@ class Tally:
     detectable: int = 0
     detected: int = 0
     correct: int = 0
+    #: Correct with the expected code itself first (not only among its alternatives).
+    exact: int = 0
     wrong: int = 0
     unnamed: int = 0
     #: Alarms on visits whose symptoms were within the instruments' uncertainty.
     alarms_undetectable: int = 0
     got: collections.Counter = field(default_factory=collections.Counter)
 
-    def add(self, detectable: bool, alarm: bool, named: bool, diagnosis: str | None) -> None:
+    def add(
+        self, detectable: bool, alarm: bool, named: bool, diagnosis: str | None, expected: str
+    ) -> None:
         self.visits += 1
         if not detectable:
             self.alarms_undetectable += alarm
@@ -73,6 +77,7 @@ class Tally:
             self.unnamed += 1
         elif named:
             self.correct += 1
+            self.exact += diagnosis == expected
         else:
             self.wrong += 1
             self.got[diagnosis] += 1
@@ -168,7 +173,13 @@ def _run(folder: Path, seed: int, started: float) -> None:
                             (by_fault, visit.detectable),
                             (by_twin, visit.detectable_by_twin),
                         ):
-                            tallies[key].add(detectable, verdict.alarm, named, verdict.diagnosis)
+                            tallies[key].add(
+                                detectable,
+                                verdict.alarm,
+                                named,
+                                verdict.diagnosis,
+                                visit.expected_code or "",
+                            )
                     bar.update()
     posting = time.perf_counter() - t
 
@@ -209,7 +220,9 @@ def _run(folder: Path, seed: int, started: float) -> None:
     )
     print(
         f"  (no diagnosis {_rate(total.unnamed, total.detected)}; correct "
-        f"{_rate(total.correct, total.detected)})"
+        f"{_rate(total.correct, total.detected)}, of which the expected cause named first "
+        f"{_rate(total.exact, total.detected)} and as an alternative the readings cannot "
+        f"rule out {_rate(total.correct - total.exact, total.detected)})"
     )
     print(
         f"  (against the unit's own healthy twin, not a goal: {twin.detectable} detectable, "
@@ -230,7 +243,7 @@ def _run(folder: Path, seed: int, started: float) -> None:
 def _total(tallies: dict[tuple[str, str], Tally]) -> Tally:
     total = Tally()
     for tally in tallies.values():
-        for name in ("visits", "detectable", "detected", "correct", "wrong", "unnamed"):
+        for name in ("visits", "detectable", "detected", "correct", "exact", "wrong", "unnamed"):
             setattr(total, name, getattr(total, name) + getattr(tally, name))
     return total
 

@@ -320,7 +320,9 @@ def _unit_targets(u: UnitColumns) -> dict[str, FloatArray]:
         np.where(np.isnan(f["head_pressure_setpoint_c"]), tg.FROM_DEFAULT, tg.FROM_DESIGN),
     ).astype(np.float64)
     out["basis_mid"] = u.basis_mid.astype(np.float64)
-    out["cr_typical_low"], _ = tg.compression_ratio_typical(app)
+    out["cr_typical_low"], typical_high = tg.compression_ratio_typical(app)
+    # a freezer runs ratios a cooler never should: its own typical top where that is higher
+    out["cr_limit"] = np.fmax(typical_high, tg.COMPRESSION_RATIO_LIMIT.value)
     out["cutout_kpa_gauge"] = f["high_pressure_cutout_kpa_gauge"]
     out["rla_a"], out["lra_a"] = f["rla_a"], f["lra_a"]
     volts, volts_max = f["nameplate_volts"], f["nameplate_volts_max"]
@@ -514,6 +516,9 @@ def _atmosphere_kpa(elevation_m: ArrayLike, n: int) -> FloatArray:
     return atm
 
 
+#: Pressure step for the slope of a saturation curve at a reading, kPa.
+_SLOPE_STEP_KPA = 1.0
+
 #: Up to this many designs, a batch's unit columns and targets are kept for the next call.
 _FEW_UNITS = 4
 
@@ -592,6 +597,8 @@ def diagnose_batch(
     nan = np.full(n, np.nan)
     evap_dew, evap_bub, cond_dew, cond_bub = nan.copy(), nan.copy(), nan.copy(), nan.copy()
     p_crit, t_cond_target_dew = nan.copy(), nan.copy()
+    # the saturation curves' slopes at the gauges' readings, for the instruments' error
+    slope_s, slope_h = nan.copy(), nan.copy()
     p_evap, p_cond = np.full((3, n), np.nan), np.full((3, n), np.nan)
     for code, designation in enumerate(uc.refrigerants):
         sel = np.flatnonzero(ref_code == code)
@@ -602,6 +609,12 @@ def diagnose_batch(
         evap_bub[sel] = tg.bubble_temp_c(curve, p_s[sel])
         cond_dew[sel] = tg.dew_temp_c(curve, p_h[sel])
         cond_bub[sel] = tg.bubble_temp_c(curve, p_h[sel])
+        slope_s[sel] = (tg.dew_temp_c(curve, p_s[sel] + _SLOPE_STEP_KPA) - evap_dew[sel]) / (
+            _SLOPE_STEP_KPA
+        )
+        slope_h[sel] = (
+            tg.bubble_temp_c(curve, p_h[sel] + _SLOPE_STEP_KPA) - cond_bub[sel]
+        ) / _SLOPE_STEP_KPA
         p_crit[sel] = float(curve.critical_pressure_kpa_abs)
         # target and both band edges in one lookup per side, on each unit's basis
         p_evap[:, sel] = tg.basis_pressure_kpa_abs(curve, t_evap[:, sel], mid_basis[sel])
@@ -677,12 +690,7 @@ def diagnose_batch(
             None,
             None,
         ),
-        "compression_ratio": (
-            derived["compression_ratio"],
-            np.full(n, tg.COMPRESSION_RATIO_LIMIT.value),
-            None,
-            None,
-        ),
+        "compression_ratio": (derived["compression_ratio"], t["cr_limit"], None, None),
         "head_pressure": (r.head_kpa_gauge, t["cutout_kpa_gauge"], None, None),
         "gas_cooler_approach": (
             derived["gas_cooler_approach_k"],
@@ -725,12 +733,17 @@ def diagnose_batch(
         & (cond_on_basis >= t["head_held_low_c"])
         & (cond_on_basis <= t["head_held_high_c"])
     )
+    margins = {
+        "suction": sc.instrument_margin_k(slope_s),
+        "head": sc.instrument_margin_k(slope_h),
+    }
     metrics: dict[str, MetricColumns] = {}
     total_points = np.zeros(n)
     judged = np.zeros(n, dtype=bool)
     for name, rule in sc.SCORING_TABLE.items():
         measured, target, own_low, own_high = inputs[name]
-        low, high = sc.ok_band(rule, target, own_low, own_high)
+        margin = None if rule.margin_from is None else margins[rule.margin_from]
+        low, high = sc.ok_band(rule, target, own_low, own_high, margin)
         status, points, deviation = sc.grade(rule, measured, target, low, high)
         reason = np.zeros(n, dtype=np.int8)
         if name in CYCLE_METRICS:
@@ -1002,7 +1015,8 @@ def _target_sources(context: tuple[float, ...]) -> dict[str, str]:
         ),
         "subcooling": f"{sub_source}; receiver: {receiver_note}",
         "discharge_line_temp": tg.DISCHARGE_LINE_MAX_C.source,
-        "compression_ratio": tg.COMPRESSION_RATIO_LIMIT.source,
+        "compression_ratio": f"{tg.COMPRESSION_RATIO_LIMIT.source}, or the application's "
+        f"typical top where higher ({defaults.compression_ratio.source})",
         "head_pressure": f"{tg.DESIGN}: high-pressure cut-out",
         "gas_cooler_approach": tg.GAS_COOLER_APPROACH_K.source,
         "running_amps": f"{tg.NAMEPLATE}: RLA",
@@ -1019,8 +1033,6 @@ def _target_sources(context: tuple[float, ...]) -> dict[str, str]:
 def _metric_target_source(name: str, source: str) -> str:
     rule = sc.SCORING_TABLE[name]
     text = rule.source if source in rule.source else f"target: {source}; ok band: {rule.source}"
-    if rule.margin:
-        text += f"; widened each side by {rule.margin_source}"
     return text
 
 

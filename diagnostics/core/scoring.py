@@ -25,9 +25,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Literal
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int8]
@@ -39,12 +40,23 @@ OK, WATCH, FAULT, NOT_SCORED = 0, 1, 2, 3
 
 OURS = "Rimewatch choice"
 
-#: Uncertainty of a line temperature minus a saturation temperature read off a gauge.
-_LINE_MINUS_SATURATION_K = 2.0 / 1.8
-_LINE_MINUS_SATURATION_SOURCE = (
-    "ours: 2 F, a clamp thermometer's error (about 1 K, from memory) with a gauge's 7 kPa "
-    "(1 psi) read as a saturation temperature (0.3-1 K from medium to low temperature)"
+#: Ordinary field instruments, as expanded (about 95 %) uncertainties: a clamp thermometer
+#: and a service gauge (from memory: about +/-1 K and +/-1 psi).
+THERMOMETER_K = 1.0
+GAUGE_KPA = 7.0
+_INSTRUMENTS_SOURCE = (
+    "the instruments' error: a clamp thermometer's 1 K with a gauge's 7 kPa (1 psi) read as "
+    "a saturation temperature, combined in quadrature (from memory), so wider where the "
+    "saturation curve is flat at low pressure"
 )
+
+
+def instrument_margin_k(saturation_slope_k_per_kpa: ArrayLike) -> FloatArray:
+    """The uncertainty of a line temperature less a saturation temperature read off a
+    gauge, K: the two errors in quadrature, the gauge's through the curve's slope (a
+    missing slope leaves the thermometer's alone)."""
+    slope = np.nan_to_num(np.asarray(saturation_slope_k_per_kpa, dtype=np.float64))
+    return np.hypot(THERMOMETER_K, GAUGE_KPA * slope)
 
 
 @dataclass(frozen=True)
@@ -62,10 +74,10 @@ class ScoreRule:
     fault_points: float
     source: str
     relative: bool = False
-    #: Instrument uncertainty added to each finite edge of the ok band, so a reading is off
+    #: The ok band is widened each side by the instruments' error, worked out per reading
+    #: from the saturation curve at this pressure (``instrument_margin_k``): a reading is off
     #: its band only when it is off by more than the instruments can be wrong.
-    margin: float = 0.0
-    margin_source: str = ""
+    margin_from: Literal["suction", "head"] | None = None
 
 
 #: metric -> rule. Temperatures in C, differences in K, pressures in kPa, currents in A.
@@ -121,10 +133,9 @@ SCORING_TABLE: dict[str, ScoreRule] = {
             fault_high=5.6,
             watch_points=5,
             fault_points=15,
-            source="range by metering device and application (targets.py); "
-            f"{OURS}: fault 2 K below (flood-back risk) or 10 F above the range",
-            margin=_LINE_MINUS_SATURATION_K,
-            margin_source=_LINE_MINUS_SATURATION_SOURCE,
+            source="range by metering device and application (targets.py), widened by "
+            f"{_INSTRUMENTS_SOURCE}; {OURS}: fault 2 K below (flood-back risk) or 10 F above",
+            margin_from="suction",
         ),
         ScoreRule(
             "subcooling",
@@ -136,10 +147,9 @@ SCORING_TABLE: dict[str, ScoreRule] = {
             fault_high=5.6,
             watch_points=5,
             fault_points=10,
-            source="range with and without a receiver (targets.py); "
-            f"{OURS}: fault 5 F below or 10 F above the range",
-            margin=_LINE_MINUS_SATURATION_K,
-            margin_source=_LINE_MINUS_SATURATION_SOURCE,
+            source="range with and without a receiver (targets.py), widened by "
+            f"{_INSTRUMENTS_SOURCE}; {OURS}: fault 5 F below or 10 F above",
+            margin_from="head",
         ),
         ScoreRule(
             "discharge_line_temp",
@@ -292,8 +302,10 @@ def ok_band(
     target: FloatArray,
     range_low: FloatArray | None = None,
     range_high: FloatArray | None = None,
+    margin: FloatArray | None = None,
 ) -> tuple[FloatArray, FloatArray]:
-    """The ok band's edges for each row: from the rule's offsets or the target's own range."""
+    """The ok band's edges for each row: from the rule's offsets or the target's own range,
+    widened each side by ``margin`` (the instruments' error) where the rule takes one."""
     target = np.asarray(target, dtype=np.float64)
 
     def edge(offset: float | None, own: FloatArray | None) -> FloatArray:
@@ -308,8 +320,8 @@ def ok_band(
         return target + offset
 
     low, high = edge(rule.ok_low, range_low), edge(rule.ok_high, range_high)
-    if rule.margin:
-        low, high = low - rule.margin, high + rule.margin
+    if rule.margin_from is not None and margin is not None:
+        low, high = low - margin, high + margin
     return low, high
 
 

@@ -64,14 +64,18 @@ def test_it_marks_half_of_lra_at_standstill_as_a_fault():
 
 
 def test_it_grades_a_range_target_with_watch_then_fault_on_each_side():
-    """Superheat with a synthetic 4.4-5.6 K range widened by the rule's 2 F (1.11 K)
-    instrument margin to 3.29-6.71 K: inside ok (1 K outside the bare range is still
-    within instrument error); 1 K beyond the widened band watch; beyond the table's fault
-    margins (2 K below, 5.6 K above the widened band) fault; the deviation is signed and
-    measured from the widened band."""
-    m = sc.SCORING_TABLE["superheat"].margin
+    """Superheat with a synthetic 4.4-5.6 K range widened by an instrument margin of 1.11 K
+    to 3.29-6.71 K: inside ok (1 K outside the bare range is still within instrument
+    error); 1 K beyond the widened band watch; beyond the table's fault margins (2 K below,
+    5.6 K above the widened band) fault; the deviation is signed and measured from the
+    widened band."""
+    m = 1.11
     measured = [5.0, 3.4, 4.4 - m - 1.0, 4.4 - m - 2.5, 5.6 + m + 1.0, 5.6 + m + 6.0]
-    status, _, deviation = _grade("superheat", measured, 5.0, 4.4, 5.6)
+    rule = sc.SCORING_TABLE["superheat"]
+    values = np.asarray(measured)
+    target, low, high = (np.full(values.shape, v) for v in (5.0, 4.4, 5.6))
+    band_low, band_high = sc.ok_band(rule, target, low, high, np.full(values.shape, m))
+    status, _, deviation = sc.grade(rule, values, target, band_low, band_high)
     assert status.tolist() == [sc.OK, sc.OK, sc.WATCH, sc.FAULT, sc.WATCH, sc.FAULT]
     assert deviation.tolist() == pytest.approx([0.0, 0.0, -1.0, -2.5, 1.0, 6.0])
 
