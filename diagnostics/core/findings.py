@@ -337,6 +337,7 @@ RULES: tuple[Rule, ...] = (
         triggers=(
             _t("td_low", "split_low"),
             _t("td_low", "sh_high"),
+            _t("td_low", "box_warm"),
             _t("warm_but_fed", "sh_high"),
             _t("warm_but_fed", "sc_low"),
             _t("warm_but_fed", "split_low"),

@@ -79,9 +79,9 @@ def test_the_receiver_is_left_to_the_application_unless_given(office_user, appli
     """Issue 13: every unit was taken to have a receiver. Now a unit posted without the flag
     stores none (null on the wire), and the core takes the application's default: a
     self-contained reach-in or ice machine is receiverless, so its subcooling target is the
-    receiverless 6-10 F (Tomczyk, ACHR News, REFERENCES 6; tolerance 1e-3 K), widened by the
-    2 F instrument margin (ours) to 4-12 F, rather than a receiver's 0-5 F (common
-    practice)."""
+    receiverless 6-10 F (Tomczyk, ACHR News, REFERENCES 6; tolerance 1e-3 K), widened
+    without a gauge reading by the thermometer's 1 K (from memory), rather than a receiver's
+    0-5 F (common practice)."""
     response = _create(office_user, application=application)
     assert response.status_code == 201, response.json()
     assert response.json()["has_receiver"] is None
@@ -89,7 +89,7 @@ def test_the_receiver_is_left_to_the_application_unless_given(office_user, appli
     assert design.has_receiver is None
     found = {t.name: t for t in diagnose(design, Reading()).targets}
     assert (found["subcooling"].low, found["subcooling"].high) == pytest.approx(
-        (4 / 1.8, 12 / 1.8), abs=1e-3
+        (6 / 1.8 - 1.0, 10 / 1.8 + 1.0), abs=1e-3
     )
 
 
