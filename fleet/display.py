@@ -14,6 +14,7 @@ from typing import Literal
 from django.conf import settings
 
 from diagnostics.core import units as core_units
+from diagnostics.core import wording
 
 Quantity = Literal["temperature", "temperature_difference", "pressure", "mass"]
 
@@ -25,16 +26,9 @@ SYSTEMS: dict[str, dict[str, str]] = {
     "si": {"temperature": "C", "temperature_difference": "K", "pressure": "kPa", "mass": "kg"},
 }
 
-#: How each unit is printed on report pages and chart axes.
-SYMBOLS: dict[str, str] = {
-    "F": "°F",
-    "C": "°C",
-    "K": "K",
-    "psig": "psig",
-    "kPa": "kPa gauge",
-    "lb": "lb",
-    "kg": "kg",
-}
+#: How each unit is printed on pages, report pages and chart axes (one table with the
+#: sentences the core writes in a reader's units).
+SYMBOLS = wording.SYMBOLS
 
 
 def to_si(value: float, quantity: Quantity | None, unit: str, elevation_m: float = 0.0) -> float:

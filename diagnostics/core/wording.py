@@ -25,7 +25,7 @@ _KINDS: dict[str, tuple[str, int]] = {
     "kPa_gauge": ("pressure", 0),
     "kg": ("mass", 2),
 }
-#: How a unit is written after its number.
+#: How a unit is written after its number (in sentences, on pages and on chart axes).
 SYMBOLS: dict[str, str] = {
     "F": "°F",
     "C": "°C",

@@ -3,6 +3,7 @@ reach, and clients signed in by token as each role. Values are synthetic test in
 
 from __future__ import annotations
 
+import uuid
 from dataclasses import dataclass
 
 import pytest
@@ -38,6 +39,23 @@ def token_client(user) -> APIClient:
     token, _ = Token.objects.get_or_create(user=user)
     client.credentials(HTTP_AUTHORIZATION=f"Token {token.key}")
     return client
+
+
+@pytest.fixture
+def cooler_visit_unit(technician):
+    """An R-404A walk-in cooler at sea level on an in-progress visit of ``technician``."""
+    site = SiteFactory(elevation_m=0.0)
+    visit = VisitFactory(site=site, status="in_progress", technicians=[technician])
+    return VisitUnitFactory(visit=visit, unit=UnitFactory(site=site))
+
+
+def post_reading_set(client, visit_unit, **fields):
+    """POST a reading set for ``visit_unit`` with a fresh client_id."""
+    return client.post(
+        f"/api/v1/visits/{visit_unit.visit_id}/reading-sets/",
+        {"unit": visit_unit.unit_id, "client_id": str(uuid.uuid4()), **fields},
+        format="json",
+    )
 
 
 @dataclass

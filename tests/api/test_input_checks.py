@@ -14,7 +14,7 @@ from fleet.models import ReadingSet, RefrigerantEvent
 from tests.factories import ReadingSetFactory, SiteFactory, UnitFactory, VisitFactory
 from tests.factories import VisitUnitFactory as VisitUnitF
 
-from .conftest import token_client
+from .conftest import post_reading_set, token_client
 
 pytestmark = pytest.mark.django_db
 
@@ -115,19 +115,11 @@ def test_read_only_fields_sent_back_are_ignored(world):
 
 
 @pytest.fixture
-def visit_unit(technician):
-    """An R-404A walk-in cooler at sea level on an in-progress visit."""
-    site = SiteFactory(elevation_m=0.0)
-    visit = VisitFactory(site=site, status="in_progress", technicians=[technician])
-    return VisitUnitF(visit=visit, unit=UnitFactory(site=site))
+def visit_unit(cooler_visit_unit):
+    return cooler_visit_unit
 
 
-def _post(client, visit_unit, **fields):
-    return client.post(
-        f"/api/v1/visits/{visit_unit.visit_id}/reading-sets/",
-        {"unit": visit_unit.unit_id, "client_id": str(uuid.uuid4()), **fields},
-        format="json",
-    )
+_post = post_reading_set
 
 
 def test_suction_above_head_on_a_running_compressor_is_refused(technician, visit_unit):

@@ -8,16 +8,15 @@ Conversions: 1 K = 1.8 F (a difference), 1 psi = 6.894757 kPa, 1 lb = 0.45359237
 from __future__ import annotations
 
 import datetime as dt
-import uuid
 
 import pytest
 
 from diagnostics import services
 from diagnostics.models import Flag
-from tests.factories import RefrigerantEventFactory, SiteFactory, UnitFactory, VisitFactory
+from tests.factories import RefrigerantEventFactory, UnitFactory
 from tests.factories import VisitUnitFactory as VisitUnitF
 
-from .conftest import token_client
+from .conftest import post_reading_set, token_client
 
 pytestmark = pytest.mark.django_db
 
@@ -25,19 +24,11 @@ KG_PER_LB = 0.45359237
 
 
 @pytest.fixture
-def visit_unit(technician):
-    """An R-404A walk-in cooler at sea level on an in-progress visit."""
-    site = SiteFactory(elevation_m=0.0)
-    visit = VisitFactory(site=site, status="in_progress", technicians=[technician])
-    return VisitUnitF(visit=visit, unit=UnitFactory(site=site))
+def visit_unit(cooler_visit_unit):
+    return cooler_visit_unit
 
 
-def _post(client, visit_unit, **fields):
-    return client.post(
-        f"/api/v1/visits/{visit_unit.visit_id}/reading-sets/",
-        {"unit": visit_unit.unit_id, "client_id": str(uuid.uuid4()), **fields},
-        format="json",
-    )
+_post = post_reading_set
 
 
 def test_a_set_with_nothing_to_judge_is_stored_without_a_score(technician, visit_unit):
