@@ -13,7 +13,7 @@ from __future__ import annotations
 import copy
 import datetime as dt
 import difflib
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from typing import Any, ClassVar
 
 from django.contrib.auth.models import User
@@ -24,8 +24,6 @@ from django.db.models.manager import BaseManager
 from django.utils import timezone
 from drf_spectacular.utils import extend_schema_field
 from rest_framework import serializers
-from rest_framework.fields import SkipField
-from rest_framework.relations import PKOnlyObject
 
 from diagnostics.api.serializers import (
     DiagnosisSerializer,
@@ -35,7 +33,7 @@ from diagnostics.api.serializers import (
 )
 from diagnostics.models import Diagnosis
 from diagnostics.services import implausible_fields
-from fleet import choices
+from fleet import audit, choices, services
 from fleet.api.exceptions import django_errors
 from fleet.api.wire_units import (
     REQUEST_KEY,
@@ -129,117 +127,6 @@ class UnitsField(serializers.Field):
         return dict(data)
 
 
-#: Field types whose ``get_attribute`` and ``to_representation`` read only the instance
-#: (never the serializer's context or parent), so one set of them serves every request.
-_CONTEXT_FREE_FIELDS = (
-    serializers.BooleanField,
-    serializers.CharField,  # and EmailField, SlugField...
-    serializers.ChoiceField,
-    serializers.DateField,
-    serializers.DateTimeField,
-    serializers.DecimalField,
-    serializers.FloatField,
-    serializers.IntegerField,
-    serializers.JSONField,
-    serializers.ReadOnlyField,
-    serializers.UUIDField,
-    serializers.PrimaryKeyRelatedField,
-    serializers.SlugRelatedField,
-)
-_PLAIN, _UNITS, _METHOD = "plain", "units", "method"
-
-
-def _context_free(field: serializers.Field) -> bool:
-    if isinstance(field, serializers.ListField):
-        return _context_free(field.child)
-    if isinstance(field, serializers.ManyRelatedField):
-        return _context_free(field.child_relation)
-    if isinstance(field, serializers.HyperlinkedRelatedField):
-        return False
-    return isinstance(field, _CONTEXT_FREE_FIELDS)
-
-
-def _kind(field: serializers.Field) -> str | None:
-    """How a response writes ``field`` without DRF's per-instance machinery; None for a
-    field of a kind not known to be free of request state."""
-    if isinstance(field, UnitsField):
-        return _UNITS
-    if isinstance(field, serializers.SerializerMethodField):
-        return _METHOD
-    return _PLAIN if _context_free(field) else None
-
-
-class PlainRepresentation:
-    """A response built without DRF's per-instance field machinery, and fields built once
-    per class for validation (``get_fields``).
-
-    DRF builds and binds every field of a ``ModelSerializer`` afresh for each serializer
-    instance (a deep copy of the declared fields, the model fields looked up again) before
-    it writes a single value: on a reading set that is most of the cost of the answer.
-    Here the readable fields are built once per class; the context-free ones
-    (``_CONTEXT_FREE_FIELDS``) are then applied as DRF's ``Serializer.to_representation``
-    applies them, and ``units`` and ``SerializerMethodField`` are asked of this serializer
-    (they read its context).
-    A class with any other readable field keeps DRF's path (``_plan`` is None).
-    """
-
-    _plans: ClassVar[dict[type, list[tuple[str, serializers.Field, str]] | None]] = {}
-    #: Per class: its fields as built once, unbound; None where one of them is of a kind
-    #: not known to be free of per-request state.
-    _prototypes: ClassVar[dict[type, dict[str, serializers.Field] | None]] = {}
-
-    def get_fields(self) -> dict[str, serializers.Field]:
-        """DRF builds every field anew for each serializer instance, to validate a request
-        too: the declared ones deep-copied (which runs each ``__init__`` again), the model
-        ones looked up again. Fields of the known kinds hold nothing of a request until
-        they are bound, so a class builds them once and each instance binds shallow copies.
-        """
-        cls = type(self)
-        if cls not in PlainRepresentation._prototypes:
-            built = super().get_fields()  # type: ignore[misc]
-            reusable = all(_kind(f) is not None for f in built.values())
-            PlainRepresentation._prototypes[cls] = built if reusable else None
-        prototypes = PlainRepresentation._prototypes[cls]
-        if prototypes is None:
-            return super().get_fields()  # type: ignore[misc]
-        return {name: copy.copy(field) for name, field in prototypes.items()}
-
-    @classmethod
-    def _plan(cls) -> list[tuple[str, serializers.Field, str]] | None:
-        try:
-            return PlainRepresentation._plans[cls]
-        except KeyError:
-            pass
-        plan: list[tuple[str, serializers.Field, str]] | None = []
-        for field in cls(context={})._readable_fields:  # type: ignore[call-arg,attr-defined]
-            kind = _kind(field)
-            if kind is None:
-                plan = None
-                break
-            plan.append((field.field_name, field, kind))
-        PlainRepresentation._plans[cls] = plan
-        return plan
-
-    def to_representation(self, instance: Any) -> dict[str, Any]:
-        plan = self._plan()
-        if plan is None:
-            return super().to_representation(instance)  # type: ignore[misc]
-        data: dict[str, Any] = {}
-        for name, field, kind in plan:
-            if kind is _PLAIN:
-                try:
-                    attribute = field.get_attribute(instance)
-                except SkipField:
-                    continue
-                empty = (attribute.pk if isinstance(attribute, PKOnlyObject) else attribute) is None
-                data[name] = None if empty else field.to_representation(attribute)
-            elif kind is _UNITS:
-                data[name] = response_units(self.context)  # type: ignore[attr-defined]
-            else:
-                data[name] = getattr(self, field.method_name)(instance)  # type: ignore[attr-defined]
-        return data
-
-
 class RefusesUnknownFields:
     """A request body naming a field the serializer does not have is refused with a 400
     naming it (a misspelt field is never silently dropped). Read-only fields a client sends
@@ -279,9 +166,7 @@ class RefusesUnknownFields:
         return value
 
 
-class ValidatedModelSerializer(
-    RefusesUnknownFields, PlainRepresentation, serializers.ModelSerializer
-):
+class ValidatedModelSerializer(RefusesUnknownFields, serializers.ModelSerializer):
     """Runs the model's ``full_clean()`` on the would-be instance (NetBox's
     ``ValidatedModelSerializer``), reporting errors under the wire names."""
 
@@ -858,6 +743,25 @@ class VisitRecordSerializer(MeasuredSerializer):
         slug_field="username", read_only=True, allow_null=True
     )
 
+    #: The services that store a new record (once per client_id, with what is computed of
+    #: it and its audit entry) and save an office edit (``fleet.services``).
+    store: ClassVar[Callable[..., services.Stored]]
+    change: ClassVar[Callable[..., Any]]
+    #: After ``save()`` of a new record: whether this request stored it (False: a
+    #: concurrent request with the same client_id did, and this is that record).
+    created: bool
+
+    def create(self, validated_data: dict[str, Any]) -> Any:
+        result = self.store(self.Meta.model(**validated_data), by=self.context["request"].user)
+        self.created = result.created
+        return result.record
+
+    def update(self, instance: Any, validated_data: dict[str, Any]) -> Any:
+        before = audit.snapshot(instance)
+        for key, value in validated_data.items():
+            setattr(instance, key, value)
+        return self.change(instance, before, by=self.context["request"].user)
+
     def _visit_unit(self, attrs: dict[str, Any], errors: dict[str, list[str]]) -> Any:
         visit = self.context["visit"]
         unit_id = attrs.pop("visit_unit", {}).get("unit_id")
@@ -897,6 +801,8 @@ class ReadingSetListSerializer(serializers.ListSerializer):
 
 class ReadingSetSerializer(VisitRecordSerializer):
     clean_constraints = False
+    store = staticmethod(services.record_reading_set)
+    change = staticmethod(services.change_reading_set)
     keeps_entered_units = True
     measures = {
         "box_temp": Measure("box_temp_c", "temperature", READING_LIMITS["box_temp_c"]),
@@ -1060,6 +966,8 @@ class ReadingSetSerializer(VisitRecordSerializer):
 
 
 class RefrigerantEventSerializer(VisitRecordSerializer):
+    store = staticmethod(services.record_refrigerant_event)
+    change = staticmethod(services.change_refrigerant_event)
     measures = {"amount": Measure("amount_kg", "mass", EVENT_LIMITS["amount_kg"])}
 
     client_id = serializers.UUIDField(

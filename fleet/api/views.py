@@ -73,7 +73,6 @@ from fleet.models import (
     Visit,
     VisitUnit,
 )
-from fleet.rows import pk_where
 
 UNITS_PARAMETER = OpenApiParameter(
     "units",
@@ -400,9 +399,6 @@ class VisitRecordViewSet(
     model: type[ReadingSet] | type[RefrigerantEvent]
     relation: str
     record_noun: str
-    #: The services that store a new record (once per client_id) and save an office edit.
-    store: Callable[..., services.Stored]
-    change: Callable[..., Any]
 
     @cached_property
     def _reach(self) -> tuple[Visit, list[VisitUnit]]:
@@ -467,7 +463,12 @@ class VisitRecordViewSet(
             return None
         # Most posts are new: a bare look-up of the id first (a fraction of the cost of
         # fetching a record with its relations), the record itself only for a retry.
-        stored_pk = pk_where(self.model, "client_id", client_id)  # written once (fleet.rows)
+        stored_pk = (
+            self.model.objects.filter(client_id=client_id)
+            .order_by()
+            .values_list("pk", flat=True)
+            .first()
+        )
         if stored_pk is None:
             return None
         stored = (
@@ -494,18 +495,14 @@ class VisitRecordViewSet(
         self._check_writable()
         serializer = self.get_serializer(data=request.data)
         serializer.is_valid(raise_exception=True)
-        record = self.model(**serializer.validated_data, created_by=request.user)
-        result = self.store(record, by=request.user)
-        self._check_same_visit(result.record)
-        code = status.HTTP_201_CREATED if result.created else status.HTTP_200_OK
-        return Response(self.get_serializer(result.record).data, status=code)
+        record = serializer.save(created_by=request.user)
+        self._check_same_visit(record)
+        code = status.HTTP_201_CREATED if serializer.created else status.HTTP_200_OK
+        return Response(serializer.data, status=code)
 
     def perform_update(self, serializer: Any) -> None:
         self._check_writable()
-        before = audit.snapshot(serializer.instance)
-        for key, value in serializer.validated_data.items():
-            setattr(serializer.instance, key, value)
-        self.change(serializer.instance, before, by=self.request.user)
+        serializer.save()
 
     def perform_destroy(self, instance: Any) -> None:
         self._check_writable()
@@ -543,9 +540,6 @@ class ReadingSetViewSet(VisitRecordViewSet):
     relation = "diagnosis"
     record_noun = "readings"
 
-    store = staticmethod(services.record_reading_set)
-    change = staticmethod(services.change_reading_set)
-
 
 @visit_record_schema(
     RefrigerantEventSerializer,
@@ -561,9 +555,6 @@ class RefrigerantEventViewSet(VisitRecordViewSet):
     model = RefrigerantEvent
     relation = "leak_rate"
     record_noun = "refrigerant events"
-
-    store = staticmethod(services.record_refrigerant_event)
-    change = staticmethod(services.change_refrigerant_event)
 
 
 # --- tokens --------------------------------------------------------------------------------
