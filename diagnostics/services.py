@@ -20,7 +20,6 @@ from diagnostics.core import flags, leaks, plausibility, start_risk
 from diagnostics.core.types import SIGHT_GLASS_STATES, Reading, UnitDesign
 from fleet.choices import RefrigerantEventKind
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit
-from fleet.rows import instances_where
 
 from .history import unit_histories
 from .models import Diagnosis, Flag, LeakRate
@@ -41,13 +40,12 @@ def unit_design(unit: Unit, components: Iterable[Component] | None = None) -> Un
 
     ``components``: the unit's, where the caller has them (prefetched for many units; an
     empty tuple where no capacitor matters, as for the plausibility check); otherwise they
-    are read here by a statement written once (``fleet.rows``): a new reading set is
-    diagnosed on every post, and the model's ordering would join the unit, its site and its
-    customer for nothing. A run capacitor's band goes to the core as its centre plus or
+    are read here, in one query on the components' own table (unsorted: the fitted part is
+    chosen by its dates). A run capacitor's band goes to the core as its centre plus or
     minus a percentage (a printed 45 uF +/- 6 % comes back as exactly that).
     """
     if components is None:
-        components = instances_where(Component, "unit", unit.pk)
+        components = unit.components.order_by()
     components = list(components)
     run, start = _fitted_band(components, "run"), _fitted_band(components, "start")
     run_nominal = run_tolerance = None

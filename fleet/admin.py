@@ -33,6 +33,7 @@ class SiteAdmin(admin.ModelAdmin):
     list_filter = ("customer", "time_zone")
     search_fields = ("name", "address", "customer__name")
     list_select_related = ("customer",)
+    ordering = ("customer__name", "name")
     filter_horizontal = ("managers",)
     inlines = [UnitInline]
 
@@ -81,6 +82,7 @@ class UnitAdmin(admin.ModelAdmin):
     )
     search_fields = ("tag", "description", "site__name", "site__customer__name")
     list_select_related = ("site__customer", "refrigerant")
+    ordering = ("site__customer__name", "site__name", "tag")
     autocomplete_fields = ("site",)
     inlines = [ComponentInline]
     fieldsets = (
@@ -161,6 +163,13 @@ class ComponentAdmin(admin.ModelAdmin):
     list_filter = ("kind",)
     search_fields = ("unit__tag", "reason")
     list_select_related = ("unit__site",)
+    ordering = (
+        "unit__site__customer__name",
+        "unit__site__name",
+        "unit__tag",
+        "kind",
+        "-installed_on",
+    )
     raw_id_fields = ("unit", "changed_on_visit")
 
 

@@ -12,7 +12,6 @@ from django.db import models
 from django.utils import timezone
 
 from fleet.models import AuditAction, AuditEntry, ReadingSet, RefrigerantEvent, Visit
-from fleet.rows import insert
 
 #: Bookkeeping columns that change on every save and say nothing about the record.
 _SKIPPED = {"id", "created_at", "updated_at"}
@@ -55,7 +54,7 @@ def record(
     now=None,
 ) -> AuditEntry:
     """Append one entry to the trail (inside the caller's transaction)."""
-    entry = AuditEntry(
+    return AuditEntry.objects.create(
         at=now or timezone.now(),
         actor=by if by is not None and by.is_authenticated else None,
         action=action,
@@ -65,8 +64,6 @@ def record(
         changes=changes,
         note=note,
     )
-    insert(entry)  # every new record writes one: a statement written once (fleet.rows)
-    return entry
 
 
 def record_created(instance: models.Model, *, by, note: str = "") -> AuditEntry:

@@ -108,7 +108,9 @@ class VisitForm(forms.ModelForm):
 
     def __init__(self, *args, **kwargs) -> None:
         super().__init__(*args, **kwargs)
-        self.fields["site"].queryset = Site.objects.select_related("customer")
+        self.fields["site"].queryset = Site.objects.select_related("customer").order_by(
+            "customer__name", "name"
+        )
         self.fields["technicians"].queryset = technician_users()
         site = self._chosen_site()
         self.site = site

@@ -76,7 +76,7 @@ class Site(models.Model):
     )
 
     class Meta:
-        ordering = ["customer__name", "name"]
+        ordering = ["customer_id", "name"]
         constraints = [
             models.UniqueConstraint(
                 fields=["customer", "name"], name="site_unique_name_per_customer"
@@ -212,7 +212,7 @@ class Unit(models.Model):
     retired_on = models.DateField(null=True, blank=True)
 
     class Meta:
-        ordering = ["site", "tag"]
+        ordering = ["site_id", "tag"]
         constraints = [
             models.UniqueConstraint(fields=["site", "tag"], name="unit_unique_tag_per_site"),
             models.CheckConstraint(
@@ -426,7 +426,7 @@ class Component(models.Model):
     reason = models.CharField(max_length=200, blank=True)
 
     class Meta:
-        ordering = ["unit", "kind", "-installed_on"]
+        ordering = ["unit_id", "kind", "-installed_on"]
         constraints = [
             models.CheckConstraint(
                 condition=Q(kind__in=choices.ComponentKind.values), name="component_kind_valid"

@@ -38,7 +38,6 @@ from diagnostics.services import (
 from . import audit
 from .choices import VISIT_TRANSITIONS, VisitKind, VisitStatus
 from .models import AuditAction, ReadingSet, RefrigerantEvent, Unit, Visit, VisitUnit
-from .rows import insert
 
 log = logging.getLogger(__name__)
 
@@ -243,7 +242,7 @@ def _insert_once(record: R, then: Callable[[R], None]) -> Stored[R]:
     inserted = False
     try:
         with transaction.atomic():
-            insert(record)
+            record.save(force_insert=True)
             inserted = True
             then(record)
     except IntegrityError:
@@ -304,7 +303,7 @@ def record_reading_set(reading_set: ReadingSet, *, by) -> Stored[ReadingSet]:
     def store_diagnosis(inserted: ReadingSet) -> None:
         if diagnosis is not None:  # built on this very set, which now has its id
             diagnosis.reading_set = inserted
-            insert(diagnosis)
+            diagnosis.save(force_insert=True)
             inserted.diagnosis = diagnosis
 
     return _record_once(reading_set, store_diagnosis, by=by)

@@ -391,7 +391,12 @@ def _visit_with_everything(request: HttpRequest) -> QuerySet[Visit]:
         .prefetch_related(
             "technicians",
             Prefetch("visit_units", queryset=covered),
-            Prefetch("components_changed", queryset=Component.objects.select_related("unit")),
+            Prefetch(
+                "components_changed",
+                queryset=Component.objects.select_related("unit").order_by(
+                    "unit__tag", "kind", "-installed_on"
+                ),
+            ),
         )
     )
 

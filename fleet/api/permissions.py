@@ -15,16 +15,12 @@ permission classes then decide what a role may *do* with what it can see (403).
 
 from __future__ import annotations
 
-from functools import cache
-
 from django.contrib.auth.models import AnonymousUser, User
-from django.db import connection
-from django.db.models import QuerySet
+from django.db.models import Q, QuerySet
 from rest_framework.permissions import SAFE_METHODS, BasePermission
 
 from fleet.choices import Role
-from fleet.models import Component, Customer, Refrigerant, Site, Unit, Visit, VisitUnit
-from fleet.rows import ModelColumns, column, split, table
+from fleet.models import Component, Customer, Site, Unit, Visit, VisitUnit
 
 OFFICE = Role.OFFICE.value
 TECHNICIAN = Role.TECHNICIAN.value
@@ -36,94 +32,57 @@ _ROLE_CACHE = "_rimewatch_role"
 
 
 def role_of(user: User | AnonymousUser | None) -> str | None:
-    """The user's role (one query, remembered on the user object for the request)."""
+    """The user's role: the widest of their role groups, office for a superuser (one
+    query, remembered on the user object for the request)."""
     if user is None or not user.is_authenticated:
         return None
-    if hasattr(user, _ROLE_CACHE):
-        return getattr(user, _ROLE_CACHE)
-    return remember_role(user, set(user.groups.values_list("name", flat=True)))
+    if not hasattr(user, _ROLE_CACHE):
+        groups = set(user.groups.values_list("name", flat=True))
+        role = next((r for r in ROLE_ORDER if r in groups), None)
+        setattr(user, _ROLE_CACHE, OFFICE if user.is_superuser else role)
+    return getattr(user, _ROLE_CACHE)
 
 
-def remember_role(user: User, group_names: set[str]) -> str | None:
-    """Decide the role of ``user`` from the names of their groups and remember it on the
-    user object for the request (for callers that read the groups themselves)."""
-    role = OFFICE if user.is_superuser else next((r for r in ROLE_ORDER if r in group_names), None)
-    setattr(user, _ROLE_CACHE, role)
-    return role
+def _visits_reach(user, visit: str = "") -> Q | None:
+    """The condition on a visit (reached through ``visit``, a lookup prefix) for it to be
+    within ``user``'s reach; None for a role that reaches no visit."""
+    role = role_of(user)
+    if role == OFFICE:
+        return Q()
+    if role == TECHNICIAN:  # the pair is unique: joining the assignments repeats no row
+        return Q(**{f"{visit}technicians": user})
+    return None
 
 
 def visible_visits(user, queryset: QuerySet[Visit] | None = None) -> QuerySet[Visit]:
     qs = Visit.objects.all() if queryset is None else queryset
-    role = role_of(user)
-    if role == OFFICE:
-        return qs
-    if role == TECHNICIAN:
-        return qs.filter(
-            pk__in=Visit.technicians.through.objects.filter(user=user).values("visit_id")
-        )
-    return qs.none()
+    reach = _visits_reach(user)
+    return qs.none() if reach is None else qs.filter(reach)
 
 
 #: The largest id a 64-bit key holds; a larger one in a URL is simply not found.
 _MAX_ID = 2**63 - 1
-_VISIT = ModelColumns(Visit, "v")
-_VISIT_UNIT = ModelColumns(VisitUnit, "vu")
-_UNIT = ModelColumns(Unit, "un")
-_SITE = ModelColumns(Site, "s")
-_REFRIGERANT = ModelColumns(Refrigerant, "r")
-
-
-@cache
-def _visit_statement(technician: bool) -> str:
-    """A visit and its units, each with its unit, site and refrigerant (one row per unit;
-    one row with no unit for a visit without units); for a technician, only their own."""
-    assigned = Visit.technicians.through
-    visit_id = column(Visit, "id", "v")
-    unit = column(VisitUnit, "unit", "vu")
-    reach = (
-        f"AND EXISTS (SELECT 1 FROM {table(assigned, 'a')} "
-        f"WHERE {column(assigned, 'visit', 'a')} = {visit_id} "
-        f"AND {column(assigned, 'user', 'a')} = %s) "
-        if technician
-        else ""
-    )
-    return (
-        f"SELECT {_VISIT.sql}, {_VISIT_UNIT.sql}, {_UNIT.sql}, {_SITE.sql}, {_REFRIGERANT.sql} "
-        f"FROM {table(Visit, 'v')} "
-        f"LEFT JOIN {table(VisitUnit, 'vu')} ON {column(VisitUnit, 'visit', 'vu')} = {visit_id} "
-        f"LEFT JOIN {table(Unit, 'un')} ON {column(Unit, 'id', 'un')} = {unit} "
-        f"LEFT JOIN {table(Site, 's')} ON {column(Site, 'id', 's')} = {column(Unit, 'site', 'un')} "
-        f"LEFT JOIN {table(Refrigerant, 'r')} "
-        f"ON {column(Refrigerant, 'id', 'r')} = {column(Unit, 'refrigerant', 'un')} "
-        f"WHERE {visit_id} = %s {reach}"
-        f"ORDER BY {column(VisitUnit, 'id', 'vu')}"
-    )
 
 
 def visit_in_reach(user, pk: int) -> tuple[Visit, list[VisitUnit]] | None:
     """The visit ``pk`` if ``visible_visits(user)`` holds it, with its units (their unit,
-    site and refrigerant attached), in one statement written once (``fleet.rows``): every
-    request on a visit's records reads it first. None when out of reach or not there."""
-    role = role_of(user)
-    if role not in (OFFICE, TECHNICIAN) or pk > _MAX_ID:
+    site and refrigerant attached): every request on a visit's records reads it first, so
+    it is one query, from the visit's units with their visit joined. Only a visit without
+    units needs a second, for the visit alone. None when out of reach or not there."""
+    reach = _visits_reach(user, "visit__")
+    if reach is None or pk > _MAX_ID:
         return None
-    technician = role == TECHNICIAN
-    with connection.cursor() as cursor:
-        cursor.execute(_visit_statement(technician), [pk, user.pk] if technician else [pk])
-        rows = cursor.fetchall()
-    if not rows:
-        return None
-    visit = split(rows[0], _VISIT)[0]
-    visit_units = []
-    for row in rows:
-        _, visit_unit, unit, site, refrigerant = split(
-            row, _VISIT, _VISIT_UNIT, _UNIT, _SITE, _REFRIGERANT
-        )
-        if visit_unit is None:
-            continue
-        unit.site, unit.refrigerant = site, refrigerant
-        visit_unit.visit, visit_unit.unit = visit, unit
-        visit_units.append(visit_unit)
+    visit_units = list(
+        VisitUnit.objects.filter(reach, visit_id=pk)
+        .select_related("visit", "unit__site", "unit__refrigerant")
+        .order_by("id")
+    )
+    if not visit_units:
+        visit = visible_visits(user).filter(pk=pk).first()
+        return None if visit is None else (visit, [])
+    visit = visit_units[0].visit
+    for visit_unit in visit_units:
+        visit_unit.visit = visit  # one instance of the visit for all its units
     return visit, visit_units
 
 

@@ -20,6 +20,7 @@ from rest_framework.test import APIClient
 
 from fleet.api.permissions import visible_visits, visit_in_reach
 from fleet.models import Visit
+from tests.factories import VisitFactory
 
 from .conftest import World, token_client
 
@@ -361,14 +362,16 @@ def test_absurd_ids_and_queries_are_4xx_never_500(world, url):
         assert response.json()["count"] == 0
 
 
-def test_the_one_statement_reach_agrees_with_visible_visits(world, outsider):
-    """``visit_in_reach`` (one hand-written statement) reaches exactly the visits that
-    ``visible_visits`` (the query set every list uses) holds, for every role, and brings
-    each visit's units with it."""
+def test_the_reach_of_a_visits_records_agrees_with_visible_visits(world, outsider):
+    """``visit_in_reach`` (the visit's units with their visit, one query) reaches exactly
+    the visits that ``visible_visits`` (the query set every list uses) holds, for every
+    role, and brings each visit's units with it; a visit without units is reached too,
+    with none."""
     superuser = User.objects.create_superuser("root", password="x")  # no role group: office
     users = [world.office, world.technician, world.other_technician, world.manager, outsider]
+    empty = VisitFactory(site=world.own_site, status="in_progress", technicians=[world.technician])
     for user in [*users, superuser]:
-        for visit in (world.own_visit, world.other_visit):
+        for visit in (world.own_visit, world.other_visit, empty):
             found = visit_in_reach(User.objects.get(pk=user.pk), visit.pk)
             visible = visible_visits(User.objects.get(pk=user.pk)).filter(pk=visit.pk).exists()
             assert (found is not None) is visible, (user.username, visit.reference)
@@ -379,3 +382,5 @@ def test_the_one_statement_reach_agrees_with_visible_visits(world, outsider):
                     visit.visit_units.order_by("id").values_list("pk", flat=True)
                 )
                 assert all(vu.unit.site.pk == visit.site_id for vu in units)
+                assert all(vu.visit is got for vu in units)
+    assert visit_in_reach(User.objects.get(pk=world.technician.pk), empty.pk)[1] == []

@@ -174,3 +174,20 @@ def test_the_office_group_may_keep_every_record_in_the_admin():
     assert ("diagnostics", "change_flag") in codenames
     assert ("reports", "view_monthlyreport") in codenames
     assert not any(app == "auth" for app, _ in codenames)
+
+
+def test_it_orders_sites_units_and_components_by_their_own_columns():
+    """The default orderings sort on the records' own columns (Django advises against
+    orderings that follow relations): reading sites, units or parts joins no other table,
+    and units come by site id, then tag."""
+    for model in (models.Site, models.Unit, models.Component):
+        sql = str(model.objects.all().query)
+        assert "JOIN" not in sql, sql
+    first, second = SiteFactory(), SiteFactory()
+    units = [UnitFactory(site=second, tag="A"), UnitFactory(site=first, tag="B")]
+    units.append(UnitFactory(site=first, tag="A"))
+    assert list(models.Unit.objects.filter(site__in=[first, second])) == [
+        units[2],
+        units[1],
+        units[0],
+    ]

@@ -11,7 +11,7 @@ from django.urls import reverse
 from django.utils import timezone
 
 from fleet.models import AuditEntry, Visit
-from tests.factories import SiteFactory, UnitFactory, VisitFactory
+from tests.factories import CustomerFactory, SiteFactory, UnitFactory, VisitFactory
 
 pytestmark = pytest.mark.django_db
 
@@ -62,6 +62,17 @@ def test_it_shows_the_models_own_messages_beside_the_fields(office):
     assert 'id="id_window_end_errors"' in page
     assert "Select a valid choice" in page or "not at this site" in page
     assert not Visit.objects.filter(site=site).exists()
+
+
+def test_it_offers_sites_by_customer_name_then_site_name(office):
+    """The booking form's site choices read as the office looks customers up: by customer
+    name, then site name, whatever order they were created in."""
+    later = SiteFactory(customer=CustomerFactory(name="Zephyr Foods"), name="Annex")
+    second = SiteFactory(customer=CustomerFactory(name="Alder Market"), name="West")
+    first = SiteFactory(customer=second.customer, name="East")
+    page = office.get(reverse("fleet:visit-create")).content.decode()
+    positions = [page.index(f'value="{site.pk}"') for site in (first, second, later)]
+    assert positions == sorted(positions)
 
 
 def test_it_lists_the_chosen_sites_units_for_htmx(office):

@@ -1,0 +1,121 @@
+"""Wire helpers shared by the resource serializers: the ``units`` object, measurement and
+per-leg fields, the times a record may carry, and choices a record may leave unknown."""
+
+from __future__ import annotations
+
+import datetime as dt
+from typing import Any
+
+from django.utils import timezone
+from drf_spectacular.utils import extend_schema_field
+from rest_framework import serializers
+
+from diagnostics.api.serializers import response_units
+from fleet.api.wire_units import REQUEST_UNITS
+
+#: How far ahead of the server clock a reading may be stamped (phone clocks drift a little).
+FUTURE_SLACK = dt.timedelta(hours=1)
+#: The times a visit or a reading may carry: [start, end).
+SERVICE_ERA = (
+    dt.datetime(1970, 1, 1, tzinfo=dt.UTC),
+    dt.datetime(2200, 1, 1, tzinfo=dt.UTC),
+)
+
+_REQUEST_UNITS_SCHEMA = {
+    "type": "object",
+    "description": "Request: the units its measurements are in (a temperature difference is "
+    "stated with `temperature` unless `temperature_difference` is given). Response: the "
+    "units it uses, chosen with `?units=si|us`.",
+    "properties": {
+        "temperature": {"type": "string", "enum": list(REQUEST_UNITS["temperature"])},
+        "temperature_difference": {"type": "string", "enum": list(REQUEST_UNITS["temperature"])},
+        "pressure": {
+            "type": "string",
+            "enum": list(REQUEST_UNITS["pressure"]),
+            "description": "kPa and bar are gauge; the _abs units and psia are absolute.",
+        },
+        "mass": {"type": "string", "enum": list(REQUEST_UNITS["mass"])},
+    },
+    "additionalProperties": False,
+}
+_ALLOWED_UNIT_KEYS = {**REQUEST_UNITS, "temperature_difference": REQUEST_UNITS["temperature"]}
+
+
+@extend_schema_field(_REQUEST_UNITS_SCHEMA)
+class UnitsField(serializers.Field):
+    """``units``: what a request's numbers are in; what a response's numbers are in."""
+
+    default_error_messages = {
+        # Braces doubled: DRF formats the message.
+        "not_an_object": 'state units as an object, e.g. {{"temperature": "F", "pressure": '
+        '"psig", "mass": "lb"}}'
+    }
+
+    def __init__(self, **kwargs: Any) -> None:
+        kwargs.setdefault("required", False)
+        super().__init__(**kwargs)
+
+    def get_attribute(self, instance: Any) -> Any:
+        return instance
+
+    def to_representation(self, value: Any) -> dict[str, str]:
+        return response_units(self.context)
+
+    def to_internal_value(self, data: Any) -> dict[str, str]:
+        if not isinstance(data, dict):
+            self.fail("not_an_object")
+        errors: dict[str, list[str]] = {}
+        for key, value in data.items():
+            allowed = _ALLOWED_UNIT_KEYS.get(key)
+            if allowed is None:
+                errors[key] = ["not a kind of unit here; state temperature, pressure or mass"]
+            elif not isinstance(value, str) or value not in allowed:
+                errors[key] = [f"{value!r} is not a {key} unit; use one of {', '.join(allowed)}"]
+        if errors:
+            raise serializers.ValidationError(errors)
+        return dict(data)
+
+
+def measure_field(help_text: str, **kwargs: Any) -> serializers.FloatField:
+    return serializers.FloatField(required=False, allow_null=True, help_text=help_text, **kwargs)
+
+
+def check_in_service_era(value: dt.datetime) -> dt.datetime:
+    """Refuse times no service record can have. Before 1900 a zone's offset may be local
+    mean time (Chicago's was -05:50:36), which an RFC 3339 date-time cannot even write."""
+    if not SERVICE_ERA[0] <= value < SERVICE_ERA[1]:
+        raise serializers.ValidationError(
+            f"must fall in the years {SERVICE_ERA[0].year} to {SERVICE_ERA[1].year - 1}"
+        )
+    return value
+
+
+def check_not_future(value: dt.datetime) -> dt.datetime:
+    check_in_service_era(value)
+    if value > timezone.now() + FUTURE_SLACK:
+        raise serializers.ValidationError(
+            "is in the future (more than an hour ahead of the server clock)"
+        )
+    return value
+
+
+class UnknownAsNullChoiceField(serializers.ChoiceField):
+    """A choice a record may leave unknown: stored blank, written ``null`` (like every other
+    design value left to a default); ``null`` or ``""`` in a request mean unknown."""
+
+    def __init__(self, **kwargs: Any) -> None:
+        kwargs.setdefault("required", False)
+        super().__init__(allow_null=True, allow_blank=True, **kwargs)
+
+    def run_validation(self, data: Any = serializers.empty) -> Any:
+        value = super().run_validation(data)
+        return "" if value is None else value
+
+    def to_representation(self, value: Any) -> Any:
+        return None if value in ("", None) else super().to_representation(value)
+
+
+def legs_field(help_text: str) -> serializers.ListField:
+    return serializers.ListField(
+        child=serializers.FloatField(), max_length=3, required=False, help_text=help_text
+    )

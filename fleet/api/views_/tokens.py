@@ -1,0 +1,50 @@
+"""Tokens for phones: sign in for one, revoke it."""
+
+from __future__ import annotations
+
+from django.contrib.auth import authenticate
+from drf_spectacular.utils import extend_schema
+from rest_framework import status
+from rest_framework.authtoken.models import Token
+from rest_framework.exceptions import PermissionDenied, ValidationError
+from rest_framework.permissions import AllowAny, IsAuthenticated
+from rest_framework.request import Request
+from rest_framework.response import Response
+from rest_framework.views import APIView
+
+from fleet.api.permissions import role_of
+from fleet.api.serializers import TokenRequestSerializer, TokenSerializer
+from fleet.api.throttles import AuthRateThrottle
+
+
+class TokenView(APIView):
+    """A phone signs in once for a token (``Authorization: Token <key>``), and may revoke
+    it. Attempts are rate-limited per address. The office can also issue and revoke tokens
+    with ``manage.py api_token``."""
+
+    throttle_classes = [AuthRateThrottle]
+
+    def get_permissions(self) -> list:
+        return [AllowAny()] if self.request.method == "POST" else [IsAuthenticated()]
+
+    @extend_schema(request=TokenRequestSerializer, responses={200: TokenSerializer})
+    def post(self, request: Request) -> Response:
+        body = TokenRequestSerializer(data=request.data)
+        body.is_valid(raise_exception=True)
+        user = authenticate(
+            request,
+            username=body.validated_data["username"],
+            password=body.validated_data["password"],
+        )
+        if user is None:
+            raise ValidationError({"password": ["the username or the password is wrong"]})
+        role = role_of(user)
+        if role is None:
+            raise PermissionDenied("your account has no role in Rimewatch")
+        token, _ = Token.objects.get_or_create(user=user)
+        return Response({"token": token.key, "username": user.get_username(), "role": role})
+
+    @extend_schema(request=None, responses={204: None})
+    def delete(self, request: Request) -> Response:
+        Token.objects.filter(user=request.user).delete()
+        return Response(status=status.HTTP_204_NO_CONTENT)

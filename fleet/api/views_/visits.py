@@ -1,0 +1,159 @@
+"""Visits and their life cycle, each move recorded in the audit trail."""
+
+from __future__ import annotations
+
+from django.db import transaction
+from django.db.models import QuerySet
+from drf_spectacular.utils import extend_schema, extend_schema_view
+from rest_framework.decorators import action
+from rest_framework.request import Request
+from rest_framework.response import Response
+
+from fleet import audit, filtersets, services
+from fleet.api.permissions import OFFICE, TECHNICIAN, visible_visits
+from fleet.api.serializers import (
+    AuditEntrySerializer,
+    CancelSerializer,
+    ReviewSerializer,
+    SubmitSerializer,
+    VisitSerializer,
+)
+from fleet.choices import VisitStatus
+from fleet.models import AuditEntry, Visit
+
+from .base import Conflict, RecordViewSet
+
+
+@extend_schema_view(
+    start=extend_schema(request=None, responses={200: VisitSerializer}),
+    submit=extend_schema(request=SubmitSerializer, responses={200: VisitSerializer}),
+    review=extend_schema(request=ReviewSerializer, responses={200: VisitSerializer}),
+    cancel=extend_schema(request=CancelSerializer, responses={200: VisitSerializer}),
+    history=extend_schema(responses={200: AuditEntrySerializer(many=True)}),
+)
+class VisitViewSet(RecordViewSet):
+    """Visits: planned maintenance, service calls and follow-ups, and their life cycle:
+    scheduled -> in_progress -> submitted -> reviewed (or returned to in_progress), or
+    cancelled. An illegal move is answered 409."""
+
+    serializer_class = VisitSerializer
+    filterset_class = filtersets.VisitFilterSet
+    queryset = Visit.objects.all()
+    action_roles = {
+        "start": (OFFICE, TECHNICIAN),
+        "submit": (OFFICE, TECHNICIAN),
+        "review": (OFFICE,),
+        "cancel": (OFFICE,),
+    }
+
+    def get_queryset(self) -> QuerySet[Visit]:
+        qs = Visit.objects.select_related("site").prefetch_related("technicians", "units")
+        return visible_visits(self.request.user, qs.order_by("-window_start", "id"))
+
+    def perform_create(self, serializer: VisitSerializer) -> None:
+        with transaction.atomic():
+            visit = serializer.save()
+            audit.record_created(visit, by=self.request.user)
+
+    def perform_update(self, serializer: VisitSerializer) -> None:
+        visit = serializer.instance
+        before = {
+            **audit.snapshot(visit),
+            "units": sorted(u.pk for u in visit.units.all()),
+            "technicians": sorted(u.pk for u in visit.technicians.all()),
+        }
+        with transaction.atomic():
+            visit = serializer.save()
+            after = {
+                **audit.snapshot(visit),
+                "units": sorted(u.pk for u in visit.units.all()),
+                "technicians": sorted(u.pk for u in visit.technicians.all()),
+            }
+            changes = audit.diff(before, after)
+            if changes:
+                audit.record(
+                    visit, audit.AuditAction.CHANGED, by=self.request.user, changes=changes
+                )
+
+    def perform_destroy(self, instance: Visit) -> None:
+        services.delete_record(instance, by=self.request.user)
+
+    def _moved(self, visit: Visit) -> Response:
+        return Response(self.get_serializer(visit).data)
+
+    @action(detail=True, methods=["post"])
+    def start(self, request: Request, pk: str | None = None) -> Response:
+        """Begin work on a scheduled visit."""
+        visit = self.get_object()
+        if visit.status != VisitStatus.SCHEDULED:
+            # submitted -> in_progress is legal, but it is the office returning the visit.
+            raise Conflict(
+                {
+                    "status": [
+                        f"visit {visit.reference} is {visit.status}; only a scheduled "
+                        "visit can be started"
+                    ]
+                }
+            )
+        return self._moved(services.move_visit(visit, VisitStatus.IN_PROGRESS, by=request.user))
+
+    @action(detail=True, methods=["post"])
+    def submit(self, request: Request, pk: str | None = None) -> Response:
+        """Hand the visit to the office for review; nothing more can be posted to it."""
+        visit = self.get_object()
+        body = SubmitSerializer(data=request.data)
+        body.is_valid(raise_exception=True)
+        moved = services.move_visit(
+            visit,
+            VisitStatus.SUBMITTED,
+            by=request.user,
+            work_summary=body.validated_data.get("work_summary"),
+        )
+        return self._moved(moved)
+
+    @action(detail=True, methods=["post"])
+    def review(self, request: Request, pk: str | None = None) -> Response:
+        """Accept a submitted visit, or return it to the technician with a note."""
+        visit = self.get_object()
+        body = ReviewSerializer(data=request.data)
+        body.is_valid(raise_exception=True)
+        target = (
+            VisitStatus.REVIEWED
+            if body.validated_data["decision"] == "accept"
+            else VisitStatus.IN_PROGRESS
+        )
+        if target == VisitStatus.IN_PROGRESS and visit.status != VisitStatus.SUBMITTED:
+            raise Conflict(
+                {
+                    "status": [
+                        f"visit {visit.reference} is {visit.status}; only a "
+                        "submitted visit can be returned"
+                    ]
+                }
+            )
+        moved = services.move_visit(
+            visit, target, by=request.user, note=body.validated_data.get("note", "")
+        )
+        return self._moved(moved)
+
+    @action(detail=True, methods=["post"])
+    def cancel(self, request: Request, pk: str | None = None) -> Response:
+        """Call the visit off."""
+        visit = self.get_object()
+        body = CancelSerializer(data=request.data)
+        body.is_valid(raise_exception=True)
+        moved = services.move_visit(
+            visit, VisitStatus.CANCELLED, by=request.user, note=body.validated_data.get("note", "")
+        )
+        return self._moved(moved)
+
+    @action(detail=True, methods=["get"], filterset_class=None)
+    def history(self, request: Request, pk: str | None = None) -> Response:
+        """The audit trail of the visit, its reading sets and refrigerant events."""
+        visit = self.get_object()
+        entries = AuditEntry.objects.filter(visit_id=visit.pk).select_related(
+            "actor", "record_type"
+        )
+        page = self.paginate_queryset(entries)
+        data = AuditEntrySerializer(page, many=True).data
+        return self.get_paginated_response(data)
