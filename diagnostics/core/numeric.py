@@ -1,5 +1,5 @@
-"""Numbers in: a float, or a float array, from whatever a caller passes, refused clearly
-when it is not a number.
+"""Numbers in and out: a float, or a float array, from whatever a caller passes (refused
+clearly when it is not a number), and floats back out with None for what is missing.
 
 Shared by the unit conversions (``units.py``), the standard atmosphere (``atmosphere.py``)
 and the saturation tables (``saturation.py``); it imports nothing of ours, so none of them
@@ -8,6 +8,7 @@ imports another for it.
 
 from __future__ import annotations
 
+import math
 import numbers
 from decimal import Decimal
 from typing import Any
@@ -54,3 +55,24 @@ def as_numbers(value: Any, name: str = "value") -> float | FloatArray:
     bad = next(v for v in np.asarray(value, dtype=object).flat if not _is_scalar_number(v))
     bad = bad.item() if isinstance(bad, np.generic) else bad
     raise NotNumeric(f"{name} holds something that is not a number: {bad!r}")
+
+
+def optional(x: float) -> float | None:
+    """A float for a stored or shown value: NaN and the open ends of a band (+/-inf) become
+    None."""
+    x = float(x)
+    return None if not math.isfinite(x) else x
+
+
+#: Below this many rows plain Python beats numpy's per-call overhead (the one-row path).
+_FEW_ROWS = 16
+
+
+def optionals(values: FloatArray) -> list[float | None]:
+    """``optional`` over a column: one ``tolist`` and a patch of the few non-finite entries."""
+    out: list[Any] = values.tolist()
+    if len(out) < _FEW_ROWS:
+        return [v if math.isfinite(v) else None for v in out]
+    for j in np.flatnonzero(~np.isfinite(values)).tolist():
+        out[j] = None
+    return out

@@ -18,11 +18,14 @@ from diagnostics.core.diagnose import (
     PACKED_BYTES,
     ReadingColumns,
     UnitColumns,
+    details,
     diagnose,
     diagnose_batch,
     diagnose_row,
     expand_blobs,
+    row_diagnosis,
 )
+from diagnostics.core.stored import pack
 from diagnostics.core.targets import f_to_c
 from diagnostics.core.types import Reading, UnitDesign
 
@@ -377,7 +380,7 @@ def test_one_post_and_the_batch_share_one_implementation():
     assert len(batch) == 4
     for i, r in enumerate(readings):
         single = diagnose(units[index[i]], r)
-        assert batch.diagnosis(i) == single
+        assert row_diagnosis(batch, i) == single
         if single.score is None:
             assert np.isnan(batch.score[i])
         else:
@@ -532,7 +535,7 @@ def test_the_stored_form_of_a_batch_equals_each_row_diagnosed_alone():
     the details are plain JSON (no NaN, no tuples)."""
     units, readings, index, elevation = _varied_inputs()
     batch = _varied_batch()
-    rows = batch.details()
+    rows = details(batch)
     fired = {f["code"] for row in rows for f in row["findings"]}
     assert fired == {rule.code for rule in findings.RULES if rule.triggers}
     named = {a for row in rows for f in row["findings"] for a in f["alternatives"]}
@@ -544,8 +547,8 @@ def test_the_stored_form_of_a_batch_equals_each_row_diagnosed_alone():
     assert len(rows) == len(batch)
     for i, (reading, u, z) in enumerate(zip(readings, index, elevation, strict=True)):
         alone = diagnose_batch([units[u]], ReadingColumns.from_readings([reading]), z)
-        np.testing.assert_array_equal(alone.packed[0], batch.packed[i], err_msg=str(i))
-        assert alone.details()[0] == rows[i], i
+        np.testing.assert_array_equal(pack(alone)[0], pack(batch)[i], err_msg=str(i))
+        assert details(alone)[0] == rows[i], i
 
 
 def test_a_stored_row_of_another_layout_reads_as_no_details():
@@ -557,8 +560,8 @@ def test_a_stored_row_of_another_layout_reads_as_no_details():
     good, empty, short = expand_blobs([row["packed"], b"", row["packed"][:-4]])
     assert good["metrics"]
     assert good["cautions"]
-    for details in (empty, short):
-        assert details == {
+    for blank in (empty, short):
+        assert blank == {
             "targets": [],
             "metrics": [],
             "findings": [],
@@ -571,7 +574,7 @@ def test_a_site_without_a_usable_elevation_keeps_its_temperature_targets_only():
     """With no standard atmosphere for the site, the evaporating and condensing temperature
     targets stand but no gauge-pressure target is stored (there is no absolute to subtract
     from, and a NaN would not be valid JSON)."""
-    row = _varied_batch().details()[-1]
+    row = details(_varied_batch())[-1]
     names = {t["name"] for t in row["targets"]}
     assert {"evaporating_temp", "condensing_temp"} <= names
     assert not names & {"suction_pressure", "condensing_pressure"}
