@@ -212,7 +212,9 @@ def resolve(units: Sequence[UnitDesign] | UnitColumns) -> DesignTargets:
         ),
         subcooling_k=Resolved(0.5 * (sc_low + sc_high), sc_low, sc_high, receiver_origin),
         head_setpoint_c=Resolved(setpoint, held_low, held_high, setpoint_origin),
-        run_capacitor_tolerance_pct=Resolved(tol_pct, nan, nan, tolerance.origin),
+        run_capacitor_tolerance_pct=Resolved(
+            tol_pct, nan, nan, np.where(np.isnan(rating), tg.MISSING, tolerance.origin)
+        ),
         ice_machine=ice,
         water_cooled=u.water_cooled,
         basis_mid=u.basis_mid,

@@ -46,7 +46,8 @@ READING_FLAGS: tuple[str, ...] = (
 
 
 def _col(values: Sequence[float | None]) -> FloatArray:
-    return np.array([np.nan if v is None else float(v) for v in values], dtype=np.float64)
+    """Floats as a column, None as NaN (numpy reads None so for a float dtype)."""
+    return np.array(values, dtype=np.float64)
 
 
 def _legs(values: Sequence[Sequence[float]]) -> FloatArray:
@@ -195,7 +196,10 @@ class UnitColumns:
     @classmethod
     def from_designs(cls, designs: Sequence[UnitDesign]) -> UnitColumns:
         """Columns from design dataclasses; refrigerant names are normalised ('R404A')."""
-        names = [refrigerants.normalise_designation(d.refrigerant) for d in designs]
+        spelled = {
+            r: refrigerants.normalise_designation(r) for r in {d.refrigerant for d in designs}
+        }
+        names = [spelled[d.refrigerant] for d in designs]
         distinct = tuple(dict.fromkeys(names))
         apps = [d.application if d.application in APPLICATIONS else "other" for d in designs]
         app_code = np.array([APPLICATIONS.index(a) for a in apps], dtype=np.intp)
