@@ -6,7 +6,8 @@ The entry point of the core's judgement, built from modules of one job each:
 - ``design``: each unit's design quantities resolved (value, ok range, origin);
 - ``batch``: ``diagnose_batch``, every row judged at once in stages (saturation, derived
   values, graded metrics with what is excused, energy, signals and findings);
-- ``stored``: the stored form (numbers and codes), written column-wise for a batch;
+- ``stored`` and ``encode``: the stored form, a versioned JSON document of numbers and
+  codes (its layout and its readers, one per version), written column-wise for a batch;
 - ``details`` and ``texts``: the stored form read back with its texts (reasons, sources,
   evidence, advice, cautions), once per distinct case.
 
@@ -16,13 +17,15 @@ stored form, so what is shown is always what was stored.
 
 from __future__ import annotations
 
+import orjson
+
 from diagnostics.core.batch import (
     ALGORITHM_VERSION,
     BatchResult,
-    MetricColumns,
     diagnose_batch,
 )
-from diagnostics.core.details import Row, empty_details, expand, typed_details
+from diagnostics.core.details import Row, typed_details
+from diagnostics.core.encode import STORED_DERIVED, documents, stored_columns
 from diagnostics.core.inputs import (
     READING_FLAGS,
     READING_SCALARS,
@@ -30,32 +33,16 @@ from diagnostics.core.inputs import (
     UnitColumns,
 )
 from diagnostics.core.numeric import optional
-from diagnostics.core.reasons import REASON_HIDDEN
-from diagnostics.core.stored import (
-    PACKED_BYTES,
-    PACKED_COLUMNS,
-    PACKED_DTYPE,
-    STORED_DERIVED,
-    expand_blobs,
-    judged_derived,
-    pack,
-    packed_columns,
-    stored_columns,
-    unpack,
-)
+from diagnostics.core.stored import DOCUMENT_VERSION, read_details, read_numbers
 from diagnostics.core.types import DerivedValues, Diagnosis, Reading, UnitDesign
 
 __all__ = [
     "ALGORITHM_VERSION",
-    "PACKED_BYTES",
-    "PACKED_COLUMNS",
-    "PACKED_DTYPE",
+    "DOCUMENT_VERSION",
     "READING_FLAGS",
     "READING_SCALARS",
-    "REASON_HIDDEN",
     "STORED_DERIVED",
     "BatchResult",
-    "MetricColumns",
     "ReadingColumns",
     "Row",
     "UnitColumns",
@@ -63,10 +50,8 @@ __all__ = [
     "diagnose",
     "diagnose_batch",
     "diagnose_row",
-    "empty_details",
-    "expand_blobs",
-    "judged_derived",
-    "packed_columns",
+    "read_details",
+    "read_numbers",
     "row_diagnosis",
     "stored_columns",
     "typed_details",
@@ -75,8 +60,8 @@ __all__ = [
 
 def details(res: BatchResult) -> list[Row]:
     """Every row's targets, metrics, findings and cautions with their texts, read back from
-    the stored form as any stored diagnosis is."""
-    return expand(unpack(pack(res)))
+    its stored document as any stored diagnosis is."""
+    return read_details([orjson.loads(d) for d in documents(res)])
 
 
 def _row_derived(res: BatchResult, i: int) -> DerivedValues:
@@ -105,7 +90,7 @@ def _row_derived(res: BatchResult, i: int) -> DerivedValues:
 def row_diagnosis(res: BatchResult, i: int) -> Diagnosis:
     """Row ``i`` as the dataclasses a single POST returns: its stored form read back (the
     same code as for any stored row), typed, plus every derived value."""
-    row = expand(unpack(pack(res)[i : i + 1]))[0]
+    (row,) = read_details([orjson.loads(documents(res)[i])])
     targets, metrics, found, cautions = typed_details(row)
     return Diagnosis(
         score=optional(res.score[i]),
@@ -127,8 +112,10 @@ def diagnose(unit: UnitDesign, reading: Reading, elevation_m: float = 0.0) -> Di
 
 
 def diagnose_row(unit: UnitDesign, reading: Reading, elevation_m: float = 0.0) -> Row:
-    """One reading set as stored (the version, ``stored_columns`` of a batch of one),
-    without writing its texts: what the service stores for a single POST."""
+    """One reading set as stored (the version, ``stored_columns`` of a batch of one, the
+    document parsed as the model field holds it), without writing its texts: what the
+    service stores for a single POST."""
     result = diagnose_batch([unit], ReadingColumns.from_readings([reading]), elevation_m)
     row = {name: values[0] for name, values in stored_columns(result).items()}
+    row["document"] = orjson.loads(row["document"])
     return {"algorithm_version": result.algorithm_version, **row}

@@ -10,6 +10,8 @@ was missing (``missing_keys``), so its text is written once per distinct case.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 from numpy.typing import NDArray
 
@@ -28,6 +30,19 @@ REASON_SINGLE_PHASE = 6
 REASON_COMPRESSOR_OFF = 7
 REASON_DEFROST = 8
 REASON_ICE_MACHINE = 9
+
+#: Each reason by the name the stored form keeps (``REASON_NONE`` has none).
+REASON_CODES: dict[int, str] = {
+    REASON_WATER_COOLED: "water_cooled",
+    REASON_TRANSCRITICAL: "transcritical",
+    REASON_HEAD_CONTROL: "head_control",
+    REASON_HIDDEN: "hidden",
+    REASON_RUNNING_UNKNOWN: "running_unknown",
+    REASON_SINGLE_PHASE: "single_phase",
+    REASON_COMPRESSOR_OFF: "compressor_off",
+    REASON_DEFROST: "defrost",
+    REASON_ICE_MACHINE: "ice_machine",
+}
 
 #: Reasons that make a metric inapplicable to the unit (its target is not listed either).
 NOT_APPLICABLE = (
@@ -64,6 +79,40 @@ METRIC_NEEDS: dict[str, tuple[tuple[str, ...], str]] = {
 FIELD_MISSING, FIELD_PARTIAL = 1, 2
 TARGET_MISSING = 1 << 2 * max(len(fields) for fields, _ in METRIC_NEEDS.values())
 ATMOSPHERE_BAD = TARGET_MISSING << 1
+
+
+#: What a missing key's bits say, by the names the stored form keeps: a reading field not
+#: measured (its name), measured on fewer than three legs (``<name>:legs``), the unit's data
+#: not giving the target (``target``), the site's elevation unusable (``elevation``).
+def missing_codes(name: str, key: int) -> list[str]:
+    """The names of what metric ``name`` lacked, from its missing key."""
+    fields, _ = METRIC_NEEDS[name]
+    codes: list[str] = []
+    for k, f in enumerate(fields):
+        state = key >> 2 * k & 3
+        if state == FIELD_MISSING:
+            codes.append(f)
+        elif state == FIELD_PARTIAL:
+            codes.append(f"{f}:legs")
+    if key & TARGET_MISSING:
+        codes.append("target")
+    if key & ATMOSPHERE_BAD:
+        codes.append("elevation")
+    return codes
+
+
+def missing_key(name: str, codes: Sequence[str]) -> int:
+    """The missing key of metric ``name`` from the names of what it lacked (unknown names,
+    from a layout since changed, say nothing)."""
+    fields, _ = METRIC_NEEDS[name]
+    bits = {"target": TARGET_MISSING, "elevation": ATMOSPHERE_BAD}
+    for k, f in enumerate(fields):
+        bits[f] = FIELD_MISSING << 2 * k
+        bits[f"{f}:legs"] = FIELD_PARTIAL << 2 * k
+    key = 0
+    for code in codes:
+        key |= bits.get(code, 0)
+    return key
 
 
 def missing_keys(

@@ -1,269 +1,271 @@
-"""The stored form of a diagnosis: numbers and codes in one float32 row; the texts are
-written when it is read (``details.expand``).
+"""The stored form of a diagnosis: a versioned JSON document of numbers and codes, written
+for a batch by ``encode.py`` and read back here; its texts are written when it is read
+(``details.expand``).
 
-What is stored per row is ``pack``'s, made on columns for the whole batch; ``expand_blobs``
-reads rows back, so what is shown is always what was stored.
+Document version 1
+------------------
+One JSON object per diagnosis (``DOCUMENT_VERSION``; kept in the document itself, apart from
+the algorithm version, which says how the numbers were judged)::
+
+    {"document_version": 1,
+     "refrigerant": "R-404A",
+     "design": {"application": "medium_temp", "metering": "txv", "metering_given": true,
+                "receiver": true, "head_control": "other", "head_control_given": false,
+                "basis": "dew",
+                "origins": {"box_temp_c": "design", "condenser_split_k": "application_default",
+                            ...}},
+     "box_measured": true,
+     "saturation": {"evaporating_c": [-7.2, -9.2, -5.2], "suction_kpa_gauge": [...],
+                    "condensing_c": [...], "head_kpa_gauge": [...]},
+     "metrics": {"superheat": ["ok", 4.71, 4.44, 2.25, 6.64, 0.0, 0.0],
+                 "condenser_split": ["not_scored", 13.0, 14.0, 10.0, 17.0, null, 0.0,
+                                     "head_control"],
+                 "box_temp": ["not_scored", null, 1.67, -0.33, 3.67, null, 0.0,
+                              ["box_temp_c"]],
+                 ...},
+     "findings": {"undercharge": {"confidence": 0.8}},
+     "signals": ["bubbles", "td_high"]}
+
+- ``refrigerant``: the catalogue's designation. ``design``: what the unit's design data said
+  and what it left to its application (``metering`` and ``head_control`` as resolved, with
+  whether the unit gave them; ``receiver`` true, false or null for unknown; ``basis`` the
+  saturation point its TD and split are taken on: ``dew`` or ``mid_point``) and where each
+  resolved target came from (``origins``, by ``design.RESOLVED`` name: ``design``,
+  ``application_default`` or ``missing``).
+- ``box_measured``: the evaporating target was taken from the measured box (else the design
+  box). ``saturation``: the evaporating and condensing temperature targets (C) and the
+  gauge pressures at the site for them (kPa), each ``[target, ok low, ok high]``.
+- ``metrics``: the metrics of ``scoring.SCORING_TABLE`` that apply to what was found (one
+  that does not, such as the amps at standstill of a running compressor, is left out), each
+  ``[status, measured, target, low, high, deviation, points_lost]`` and, where it was not
+  scored, why: the status is ``ok``, ``watch``, ``fault`` or ``not_scored``; the numbers
+  are in the metric's unit (``SCORING_TABLE[name].unit``: C, K, kPa gauge, A, V, uF,
+  percent or a ratio); the why is a reason of the unit or the moment
+  (``reasons.REASON_CODES``: ``compressor_off``, ``head_control``...) or, for want of
+  inputs, the list of what was missing: the reading fields not measured, ``<field>:legs``
+  for fewer than three legs, ``target`` (the design data does not give it), ``elevation``
+  (no usable site elevation); an empty list: a pressure outside the refrigerant's
+  saturation range.
+- ``findings``: the rules that fired (``findings.RULES`` codes) with their confidence, 0-1.
+  ``signals``: the observations that held (``findings.SIGNALS``), from which the evidence
+  lines are written.
+
+Numbers are SI and rounded to four decimals; null stands for missing, and for the open end
+of a band. An object's key order means nothing (PostgreSQL's jsonb does not keep it).
+
+Reading and versions
+--------------------
+``read_details`` and ``read_numbers`` take documents as stored and decode each by its own
+``document_version`` (``_DECODERS``), so a document written under an older layout still
+reads after an upgrade: a new layout gets a new version and a new decoder, and the old
+decoders stay. A document of no known version (``{}``, nothing stored) reads as no details.
+Version history: 1 (this one) replaced a float32 row recognised by its length; migration
+``diagnostics 0005`` turned every such row into a version 1 document.
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
-from typing import Any
+from collections.abc import Callable, Mapping, Sequence
+from typing import Any, cast
 
 import numpy as np
-from numpy.typing import ArrayLike, NDArray
 
-from diagnostics.core import findings, refrigerants, texts
+from diagnostics.core import findings, texts
 from diagnostics.core import scoring as sc
-from diagnostics.core.batch import BatchResult, MetricColumns
-from diagnostics.core.design import ORIGINS
 from diagnostics.core.details import (
-    SATURATION_TARGETS,
     Row,
     StoredMetric,
     StoredRows,
     empty_details,
     expand,
 )
-from diagnostics.core.numeric import FloatArray, optionals
-from diagnostics.core.reasons import REASON_COMPRESSOR_OFF, REASON_DEFROST, missing_keys
-from diagnostics.core.types import APPLICATIONS, HEAD_PRESSURE_CONTROLS, METERING_DEVICES
-
-_METRIC_FIELDS = (*MetricColumns.__dataclass_fields__, "missing")
-_REFRIGERANTS: tuple[str, ...] = tuple(refrigerants.CATALOGUE)
-_SIGNAL_NAMES: tuple[str, ...] = tuple(findings.SIGNALS)
-_SIGNAL_INDEX = {name: j for j, name in enumerate(_SIGNAL_NAMES)}
-#: Signal bits per stored column: float32 holds whole numbers exactly up to 2**24.
-_WORD = 16
-#: What decides the texts saying where a row's targets came from.
-_SOURCE_CONTEXT: tuple[str, ...] = (
-    "application",
-    "metering",
-    "metering_given",
-    "receiver",
-    "receiver_given",
-    "origin_box",
-    "origin_evap_td",
-    "origin_split",
-    "origin_superheat",
-    "origin_run_cap_tol",
-    "control",
-    "control_given",
-    "origin_setpoint",
-    "basis_mid",
+from diagnostics.core.numeric import FloatArray
+from diagnostics.core.reasons import (
+    REASON_CODES,
+    REASON_NONE,
+    missing_key,
 )
-#: The stored form of a diagnosis: one float32 per column, in this order. Changing it
-#: changes what is stored: bump ``ALGORITHM_VERSION`` with it.
-PACKED_COLUMNS: tuple[str, ...] = (
-    "refrigerant",
-    "box_measured",
-    *_SOURCE_CONTEXT,
-    *SATURATION_TARGETS,
-    *(f"{name}:{f}" for name in sc.SCORING_TABLE for f in _METRIC_FIELDS),
-    "finding_mask",
-    *(f"confidence:{code}" for code in findings.RULE_CODES),
-    *(f"signals:{k}" for k in range(-(-len(_SIGNAL_NAMES) // _WORD))),
+from diagnostics.core.types import STATUSES
+
+#: The layout the documents written now follow; an older one keeps its decoder.
+DOCUMENT_VERSION = 1
+
+#: Stored numbers keep this many decimals (5.1 stays 5.1, not 5.099999904632568).
+DECIMALS = 4
+
+#: The order of a metric's ``values``.
+METRIC_VALUES: tuple[str, ...] = ("measured", "target", "low", "high", "deviation", "points")
+#: The saturation targets, each stored as ``[target, low, high]``.
+SATURATION_KEYS: tuple[str, ...] = (
+    "evaporating_c",
+    "suction_kpa_gauge",
+    "condensing_c",
+    "head_kpa_gauge",
 )
-PACKED_DTYPE = np.dtype("<f4")
-PACKED_BYTES = len(PACKED_COLUMNS) * PACKED_DTYPE.itemsize
-_AT = {name: i for i, name in enumerate(PACKED_COLUMNS)}
-if len(findings.RULES) > 24:
-    raise ValueError("the stored finding mask is one float32 column: at most 24 rules")
-if len(_SIGNAL_NAMES) > 64:
-    raise ValueError("signals are packed from one 64-bit word: at most 64 signals")
 
-#: Stored numbers are float32 (7 significant digits); read back they are rounded to this many
-#: decimals so 5.1 stays 5.1 and not 5.099999904632568.
-_DECIMALS = 4
+#: A stored document: JSON object as the database gives it back.
+Document = Mapping[str, Any]
 
 
-def pack(res: BatchResult) -> NDArray[np.float32]:
-    """Every row of the batch in its stored form: an (n, len(PACKED_COLUMNS)) float32 array."""
-    n = len(res)
-    out = np.zeros((n, len(PACKED_COLUMNS)), dtype=PACKED_DTYPE)
+def _version(document: object) -> int | None:
+    """The document's layout version, None for none this code reads."""
+    if isinstance(document, Mapping):
+        version = document.get("document_version")
+        if isinstance(version, int) and version in _DECODERS:
+            return version
+    return None
 
-    def put(name: str, values: ArrayLike) -> None:
-        out[:, _AT[name]] = values
 
-    uc, u, t = res.units, res.unit_index, res.unit_targets
-    catalogue = np.array([_REFRIGERANTS.index(d) for d in uc.refrigerants], dtype=np.intp)
-    per_unit: dict[str, ArrayLike] = {
-        "refrigerant": catalogue[uc.refrigerant_code],
-        "application": uc.application_code,
-        "metering": uc.metering_code,
-        "metering_given": uc.metering_given,
-        "receiver": uc.has_receiver,
-        "receiver_given": [d.has_receiver is not None for d in uc.designs],
-        "origin_box": t.box_temp_c.origin,
-        "origin_evap_td": t.evap_td_k.origin,
-        "origin_split": t.condenser_split_k.origin,
-        "origin_superheat": t.superheat_k.origin,
-        "origin_run_cap_tol": t.run_capacitor_tolerance_pct.origin,
-        "control": uc.control_code,
-        "control_given": uc.control_given,
-        "origin_setpoint": t.head_setpoint_c.origin,
-        "basis_mid": uc.basis_mid,
-    }
-    for name, values in per_unit.items():
-        put(name, np.asarray(values)[u])
-    put("box_measured", np.isfinite(res.readings.box_temp_c))
-    for name in SATURATION_TARGETS:
-        put(name, res.saturation_targets[name])
-    for name in sc.SCORING_TABLE:
-        c = res.metrics[name]
-        for f in MetricColumns.__dataclass_fields__:
-            put(f"{name}:{f}", getattr(c, f))
-        unscored = c.status == sc.NOT_SCORED
-        if unscored.any():
-            target_missing = ~np.isfinite(c.target) | np.isnan(c.low) | np.isnan(c.high)
-            keys = missing_keys(res.readings, res.atmosphere_kpa, name, target_missing)
-            put(f"{name}:missing", np.where(unscored, keys, 0))
-    put("finding_mask", res.finding_mask)
-    for bit, code in enumerate(findings.RULE_CODES):
-        put(f"confidence:{code}", res.finding_confidence[bit])
-    bits = np.zeros(n, dtype=np.uint64)
-    for name, held in res.signals.items():
-        bits |= held.astype(np.uint64) << np.uint64(_SIGNAL_INDEX[name])
-    for k in range(-(-len(_SIGNAL_NAMES) // _WORD)):
-        put(f"signals:{k}", (bits >> np.uint64(k * _WORD)) & np.uint64((1 << _WORD) - 1))
+def _by_version(docs: Sequence[object]) -> dict[int, list[tuple[int, Document]]]:
+    """The documents of each known version, with their positions."""
+    out: dict[int, list[tuple[int, Document]]] = {}
+    for j, doc in enumerate(docs):
+        version = _version(doc)
+        if version is not None:
+            out.setdefault(version, []).append((j, cast(Document, doc)))
     return out
 
 
-def to_blobs(packed: NDArray[np.float32]) -> list[bytes]:
-    """One ``bytes`` per packed row, as the database keeps it."""
-    data = np.ascontiguousarray(packed, dtype=PACKED_DTYPE).tobytes()
-    return [data[i : i + PACKED_BYTES] for i in range(0, len(data), PACKED_BYTES)]
+def _floats(values: list[Any]) -> FloatArray:
+    """JSON numbers as floats, NaN for null."""
+    return np.array(values, dtype=np.float64)
 
 
-def _fitting(blobs: Sequence[bytes | memoryview]) -> tuple[list[int], NDArray[np.float32]]:
-    """The positions of the blobs of this layout, and those blobs as one matrix."""
-    fit = [j for j, blob in enumerate(blobs) if len(blob) == PACKED_BYTES]
-    data = b"".join(bytes(blobs[j]) for j in fit)
-    return fit, np.frombuffer(data, dtype=PACKED_DTYPE).reshape(len(fit), len(PACKED_COLUMNS))
+_STATUS_CODE = {status: k for k, status in enumerate(STATUSES)}
+_REASON_CODE = {code: k for k, code in REASON_CODES.items()}
+#: A metric a document leaves out (it did not apply, or it is newer than the document).
+_LEFT_OUT = ["not_scored", None, None, None, None, None, 0.0, "hidden"]
 
 
-def unpack(packed: NDArray[np.float32]) -> StoredRows:
-    """Packed rows as the columns ``details.expand`` reads."""
-    cols = np.round(packed.astype(np.float64), _DECIMALS).T
+def _why(name: str, entry: list[Any]) -> tuple[int, int]:
+    """A version 1 metric entry's reason code and missing key (its optional last item)."""
+    why = entry[len(METRIC_VALUES) + 1] if len(entry) > len(METRIC_VALUES) + 1 else None
+    if isinstance(why, str):
+        return _REASON_CODE.get(why, REASON_NONE), 0
+    return REASON_NONE, missing_key(name, why or ())
 
-    def num(name: str) -> FloatArray:
-        return cols[_AT[name]]
 
-    def code(name: str) -> NDArray[np.int64]:
-        return cols[_AT[name]].astype(np.int64)
-
-    words = [code(f"signals:{w}") for w in range(-(-len(_SIGNAL_NAMES) // _WORD))]
-    signals = {
-        name: ((words[j // _WORD] >> (j % _WORD)) & 1) == 1 for j, name in enumerate(_SIGNAL_NAMES)
+def _rows_v1(docs: Sequence[Document]) -> StoredRows:
+    """Version 1 documents as the columns ``details.expand`` reads. What the code no longer
+    knows (a metric, rule or signal since removed) is left out; what a document does not
+    hold (one since added) reads as not shown."""
+    metrics: dict[str, StoredMetric] = {}
+    for name in sc.SCORING_TABLE:
+        entries = [d["metrics"].get(name, _LEFT_OUT) for d in docs]
+        values = _floats([e[1 : len(METRIC_VALUES) + 1] for e in entries]).reshape(
+            len(docs), len(METRIC_VALUES)
+        )
+        measured, target, low, high, deviation, points = values.T
+        why = np.array([_why(name, e) for e in entries], dtype=np.int64).reshape(len(docs), 2)
+        metrics[name] = StoredMetric(
+            measured=measured,
+            target=target,
+            low=low,
+            high=high,
+            deviation=deviation,
+            points=points,
+            status=np.array([_STATUS_CODE[e[0]] for e in entries], dtype=np.int64),
+            reason=why[:, 0],
+            missing=why[:, 1],
+        )
+    confidence = {
+        code: _floats([d["findings"].get(code, {}).get("confidence") for d in docs])
+        for code in findings.RULE_CODES
     }
-    context = np.nan_to_num(packed[:, [_AT[c] for c in _SOURCE_CONTEXT]], nan=-1.0).tolist()
+    mask = np.zeros(len(docs), dtype=np.int64)
+    for bit, code in enumerate(findings.RULE_CODES):
+        mask |= np.isfinite(confidence[code]).astype(np.int64) << bit
+    held = [set(d["signals"]) for d in docs]
+    saturation = {
+        key + edge: _floats([d["saturation"][key][k] for d in docs])
+        for key in SATURATION_KEYS
+        for k, edge in enumerate(("", "_low", "_high"))
+    }
     return StoredRows(
-        refrigerant=tuple(_REFRIGERANTS[r] for r in code("refrigerant").tolist()),
-        box_measured=code("box_measured") == 1,
-        context=tuple(
-            texts.SourceContext(
-                application=APPLICATIONS[int(c[0])],
-                metering=METERING_DEVICES[int(c[1])],
-                metering_given=c[2] == 1,
-                receiver=None if c[3] < 0 else c[3] == 1,
-                receiver_given=c[4] == 1,
-                box=ORIGINS[int(c[5])],
-                evap_td=ORIGINS[int(c[6])],
-                split=ORIGINS[int(c[7])],
-                superheat=ORIGINS[int(c[8])],
-                run_cap_tolerance=ORIGINS[int(c[9])],
-                control=HEAD_PRESSURE_CONTROLS[int(c[10])],
-                control_given=c[11] == 1,
-                setpoint=ORIGINS[int(c[12])],
-                basis_mid=c[13] == 1,
-            )
-            for c in context
-        ),
-        saturation={name: num(name) for name in SATURATION_TARGETS},
-        metrics={
-            name: StoredMetric(
-                measured=num(f"{name}:measured"),
-                target=num(f"{name}:target"),
-                low=num(f"{name}:low"),
-                high=num(f"{name}:high"),
-                deviation=num(f"{name}:deviation"),
-                points=num(f"{name}:points"),
-                status=code(f"{name}:status"),
-                reason=code(f"{name}:reason"),
-                missing=code(f"{name}:missing"),
-            )
-            for name in sc.SCORING_TABLE
+        refrigerant=tuple(d["refrigerant"] for d in docs),
+        box_measured=np.array([d["box_measured"] for d in docs], dtype=bool),
+        context=tuple(_context_v1(d["design"]) for d in docs),
+        saturation=saturation,
+        metrics=metrics,
+        confidence=confidence,
+        finding_mask=mask,
+        signals={
+            name: np.array([name in h for h in held], dtype=bool) for name in findings.SIGNALS
         },
-        confidence={c: num(f"confidence:{c}") for c in findings.RULE_CODES},
-        finding_mask=code("finding_mask"),
-        signals=signals,
     )
 
 
-def expand_blobs(blobs: Sequence[bytes | memoryview]) -> list[Row]:
-    """Stored blobs back to their details, all at once. A blob of another length (empty,
-    or stored under another layout) has empty details until it is rescored."""
-    fit, matrix = _fitting(blobs)
-    out = [empty_details() for _ in blobs]
-    if fit:
-        for j, row in zip(fit, expand(unpack(matrix)), strict=True):
+def _context_v1(design: Document) -> texts.SourceContext:
+    origins = design["origins"]
+    return texts.SourceContext(
+        application=design["application"],
+        metering=design["metering"],
+        metering_given=design["metering_given"],
+        receiver=design["receiver"],
+        receiver_given=origins["subcooling_k"] == "design",
+        box=origins["box_temp_c"],
+        evap_td=origins["evap_td_k"],
+        split=origins["condenser_split_k"],
+        superheat=origins["superheat_k"],
+        run_cap_tolerance=origins["run_capacitor_tolerance_pct"],
+        control=design["head_control"],
+        control_given=design["head_control_given"],
+        setpoint=origins["head_setpoint_c"],
+        basis_mid=design["basis"] == "mid_point",
+    )
+
+
+#: A saturation target's name (``condensing_c``, its band ``condensing_c_low``...) -> its
+#: key and place in ``[target, low, high]``.
+_SATURATION_AT: dict[str, tuple[str, int]] = {
+    key + edge: (key, k) for key in SATURATION_KEYS for k, edge in enumerate(("", "_low", "_high"))
+}
+
+
+def _number_v1(doc: Document, name: str) -> float | None:
+    """One number of a version 1 document: a saturation target or a metric's value
+    (``superheat:low``)."""
+    if name in _SATURATION_AT:
+        key, k = _SATURATION_AT[name]
+        value = doc["saturation"][key][k]
+    else:
+        metric, field = name.split(":")
+        entry = doc["metrics"].get(metric)
+        value = None if entry is None else entry[1 + METRIC_VALUES.index(field)]
+    return None if value is None else float(value)
+
+
+#: Document version -> (its decoder to columns, its reader of one number).
+_DECODERS: dict[
+    int,
+    tuple[Callable[[Sequence[Document]], StoredRows], Callable[[Document, str], float | None]],
+] = {
+    1: (_rows_v1, _number_v1),
+}
+
+
+def read_details(docs: Sequence[object]) -> list[Row]:
+    """Stored documents back to their details (``details.expand``), all at once, each by its
+    own version; a document of no known version (nothing stored) has empty details."""
+    out = [empty_details() for _ in docs]
+    for version, found in _by_version(docs).items():
+        decode, _ = _DECODERS[version]
+        for (j, _doc), row in zip(found, expand(decode([d for _, d in found])), strict=True):
             out[j] = row
     return out
 
 
-def packed_columns(
-    blobs: Sequence[bytes | memoryview], names: Sequence[str]
-) -> dict[str, FloatArray]:
-    """Some numbers of stored rows as float columns (NaN where a blob does not fit), for
-    readers that want values, not texts: ``"superheat:low"``, ``"condensing_c"``..."""
-    out = {name: np.full(len(blobs), np.nan) for name in names}
-    fit, matrix = _fitting(blobs)
-    for name in names:
-        out[name][fit] = np.round(matrix[:, _AT[name]].astype(np.float64), _DECIMALS)
+def read_numbers(docs: Sequence[object], names: Sequence[str]) -> dict[str, FloatArray]:
+    """Some numbers of stored documents as float columns (NaN where a document has none),
+    for readers that want values, not texts: a saturation target (``condensing_c``, with
+    its band ``condensing_c_low`` and ``condensing_c_high``) or a metric's value
+    (``superheat:low``, by ``METRIC_VALUES`` name)."""
+    out = {name: np.full(len(docs), np.nan) for name in names}
+    for version, found in _by_version(docs).items():
+        _, number = _DECODERS[version]
+        for j, doc in found:
+            for name in names:
+                value = number(doc, name)
+                if value is not None:
+                    out[name][j] = value
     return out
-
-
-#: Derived values stored as columns (trends read them without reading the details), each
-#: where it was judged only (``judged_derived``).
-STORED_DERIVED: tuple[str, ...] = (
-    "evaporating_c",
-    "condensing_c",
-    "superheat_k",
-    "subcooling_k",
-    "evaporator_td_k",
-    "condenser_split_k",
-    "compression_ratio",
-)
-
-#: Stored derived value -> the metric whose judgement it follows (the others: running only).
-_JUDGED_BY: dict[str, str] = {
-    "superheat_k": "superheat",
-    "subcooling_k": "subcooling",
-    "evaporator_td_k": "evaporator_td",
-    "condenser_split_k": "condenser_split",
-    "compression_ratio": "compression_ratio",
-}
-
-
-def judged_derived(res: BatchResult, name: str) -> FloatArray:
-    """A stored derived value where the diagnosis judged it (``STORED_DERIVED``), NaN
-    elsewhere: trends and charts then follow exactly what was judged, never a split the
-    head-pressure control held up or a pressure read with the compressor off."""
-    metric = _JUDGED_BY.get(name)
-    values = res.derived[name]
-    if metric is None:
-        off = np.isin(res.metrics["superheat"].reason, (REASON_COMPRESSOR_OFF, REASON_DEFROST))
-        return np.where(off, np.nan, values)
-    return np.where(res.metrics[metric].status != sc.NOT_SCORED, values, np.nan)
-
-
-def stored_columns(res: BatchResult) -> dict[str, list[Any]]:
-    """Every stored field of the batch but the version, one list per column (None where
-    missing): the score, the energy penalty, the derived values trends read, and ``packed``
-    (the stored form, one ``bytes`` per row)."""
-    return {
-        "score": optionals(res.score),
-        "energy_penalty_pct": optionals(res.energy_penalty_pct),
-        **{name: optionals(judged_derived(res, name)) for name in STORED_DERIVED},
-        "packed": to_blobs(pack(res)),
-    }

@@ -30,7 +30,7 @@ def _imports(path: Path) -> set[str]:
 
 def test_it_finds_no_django_or_record_import_in_the_core():
     """Every module under diagnostics/core/ imports only the standard library, numpy, scipy,
-    CoolProp and the core itself."""
+    CoolProp, orjson and the core itself."""
     core_dir = Path(diagnostics.core.__file__).parent
     modules = sorted(core_dir.glob("*.py"))
     assert len(modules) > 3

@@ -104,7 +104,10 @@ def test_an_insert_stores_what_the_orm_save_stores():
     _equal_rows(ReadingSet, reading_set.pk, twin.pk, skip)
 
     values = dict(
-        algorithm_version="t", score=71.5, computed_at=timezone.now(), packed=b"\x00\x01\xff"
+        algorithm_version="t",
+        score=71.5,
+        computed_at=timezone.now(),
+        document={"signals": ["bubbles"]},
     )
     ours, theirs = (
         Diagnosis(reading_set=reading_set, **values),

@@ -15,17 +15,16 @@ from hypothesis import strategies as st
 from diagnostics.core import findings, saturation
 from diagnostics.core.diagnose import (
     ALGORITHM_VERSION,
-    PACKED_BYTES,
     ReadingColumns,
     UnitColumns,
     details,
     diagnose,
     diagnose_batch,
     diagnose_row,
-    expand_blobs,
+    read_details,
     row_diagnosis,
 )
-from diagnostics.core.stored import pack
+from diagnostics.core.encode import documents
 from diagnostics.core.targets import f_to_c
 from diagnostics.core.types import Reading, UnitDesign
 
@@ -528,8 +527,9 @@ def _varied_batch():
 
 
 def test_the_stored_form_of_a_batch_equals_each_row_diagnosed_alone():
-    """``packed`` (what ``manage.py rescore`` stores, built on columns) holds for every row
-    exactly what diagnosing that reading alone stores, and reads back to the same details,
+    """The stored documents (what ``manage.py rescore`` stores, built on columns) hold for
+    every row exactly what diagnosing that reading alone stores, and read back to the same
+    details,
     on a batch where every finding fires, fields are missing, R-744 runs above its critical
     point, a condenser is water-cooled, a blend glides and one site's elevation is unusable;
     the details are plain JSON (no NaN, no tuples)."""
@@ -547,21 +547,21 @@ def test_the_stored_form_of_a_batch_equals_each_row_diagnosed_alone():
     assert len(rows) == len(batch)
     for i, (reading, u, z) in enumerate(zip(readings, index, elevation, strict=True)):
         alone = diagnose_batch([units[u]], ReadingColumns.from_readings([reading]), z)
-        np.testing.assert_array_equal(pack(alone)[0], pack(batch)[i], err_msg=str(i))
+        assert documents(alone) == documents(batch)[i : i + 1], i
         assert details(alone)[0] == rows[i], i
 
 
-def test_a_stored_row_of_another_layout_reads_as_no_details():
-    """A stored row is ``PACKED_BYTES`` long; an empty one or one of another length (stored
-    under an older layout, waiting for ``manage.py rescore``) reads as empty details rather
-    than as numbers in the wrong places."""
+def test_a_document_of_no_known_version_reads_as_no_details():
+    """Nothing stored (an empty document), a document of a version this code does not know
+    or no document at all reads as empty details rather than as numbers in the wrong
+    places; a current one reads with its metrics and cautions."""
     row = diagnose_row(R404A_MT, FULL)
-    assert len(row["packed"]) == PACKED_BYTES
-    good, empty, short = expand_blobs([row["packed"], b"", row["packed"][:-4]])
+    unknown = {**row["document"], "document_version": 999}
+    good, *blank = read_details([row["document"], {}, unknown, None])
     assert good["metrics"]
     assert good["cautions"]
-    for blank in (empty, short):
-        assert blank == {
+    for details_read in blank:
+        assert details_read == {
             "targets": [],
             "metrics": [],
             "findings": [],
@@ -599,10 +599,10 @@ def test_the_one_post_path_stores_what_the_dataclass_path_gives():
             ("condenser_split", expected.derived.condenser_split_k),
         ):
             assert row[f"{name}_k"] == (value if name in judged else None)
-        details = expand_blobs([row["packed"]])[0]
+        (details_read,) = read_details([row["document"]])
         for name in ("targets", "metrics", "cautions"):
-            assert details[name] == [dataclasses.asdict(x) for x in getattr(expected, name)]
-        assert details["findings"] == [
+            assert details_read[name] == [dataclasses.asdict(x) for x in getattr(expected, name)]
+        assert details_read["findings"] == [
             {
                 **dataclasses.asdict(f),
                 "evidence": list(f.evidence),
