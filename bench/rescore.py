@@ -10,7 +10,8 @@ side by side in one run, on the same stored rows:
   the share spent in the core (``diagnose_batch`` and ``stored_columns``);
 - floor: the same reads (ids, then ``values_list`` in batches) and the same number of
   Diagnosis rows written the same way (``services.store_diagnoses``), with no computation:
-  the content is copied from real diagnoses, so the rows written have the same size;
+  the content is copied from real diagnoses (their documents as the same JSON text), so
+  the rows written have the same size;
 - one POST of a reading set with its diagnosis through the test client (median of
   ``--posts``).
 
@@ -39,6 +40,7 @@ from collections.abc import Callable, Iterator
 from pathlib import Path
 
 import numpy as np
+import orjson
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
@@ -289,9 +291,13 @@ def _per_row(sample: int) -> tuple[float, list[tuple]]:
     for pk in chosen:
         services.diagnose_reading_set(services.reading_sets_for_diagnosis().get(pk=pk))
     seconds = time.perf_counter() - t
-    stored = list(
-        Diagnosis.objects.values_list("algorithm_version", *services._STORED_FIELDS_OF_CORE)
-    )
+    # The rows as the vectorised path writes them: the document as its JSON text.
+    stored = [
+        (*row[:-1], orjson.dumps(row[-1]).decode())
+        for row in Diagnosis.objects.values_list(
+            "algorithm_version", *services._STORED_FIELDS_OF_CORE
+        )
+    ]
     Diagnosis.objects.all().delete()
     return seconds, stored
 

@@ -14,7 +14,6 @@ import gc
 from collections import defaultdict
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
-from functools import cache
 from typing import NamedTuple
 from zoneinfo import ZoneInfo
 
@@ -23,8 +22,8 @@ from django.db.models import Max, Min, Q, QuerySet
 from django.utils import timezone
 from numpy.typing import NDArray
 
-from diagnostics.core import flags, leaks, maintenance, start_risk, targets, trends
-from diagnostics.core.types import APPLICATIONS
+from diagnostics.core import design, flags, leaks, maintenance, start_risk, trends
+from diagnostics.core.types import UnitDesign
 from fleet.choices import ComponentKind, RefrigerantEventKind, Stage, VisitKind, VisitStatus
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit, VisitUnit
 
@@ -53,17 +52,6 @@ _READING_FIELDS = (
     "call_for_cooling",
     "in_defrost",
 )
-
-
-@cache
-def _default_split_k(application: str) -> float:
-    """The application's default split; a fleet has a few applications, so a few calls."""
-    code = np.array([APPLICATIONS.index(application) if application in APPLICATIONS else 4])
-    return float(targets.default_condenser_split_k(code)[0])
-
-
-def _design_split_k(application: str, design: float | None) -> float:
-    return design if design is not None else _default_split_k(application)
 
 
 @dataclass(frozen=True, eq=False)
@@ -345,10 +333,29 @@ def _gather(
     for event in queries.events:
         events[event["visit_unit__unit_id"]].append(event)
     visits = {row["unit_id"]: row for row in queries.visits}
+    splits = _design_splits_k(units)
     return [
-        _history(u, readings, parts[u["id"]], events[u["id"]], visits.get(u["id"]), method, today)
-        for u in units
+        _history(
+            u, split, readings, parts[u["id"]], events[u["id"]], visits.get(u["id"]), method, today
+        )
+        for u, split in zip(units, splits, strict=True)
     ]
+
+
+def _design_splits_k(units: list[dict]) -> list[float]:
+    """Each unit's design condenser split as the diagnosis resolves it (``design.resolve``:
+    its design data, else its application's default): the split its drift is judged from."""
+    resolved = design.resolve(
+        [
+            UnitDesign(
+                refrigerant=u["refrigerant__designation"],
+                application=u["application"],
+                design_condenser_split_k=u["design_condenser_split_k"],
+            )
+            for u in units
+        ]
+    )
+    return resolved.condenser_split_k.value.tolist()
 
 
 def _capacitor_series(readings: _Readings, rows: slice, parts: list[dict]) -> tuple:
@@ -380,6 +387,7 @@ def _capacitor_series(readings: _Readings, rows: slice, parts: list[dict]) -> tu
 
 def _history(
     u: dict,
+    design_split_k: float,
     readings: _Readings,
     parts: list[dict],
     events: list[dict],
@@ -397,7 +405,7 @@ def _history(
             readings.entering_air_c[rows][found],
             readings.as_left[rows][found],
         ),
-        design_split_k=_design_split_k(u["application"], u["design_condenser_split_k"]),
+        design_split_k=design_split_k,
         head=(
             trends.HeadPressureLimit(
                 refrigerant=u["refrigerant__designation"],

@@ -7,7 +7,7 @@ shows what was computed then; `manage.py rescore` replaces diagnoses whose versi
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Mapping
+from collections.abc import Iterable, Mapping, Sequence
 from functools import cached_property
 from typing import Any
 
@@ -17,14 +17,25 @@ from django.db.models import Q
 
 from diagnostics.core import diagnose as core_diagnose
 from diagnostics.core import wording
+from diagnostics.core.numeric import FloatArray
 from fleet.display import display_for
 from fleet.models import ReadingSet, RefrigerantEvent, Unit
 
 
+class DiagnosisQuerySet(models.QuerySet["Diagnosis"]):
+    """Stored diagnoses, queried by what their documents hold."""
+
+    def with_finding(self, code: str) -> DiagnosisQuerySet:
+        """Diagnoses that found ``code`` (a ``findings.RULES`` code): a key lookup in the
+        document, the same SQL question on SQLite and PostgreSQL."""
+        return self.filter(document__findings__has_key=code)
+
+
 class Diagnosis(models.Model):
     """The core's judgement on one reading set: the score and the values trends read as
-    columns, everything else (targets, metrics, findings, cautions) in ``packed``, the core's
-    stored form, which ``details`` turns back into texts."""
+    columns, everything else (targets, metrics, findings, cautions) in ``document``, the
+    core's stored form (``diagnostics.core.stored``: versioned JSON of numbers and codes),
+    whose texts ``details`` writes when it is read."""
 
     reading_set = models.OneToOneField(
         ReadingSet, on_delete=models.CASCADE, related_name="diagnosis"
@@ -44,9 +55,13 @@ class Diagnosis(models.Model):
     condenser_split_k = models.FloatField(null=True, blank=True)
     compression_ratio = models.FloatField(null=True, blank=True)
     computed_at = models.DateTimeField()
-    packed = models.BinaryField(
-        default=bytes, help_text="The core's stored form (diagnose.PACKED_COLUMNS, float32)."
+    document = models.JSONField(
+        default=dict,
+        help_text="The core's stored form: numbers and codes, with its document_version "
+        "(diagnostics.core.stored); empty when nothing was stored.",
     )
+
+    objects = DiagnosisQuerySet.as_manager()
 
     class Meta:
         verbose_name_plural = "diagnoses"
@@ -66,16 +81,29 @@ class Diagnosis(models.Model):
     @cached_property
     def details(self) -> dict[str, Any]:
         """Targets, metrics, findings, cautions and glide choice with their texts."""
-        return core_diagnose.expand_blobs([self.packed])[0]
+        return core_diagnose.read_details([self.document])[0]
 
     @staticmethod
-    def attach_details(diagnoses: Iterable[Diagnosis]) -> None:
-        """Expand many diagnoses in one pass (a page or report of them) instead of one by one."""
+    def attach_details(diagnoses: Iterable[Diagnosis | None]) -> None:
+        """Read many diagnoses in one pass (a page or report of them) instead of one by one."""
         rows = [d for d in diagnoses if d is not None and "details" not in d.__dict__]
         for diagnosis, details in zip(
-            rows, core_diagnose.expand_blobs([d.packed for d in rows]), strict=True
+            rows, core_diagnose.read_details([d.document for d in rows]), strict=True
         ):
             diagnosis.details = details
+
+    @staticmethod
+    def details_of(documents: Sequence[object]) -> list[dict[str, Any]]:
+        """The details of stored documents fetched as values (``details``' texts), in one
+        pass: for readers that select the documents with other columns."""
+        return core_diagnose.read_details(documents)
+
+    @staticmethod
+    def numbers_of(documents: Sequence[object], names: Sequence[str]) -> dict[str, FloatArray]:
+        """Some numbers of stored documents (``stored.read_numbers`` names them: a
+        saturation target such as ``condensing_c``, or a metric's ``superheat:low``), NaN
+        where a document holds none."""
+        return core_diagnose.read_numbers(documents, names)
 
     @property
     def targets(self) -> list[dict[str, Any]]:

@@ -141,7 +141,12 @@ _FETCHED = (
     "sight_glass",
 )
 #: The model columns ``core_diagnose.stored_columns`` fills.
-_STORED_FIELDS_OF_CORE = ("score", "energy_penalty_pct", *core_diagnose.STORED_DERIVED, "packed")
+_STORED_FIELDS_OF_CORE = (
+    "score",
+    "energy_penalty_pct",
+    *core_diagnose.STORED_DERIVED,
+    "document",
+)
 
 
 def _columns(rows: list[tuple]) -> tuple[np.ndarray, core_diagnose.ReadingColumns]:
@@ -166,7 +171,10 @@ def _upsert_sql() -> str:
     columns = ("reading_set_id", "algorithm_version", *_STORED_FIELDS_OF_CORE, "computed_at")
     names = ", ".join(quote(c) for c in columns)
     updates = ", ".join(f"{quote(c)} = EXCLUDED.{quote(c)}" for c in columns[1:])
-    marks = ", ".join(["%s"] * len(columns))
+    # The document comes as the JSON text the core wrote; PostgreSQL's jsonb takes it by a
+    # cast, SQLite keeps the text as it is.
+    document = "%s::jsonb" if connection.vendor == "postgresql" else "%s"
+    marks = ", ".join(document if c == "document" else "%s" for c in columns)
     return (
         f"INSERT INTO {table} ({names}) VALUES ({marks}) "
         f"ON CONFLICT ({quote('reading_set_id')}) DO UPDATE SET {updates}"
@@ -179,7 +187,7 @@ def store_diagnoses(ids: list[int], version: str, columns: dict[str, list], now)
 
     ``bulk_create`` prepares every value of every row through its field (three quarters of
     a million-row rescore went there); these values are already what the columns hold:
-    floats or None, bytes, and one datetime adapted once.
+    floats or None, the document's JSON text, and one datetime adapted once.
     """
     stamp = Diagnosis._meta.get_field("computed_at").get_db_prep_value(now, connection)
     params = zip(

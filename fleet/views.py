@@ -985,7 +985,7 @@ def site_detail(request: HttpRequest, pk: int) -> HttpResponse:
         .select_related("refrigerant")
         .annotate(
             latest_score=_latest_diagnosis("score"),
-            latest_packed=_latest_diagnosis("packed"),
+            latest_document=_latest_diagnosis("document"),
             latest_at=_latest_diagnosis("reading_set__taken_at"),
         )
         .prefetch_related(Prefetch("flags", queryset=open_flags, to_attr="open_flags"))
@@ -995,7 +995,7 @@ def site_detail(request: HttpRequest, pk: int) -> HttpResponse:
     # its details are judged with the unit's open flags, as the monthly report judges them.
     for u in units:
         u.latest = (
-            Diagnosis(score=u.latest_score, packed=u.latest_packed)
+            Diagnosis(score=u.latest_score, document=u.latest_document)
             if u.latest_at is not None
             else None
         )

@@ -7,8 +7,9 @@ and the templates cannot trigger a query.
 
 What is read, and why:
 - readings and their stored diagnoses over the twelve months ending with the report month
-  (the trend charts read their targets and bands from the stored form; the month's checks
-  have their details, metrics, findings and cautions, written out);
+  (the trend charts read their targets and bands from the stored diagnoses through
+  ``Diagnosis.numbers_of``; the month's checks have their details, metrics, findings and
+  cautions, written out by ``Diagnosis.details_of``);
 - the stored leak rates of the refrigerant additions in that window (computed by the
   diagnostics core when the addition was recorded; not recomputed here);
 - the flags as they stood at the end of the month (or now, for a month not over yet): a
@@ -30,11 +31,10 @@ from zoneinfo import ZoneInfo
 
 from django.db.models import Q
 
-from diagnostics.core import diagnose as core_diagnose
 from diagnostics.core import leaks, start_risk
 from diagnostics.core.scoring import SCORING_TABLE
 from diagnostics.core.types import Caution
-from diagnostics.models import Flag, FlagKind, FlagSeverity
+from diagnostics.models import Diagnosis, Flag, FlagKind, FlagSeverity
 from fleet import choices
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Site, Unit, Visit, VisitUnit
 
@@ -430,10 +430,11 @@ _READING_COLUMNS = (
     "diagnosis__superheat_k",
     "diagnosis__subcooling_k",
     "diagnosis__energy_penalty_pct",
-    "diagnosis__packed",
+    "diagnosis__document",
 )
 
-#: The stored targets and ok bands a trend point draws: HistoryPoint field -> packed column.
+#: The stored targets and ok bands a trend point draws: HistoryPoint field -> the number's
+#: name in a stored diagnosis (``Diagnosis.numbers_of``).
 _TREND_TARGETS = {
     "evaporating_target_c": "evaporating_c",
     "condensing_target_c": "condensing_c",
@@ -444,14 +445,12 @@ _TREND_TARGETS = {
 }
 
 
-def _blob(row: dict[str, Any]) -> bytes | memoryview:
-    return row["diagnosis__packed"] or b""
-
-
 def _with_trend_targets(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
     """Reading rows with their stored targets and bands (``_TREND_TARGETS``) added, read
-    from the packed diagnoses in one pass; None where a diagnosis has none."""
-    columns = core_diagnose.packed_columns([_blob(r) for r in rows], list(_TREND_TARGETS.values()))
+    from their stored diagnoses in one pass; None where a diagnosis has none."""
+    columns = Diagnosis.numbers_of(
+        [r["diagnosis__document"] for r in rows], list(_TREND_TARGETS.values())
+    )
     for key, name in _TREND_TARGETS.items():
         for row, value in zip(rows, columns[name].tolist(), strict=True):
             row[key] = value if math.isfinite(value) else None
@@ -610,8 +609,8 @@ def _readings(site_id: int, start: datetime, end: datetime) -> dict[int, list[di
 
 def _month_details(rows: list[dict[str, Any]]) -> dict[int, dict[str, Any]]:
     """The details (metrics, findings, cautions, glide choice) of the month's diagnoses, by
-    reading set, expanded from their stored form in one pass."""
-    expanded = core_diagnose.expand_blobs([_blob(r) for r in rows])
+    reading set, read from their stored diagnoses in one pass."""
+    expanded = Diagnosis.details_of([r["diagnosis__document"] for r in rows])
     return {row["id"]: details for row, details in zip(rows, expanded, strict=True)}
 
 

@@ -3,19 +3,15 @@
 from __future__ import annotations
 
 import datetime as dt
-import math
 import uuid
 
 import factory
-import numpy as np
 from django.contrib.auth.models import Group, User
 from django.utils import timezone
 
-from diagnostics.core import diagnose as core
-from diagnostics.core import refrigerants
-from diagnostics.core.findings import RULE_CODES, RULES_BY_CODE, SIGNALS
-from diagnostics.core.scoring import SCORING_TABLE
-from diagnostics.core.types import APPLICATIONS, METERING_DEVICES, STATUSES
+from diagnostics.core import stored
+from diagnostics.core.design import RESOLVED
+from diagnostics.core.findings import RULES_BY_CODE, SIGNALS
 from fleet import models
 
 
@@ -148,7 +144,7 @@ class RefrigerantEventFactory(factory.django.DjangoModelFactory):
     occurred_on = factory.LazyFunction(timezone.localdate)
 
 
-def packed_for(
+def document_for(
     *,
     superheat_k: float = 4.5,
     subcooling_k: float = 3.0,
@@ -162,25 +158,12 @@ def packed_for(
     findings: dict[str, float] | None = None,
     signals: tuple[str, ...] = (),
     metrics: dict[str, tuple[float, float, float, float, str, float]] | None = None,
-) -> bytes:
-    """A stored diagnosis in the core's packed form (synthetic values) of an R-404A TXV
-    medium-temperature unit: four metrics shown (the rest hidden; ``metrics`` adds or
-    replaces some as name -> (measured, target, low, high, status, points)), the
+) -> dict:
+    """A stored diagnosis document (``diagnostics.core.stored``, synthetic values) of an
+    R-404A TXV medium-temperature unit: four metrics shown (the rest left out; ``metrics``
+    adds or replaces some as name -> (measured, target, low, high, status, points)), the
     evaporating and condensing targets, and ``findings`` (rule code -> confidence) held by
     their first trigger and ``signals``."""
-    row = np.zeros(len(core.PACKED_COLUMNS), dtype=core.PACKED_DTYPE)
-    at = {name: i for i, name in enumerate(core.PACKED_COLUMNS)}
-
-    def put(name: str, value: float) -> None:
-        row[at[name]] = value
-
-    put("refrigerant", list(refrigerants.CATALOGUE).index("R-404A"))
-    put("application", APPLICATIONS.index("medium_temp"))
-    put("metering", METERING_DEVICES.index("txv"))
-    put("metering_given", 1)
-    put("receiver_given", 1)
-    for name in SCORING_TABLE:
-        put(f"{name}:reason", core.REASON_HIDDEN)
     shown = {
         "superheat": (superheat_k, 5.0, 3.3, 5.6, "ok", 0.0),
         "subcooling": (subcooling_k, 2.0, 0.0, 2.8, "ok", 0.0),
@@ -192,39 +175,52 @@ def packed_for(
             status,
             0.0 if status == "ok" else 15.0,
         ),
-        "running_amps": (amps, rla, -math.inf, rla, "ok", 0.0),
+        "running_amps": (amps, rla, None, rla, "ok", 0.0),
         **(metrics or {}),
     }
-    for name, (measured, target, low, high, metric_status, points) in shown.items():
-        deviation = measured - high if metric_status != "ok" else 0.0
-        for field, value in (
-            ("measured", measured),
-            ("target", target),
-            ("low", low),
-            ("high", high),
-            ("deviation", deviation),
-            ("status", STATUSES.index(metric_status)),
-            ("points", points),
-            ("reason", 0),
-        ):
-            put(f"{name}:{field}", value)
-    for side, value, below, above in (
-        ("evaporating_c", evaporating_target_c, 2.0, 2.0),
-        ("condensing_c", condensing_target_c, 4.0, 3.0),
-    ):
-        put(side, value)
-        put(f"{side}_low", value - below)
-        put(f"{side}_high", value + above)
-    for pressure in ("suction_kpa_gauge", "head_kpa_gauge"):
-        for edge in ("", "_low", "_high"):
-            put(pressure + edge, math.nan)
-    mask, held = 0, set(signals)
-    for code, confidence in (findings or {}).items():
-        mask |= 1 << RULE_CODES.index(code)
-        put(f"confidence:{code}", confidence)
+    held = set(signals)
+    for code in findings or {}:
         held |= RULES_BY_CODE[code].triggers[0]
-    bits = sum(1 << list(SIGNALS).index(name) for name in held)
-    put("finding_mask", mask)
-    for word in range(-(-len(SIGNALS) // 16)):
-        put(f"signals:{word}", bits >> (16 * word) & 0xFFFF)
-    return row.tobytes()
+    return {
+        "document_version": stored.DOCUMENT_VERSION,
+        "refrigerant": "R-404A",
+        "design": {
+            "application": "medium_temp",
+            "metering": "txv",
+            "metering_given": True,
+            "receiver": False,
+            "head_control": "none",
+            "head_control_given": False,
+            "basis": "dew",
+            "origins": dict.fromkeys(RESOLVED, "design"),
+        },
+        "box_measured": False,
+        "saturation": {
+            "evaporating_c": [
+                evaporating_target_c,
+                evaporating_target_c - 2.0,
+                evaporating_target_c + 2.0,
+            ],
+            "suction_kpa_gauge": [None, None, None],
+            "condensing_c": [
+                condensing_target_c,
+                condensing_target_c - 4.0,
+                condensing_target_c + 3.0,
+            ],
+            "head_kpa_gauge": [None, None, None],
+        },
+        "metrics": {
+            name: [
+                metric_status,
+                measured,
+                target,
+                low,
+                high,
+                measured - high if metric_status != "ok" else 0.0,
+                points,
+            ]
+            for name, (measured, target, low, high, metric_status, points) in shown.items()
+        },
+        "findings": {code: {"confidence": c} for code, c in (findings or {}).items()},
+        "signals": [name for name in SIGNALS if name in held],
+    }

@@ -13,7 +13,7 @@ from typing import overload
 import numpy as np
 import numpy.typing as npt
 
-from diagnostics.core.units import FloatArray, as_numbers
+from diagnostics.core.numeric import FloatArray, as_numbers
 
 SEA_LEVEL_PRESSURE_KPA = 101.325
 LAPSE_FACTOR_PER_M = 2.25577e-5

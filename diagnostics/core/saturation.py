@@ -87,8 +87,9 @@ import numpy as np
 import numpy.typing as npt
 
 from diagnostics.core import refrigerants
+from diagnostics.core.numeric import FloatArray, NotNumeric, as_numbers
 from diagnostics.core.refrigerants import Refrigerant
-from diagnostics.core.units import ZERO_C_IN_K, FloatArray, NotNumeric, as_numbers
+from diagnostics.core.units import ZERO_C_IN_K
 
 logger = logging.getLogger(__name__)
 

@@ -44,7 +44,7 @@ from dataclasses import dataclass
 from typing import Protocol
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
 from diagnostics.core.electrical import DEFAULT_RUN_CAPACITOR_TOLERANCE_PCT
 from diagnostics.core.sources import Sourced
@@ -261,7 +261,7 @@ _TXV_BY_APPLICATION: dict[Application, SourcedRange] = {
 SUPERHEAT_DEFAULTS: dict[tuple[Application, MeteringDevice], SourcedRange] = {
     (app, device): (_TXV_BY_APPLICATION[app] if device in ("txv", "eev") else _FIXED_RESTRICTOR)
     for app in APPLICATIONS
-    for device in ("txv", "eev", "capillary", "fixed_orifice")
+    for device in METERING_DEVICES
 }
 
 #: has a receiver -> subcooling range, K.
@@ -440,13 +440,17 @@ def subcooling_range_k(has_receiver: FloatArray) -> tuple[FloatArray, FloatArray
 class SaturationCurve(Protocol):
     """The part of a saturation table the targets need (see ``saturation.SaturationTable``)."""
 
-    def dew_temp_c(self, p_kpa_abs: FloatArray, *, strict: bool = True) -> FloatArray: ...
-    def bubble_temp_c(self, p_kpa_abs: FloatArray, *, strict: bool = True) -> FloatArray: ...
-    def dew_pressure_kpa_abs(self, t_c: FloatArray, *, strict: bool = True) -> FloatArray: ...
-    def bubble_pressure_kpa_abs(self, t_c: FloatArray, *, strict: bool = True) -> FloatArray: ...
+    def dew_temp_c(self, p_kpa_abs: ArrayLike, *, strict: bool = True) -> float | FloatArray: ...
+    def bubble_temp_c(self, p_kpa_abs: ArrayLike, *, strict: bool = True) -> float | FloatArray: ...
+    def dew_pressure_kpa_abs(
+        self, t_c: ArrayLike, *, strict: bool = True
+    ) -> float | FloatArray: ...
+    def bubble_pressure_kpa_abs(
+        self, t_c: ArrayLike, *, strict: bool = True
+    ) -> float | FloatArray: ...
 
 
-def _finite_apply(fn: Callable[..., FloatArray], x: FloatArray) -> FloatArray:
+def _finite_apply(fn: Callable[..., float | FloatArray], x: ArrayLike) -> FloatArray:
     """A lenient lookup (``strict=False``): NaN where the value is missing, not positive
     for a pressure, or off the table; the curve says so itself, without masking first."""
     return np.asarray(fn(np.asarray(x, dtype=np.float64), strict=False), dtype=np.float64)

@@ -12,14 +12,12 @@ Exact factors: 1 lb = 0.45359237 kg (international pound); 1 psi = 1 lbf/in^2 =
 
 from __future__ import annotations
 
-import numbers
-from decimal import Decimal
-from typing import Any, overload
+from typing import overload
 
-import numpy as np
 import numpy.typing as npt
 
-FloatArray = npt.NDArray[np.float64]
+from diagnostics.core.atmosphere import standard_pressure_kpa
+from diagnostics.core.numeric import FloatArray, as_numbers
 
 PRESSURE_UNITS: tuple[str, ...] = ("psig", "psia", "kPa", "kPa_abs", "bar", "bar_abs")
 TEMPERATURE_UNITS: tuple[str, ...] = ("F", "C", "K")
@@ -55,10 +53,6 @@ class UnitError(ValueError):
         super().__init__(f"unknown {quantity} unit {unit!r}; accepted: {', '.join(accepted)}")
 
 
-class NotNumeric(ValueError):
-    """A value that is not a number or an array of numbers (a string, None, a bool...)."""
-
-
 def _canonical(unit: object, quantity: str, accepted: tuple[str, ...]) -> str:
     """The accepted spelling of ``unit``; case does not matter ('kpa' is 'kPa')."""
     if isinstance(unit, str):
@@ -68,47 +62,6 @@ def _canonical(unit: object, quantity: str, accepted: tuple[str, ...]) -> str:
             if name.lower() == unit.strip().lower():
                 return name
     raise UnitError(unit, quantity, accepted)
-
-
-def _is_scalar_number(value: object) -> bool:
-    return isinstance(value, numbers.Real | Decimal) and not isinstance(value, bool | np.bool_)
-
-
-def as_numbers(value: Any, name: str = "value") -> float | FloatArray:
-    """``value`` as a float (scalar in) or a float64 ndarray (list, tuple or array in).
-
-    Accepts ints, floats, Decimals and numpy numbers; rejects strings, None, bools and
-    anything else with ``NotNumeric``, even a string that would parse as a number: a
-    measurement arrives here already parsed.
-    """
-    if _is_scalar_number(value):
-        return float(value)
-    if isinstance(value, np.ndarray) and value.ndim == 0:
-        value = value.item()
-        if _is_scalar_number(value):
-            return float(value)
-        raise NotNumeric(f"{name} is not a number: {value!r}")
-    if isinstance(value, str | bytes) or not isinstance(value, list | tuple | np.ndarray):
-        raise NotNumeric(f"{name} is not a number: {value!r}")
-    try:
-        arr = np.asarray(value)
-    except ValueError as exc:  # ragged nesting
-        raise NotNumeric(f"{name} is not a regular array of numbers") from exc
-    if arr.dtype.kind in "iuf":
-        return arr.astype(np.float64, copy=False)
-    if arr.dtype.kind == "O" and all(_is_scalar_number(v) for v in arr.flat):
-        return arr.astype(np.float64)
-    # Look again without numpy's coercion, which turns [1, "a"] into ["1", "a"].
-    bad = next(v for v in np.asarray(value, dtype=object).flat if not _is_scalar_number(v))
-    bad = bad.item() if isinstance(bad, np.generic) else bad
-    raise NotNumeric(f"{name} holds something that is not a number: {bad!r}")
-
-
-def _atmosphere_kpa(elevation_m: npt.ArrayLike) -> float | FloatArray:
-    # Imported here: the atmosphere module uses this module's number coercion.
-    from diagnostics.core.atmosphere import standard_pressure_kpa
-
-    return standard_pressure_kpa(elevation_m)
 
 
 # --- pressure -------------------------------------------------------------------------------
@@ -126,7 +79,7 @@ def pressure_to_kpa_abs(
     """A pressure in ``unit`` as kPa absolute; gauge units add the atmosphere at elevation_m."""
     factor, gauge = _PRESSURE[_canonical(unit, "pressure", PRESSURE_UNITS)]
     v = as_numbers(value, "pressure")
-    return v * factor + _atmosphere_kpa(elevation_m) if gauge else v * factor
+    return v * factor + standard_pressure_kpa(elevation_m) if gauge else v * factor
 
 
 @overload
@@ -141,7 +94,7 @@ def pressure_from_kpa_abs(
     """kPa absolute expressed in ``unit`` (gauge units read against the site's atmosphere)."""
     factor, gauge = _PRESSURE[_canonical(unit, "pressure", PRESSURE_UNITS)]
     v = as_numbers(kpa_abs, "pressure")
-    return (v - _atmosphere_kpa(elevation_m)) / factor if gauge else v / factor
+    return (v - standard_pressure_kpa(elevation_m)) / factor if gauge else v / factor
 
 
 @overload
@@ -156,7 +109,7 @@ def pressure_to_kpa_gauge(
     """A pressure in ``unit`` as kPa gauge; absolute units subtract the atmosphere."""
     factor, gauge = _PRESSURE[_canonical(unit, "pressure", PRESSURE_UNITS)]
     v = as_numbers(value, "pressure")
-    return v * factor if gauge else v * factor - _atmosphere_kpa(elevation_m)
+    return v * factor if gauge else v * factor - standard_pressure_kpa(elevation_m)
 
 
 @overload
@@ -171,7 +124,7 @@ def pressure_from_kpa_gauge(
     """kPa gauge expressed in ``unit``; absolute units add the atmosphere at elevation_m."""
     factor, gauge = _PRESSURE[_canonical(unit, "pressure", PRESSURE_UNITS)]
     v = as_numbers(kpa_gauge, "pressure")
-    return v / factor if gauge else (v + _atmosphere_kpa(elevation_m)) / factor
+    return v / factor if gauge else (v + standard_pressure_kpa(elevation_m)) / factor
 
 
 def is_gauge_pressure_unit(unit: str) -> bool:

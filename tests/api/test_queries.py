@@ -21,7 +21,7 @@ from tests.factories import (
     UserFactory,
     VisitFactory,
     VisitUnitFactory,
-    packed_for,
+    document_for,
 )
 
 from .conftest import token_client
@@ -74,7 +74,7 @@ class Fleet:
             algorithm_version="synthetic",
             score=90,
             computed_at=timezone.now(),
-            packed=packed_for(),
+            document=document_for(),
         )
         return f"/api/v1/visits/{self.visit.pk}/reading-sets/"
 

@@ -121,7 +121,7 @@ def test_the_response_carries_the_diagnosis_in_the_response_units(technician, vi
 
 def test_a_list_expands_its_diagnoses_in_one_pass(technician, visit_unit, monkeypatch):
     """A page of reading sets writes out every stored diagnosis (the same as each one's own
-    answer) from one expansion of their stored rows, not one per set."""
+    answer) from one reading of their stored documents, not one per set."""
     from diagnostics.core import diagnose as core_diagnose
 
     client = token_client(technician)
@@ -130,9 +130,9 @@ def test_a_list_expands_its_diagnoses_in_one_pass(technician, visit_unit, monkey
         for k in range(3)
     ]
     passes = []
-    expand = core_diagnose.expand_blobs
+    read = core_diagnose.read_details
     monkeypatch.setattr(
-        core_diagnose, "expand_blobs", lambda blobs: passes.append(len(blobs)) or expand(blobs)
+        core_diagnose, "read_details", lambda docs: passes.append(len(docs)) or read(docs)
     )
     listed = client.get(_url(visit_unit)).json()["results"]
     assert passes == [3]

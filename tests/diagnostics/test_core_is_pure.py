@@ -30,7 +30,7 @@ def _imports(path: Path) -> set[str]:
 
 def test_it_finds_no_django_or_record_import_in_the_core():
     """Every module under diagnostics/core/ imports only the standard library, numpy, scipy,
-    CoolProp and the core itself."""
+    CoolProp, orjson and the core itself."""
     core_dir = Path(diagnostics.core.__file__).parent
     modules = sorted(core_dir.glob("*.py"))
     assert len(modules) > 3
@@ -41,3 +41,44 @@ def test_it_finds_no_django_or_record_import_in_the_core():
         if any(name == bad or name.startswith(bad + ".") for bad in FORBIDDEN)
     }
     assert not offenders, offenders
+
+
+def _core_graph() -> dict[str, set[str]]:
+    """Core module -> the core modules it imports, at the top or inside a function."""
+    core_dir = Path(diagnostics.core.__file__).parent
+    graph: dict[str, set[str]] = {}
+    for path in core_dir.glob("*.py"):
+        tree = ast.parse(path.read_text(), filename=str(path))
+        targets: set[str] = set()
+        for node in ast.walk(tree):
+            if isinstance(node, ast.ImportFrom) and node.module == "diagnostics.core":
+                targets.update(alias.name for alias in node.names)
+            elif isinstance(node, ast.ImportFrom) and node.module:
+                targets.add(node.module.removeprefix("diagnostics.core."))
+            elif isinstance(node, ast.Import):
+                targets.update(a.name.removeprefix("diagnostics.core.") for a in node.names)
+        graph[path.stem] = targets
+    return {name: targets & graph.keys() - {name} for name, targets in graph.items()}
+
+
+def test_it_finds_no_import_circle_in_the_core():
+    """No core module imports, directly or through others, a module that imports it back
+    (a circle makes the import order matter and hides which module owns a rule)."""
+    graph = _core_graph()
+    assert "atmosphere" in graph["units"]
+    state: dict[str, int] = {}
+    circles: list[list[str]] = []
+
+    def visit(name: str, path: list[str]) -> None:
+        state[name] = 1
+        for target in sorted(graph[name]):
+            if state.get(target) == 1:
+                circles.append([*path[path.index(target) :], target])
+            elif target not in state:
+                visit(target, [*path, target])
+        state[name] = 2
+
+    for name in sorted(graph):
+        if name not in state:
+            visit(name, [name])
+    assert not circles, circles

@@ -278,3 +278,25 @@ def test_a_units_readings_are_dated_on_its_sites_calendar(zone, taken, dated):
     assert [a.observed_on for a in history.start.start_attempts] == [
         dt.date(2026, month, day) for month, day in dated
     ]
+
+
+def test_a_drift_is_judged_from_the_split_the_diagnosis_targets():
+    """One rule, one place: the design split a unit's drift is judged from is the
+    condenser-split target its diagnosis shows, whether the unit gives its own split or
+    leaves it to its application (14 K for a cooler, Trott & Welch 3rd ed. Table 10.2;
+    tolerance 1e-4 K, stored values keep four decimals)."""
+    from diagnostics.history import unit_histories
+
+    own = UnitFactory(application="medium_temp", design_condenser_split_k=9.0)
+    defaulted = UnitFactory(application="medium_temp", design_condenser_split_k=None)
+    judged = {}
+    for unit in (own, defaulted):
+        diagnosis = services.diagnose_reading_set(
+            _r404a_reading(VisitUnitFactory(unit=unit, visit__site=unit.site))
+        )
+        judged[unit.id] = {t["name"]: t for t in diagnosis.targets}["condenser_split"]["value"]
+    histories = unit_histories(timezone.localdate(), unit_ids=[own.id, defaulted.id])
+    drift_from = {h.unit_id: h.split.design_split_k for h in histories}
+    assert drift_from == pytest.approx(judged, abs=1e-4)
+    assert drift_from[own.id] == 9.0
+    assert drift_from[defaulted.id] == pytest.approx(14.0, abs=1e-4)

@@ -8,7 +8,6 @@ from collections import Counter
 import pytest
 from django.core.management import call_command
 
-from diagnostics.core.diagnose import expand_blobs
 from diagnostics.models import Diagnosis, Flag, LeakRate
 from fixtures import demo
 from fixtures.load import load_demo_fleet
@@ -49,8 +48,8 @@ def test_the_demo_fleet_tells_its_stories_and_loads_idempotently(capsys):
     assert open_flags == STORY_FLAGS
 
     fired = Counter()
-    stored = list(Diagnosis.objects.values_list("reading_set__visit_unit__unit__tag", "packed"))
-    details = expand_blobs([packed for _, packed in stored])
+    stored = list(Diagnosis.objects.values_list("reading_set__visit_unit__unit__tag", "document"))
+    details = Diagnosis.details_of([document for _, document in stored])
     for (tag, _), row in zip(stored, details, strict=True):
         assert row["metrics"], tag  # every demo diagnosis was stored with its details
         for finding in row["findings"]:

@@ -20,7 +20,7 @@ from tests.factories import (
     UnitFactory,
     VisitFactory,
     VisitUnitFactory,
-    packed_for,
+    document_for,
 )
 
 #: A fault on the superheat and a finding with the sight-glass evidence (synthetic values).
@@ -28,16 +28,16 @@ METRICS = {
     "superheat": (12.0, 5.0, 3.0, 7.0, "fault", 15.0),
     "box_temp": (3.0, 2.0, 0.0, 4.0, "ok", 0.0),
 }
-PACKED = packed_for(metrics=METRICS, findings={"undercharge": 0.8}, signals=("bubbles",))
+DOCUMENT = document_for(metrics=METRICS, findings={"undercharge": 0.8}, signals=("bubbles",))
 
 
-def store_diagnosis(reading_set, score: float = 72.0, packed: bytes = PACKED) -> Diagnosis:
+def store_diagnosis(reading_set, score: float = 72.0, document: dict = DOCUMENT) -> Diagnosis:
     diagnosis, _ = Diagnosis.objects.update_or_create(
         reading_set=reading_set,
         defaults={
             "algorithm_version": "test-1",
             "score": score,
-            "packed": packed,
+            "document": document,
             "computed_at": timezone.now(),
         },
     )

@@ -18,7 +18,7 @@ from tests.factories import (
     UserFactory,
     VisitFactory,
     VisitUnitFactory,
-    packed_for,
+    document_for,
 )
 
 from .conftest import open_flag, over_limit_addition, store_diagnosis
@@ -105,7 +105,7 @@ def _checked(unit, taken_at: dt.datetime, box: tuple, stage: str = "as_found") -
     reading = ReadingSetFactory(
         visit_unit=VisitUnitFactory(unit=unit), taken_at=taken_at, stage=stage
     )
-    store_diagnosis(reading, packed=packed_for(metrics={"box_temp": box}))
+    store_diagnosis(reading, document=document_for(metrics={"box_temp": box}))
 
 
 #: A freezer box 7.2 K above its -23.3 C design, past the fault margin (synthetic).

@@ -7,8 +7,8 @@ import pytest
 from django.urls import reverse
 from django.utils.html import escape
 
-from diagnostics.core.diagnose import CAUTIONS
 from diagnostics.core.findings import RULES_BY_CODE
+from diagnostics.core.texts import CAUTIONS
 from fleet import audit
 from fleet.models import AuditAction
 from tests.factories import ReadingSetFactory, VisitUnitFactory

@@ -14,7 +14,7 @@ from diagnostics.models import Diagnosis
 from fleet.views import unit_charts
 from tests.factories import ComponentFactory, ReadingSetFactory, UnitFactory, VisitUnitFactory
 
-from .conftest import PACKED
+from .conftest import DOCUMENT
 
 pytestmark = pytest.mark.django_db
 
@@ -242,7 +242,7 @@ def _diagnosed_reading(unit, days_ago: int, stage: str, superheat_k: float) -> N
         reading_set=ReadingSetFactory(visit_unit=vu, taken_at=taken, stage=stage),
         algorithm_version="test-1",
         score=80.0,
-        packed=PACKED,
+        document=DOCUMENT,
         superheat_k=superheat_k,
         computed_at=timezone.now(),
     )

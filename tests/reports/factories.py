@@ -28,7 +28,7 @@ from tests.factories import (
     SiteFactory,
     UnitFactory,
     VisitFactory,
-    packed_for,
+    document_for,
     refrigerant,
 )
 
@@ -40,7 +40,7 @@ class DiagnosisFactory(factory.django.DjangoModelFactory):
     reading_set = factory.SubFactory(ReadingSetFactory)
     algorithm_version = "test-1"
     score = 92.0
-    packed = factory.LazyFunction(packed_for)
+    document = factory.LazyFunction(document_for)
     energy_penalty_pct = None
     evaporating_c = -3.5
     condensing_c = 36.0
@@ -230,7 +230,9 @@ def bulk_site_history(
                 reading_set=rs,
                 algorithm_version="test-1",
                 score=100.0 - (15.0 if status == "fault" else 0.0) - (i % 4),
-                packed=packed_for(split_k=split, status=status, condensing_target_c=ambient + 11.0),
+                document=document_for(
+                    split_k=split, status=status, condensing_target_c=ambient + 11.0
+                ),
                 energy_penalty_pct=2.0 * max(0.0, split - 11.0),
                 evaporating_c=-3.5,
                 condensing_c=ambient + split,

@@ -15,7 +15,7 @@ from reports.figures import unit_figure
 from reports.gather import gather_site_month
 from reports.months import Month
 from reports.render import UnitChart, render_html
-from tests.factories import ReadingSetFactory, UnitFactory, VisitUnitFactory, packed_for
+from tests.factories import ReadingSetFactory, UnitFactory, VisitUnitFactory, document_for
 from tests.reports.factories import DiagnosisFactory, FlagFactory
 
 pytestmark = pytest.mark.django_db
@@ -27,7 +27,7 @@ IN_MARCH = dt.datetime(2026, 3, 10, 9, tzinfo=CHICAGO)
 
 
 def check_on(
-    unit, taken: dt.datetime, *, score: float = 92.0, packed=None, penalty=None, **reading
+    unit, taken: dt.datetime, *, score: float = 92.0, document=None, penalty=None, **reading
 ):
     """A diagnosed as-found reading of ``unit`` on its own visit at ``taken``."""
     vu = VisitUnitFactory(
@@ -38,7 +38,7 @@ def check_on(
     )
     rs = ReadingSetFactory(visit_unit=vu, taken_at=taken, **reading)
     return DiagnosisFactory(
-        reading_set=rs, score=score, packed=packed or packed_for(), energy_penalty_pct=penalty
+        reading_set=rs, score=score, document=document or document_for(), energy_penalty_pct=penalty
     )
 
 
@@ -72,7 +72,7 @@ def test_a_capacitor_out_of_its_rating_is_not_no_probable_cause():
     it."""
     unit = UnitFactory(tag="RI-CAP")
     capacitor = {"run_capacitor": (38.0, 45.0, 42.3, 47.7, "fault", 15.0)}
-    check_on(unit, IN_MARCH, score=85.0, packed=packed_for(metrics=capacitor))
+    check_on(unit, IN_MARCH, score=85.0, document=document_for(metrics=capacitor))
     body, _ = report(unit.site_id)
     assert "No probable cause" not in body
     assert "run capacitor is far off its aim" in body
@@ -90,7 +90,7 @@ def test_the_customers_copy_carries_no_internal_notes_nor_provenance_marks():
         unit,
         IN_MARCH,
         score=60.0,
-        packed=packed_for(findings={"undercharge": 0.8}, signals=("bubbles", "td_high")),
+        document=document_for(findings={"undercharge": 0.8}, signals=("bubbles", "td_high")),
         notes="Customer's compressor is older than they told us",
     )
     visit = diagnosis.reading_set.visit_unit.visit
@@ -141,10 +141,10 @@ def test_energy_money_comes_only_from_units_above_their_condensing_target():
     zero = UnitFactory(site=above.site, tag="C-ZERO")
     running = {"compressor_amps_1": 7.0, "supply_volts_1": 230.0, "compressor_running": True}
     check_on(
-        above, IN_MARCH, packed=packed_for(split_k=17.0, status="fault"), penalty=6.0, **running
+        above, IN_MARCH, document=document_for(split_k=17.0, status="fault"), penalty=6.0, **running
     )
-    check_on(inside, IN_MARCH, packed=packed_for(split_k=12.0), penalty=3.0, **running)
-    check_on(zero, IN_MARCH, packed=packed_for(split_k=12.0), penalty=0.0)
+    check_on(inside, IN_MARCH, document=document_for(split_k=12.0), penalty=3.0, **running)
+    check_on(zero, IN_MARCH, document=document_for(split_k=12.0), penalty=0.0)
     sm = gather_site_month(above.site_id, MARCH, now=NOW)
     assert [row[0] for row in sm.overview.energy_top] == ["A-HOT"]
     assert sm.overview.energy_units_not_estimated == ()
@@ -159,7 +159,9 @@ def test_an_ice_machine_is_judged_without_a_box_temperature():
     box = {"box_temp": (9.0, 2.0, 0.0, 4.0, "fault", 15.0)}
     for month in (1, 2, 3):
         check_on(
-            unit, dt.datetime(2026, month, 10, 9, tzinfo=CHICAGO), packed=packed_for(metrics=box)
+            unit,
+            dt.datetime(2026, month, 10, 9, tzinfo=CHICAGO),
+            document=document_for(metrics=box),
         )
     sm = gather_site_month(unit.site_id, MARCH, now=NOW)
     u = sm.units[0]

@@ -18,7 +18,7 @@ from tests.factories import (
     UnitFactory,
     VisitFactory,
     VisitUnitFactory,
-    packed_for,
+    document_for,
 )
 from tests.reports.factories import (
     DiagnosisFactory,
@@ -153,7 +153,7 @@ def test_the_month_check_is_the_as_found_reading_with_its_stored_findings():
     found = DiagnosisFactory(
         reading_set=ReadingSetFactory(visit_unit=vu, taken_at=taken, stage="as_found"),
         score=55.0,
-        packed=packed_for(findings={"undercharge": 0.8}),
+        document=document_for(findings={"undercharge": 0.8}),
     )
     DiagnosisFactory(
         reading_set=ReadingSetFactory(

@@ -15,14 +15,16 @@ from hypothesis import strategies as st
 from diagnostics.core import findings, saturation
 from diagnostics.core.diagnose import (
     ALGORITHM_VERSION,
-    PACKED_BYTES,
     ReadingColumns,
     UnitColumns,
+    details,
     diagnose,
     diagnose_batch,
     diagnose_row,
-    expand_blobs,
+    read_details,
+    row_diagnosis,
 )
+from diagnostics.core.encode import documents
 from diagnostics.core.targets import f_to_c
 from diagnostics.core.types import Reading, UnitDesign
 
@@ -377,7 +379,7 @@ def test_one_post_and_the_batch_share_one_implementation():
     assert len(batch) == 4
     for i, r in enumerate(readings):
         single = diagnose(units[index[i]], r)
-        assert batch.diagnosis(i) == single
+        assert row_diagnosis(batch, i) == single
         if single.score is None:
             assert np.isnan(batch.score[i])
         else:
@@ -525,14 +527,15 @@ def _varied_batch():
 
 
 def test_the_stored_form_of_a_batch_equals_each_row_diagnosed_alone():
-    """``packed`` (what ``manage.py rescore`` stores, built on columns) holds for every row
-    exactly what diagnosing that reading alone stores, and reads back to the same details,
+    """The stored documents (what ``manage.py rescore`` stores, built on columns) hold for
+    every row exactly what diagnosing that reading alone stores, and read back to the same
+    details,
     on a batch where every finding fires, fields are missing, R-744 runs above its critical
     point, a condenser is water-cooled, a blend glides and one site's elevation is unusable;
     the details are plain JSON (no NaN, no tuples)."""
     units, readings, index, elevation = _varied_inputs()
     batch = _varied_batch()
-    rows = batch.details()
+    rows = details(batch)
     fired = {f["code"] for row in rows for f in row["findings"]}
     assert fired == {rule.code for rule in findings.RULES if rule.triggers}
     named = {a for row in rows for f in row["findings"] for a in f["alternatives"]}
@@ -544,21 +547,21 @@ def test_the_stored_form_of_a_batch_equals_each_row_diagnosed_alone():
     assert len(rows) == len(batch)
     for i, (reading, u, z) in enumerate(zip(readings, index, elevation, strict=True)):
         alone = diagnose_batch([units[u]], ReadingColumns.from_readings([reading]), z)
-        np.testing.assert_array_equal(alone.packed[0], batch.packed[i], err_msg=str(i))
-        assert alone.details()[0] == rows[i], i
+        assert documents(alone) == documents(batch)[i : i + 1], i
+        assert details(alone)[0] == rows[i], i
 
 
-def test_a_stored_row_of_another_layout_reads_as_no_details():
-    """A stored row is ``PACKED_BYTES`` long; an empty one or one of another length (stored
-    under an older layout, waiting for ``manage.py rescore``) reads as empty details rather
-    than as numbers in the wrong places."""
+def test_a_document_of_no_known_version_reads_as_no_details():
+    """Nothing stored (an empty document), a document of a version this code does not know
+    or no document at all reads as empty details rather than as numbers in the wrong
+    places; a current one reads with its metrics and cautions."""
     row = diagnose_row(R404A_MT, FULL)
-    assert len(row["packed"]) == PACKED_BYTES
-    good, empty, short = expand_blobs([row["packed"], b"", row["packed"][:-4]])
+    unknown = {**row["document"], "document_version": 999}
+    good, *blank = read_details([row["document"], {}, unknown, None])
     assert good["metrics"]
     assert good["cautions"]
-    for details in (empty, short):
-        assert details == {
+    for details_read in blank:
+        assert details_read == {
             "targets": [],
             "metrics": [],
             "findings": [],
@@ -571,7 +574,7 @@ def test_a_site_without_a_usable_elevation_keeps_its_temperature_targets_only():
     """With no standard atmosphere for the site, the evaporating and condensing temperature
     targets stand but no gauge-pressure target is stored (there is no absolute to subtract
     from, and a NaN would not be valid JSON)."""
-    row = _varied_batch().details()[-1]
+    row = details(_varied_batch())[-1]
     names = {t["name"] for t in row["targets"]}
     assert {"evaporating_temp", "condensing_temp"} <= names
     assert not names & {"suction_pressure", "condensing_pressure"}
@@ -596,10 +599,10 @@ def test_the_one_post_path_stores_what_the_dataclass_path_gives():
             ("condenser_split", expected.derived.condenser_split_k),
         ):
             assert row[f"{name}_k"] == (value if name in judged else None)
-        details = expand_blobs([row["packed"]])[0]
+        (details_read,) = read_details([row["document"]])
         for name in ("targets", "metrics", "cautions"):
-            assert details[name] == [dataclasses.asdict(x) for x in getattr(expected, name)]
-        assert details["findings"] == [
+            assert details_read[name] == [dataclasses.asdict(x) for x in getattr(expected, name)]
+        assert details_read["findings"] == [
             {
                 **dataclasses.asdict(f),
                 "evidence": list(f.evidence),

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from diagnostics.core import scoring as sc
-from diagnostics.core.diagnose import METRIC_NEEDS
+from diagnostics.core.reasons import METRIC_NEEDS
 
 
 def _grade(metric: str, measured, target, low=None, high=None):

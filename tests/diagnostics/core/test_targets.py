@@ -14,7 +14,7 @@ from diagnostics.core.types import APPLICATIONS, METERING_DEVICES, Reading, Unit
 
 PSI_KPA = 6.894757
 SEA_LEVEL_KPA = 101.325
-#: Stored targets are float32 read back to 4 decimals (diagnose.PACKED_DTYPE, _DECIMALS).
+#: Stored numbers keep four decimals (stored.DECIMALS).
 STORED = 1e-4
 
 
