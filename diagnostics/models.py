@@ -18,12 +18,13 @@ from django.db.models import Q
 from diagnostics.core import diagnose as core_diagnose
 from diagnostics.core import wording
 from diagnostics.core.numeric import FloatArray
+from fleet import reach as scope
 from fleet.display import display_for
 from fleet.models import ReadingSet, RefrigerantEvent, Unit
 
 
-class DiagnosisQuerySet(models.QuerySet["Diagnosis"]):
-    """Stored diagnoses, queried by what their documents hold."""
+class DiagnosisQuerySet(scope.VisibleQuerySet["Diagnosis"]):
+    """Stored diagnoses, queried by what their documents hold and scoped to a user's reach."""
 
     def with_finding(self, code: str) -> DiagnosisQuerySet:
         """Diagnoses that found ``code`` (a ``findings.RULES`` code): a key lookup in the
@@ -61,6 +62,8 @@ class Diagnosis(models.Model):
         "(diagnostics.core.stored); empty when nothing was stored.",
     )
 
+    #: Who may see it: whoever sees its unit.
+    reach = scope.Through(scope.units, "reading_set__visit_unit__unit__")
     objects = DiagnosisQuerySet.as_manager()
 
     class Meta:
@@ -146,6 +149,10 @@ class LeakRate(models.Model):
     note = models.TextField(blank=True)
     computed_at = models.DateTimeField()
 
+    #: Who may see it: whoever sees its unit.
+    reach = scope.Through(scope.units, "event__visit_unit__unit__")
+    objects = scope.VisibleManager()
+
     class Meta:
         ordering = ["event__occurred_on"]
 
@@ -191,6 +198,10 @@ class Flag(models.Model):
     )
     acknowledged_at = models.DateTimeField(null=True, blank=True)
     acknowledgement_note = models.TextField(blank=True)
+
+    #: Who may see it: whoever sees its unit.
+    reach = scope.Through(scope.units, "unit__")
+    objects = scope.VisibleManager()
 
     class Meta:
         ordering = ["-opened_at"]

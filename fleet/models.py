@@ -21,6 +21,7 @@ from django.db.models.functions import Coalesce
 from diagnostics.core.electrical import DEFAULT_RUN_CAPACITOR_TOLERANCE_PCT, run_capacitor_band
 
 from . import choices
+from . import reach as scope
 from .limits import COMPONENT_LIMITS, EVENT_LIMITS, READING_LIMITS, SITE_LIMITS, UNIT_LIMITS
 from .validation import limit_constraints, limit_validators
 
@@ -39,6 +40,10 @@ class Customer(models.Model):
     phone = models.CharField(max_length=40, blank=True)
     notes = models.TextField(blank=True)
     created_at = models.DateTimeField(auto_now_add=True)
+
+    #: Who may see it: the customers of the sites within reach.
+    reach = scope.Through(scope.customers)
+    objects = scope.VisibleManager()
 
     class Meta:
         ordering = ["name"]
@@ -75,6 +80,10 @@ class Site(models.Model):
         help_text="Managers who may see this site and its reports.",
     )
 
+    #: Who may see it: by role (``fleet.reach.sites``).
+    reach = scope.Through(scope.sites)
+    objects = scope.VisibleManager()
+
     class Meta:
         ordering = ["customer_id", "name"]
         constraints = [
@@ -100,6 +109,10 @@ class Refrigerant(models.Model):
     safety_class = models.CharField(max_length=4)
     gwp = models.FloatField()
     gwp_source = models.CharField(max_length=200)
+
+    #: Who may see it: every role (reference data).
+    reach = scope.Through(scope.reference)
+    objects = scope.VisibleManager()
 
     class Meta:
         ordering = ["designation"]
@@ -211,6 +224,10 @@ class Unit(models.Model):
     installed_on = models.DateField(null=True, blank=True)
     retired_on = models.DateField(null=True, blank=True)
 
+    #: Who may see it: by role (``fleet.reach.units``).
+    reach = scope.Through(scope.units)
+    objects = scope.VisibleManager()
+
     class Meta:
         ordering = ["site_id", "tag"]
         constraints = [
@@ -318,6 +335,10 @@ class Visit(models.Model):
     created_at = models.DateTimeField(auto_now_add=True)
     updated_at = models.DateTimeField(auto_now=True)
 
+    #: Who may see it: by role (``fleet.reach.visits``).
+    reach = scope.Through(scope.visits)
+    objects = scope.VisibleManager()
+
     class Meta:
         ordering = ["-window_start"]
         indexes = [models.Index(fields=["status", "window_start"])]
@@ -352,6 +373,10 @@ class VisitUnit(models.Model):
 
     visit = models.ForeignKey(Visit, on_delete=models.CASCADE, related_name="visit_units")
     unit = models.ForeignKey(Unit, on_delete=models.PROTECT, related_name="visit_units")
+
+    #: Who may see it: whoever sees its visit.
+    reach = scope.Through(scope.visits, "visit__")
+    objects = scope.VisibleManager()
 
     class Meta:
         constraints = [models.UniqueConstraint(fields=["visit", "unit"], name="visitunit_unique")]
@@ -424,6 +449,10 @@ class Component(models.Model):
         Visit, null=True, blank=True, on_delete=models.SET_NULL, related_name="components_changed"
     )
     reason = models.CharField(max_length=200, blank=True)
+
+    #: Who may see it: whoever sees its unit.
+    reach = scope.Through(scope.units, "unit__")
+    objects = scope.VisibleManager()
 
     class Meta:
         ordering = ["unit_id", "kind", "-installed_on"]
@@ -629,6 +658,10 @@ class ReadingSet(models.Model):
     )
     created_at = models.DateTimeField(auto_now_add=True)
 
+    #: Who may see it: whoever sees its unit (its history goes with it).
+    reach = scope.Through(scope.units, "visit_unit__unit__")
+    objects = scope.VisibleManager()
+
     class Meta:
         ordering = ["taken_at"]
         constraints = [
@@ -686,6 +719,10 @@ class RefrigerantEvent(models.Model):
     )
     created_at = models.DateTimeField(auto_now_add=True)
 
+    #: Who may see it: whoever sees its unit (its history goes with it).
+    reach = scope.Through(scope.units, "visit_unit__unit__")
+    objects = scope.VisibleManager()
+
     class Meta:
         ordering = ["occurred_on", "id"]
         constraints = [
@@ -742,6 +779,10 @@ class AuditEntry(models.Model):
     visit_id = models.PositiveBigIntegerField(null=True, blank=True)
     changes = models.JSONField(default=dict, blank=True)
     note = models.TextField(blank=True)
+
+    #: Who may see it: whoever sees its visit.
+    reach = scope.Through(scope.visit_trail)
+    objects = scope.VisibleManager()
 
     class Meta:
         ordering = ["at", "id"]

@@ -2,26 +2,37 @@
 
 from django.urls import path
 
-from . import views
+from .views import (
+    attention,
+    base,
+    flags,
+    maintenance,
+    review,
+    schedule,
+    sites,
+    units,
+    visit_page,
+    visits,
+)
 
 app_name = "fleet"
 
 urlpatterns = [
-    path("", views.home, name="home"),
-    path("schedule/", views.schedule, name="schedule"),
-    path("maintenance/", views.maintenance_due, name="maintenance"),
-    path("maintenance/propose/", views.maintenance_propose, name="maintenance-propose"),
-    path("visits/new/", views.visit_create, name="visit-create"),
-    path("visits/unit-choices/", views.unit_choices, name="unit-choices"),
-    path("visits/<int:pk>/", views.visit_detail, name="visit"),
-    path("visits/<int:pk>/edit/", views.visit_edit, name="visit-edit"),
-    path("visits/<int:pk>/cancel/", views.visit_cancel, name="visit-cancel"),
-    path("visits/<int:pk>/review/", views.visit_review, name="visit-review"),
-    path("review/", views.review_queue, name="review-queue"),
-    path("units/<int:pk>/", views.unit_detail, name="unit"),
-    path("flags/<int:pk>/acknowledge/", views.flag_acknowledge, name="flag-acknowledge"),
-    path("sites/", views.site_list, name="sites"),
-    path("sites/<int:pk>/", views.site_detail, name="site"),
-    path("sites/<int:pk>/reports/<str:month>/", views.site_report, name="site-report"),
-    path("attention/", views.attention, name="attention"),
+    path("", base.home, name="home"),
+    path("schedule/", schedule.schedule, name="schedule"),
+    path("maintenance/", maintenance.maintenance_due, name="maintenance"),
+    path("maintenance/propose/", maintenance.maintenance_propose, name="maintenance-propose"),
+    path("visits/new/", visits.visit_create, name="visit-create"),
+    path("visits/unit-choices/", visits.unit_choices, name="unit-choices"),
+    path("visits/<int:pk>/", visit_page.visit_detail, name="visit"),
+    path("visits/<int:pk>/edit/", visits.visit_edit, name="visit-edit"),
+    path("visits/<int:pk>/cancel/", visits.visit_cancel, name="visit-cancel"),
+    path("visits/<int:pk>/review/", review.visit_review, name="visit-review"),
+    path("review/", review.review_queue, name="review-queue"),
+    path("units/<int:pk>/", units.unit_detail, name="unit"),
+    path("flags/<int:pk>/acknowledge/", flags.flag_acknowledge, name="flag-acknowledge"),
+    path("sites/", sites.site_list, name="sites"),
+    path("sites/<int:pk>/", sites.site_detail, name="site"),
+    path("sites/<int:pk>/reports/<str:month>/", sites.site_report, name="site-report"),
+    path("attention/", attention.attention, name="attention"),
 ]

@@ -9,8 +9,9 @@ from __future__ import annotations
 
 from django.core.exceptions import ValidationError
 from django.db import models
-from django.db.models import Q
+from django.db.models import Q, QuerySet
 
+from fleet import reach as scope
 from fleet.models import Site
 
 from .months import Month
@@ -22,6 +23,17 @@ def report_pdf_path(report: MonthlyReport, filename: str) -> str:
         f"reports/{report.site_id}/{report.month:%Y-%m}/"
         f"v{report.version}-{report.checksum_sha256[:12]}.pdf"
     )
+
+
+class MonthlyReportQuerySet(scope.VisibleQuerySet["MonthlyReport"]):
+    """Stored reports, scoped to a user's reach (``visible_to``)."""
+
+    def sites_visible_to(self, user: object) -> QuerySet[Site]:
+        """The sites whose reports are within ``user``'s reach, by the rule of
+        ``visible_to`` (``fleet.reach.report_sites``), a site without a report yet
+        included."""
+        condition = scope.report_sites(scope.roles_of(user), user)  # type: ignore[arg-type]
+        return Site.objects.none() if condition is None else Site.objects.filter(condition)
 
 
 class MonthlyReport(models.Model):
@@ -41,6 +53,10 @@ class MonthlyReport(models.Model):
     html = models.TextField()
     page_count = models.PositiveIntegerField()
     unit_count = models.PositiveIntegerField()
+
+    #: Who may see it: the office, and the managers granted its site.
+    reach = scope.Through(scope.report_sites, "site__")
+    objects = MonthlyReportQuerySet.as_manager()
 
     class Meta:
         ordering = ["site", "-month", "-version"]

@@ -1,7 +1,8 @@
 """Office pages: the sites' stored reports, each viewable (HTML) and downloadable (PDF).
 
-Same reach as the API: the office sees every site, a manager the sites they manage; anything
-else is 404. A report page serves the HTML exactly as stored with the report.
+Same reach as the API and the fleet pages (``MonthlyReport.objects.visible_to``, the rule of
+``fleet.reach``): the office sees every site's reports, a manager those of the sites granted
+to them; anything else is 404. A report page serves the HTML exactly as stored with the report.
 """
 
 from __future__ import annotations
@@ -14,7 +15,6 @@ from django.views.decorators.http import require_GET
 
 from .models import MonthlyReport
 from .months import Month
-from .permissions import reports_within_reach, sites_within_reach
 
 
 def _version(request: HttpRequest) -> int | None:
@@ -31,7 +31,11 @@ def _report(request: HttpRequest, site_id: int, month: str) -> MonthlyReport:
         first_day = Month.parse(month).first_day
     except ValueError as exc:
         raise Http404("no such month") from exc
-    reports = reports_within_reach(request.user).filter(site_id=site_id, month=first_day)
+    reports = (
+        MonthlyReport.objects.visible_to(request.user)
+        .filter(site_id=site_id, month=first_day)
+        .defer("html")
+    )
     version = _version(request)
     if version is not None:
         reports = reports.filter(version=version)
@@ -46,7 +50,7 @@ def _report(request: HttpRequest, site_id: int, month: str) -> MonthlyReport:
 def report_index(request: HttpRequest) -> HttpResponse:
     """Every site within reach, with how many reports it has and the latest month."""
     sites = (
-        sites_within_reach(request.user)
+        MonthlyReport.objects.sites_visible_to(request.user)
         .select_related("customer")
         .annotate(report_count=Count("monthly_reports"), latest_month=Max("monthly_reports__month"))
         .order_by("customer__name", "name")
@@ -58,7 +62,7 @@ def report_index(request: HttpRequest) -> HttpResponse:
 @login_required
 def site_reports(request: HttpRequest, site_id: int) -> HttpResponse:
     site = get_object_or_404(
-        sites_within_reach(request.user).select_related("customer"), pk=site_id
+        MonthlyReport.objects.sites_visible_to(request.user).select_related("customer"), pk=site_id
     )
     reports = MonthlyReport.objects.filter(site=site).defer("html").order_by("-month", "-version")
     return render(request, "reports/site_reports.html", {"site": site, "reports": reports})

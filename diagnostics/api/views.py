@@ -29,8 +29,8 @@ from diagnostics.api.serializers import (
 )
 from diagnostics.core.refrigerants import UnknownRefrigerant
 from diagnostics.models import Diagnosis, Flag
-from fleet.api.permissions import HasRole, visible_units
-from fleet.api.views import UnitSystemMixin
+from fleet.api.permissions import HasRole
+from fleet.api.views_.base import UnitSystemMixin
 from fleet.choices import Stage
 from fleet.display import from_si, to_si
 from fleet.models import Unit
@@ -64,7 +64,7 @@ class _UnitView(UnitSystemMixin, APIView):
     states_units = True
 
     def unit(self, unit_pk: int) -> Unit:
-        qs: QuerySet[Unit] = visible_units(self.request.user, Unit.objects.select_related("site"))
+        qs: QuerySet[Unit] = Unit.objects.visible_to(self.request.user).select_related("site")
         return get_object_or_404(qs, pk=unit_pk)
 
 

@@ -1,9 +1,9 @@
 """The fleet's REST endpoints, gathered from ``views_`` (the shared base in ``base``, then
 one module per resource family). Thin: scope the queryset, parse, call a service, serialise.
 
-Every queryset is scoped to the caller's reach (``permissions.visible_*``) before anything
-is fetched, and prefetches what its serializer reads, so a list costs the same number of
-queries for one record as for a page of them.
+Every queryset is scoped to the caller's reach (``Model.objects.visible_to``, the rule of
+``fleet.reach``) before anything is fetched, and prefetches what its serializer reads, so
+a list costs the same number of queries for one record as for a page of them.
 """
 
 from __future__ import annotations

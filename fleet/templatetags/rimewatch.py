@@ -11,6 +11,7 @@ from __future__ import annotations
 import datetime as dt
 
 from django import template
+from django.urls import reverse
 from django.utils import timezone
 from django.utils.html import format_html
 
@@ -244,6 +245,18 @@ def person(user) -> str:
     if user is None:
         return EMPTY
     return user.get_full_name() or user.get_username()
+
+
+@register.simple_tag(takes_context=True)
+def visit_ref(context: template.Context, visit) -> str:
+    """A visit's reference, linked to its page when the visit is within the reader's reach:
+    ``reachable_visits`` in the context holds the ids within reach (absent: all are)."""
+    reachable = context.get("reachable_visits")
+    if reachable is not None and visit.pk not in reachable:
+        return visit.reference
+    return format_html(
+        '<a href="{}">{}</a>', reverse("fleet:visit", args=[visit.pk]), visit.reference
+    )
 
 
 @register.filter

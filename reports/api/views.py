@@ -1,7 +1,8 @@
 """API: the stored reports of a site, and the PDF of a site-month.
 
-Both views find the site through ``sites_within_reach`` (office: all; managers: their
-sites), so a site outside one's reach is 404 whatever the month or version asked.
+Both views read within the caller's reach (``MonthlyReport.objects.visible_to``, the rule
+of ``fleet.reach``: office all sites, managers their granted sites), so a site outside it is
+404 whatever the month or version asked.
 """
 
 from __future__ import annotations
@@ -22,7 +23,6 @@ from rest_framework.views import APIView
 
 from reports.models import MonthlyReport
 from reports.months import Month
-from reports.permissions import reports_within_reach, sites_within_reach
 
 from .serializers import MonthlyReportSerializer
 
@@ -62,7 +62,8 @@ class SiteReportList(generics.ListAPIView):
     queryset = MonthlyReport.objects.none()
 
     def get_queryset(self):
-        site = get_object_or_404(sites_within_reach(self.request.user), pk=self.kwargs["site_id"])
+        sites = MonthlyReport.objects.sites_visible_to(self.request.user)
+        site = get_object_or_404(sites, pk=self.kwargs["site_id"])
         return MonthlyReport.objects.filter(site=site).defer("html").order_by("-month", "-version")
 
 
@@ -91,7 +92,11 @@ class SiteReportPdf(APIView):
         except ValueError as exc:
             raise Http404("no such month") from exc
         version = requested_version(request.query_params)
-        reports = reports_within_reach(request.user).filter(site_id=site_id, month=first_day)
+        reports = (
+            MonthlyReport.objects.visible_to(request.user)
+            .filter(site_id=site_id, month=first_day)
+            .defer("html")
+        )
         if version is not None:
             reports = reports.filter(version=version)
         report = reports.order_by("-version").first()

@@ -18,7 +18,7 @@ from django.contrib.auth.models import User
 from django.utils import timezone
 from rest_framework.test import APIClient
 
-from fleet.api.permissions import visible_visits, visit_in_reach
+from fleet.api.permissions import visit_in_reach
 from fleet.models import Visit
 from tests.factories import VisitFactory
 
@@ -364,7 +364,7 @@ def test_absurd_ids_and_queries_are_4xx_never_500(world, url):
 
 def test_the_reach_of_a_visits_records_agrees_with_visible_visits(world, outsider):
     """``visit_in_reach`` (the visit's units with their visit, one query) reaches exactly
-    the visits that ``visible_visits`` (the query set every list uses) holds, for every
+    the visits that ``Visit.objects.visible_to`` (the query set every list uses) holds, for every
     role, and brings each visit's units with it; a visit without units is reached too,
     with none."""
     superuser = User.objects.create_superuser("root", password="x")  # no role group: office
@@ -373,7 +373,9 @@ def test_the_reach_of_a_visits_records_agrees_with_visible_visits(world, outside
     for user in [*users, superuser]:
         for visit in (world.own_visit, world.other_visit, empty):
             found = visit_in_reach(User.objects.get(pk=user.pk), visit.pk)
-            visible = visible_visits(User.objects.get(pk=user.pk)).filter(pk=visit.pk).exists()
+            visible = (
+                Visit.objects.visible_to(User.objects.get(pk=user.pk)).filter(pk=visit.pk).exists()
+            )
             assert (found is not None) is visible, (user.username, visit.reference)
             if found is not None:
                 got, units = found

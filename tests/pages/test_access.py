@@ -1,5 +1,8 @@
-"""Each page answers each role as shared/API.md says: office everything, technicians their
-own visits and units, managers their sites read-only; anything outside reach is 404."""
+"""Each page answers each role by the one rule of reach (``fleet.reach``, the API's and the
+reports' too): office everything; technicians their own visits and the units and sites of
+those visits; managers their granted sites and their units, no visits; anything outside
+reach is 404. The office's tools (booking, review, maintenance, attention) are the
+office's."""
 
 from __future__ import annotations
 
@@ -31,22 +34,23 @@ MATRIX = {
     "maintenance": (200, 404, 404),
     "review-queue": (200, 404, 404),
     "attention": (200, 404, 404),
-    "sites": (200, 404, 200),
+    "sites": (200, 200, 200),
     "visit-create": (200, 404, 404),
     "visit-edit": (200, 404, 404),
-    "visit-own": (200, 200, 200),
+    "visit-own": (200, 200, 404),
     "visit-other": (200, 404, 404),
     "unit-own": (200, 200, 200),
     "unit-other": (200, 404, 404),
-    "site-own": (200, 404, 200),
+    "site-own": (200, 200, 200),
     "site-other": (200, 404, 404),
 }
 
 
 @pytest.mark.parametrize("name", MATRIX)
 def test_it_answers_each_role_within_its_reach(name, world, office, tech, boss):
-    """Office opens every page; a technician only their own visits and units; a manager only
-    the sites granted to them; everything else is 404, never 403."""
+    """Office opens every page; a technician only their own visits and the units and sites
+    of those visits; a manager only the sites granted to them and their units (no visit);
+    everything else is 404, never 403."""
     url = _url(name, world)
     got = tuple(client.get(url).status_code for client in (office, tech, boss))
     assert got == MATRIX[name]

@@ -11,7 +11,7 @@ from django.utils import timezone
 
 from diagnostics.core.findings import RULES_BY_CODE
 from diagnostics.models import Diagnosis
-from fleet.views import unit_charts
+from fleet.views.units import unit_charts
 from tests.factories import ComponentFactory, ReadingSetFactory, UnitFactory, VisitUnitFactory
 
 from .conftest import DOCUMENT

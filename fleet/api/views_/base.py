@@ -14,8 +14,9 @@ from rest_framework.exceptions import APIException, ValidationError
 from rest_framework.pagination import PageNumberPagination
 from rest_framework.request import Request
 
-from fleet.api.permissions import OFFICE, HasRole
+from fleet.api.permissions import HasRole
 from fleet.display import SYSTEMS
+from fleet.reach import OFFICE
 
 UNITS_PARAMETER = OpenApiParameter(
     "units",

@@ -5,7 +5,6 @@ from __future__ import annotations
 from django.db.models import QuerySet
 
 from fleet import filtersets
-from fleet.api.permissions import visible_customers, visible_sites
 from fleet.api.serializers import CustomerSerializer, SiteSerializer
 from fleet.models import Customer, Site
 
@@ -20,7 +19,7 @@ class CustomerViewSet(RecordViewSet):
     queryset = Customer.objects.all()
 
     def get_queryset(self) -> QuerySet[Customer]:
-        return visible_customers(self.request.user, Customer.objects.order_by("name", "id"))
+        return Customer.objects.visible_to(self.request.user).order_by("name", "id")
 
 
 class SiteViewSet(RecordViewSet):
@@ -32,5 +31,5 @@ class SiteViewSet(RecordViewSet):
     states_units = True
 
     def get_queryset(self) -> QuerySet[Site]:
-        qs = Site.objects.prefetch_related("managers").order_by("customer__name", "name", "id")
-        return visible_sites(self.request.user, qs)
+        qs = Site.objects.visible_to(self.request.user).prefetch_related("managers")
+        return qs.order_by("customer__name", "name", "id")

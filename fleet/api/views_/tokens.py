@@ -12,9 +12,9 @@ from rest_framework.request import Request
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
-from fleet.api.permissions import role_of
 from fleet.api.serializers import TokenRequestSerializer, TokenSerializer
 from fleet.api.throttles import AuthRateThrottle
+from fleet.reach import roles_of
 
 
 class TokenView(APIView):
@@ -38,7 +38,7 @@ class TokenView(APIView):
         )
         if user is None:
             raise ValidationError({"password": ["the username or the password is wrong"]})
-        role = role_of(user)
+        role = roles_of(user).widest
         if role is None:
             raise PermissionDenied("your account has no role in Rimewatch")
         token, _ = Token.objects.get_or_create(user=user)

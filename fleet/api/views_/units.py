@@ -5,7 +5,6 @@ from __future__ import annotations
 from django.db.models import QuerySet
 
 from fleet import filtersets
-from fleet.api.permissions import visible_components, visible_units
 from fleet.api.serializers import ComponentSerializer, UnitSerializer
 from fleet.models import Component, Unit
 
@@ -21,8 +20,8 @@ class UnitViewSet(RecordViewSet):
     states_units = True
 
     def get_queryset(self) -> QuerySet[Unit]:
-        qs = Unit.objects.select_related("site", "refrigerant").order_by("site_id", "tag", "id")
-        return visible_units(self.request.user, qs)
+        qs = Unit.objects.visible_to(self.request.user).select_related("site", "refrigerant")
+        return qs.order_by("site_id", "tag", "id")
 
 
 class ComponentViewSet(RecordViewSet):
@@ -33,5 +32,5 @@ class ComponentViewSet(RecordViewSet):
     queryset = Component.objects.all()
 
     def get_queryset(self) -> QuerySet[Component]:
-        qs = Component.objects.select_related("changed_on_visit").order_by("unit_id", "kind", "id")
-        return visible_components(self.request.user, qs)
+        qs = Component.objects.visible_to(self.request.user).select_related("changed_on_visit")
+        return qs.order_by("unit_id", "kind", "id")

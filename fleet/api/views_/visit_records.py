@@ -18,17 +18,19 @@ from rest_framework.request import Request
 from rest_framework.response import Response
 
 from fleet import filtersets, services
-from fleet.api.permissions import OFFICE, TECHNICIAN, role_of, visit_in_reach
+from fleet.api.permissions import visit_in_reach
 from fleet.api.serializers import ReadingSetSerializer, RefrigerantEventSerializer
 from fleet.choices import VisitStatus
 from fleet.models import ReadingSet, RefrigerantEvent, Visit, VisitUnit
+from fleet.reach import OFFICE, TECHNICIAN, roles_of
 
 from .base import Conflict, RimewatchViewSet
 
 VISIT_PK = OpenApiParameter("visit_pk", OpenApiTypes.INT, OpenApiParameter.PATH)
 
 #: The statuses in which each role may write readings and refrigerant events: technicians
-#: only while the visit is in progress; the office also after submission (recorded).
+#: only while the visit is in progress; the office also after submission (recorded). A user
+#: in several roles may write in any status one of them may.
 WRITABLE = {
     TECHNICIAN: frozenset({VisitStatus.IN_PROGRESS}),
     OFFICE: frozenset({VisitStatus.IN_PROGRESS, VisitStatus.SUBMITTED, VisitStatus.REVIEWED}),
@@ -79,7 +81,7 @@ class VisitRecordViewSet(
         return self._reach[1]
 
     def check_permissions(self, request: Request) -> None:
-        if role_of(request.user) is not None:
+        if roles_of(request.user):
             self.visit  # noqa: B018 -- reach first: 404 for a visit out of reach, whatever the method
         super().check_permissions(request)
 
@@ -100,7 +102,8 @@ class VisitRecordViewSet(
 
     def _check_writable(self) -> None:
         visit = self.visit
-        allowed = WRITABLE.get(role_of(self.request.user), frozenset())
+        roles = roles_of(self.request.user).names
+        allowed = frozenset().union(*(WRITABLE.get(role, ()) for role in roles))
         if visit.status not in allowed:
             states = " or ".join(sorted(allowed)) or "never"
             raise Conflict(

@@ -10,7 +10,6 @@ from rest_framework.request import Request
 from rest_framework.response import Response
 
 from fleet import audit, filtersets, services
-from fleet.api.permissions import OFFICE, TECHNICIAN, visible_visits
 from fleet.api.serializers import (
     AuditEntrySerializer,
     CancelSerializer,
@@ -20,6 +19,7 @@ from fleet.api.serializers import (
 )
 from fleet.choices import VisitStatus
 from fleet.models import AuditEntry, Visit
+from fleet.reach import OFFICE, TECHNICIAN
 
 from .base import Conflict, RecordViewSet
 
@@ -47,8 +47,8 @@ class VisitViewSet(RecordViewSet):
     }
 
     def get_queryset(self) -> QuerySet[Visit]:
-        qs = Visit.objects.select_related("site").prefetch_related("technicians", "units")
-        return visible_visits(self.request.user, qs.order_by("-window_start", "id"))
+        qs = Visit.objects.visible_to(self.request.user).select_related("site")
+        return qs.prefetch_related("technicians", "units").order_by("-window_start", "id")
 
     def perform_create(self, serializer: VisitSerializer) -> None:
         with transaction.atomic():

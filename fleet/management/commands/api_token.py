@@ -6,7 +6,7 @@ from django.contrib.auth import get_user_model
 from django.core.management.base import BaseCommand, CommandError, CommandParser
 from rest_framework.authtoken.models import Token
 
-from fleet.api.permissions import role_of
+from fleet.reach import roles_of
 
 
 class Command(BaseCommand):
@@ -34,7 +34,7 @@ class Command(BaseCommand):
             return
         if not user.is_active:
             raise CommandError(f"{user} is not active")
-        if role_of(user) is None:
+        if not roles_of(user):
             raise CommandError(f"{user} has no role (office, technician or manager)")
         if options["rotate"]:
             Token.objects.filter(user=user).delete()

@@ -1,0 +1,91 @@
+"""What every office page shares: who may open it, how it renders, and small request
+helpers.
+
+Which records a page shows is the reach of ``fleet.reach`` (``visible_to``); which pages a
+role opens at all is said here, per page, by ``within_reach``: the office's tools (booking,
+review, maintenance, attention) are the office's; the schedule is for those who reach
+visits; the records' pages are for every role, scoped by reach.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from functools import wraps
+from typing import Any
+from zoneinfo import ZoneInfo
+
+from django.contrib.auth.decorators import login_required
+from django.http import Http404, HttpRequest, HttpResponse
+from django.shortcuts import redirect, render
+from django.utils.http import url_has_allowed_host_and_scheme
+
+from diagnostics.models import Flag
+from fleet.choices import Role, VisitStatus
+from fleet.models import Site, Visit
+from fleet.reach import roles_of
+
+#: Every role: a page of records, scoped by reach alone.
+ANY_ROLE = tuple(Role.values)
+
+
+View = Callable[..., HttpResponse]
+
+
+def within_reach(*allowed: str) -> Callable[[View], View]:
+    """Sign-in required; then a user with none of the ``allowed`` roles gets 404 (the page
+    does not exist for them), never a hint that it does."""
+
+    def decorate(view: View) -> View:
+        @login_required
+        @wraps(view)
+        def wrapped(request: HttpRequest, *args: Any, **kwargs: Any) -> HttpResponse:
+            if not roles_of(request.user).any_of(allowed):
+                raise Http404("not within your reach")
+            return view(request, *args, **kwargs)
+
+        return wrapped
+
+    return decorate
+
+
+def page(request: HttpRequest, template: str, context: dict, status: int = 200) -> HttpResponse:
+    """Render a page with the user's roles and what the navigation shows for them (two
+    counts for the office; a page that has counted one already passes it in)."""
+    context = {"roles": roles_of(request.user), **context}
+    if context["roles"].office:
+        if "nav_queue_count" not in context:
+            context["nav_queue_count"] = (
+                Visit.objects.visible_to(request.user).filter(status=VisitStatus.SUBMITTED).count()
+            )
+        if "nav_flag_count" not in context:
+            context["nav_flag_count"] = (
+                Flag.objects.visible_to(request.user).filter(cleared_at__isnull=True).count()
+            )
+    return render(request, template, context, status=status)
+
+
+def is_htmx(request: HttpRequest) -> bool:
+    return request.headers.get("HX-Request") == "true"
+
+
+def safe_next(request: HttpRequest, fallback: str) -> str:
+    target = request.POST.get("next") or request.GET.get("next") or ""
+    if url_has_allowed_host_and_scheme(target, {request.get_host()}, request.is_secure()):
+        return target
+    return fallback
+
+
+def site_zone(site: Site) -> ZoneInfo:
+    return ZoneInfo(site.time_zone)
+
+
+@login_required
+def home(request: HttpRequest) -> HttpResponse:
+    """Send each user to the page their day starts on: the schedule for those who reach
+    visits, the site list for managers."""
+    roles = roles_of(request.user)
+    if roles.sees_visits:
+        return redirect("fleet:schedule")
+    if roles:
+        return redirect("fleet:sites")
+    return page(request, "fleet/no_role.html", {})
