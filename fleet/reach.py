@@ -23,6 +23,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, TypeVar
 
+from django.apps import apps
 from django.db import models
 from django.db.models import Q
 
@@ -128,16 +129,19 @@ def _union(*conditions: Q | None) -> Q | None:
     return union
 
 
-def _assigned_visits(user: Any) -> models.QuerySet[Any]:
-    from .models import Visit
+def _model(name: str) -> type[models.Model]:
+    """A fleet model by name: the models import this module, so it cannot import them."""
+    return apps.get_model("fleet", name)
 
-    return Visit.technicians.through.objects.filter(user_id=user.pk).values("visit_id")
+
+def _assigned_visits(user: Any) -> models.QuerySet[Any]:
+    assignments = _model("Visit").technicians.through  # type: ignore[attr-defined]
+    return assignments.objects.filter(user_id=user.pk).values("visit_id")  # type: ignore[no-any-return]
 
 
 def _granted_sites(user: Any) -> models.QuerySet[Any]:
-    from .models import Site
-
-    return Site.managers.through.objects.filter(user_id=user.pk).values("site_id")
+    grants = _model("Site").managers.through  # type: ignore[attr-defined]
+    return grants.objects.filter(user_id=user.pk).values("site_id")  # type: ignore[no-any-return]
 
 
 def visits(roles: Roles, user: Any, path: str = "") -> Q | None:
@@ -154,9 +158,9 @@ def units(roles: Roles, user: Any, path: str = "") -> Q | None:
     their granted sites."""
     if roles.office:
         return Q()
-    from .models import VisitUnit
-
-    on_visits = VisitUnit.objects.filter(visit_id__in=_assigned_visits(user)).values("unit_id")
+    on_visits = (
+        _model("VisitUnit").objects.filter(visit_id__in=_assigned_visits(user)).values("unit_id")
+    )
     return _union(
         Q(**{f"{path}pk__in": on_visits}) if roles.technician else None,
         Q(**{f"{path}site_id__in": _granted_sites(user)}) if roles.manager else None,
@@ -168,9 +172,7 @@ def sites(roles: Roles, user: Any, path: str = "") -> Q | None:
     sites."""
     if roles.office:
         return Q()
-    from .models import Visit
-
-    of_visits = Visit.objects.filter(pk__in=_assigned_visits(user)).values("site_id")
+    of_visits = _model("Visit").objects.filter(pk__in=_assigned_visits(user)).values("site_id")
     return _union(
         Q(**{f"{path}pk__in": of_visits}) if roles.technician else None,
         Q(**{f"{path}pk__in": _granted_sites(user)}) if roles.manager else None,
@@ -181,12 +183,10 @@ def customers(roles: Roles, user: Any, path: str = "") -> Q | None:
     """The customers of the sites within reach."""
     if roles.office:
         return Q()
-    from .models import Site
-
     site_reach = sites(roles, user)
     if site_reach is None:
         return None
-    return Q(**{f"{path}pk__in": Site.objects.filter(site_reach).values("customer_id")})
+    return Q(**{f"{path}pk__in": _model("Site").objects.filter(site_reach).values("customer_id")})
 
 
 def report_sites(roles: Roles, user: Any, path: str = "") -> Q | None:
@@ -205,9 +205,7 @@ def visit_trail(roles: Roles, user: Any, path: str = "") -> Q | None:
     visit_reach = visits(roles, user)
     if not visit_reach:
         return visit_reach
-    from .models import Visit
-
-    return Q(**{f"{path}visit_id__in": Visit.objects.filter(visit_reach).values("pk")})
+    return Q(**{f"{path}visit_id__in": _model("Visit").objects.filter(visit_reach).values("pk")})
 
 
 def reference(roles: Roles, user: Any, path: str = "") -> Q | None:
