@@ -16,7 +16,7 @@ from dataclasses import dataclass
 from fleet.display import Display
 
 from .charts import Band, Line, Panel, Reference, Window
-from .gather import HistoryPoint, SiteMonth, UnitMonth
+from .data import HistoryPoint, SiteMonth, UnitMonth
 from .summary import DEFAULT_RULES, ReportRules
 
 

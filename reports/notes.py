@@ -15,8 +15,8 @@ from django.conf import settings
 from diagnostics.core import costs, leaks
 from diagnostics.core.sources import describe_rules
 
-from .gather import SiteMonth
-from .summary import DEFAULT_RULES, HEALTH_LABELS
+from .data import HEALTH_LABELS, SiteMonth
+from .summary import DEFAULT_RULES
 from .words import SCORE_NAME
 
 

@@ -20,8 +20,8 @@ from django.template.loader import render_to_string
 
 from fleet.display import Display
 
+from .data import SiteMonth
 from .figures import UnitFigure
-from .gather import SiteMonth
 from .notes import method_notes, safety_cautions
 from .words import ICE_MACHINE_BASIS
 

@@ -27,8 +27,9 @@ from fleet.display import Display, display_for
 from fleet.models import Site
 
 from . import charts
+from .data import SiteMonth
 from .figures import UnitFigure, unit_figure, window_of
-from .gather import SiteMonth, gather_site_month
+from .gather import gather_site_month
 from .models import MonthlyReport
 from .months import Month
 from .render import LAYOUT_VERSION, UnitChart, render_html, render_pdf, unit_chart_alt

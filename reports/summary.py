@@ -1,27 +1,33 @@
 """Judging a site-month from its gathered data: health grades, trends, urgency, money at stake.
 
-Pure functions over the plain data of ``gather.py`` (no queries, no Django). The grading
+Pure functions over the plain data of ``data.py`` (no queries, no Django). The grading
 thresholds are ours and live in one table (``ReportRules``) with the reason beside each value;
 the money comes from the diagnostics core (``costs.energy_cost``) with the stored penalty.
 """
 
 from __future__ import annotations
 
-from collections import Counter
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from datetime import date
 from statistics import fmean, median
-from typing import TYPE_CHECKING
 
 from diagnostics.core import costs
 from diagnostics.core.scoring import SCORING_TABLE
 from diagnostics.core.sources import cite
 
+from .data import (
+    Check,
+    EnergyEstimate,
+    FlagRow,
+    Health,
+    HistoryPoint,
+    LeakRateRow,
+    Story,
+    Trend,
+)
 from .months import Month
 from .words import (
-    CONDITION_ORDER,
-    CONDITIONS,
     FINDING_ACTIONS,
     FLAG_ACTIONS,
     METRIC_ACTIONS,
@@ -31,9 +37,6 @@ from .words import (
     follow_up,
     one_per_topic,
 )
-
-if TYPE_CHECKING:
-    from .gather import Check, FlagRow, HistoryPoint, LeakRateRow, UnitMonth, VisitInfo
 
 
 @dataclass(frozen=True)
@@ -94,24 +97,6 @@ def severity_rank(severity: str) -> int:
 
 
 # --- health of one unit -------------------------------------------------------------------------
-
-#: The condition words (``words.CONDITIONS``) by key, and their order of urgency.
-HEALTH_LABELS: dict[str, str] = {key: c.label for key, c in CONDITIONS.items()}
-HEALTH_ORDER: dict[str, int] = CONDITION_ORDER
-
-
-@dataclass(frozen=True)
-class Health:
-    status: str
-    reasons: tuple[str, ...]
-
-    @property
-    def label(self) -> str:
-        return HEALTH_LABELS[self.status]
-
-    @property
-    def order(self) -> int:
-        return HEALTH_ORDER[self.status]
 
 
 def current_check(checks: Sequence[Check]) -> Check | None:
@@ -260,27 +245,9 @@ def worst(healths: Iterable[Health]) -> Health | None:
 
 # --- trend and the story of the month ----------------------------------------------------------
 
-TREND_LABELS: dict[str, str] = {
-    "worse": "Getting worse",
-    "better": "Improving",
-    "steady": "Holding steady",
-    "stuck": "No better",
-    "unknown": "Too little history",
-}
-
 #: Flag kinds that follow a change over several visits: while one is open the unit is
 #: getting worse, whatever one month's score says.
 DRIFT_KINDS = frozenset({"head_pressure_drift", "start_components", "leak_rate"})
-
-
-@dataclass(frozen=True)
-class Trend:
-    direction: str
-    detail: str
-
-    @property
-    def label(self) -> str:
-        return TREND_LABELS[self.direction]
 
 
 def monthly_scores(history: Iterable[HistoryPoint]) -> dict[Month, float]:
@@ -348,16 +315,6 @@ def cause_sentence(
     return "Nothing wrong was found in this check."
 
 
-@dataclass(frozen=True)
-class Story:
-    """What the report says of a unit's month in words: its trend and, where no probable
-    cause is listed, the sentence in its place. Both come from one reading of the same
-    data (``story_of``), so they cannot contradict each other or the flags."""
-
-    trend: Trend
-    cause: str
-
-
 def story_of(
     current: Check | None,
     history: Sequence[HistoryPoint],
@@ -408,23 +365,6 @@ def off_condensing_target(current: Check) -> bool:
         m.name in CONDENSING_METRICS and m.status in ("watch", "fault") and (m.deviation or 0.0) > 0
         for m in current.metrics
     )
-
-
-@dataclass(frozen=True)
-class EnergyEstimate:
-    """What the month's penalty costs; ``cost`` is None when it could not be estimated."""
-
-    penalty_percent: float
-    cost: costs.EnergyCost | None
-    note: str
-
-    @property
-    def extra_cost_per_month(self) -> float | None:
-        return self.cost.extra_cost_per_month if self.cost else None
-
-    @property
-    def extra_kwh_per_month(self) -> float | None:
-        return self.cost.extra_kwh_per_month if self.cost else None
 
 
 def energy_estimate(
@@ -516,104 +456,3 @@ def actions_for(
         )
     texts = [t.strip().rstrip(".") + "." for t in one_per_topic(asked)]
     return tuple(texts[: rules.max_actions])
-
-
-def rank_attention(units: Iterable[UnitMonth]) -> tuple[UnitMonth, ...]:
-    """Units needing attention or watching, most urgent first.
-
-    Urgency: the grade, then the most severe open flag, then the nearest projected date,
-    then the lowest score.
-    """
-    chosen = [
-        u for u in units if u.health.status in ("act", "watch") or u.trend.direction == "worse"
-    ]
-
-    def key(u: UnitMonth) -> tuple:
-        top = max((f.severity_rank for f in u.flags), default=0)
-        dates = [f.projected_on for f in u.flags if f.projected_on is not None]
-        soonest = min(dates).toordinal() if dates else 10**7
-        score = u.current.score if u.current and u.current.score is not None else 101.0
-        return (u.health.order, -top, soonest, score, u.unit.tag)
-
-    return tuple(sorted(chosen, key=key))
-
-
-# --- the site as a whole ------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class SiteOverview:
-    unit_count: int
-    checked_count: int
-    counts: tuple[tuple[str, str, int], ...]
-    mean_score: float | None
-    lowest_score: float | None
-    open_flag_count: int
-    not_checked: tuple[str, ...]
-    visits_by_kind: tuple[tuple[str, int], ...]
-    energy_cost_per_month: float
-    energy_kwh_per_month: float
-    energy_units_estimated: int
-    energy_units_not_estimated: tuple[str, ...]
-    #: The costliest units: (tag, penalty %, kWh a month, cost a month), most first.
-    energy_top: tuple[tuple[str, float, float, float], ...] = ()
-    #: Units priced but not listed in ``energy_top``, and what they add up to.
-    energy_rest_count: int = 0
-    energy_rest_cost: float = 0.0
-
-    @property
-    def status(self) -> str:
-        """The site's grade: its worst unit's, ignoring units not checked or not judged
-        (unless no unit was judged)."""
-        counted = [s for s, _, n in self.counts if n]
-        present = [s for s in counted if s not in ("unseen", "unjudged")]
-        if not present:
-            return "unjudged" if "unjudged" in counted else "unseen"
-        return min(present, key=lambda s: HEALTH_ORDER[s])
-
-    @property
-    def status_label(self) -> str:
-        return HEALTH_LABELS[self.status]
-
-
-#: The first page lists the costliest units only; the rest are summed in one line.
-ENERGY_ROWS = 8
-
-
-def overview(units: Sequence[UnitMonth], visits: Sequence[VisitInfo]) -> SiteOverview:
-    counts = Counter(u.health.status for u in units)
-    scores = [u.current.score for u in units if u.current and u.current.score is not None]
-    estimated = [u for u in units if u.energy and u.energy.cost]
-    by_kind = Counter(v.kind_label for v in visits if v.status != "cancelled")
-    priced = sorted(
-        (
-            (
-                u.unit.tag,
-                u.energy.penalty_percent,
-                u.energy.extra_kwh_per_month or 0.0,
-                u.energy.extra_cost_per_month or 0.0,
-            )
-            for u in estimated
-        ),
-        key=lambda row: (-row[3], row[0]),
-    )
-    top, rest = priced[:ENERGY_ROWS], priced[ENERGY_ROWS:]
-    return SiteOverview(
-        unit_count=len(units),
-        checked_count=sum(1 for u in units if u.current is not None),
-        counts=tuple((s, HEALTH_LABELS[s], counts.get(s, 0)) for s in HEALTH_ORDER),
-        mean_score=fmean(scores) if scores else None,
-        lowest_score=min(scores) if scores else None,
-        open_flag_count=sum(len(u.flags) for u in units),
-        not_checked=tuple(u.unit.tag for u in units if u.current is None),
-        visits_by_kind=tuple(sorted(by_kind.items())),
-        energy_cost_per_month=sum(u.energy.extra_cost_per_month or 0.0 for u in estimated),
-        energy_kwh_per_month=sum(u.energy.extra_kwh_per_month or 0.0 for u in estimated),
-        energy_units_estimated=len(estimated),
-        energy_units_not_estimated=tuple(
-            u.unit.tag for u in units if u.energy is not None and u.energy.cost is None
-        ),
-        energy_top=tuple(top),
-        energy_rest_count=len(rest),
-        energy_rest_cost=sum(row[3] for row in rest),
-    )

@@ -16,7 +16,7 @@ from django.utils import timezone
 from django.utils.html import format_html
 
 from fleet.display import display_for
-from reports import summary, words
+from reports import data, summary, words
 
 register = template.Library()
 
@@ -155,7 +155,7 @@ def health(score: float | None):
 
 
 @register.simple_tag
-def condition(judged: summary.Health | None, score: float | None = None):
+def condition(judged: data.Health | None, score: float | None = None):
     """A condition judged from a check and its flags (``summary.judge``), with the score."""
     if judged is None:
         return health(score)

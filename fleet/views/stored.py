@@ -9,7 +9,8 @@ from dataclasses import dataclass
 
 from diagnostics.models import Diagnosis, Flag, LeakRate
 from fleet.models import ReadingSet, RefrigerantEvent, Unit, Visit, VisitUnit
-from reports.summary import Health, judge_stored, severity_rank, worst
+from reports.data import Health
+from reports.summary import judge_stored, severity_rank, worst
 
 
 def diagnosis_condition(

@@ -29,7 +29,7 @@ def unit_charts(unit: Unit, today: dt.date) -> dict[str, Any]:
     """
     from reports.charts import Window, chart_svg
     from reports.figures import trend_panels
-    from reports.gather import unit_trend_history
+    from reports.queries import unit_trend_history
     from reports.summary import DEFAULT_RULES
 
     first = dt.date(today.year - 1, today.month, 1)

@@ -9,7 +9,7 @@ import pytest
 from django.template.loader import render_to_string
 
 from fleet.templatetags import rimewatch
-from reports import summary, words
+from reports import data, summary, words
 
 
 @pytest.fixture
@@ -78,7 +78,7 @@ def test_a_score_is_named_in_the_words_of_the_monthly_report():
     assert "Not enough readings to judge" in str(rimewatch.health(None))
     for old in ("Good", "Fair", "Poor"):
         assert all(old not in str(rimewatch.health(s)) for s in (40.0, 80.0, 95.0, None))
-    assert summary.HEALTH_LABELS["sound"] == words.CONDITIONS["sound"].label
+    assert data.HEALTH_LABELS["sound"] == words.CONDITIONS["sound"].label
 
 
 @pytest.mark.usefixtures("us")

@@ -8,13 +8,16 @@ from zoneinfo import ZoneInfo
 
 import pytest
 
-from reports import summary, words
-from reports.gather import (
+from reports import data, overview, summary, words
+from reports.data import (
     Check,
     FindingRow,
     FlagRow,
+    Health,
     HistoryPoint,
     MetricRow,
+    Story,
+    Trend,
     UnitInfo,
     UnitMonth,
 )
@@ -136,8 +139,8 @@ def test_units_are_ranked_by_grade_then_flag_severity_then_date():
         0.0,
         check(95),
         None,
-        summary.Health("sound", ()),
-        summary.Story(summary.Trend("steady", ""), ""),
+        Health("sound", ()),
+        Story(Trend("steady", ""), ""),
         None,
         (),
     )
@@ -147,10 +150,10 @@ def test_units_are_ranked_by_grade_then_flag_severity_then_date():
             base,
             unit=replace(info, tag=tag),
             flags=tuple(flags),
-            health=summary.Health(status, ("x",)),
+            health=Health(status, ("x",)),
         )
 
-    ranked = summary.rank_attention(
+    ranked = overview.rank_attention(
         [
             unit("healthy", "sound"),
             unit("watch", "watch", [flag("warning")]),
@@ -312,7 +315,7 @@ def test_energy_is_priced_only_above_the_condensing_target():
 def test_conditions_share_one_vocabulary_and_one_rule():
     """The report's health statuses are the pages' condition words; a score alone maps to
     them by the report's thresholds (85 and 70), and no score is 'not enough readings'."""
-    assert {k: c.label for k, c in words.CONDITIONS.items()} == summary.HEALTH_LABELS
+    assert {k: c.label for k, c in words.CONDITIONS.items()} == data.HEALTH_LABELS
     assert [summary.score_condition(s) for s in (95, 85, 84, 70, 69, None)] == [
         "sound",
         "sound",
