@@ -26,6 +26,7 @@ run: install
 lint: install
 	$(VENV)/bin/ruff check .
 	$(VENV)/bin/ruff format --check .
+	$(VENV)/bin/lint-imports
 	DJANGO_SETTINGS_MODULE=config.settings_test $(PY) manage.py makemigrations --check --dry-run
 	DJANGO_SETTINGS_MODULE=config.settings_test $(PY) manage.py spectacular --validate --fail-on-warn --file /dev/null
 

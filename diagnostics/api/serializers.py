@@ -7,47 +7,18 @@ states, with the unit beside it.
 
 from __future__ import annotations
 
-import functools
-import logging
 from typing import Any
 
 from drf_spectacular.utils import extend_schema_field
 from rest_framework import serializers
 
-from diagnostics.core import refrigerants, saturation, wording
+from diagnostics.core import wording
 from diagnostics.models import Diagnosis, Flag, LeakRate
-from fleet.api.wire_units import pressure_difference_from_kpa
-from fleet.display import display_for, from_si
-
-log = logging.getLogger(__name__)
-
-#: Standard atmosphere at sea level, kPa (U.S. Standard Atmosphere 1976): where a
-#: refrigerant's listed glide is read.
-ATMOSPHERIC_KPA_ABS = 101.325
+from fleet.api.wire_units import pressure_difference_from_kpa, response_units
+from fleet.display import from_si
 
 #: The SI unit labels the core writes, and the quantity each stands for.
 SI_LABELS = {"C": "temperature", "K": "temperature_difference", "kPa": "pressure"}
-
-
-def response_units(context: dict[str, Any]) -> dict[str, str]:
-    """The units a response states, from ``?units=`` (kept in the context by the view)."""
-    return display_for(context.get("unit_system")).units
-
-
-@functools.lru_cache(maxsize=64)
-def atmospheric_glide_k(designation: str) -> float | None:
-    """Dew minus bubble temperature at atmospheric pressure; None where the fluid has no
-    liquid there (R-744 below its triple point). Remembered per process: tables are fixed."""
-    if refrigerants.get(designation).kind is refrigerants.Kind.PURE:
-        return 0.0
-    try:
-        return float(saturation.table(designation).glide_k(ATMOSPHERIC_KPA_ABS))
-    except saturation.SaturationError:
-        return None
-    except Exception:
-        # A table that cannot be built must not take the refrigerant list down with it.
-        log.exception("no saturation table for %s", designation)
-        return None
 
 
 def _rounded(value: float | None) -> float | None:

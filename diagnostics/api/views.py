@@ -18,19 +18,19 @@ from rest_framework.request import Request
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
-from diagnostics.api import saturation as sat
+from diagnostics import lookups as sat
 from diagnostics.api.serializers import (
     DiagnosisSerializer,
     FlagSerializer,
     SaturationQuerySerializer,
     SaturationSerializer,
     TrendsSerializer,
-    response_units,
 )
 from diagnostics.core.refrigerants import UnknownRefrigerant
 from diagnostics.models import Diagnosis, Flag
 from fleet.api.permissions import HasRole
 from fleet.api.views_.base import UnitSystemMixin
+from fleet.api.wire_units import response_units
 from fleet.choices import Stage
 from fleet.display import from_si, to_si
 from fleet.models import Unit

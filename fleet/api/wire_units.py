@@ -11,9 +11,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Any
 
 from diagnostics.core import units as core_units
-from fleet.display import Quantity, from_si
+from fleet.display import Quantity, display_for, from_si
 from fleet.limits import Limit
 
 #: The units a request may state, per key of its ``units`` object. A temperature
@@ -48,6 +49,12 @@ class Measure:
     quantity: Quantity | None
     limit: Limit | None = None
     label: str = ""
+
+
+def response_units(context: dict[str, Any]) -> dict[str, str]:
+    """The units a response states, from ``?units=`` (kept in the serializer context by the
+    view)."""
+    return display_for(context.get("unit_system")).units
 
 
 def pressure_difference_from_kpa(value: float, unit: str) -> float:

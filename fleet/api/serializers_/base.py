@@ -18,9 +18,15 @@ from typing import Any, ClassVar
 from django.core.exceptions import ValidationError as DjangoValidationError
 from rest_framework import serializers
 
-from diagnostics.api.serializers import response_units
 from fleet.api.exceptions import django_errors
-from fleet.api.wire_units import REQUEST_KEY, REQUEST_UNITS, Measure, UnitError, limit_error
+from fleet.api.wire_units import (
+    REQUEST_KEY,
+    REQUEST_UNITS,
+    Measure,
+    UnitError,
+    limit_error,
+    response_units,
+)
 from fleet.display import from_si, to_si
 
 from .fields import UnitsField

@@ -10,8 +10,7 @@ from django.utils import timezone
 from drf_spectacular.utils import extend_schema_field
 from rest_framework import serializers
 
-from diagnostics.api.serializers import response_units
-from fleet.api.wire_units import REQUEST_UNITS
+from fleet.api.wire_units import REQUEST_UNITS, response_units
 
 #: How far ahead of the server clock a reading may be stamped (phone clocks drift a little).
 FUTURE_SLACK = dt.timedelta(hours=1)

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 from rest_framework import serializers
 
-from diagnostics.api.serializers import atmospheric_glide_k, response_units
+from diagnostics.lookups import atmospheric_glide_k
+from fleet.api.wire_units import response_units
 from fleet.display import from_si
 from fleet.models import Refrigerant
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from django.db.models import QuerySet
 
-from fleet import filtersets
+from fleet.api import filtersets
 from fleet.api.serializers import CustomerSerializer, SiteSerializer
 from fleet.models import Customer, Site
 

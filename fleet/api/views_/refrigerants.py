@@ -7,7 +7,7 @@ from rest_framework import mixins
 from rest_framework.exceptions import NotFound
 
 from diagnostics.core.refrigerants import UnknownRefrigerant, normalise_designation
-from fleet import filtersets
+from fleet.api import filtersets
 from fleet.api.serializers import RefrigerantSerializer
 from fleet.models import Refrigerant
 

@@ -17,7 +17,8 @@ from rest_framework import mixins, status
 from rest_framework.request import Request
 from rest_framework.response import Response
 
-from fleet import filtersets, services
+from fleet import services
+from fleet.api import filtersets
 from fleet.api.permissions import visit_in_reach
 from fleet.api.serializers import ReadingSetSerializer, RefrigerantEventSerializer
 from fleet.choices import VisitStatus

@@ -9,7 +9,8 @@ from rest_framework.decorators import action
 from rest_framework.request import Request
 from rest_framework.response import Response
 
-from fleet import audit, filtersets, services
+from fleet import audit, services
+from fleet.api import filtersets
 from fleet.api.serializers import (
     AuditEntrySerializer,
     CancelSerializer,

@@ -6,7 +6,7 @@ import json
 
 from django.core.management.base import BaseCommand, CommandError, CommandParser
 
-from diagnostics.api import saturation as sat
+from diagnostics import lookups as sat
 from diagnostics.core import units
 from diagnostics.core.refrigerants import UnknownRefrigerant
 

@@ -1,5 +1,6 @@
-"""Dew and bubble points for the API and ``manage.py saturation``: one place that turns a
-gauge or absolute reading into the core's absolute kPa and asks the saturation tables.
+"""Saturation look-ups for the API and ``manage.py saturation``: one place that turns a
+gauge or absolute reading into the core's absolute kPa and asks the saturation tables for
+dew and bubble points, and a refrigerant's glide at atmospheric pressure.
 
 Nothing is computed here: the conversion is ``diagnostics.core.units`` (with the standard
 atmosphere at the given elevation), the properties are ``diagnostics.core.saturation``.
@@ -7,9 +8,17 @@ atmosphere at the given elevation), the properties are ``diagnostics.core.satura
 
 from __future__ import annotations
 
+import functools
+import logging
 from dataclasses import dataclass
 
 from diagnostics.core import refrigerants, saturation, units
+
+log = logging.getLogger(__name__)
+
+#: Standard atmosphere at sea level, kPa (U.S. Standard Atmosphere 1976): where a
+#: refrigerant's listed glide is read.
+ATMOSPHERIC_KPA_ABS = 101.325
 
 
 class SaturationInputError(ValueError):
@@ -77,3 +86,19 @@ def at_temperature(designation: str, temperature: float, unit: str) -> AtTempera
     except saturation.SaturationError as exc:
         raise SaturationInputError("temperature", str(exc)) from exc
     return AtTemperature(name, float(t_c), float(dew), float(bubble))
+
+
+@functools.lru_cache(maxsize=64)
+def atmospheric_glide_k(designation: str) -> float | None:
+    """Dew minus bubble temperature at atmospheric pressure; None where the fluid has no
+    liquid there (R-744 below its triple point). Remembered per process: tables are fixed."""
+    if refrigerants.get(designation).kind is refrigerants.Kind.PURE:
+        return 0.0
+    try:
+        return float(saturation.table(designation).glide_k(ATMOSPHERIC_KPA_ABS))
+    except saturation.SaturationError:
+        return None
+    except Exception:
+        # A table that cannot be built must not take the refrigerant list down with it.
+        log.exception("no saturation table for %s", designation)
+        return None
