@@ -19,21 +19,15 @@ office; an inactive or anonymous user has no role.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, TypeVar
+from typing import Any, TypeVar
 
 from django.apps import apps
 from django.db import models
 from django.db.models import Q
 
 from .choices import Role
-
-if TYPE_CHECKING:
-    from django.contrib.auth.base_user import AbstractBaseUser
-    from django.contrib.auth.models import AnonymousUser
-
-    User = AbstractBaseUser | AnonymousUser
 
 OFFICE = Role.OFFICE.value
 TECHNICIAN = Role.TECHNICIAN.value
@@ -56,9 +50,9 @@ class Roles:
     def __contains__(self, role: object) -> bool:
         return role in self.names
 
-    def any_of(self, roles: object) -> bool:
+    def any_of(self, roles: Iterable[str]) -> bool:
         """Whether any of ``roles`` (role names) is among these."""
-        return not self.names.isdisjoint(roles)  # type: ignore[arg-type]
+        return not self.names.isdisjoint(roles)
 
     @property
     def office(self) -> bool:
@@ -94,17 +88,17 @@ class Roles:
 NO_ROLES = Roles(frozenset())
 
 
-def roles_of(user: User | None) -> Roles:
+def roles_of(user: Any) -> Roles:
     """The user's roles: one query for their groups, remembered on the user object for the
     rest of the request."""
     if user is None or not user.is_authenticated or not user.is_active:
         return NO_ROLES
     cached = getattr(user, _CACHE, None)
     if cached is None:
-        if user.is_superuser:  # type: ignore[union-attr]
+        if user.is_superuser:
             cached = Roles(frozenset({OFFICE}))
         else:
-            groups = user.groups.filter(name__in=ROLE_ORDER)  # type: ignore[union-attr]
+            groups = user.groups.filter(name__in=ROLE_ORDER)
             cached = Roles(frozenset(groups.values_list("name", flat=True)))
         setattr(user, _CACHE, cached)
     return cached
@@ -129,19 +123,19 @@ def _union(*conditions: Q | None) -> Q | None:
     return union
 
 
-def _model(name: str) -> type[models.Model]:
-    """A fleet model by name: the models import this module, so it cannot import them."""
-    return apps.get_model("fleet", name)
+def _rows(name: str) -> models.QuerySet[Any]:
+    """Every row of a fleet model (or of a many-to-many table, ``Visit_technicians``), found
+    by name in the app registry: the models import this module, so it cannot import them."""
+    rows: models.QuerySet[Any] = apps.get_model("fleet", name)._default_manager.all()
+    return rows
 
 
 def _assigned_visits(user: Any) -> models.QuerySet[Any]:
-    assignments = _model("Visit").technicians.through  # type: ignore[attr-defined]
-    return assignments.objects.filter(user_id=user.pk).values("visit_id")  # type: ignore[no-any-return]
+    return _rows("Visit_technicians").filter(user_id=user.pk).values("visit_id")
 
 
 def _granted_sites(user: Any) -> models.QuerySet[Any]:
-    grants = _model("Site").managers.through  # type: ignore[attr-defined]
-    return grants.objects.filter(user_id=user.pk).values("site_id")  # type: ignore[no-any-return]
+    return _rows("Site_managers").filter(user_id=user.pk).values("site_id")
 
 
 def visits(roles: Roles, user: Any, path: str = "") -> Q | None:
@@ -158,9 +152,7 @@ def units(roles: Roles, user: Any, path: str = "") -> Q | None:
     their granted sites."""
     if roles.office:
         return Q()
-    on_visits = (
-        _model("VisitUnit").objects.filter(visit_id__in=_assigned_visits(user)).values("unit_id")
-    )
+    on_visits = _rows("VisitUnit").filter(visit_id__in=_assigned_visits(user)).values("unit_id")
     return _union(
         Q(**{f"{path}pk__in": on_visits}) if roles.technician else None,
         Q(**{f"{path}site_id__in": _granted_sites(user)}) if roles.manager else None,
@@ -172,7 +164,7 @@ def sites(roles: Roles, user: Any, path: str = "") -> Q | None:
     sites."""
     if roles.office:
         return Q()
-    of_visits = _model("Visit").objects.filter(pk__in=_assigned_visits(user)).values("site_id")
+    of_visits = _rows("Visit").filter(pk__in=_assigned_visits(user)).values("site_id")
     return _union(
         Q(**{f"{path}pk__in": of_visits}) if roles.technician else None,
         Q(**{f"{path}pk__in": _granted_sites(user)}) if roles.manager else None,
@@ -186,7 +178,7 @@ def customers(roles: Roles, user: Any, path: str = "") -> Q | None:
     site_reach = sites(roles, user)
     if site_reach is None:
         return None
-    return Q(**{f"{path}pk__in": _model("Site").objects.filter(site_reach).values("customer_id")})
+    return Q(**{f"{path}pk__in": _rows("Site").filter(site_reach).values("customer_id")})
 
 
 def report_sites(roles: Roles, user: Any, path: str = "") -> Q | None:
@@ -205,7 +197,7 @@ def visit_trail(roles: Roles, user: Any, path: str = "") -> Q | None:
     visit_reach = visits(roles, user)
     if not visit_reach:
         return visit_reach
-    return Q(**{f"{path}visit_id__in": _model("Visit").objects.filter(visit_reach).values("pk")})
+    return Q(**{f"{path}visit_id__in": _rows("Visit").filter(visit_reach).values("pk")})
 
 
 def reference(roles: Roles, user: Any, path: str = "") -> Q | None:
