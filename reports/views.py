@@ -26,7 +26,10 @@ def _version(request: HttpRequest) -> int | None:
     return int(raw)
 
 
-def _report(request: HttpRequest, site_id: int, month: str) -> MonthlyReport:
+def stored_report(request: HttpRequest, site_id: int, month: str) -> MonthlyReport:
+    """The stored report of a site-month within the user's reach (the latest version, or
+    ``?version=``), its HTML column left out; 404 when there is none. The office pages'
+    link on a site's page serves it too."""
     try:
         first_day = Month.parse(month).first_day
     except ValueError as exc:
@@ -71,7 +74,11 @@ def site_reports(request: HttpRequest, site_id: int) -> HttpResponse:
 @require_GET
 @login_required
 def report_page(request: HttpRequest, site_id: int, month: str) -> HttpResponse:
-    report = _report(request, site_id, month)
+    return stored_html(stored_report(request, site_id, month))
+
+
+def stored_html(report: MonthlyReport) -> HttpResponse:
+    """A stored report's HTML exactly as stored (read on its own: lists leave it out)."""
     html = MonthlyReport.objects.values_list("html", flat=True).get(pk=report.pk)
     return HttpResponse(html, content_type="text/html; charset=utf-8")
 
@@ -79,7 +86,7 @@ def report_page(request: HttpRequest, site_id: int, month: str) -> HttpResponse:
 @require_GET
 @login_required
 def report_pdf(request: HttpRequest, site_id: int, month: str) -> FileResponse:
-    report = _report(request, site_id, month)
+    report = stored_report(request, site_id, month)
     return FileResponse(
         report.pdf.open("rb"),
         as_attachment=True,

@@ -8,7 +8,7 @@ from typing import Any
 
 from django.db.models import F, Func, IntegerField, OuterRef, Prefetch, QuerySet, Subquery
 from django.db.models.functions import Coalesce
-from django.http import FileResponse, Http404, HttpRequest, HttpResponse
+from django.http import FileResponse, HttpRequest, HttpResponse
 from django.shortcuts import get_object_or_404
 from django.urls import reverse
 from django.views.decorators.http import require_GET
@@ -17,6 +17,7 @@ from diagnostics.models import Diagnosis, Flag
 from fleet.choices import VisitStatus
 from fleet.models import Site, Unit, Visit
 from reports.models import MonthlyReport
+from reports.views import stored_html, stored_report
 
 from .base import ANY_ROLE, page, within_reach
 from .stored import diagnosis_condition
@@ -86,24 +87,14 @@ def _reports_for(request: HttpRequest, site: Site) -> list[dict[str, Any]]:
 @require_GET
 def site_report(request: HttpRequest, pk: int, month: str) -> HttpResponse:
     """The stored monthly report of a site as generated (HTML, or the PDF with
-    ?format=pdf): what the manager was sent, not a fresh computation."""
-    try:
-        first_day = dt.date.fromisoformat(f"{month}-01")
-    except ValueError as bad:
-        raise Http404("no such month") from bad
-    report = (
-        MonthlyReport.objects.visible_to(request.user)
-        .filter(site_id=pk, month=first_day)
-        .order_by("-version")
-        .first()
-    )
-    if report is None:
-        raise Http404("no report for that month")
+    ?format=pdf, shown in the browser): what the manager was sent, not a fresh computation.
+    Found as the reports' own pages find it (``reports.views.stored_report``)."""
+    report = stored_report(request, pk, month)
     if request.GET.get("format") == "pdf":
         return FileResponse(
             report.pdf.open("rb"), content_type="application/pdf", filename=report.filename
         )
-    return HttpResponse(report.html)
+    return stored_html(report)
 
 
 @within_reach(*ANY_ROLE)
