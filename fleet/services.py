@@ -3,7 +3,9 @@ transaction and each leaving the audit trail (``fleet.audit``): book visits, mov
 their life cycle, store reading sets and refrigerant events once (whatever the retries) with
 their diagnosis or leak rate, and delete records.
 
-The API and the office pages both call these; neither writes such rows by itself.
+The API and the office pages both call these; neither writes such rows by itself. They sit
+above the diagnostics layer (they ask it for diagnoses, leak rates and flags) and below the
+pages and the API (``.importlinter``): the records beneath them import neither.
 
 A phone may post the same ``client_id`` twice, even at the same instant. The unique
 constraint on ``client_id`` settles it: the insert is the first statement of its

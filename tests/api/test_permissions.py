@@ -362,7 +362,7 @@ def test_absurd_ids_and_queries_are_4xx_never_500(world, url):
         assert response.json()["count"] == 0
 
 
-def test_the_reach_of_a_visits_records_agrees_with_visible_visits(world, outsider):
+def test_the_reach_of_a_visits_records_agrees_with_the_visits_visible_to_a_user(world, outsider):
     """``visit_in_reach`` (the visit's units with their visit, one query) reaches exactly
     the visits that ``Visit.objects.visible_to`` (the query set every list uses) holds, for every
     role, and brings each visit's units with it; a visit without units is reached too,
