@@ -108,7 +108,8 @@ def roles_of(user: Any) -> Roles:
 #
 # Each rule answers the condition on the record found at ``path`` (a lookup prefix ending in
 # "__", or "" for the queried model itself), or None when the user reaches no such record.
-# Conditions are subqueries, never joins, so a union of roles repeats no row.
+# Conditions go through subqueries, never a join over a many-valued relation, so a union of
+# roles repeats no row.
 
 Rule = Callable[[Roles, Any, str], Q | None]
 
