@@ -186,7 +186,7 @@ def _tie_term(a: FloatArray, valid: NDArray[np.bool_]) -> FloatArray:
     members gives k(k-1)(2k+5) per group.
     """
     c = (a[:, :, None] == a[:, None, :]).sum(axis=2)
-    return np.where(valid, (c - 1) * (2 * c + 5), 0).sum(axis=1).astype(float)
+    return np.asarray(np.where(valid, (c - 1) * (2 * c + 5), 0).sum(axis=1), dtype=np.float64)
 
 
 def theil_sen(x: ArrayLike, y: ArrayLike, *, confidence: float = 0.90) -> TheilSenFit:
@@ -527,7 +527,7 @@ def _persistently_high(
     last = np.take_along_axis(split, np.clip(at, 0, None), axis=1)
     with np.errstate(invalid="ignore"):
         above = (at >= 0) & (last > (design_split_k + rules.high_split_excess_k)[:, None])
-    return (above.sum(axis=1) >= rules.persistent_min) & above[:, -1]
+    return np.asarray((above.sum(axis=1) >= rules.persistent_min) & above[:, -1], dtype=np.bool_)
 
 
 def _usable(inp: SplitDriftInput, today: date, rules: DriftRules) -> tuple[FloatArray, FloatArray]:
