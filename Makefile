@@ -27,6 +27,8 @@ lint: install
 	$(VENV)/bin/ruff check .
 	$(VENV)/bin/ruff format --check .
 	$(VENV)/bin/lint-imports
+	$(VENV)/bin/mypy --strict diagnostics/core
+	$(VENV)/bin/mypy
 	DJANGO_SETTINGS_MODULE=config.settings_test $(PY) manage.py makemigrations --check --dry-run
 	DJANGO_SETTINGS_MODULE=config.settings_test $(PY) manage.py spectacular --validate --fail-on-warn --file /dev/null
 

@@ -9,7 +9,7 @@ from __future__ import annotations
 import gc
 
 
-def post_worker_init(worker) -> None:
+def post_worker_init(worker: object) -> None:
     """Load every view, serializer and module the URLs reach, then freeze all that in
     Python's garbage collector: the code, tables and caches loaded once are never garbage,
     yet a full collection walks them all (about 100 ms here, one request in a few hundred

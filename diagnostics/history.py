@@ -23,7 +23,7 @@ from django.utils import timezone
 from numpy.typing import NDArray
 
 from diagnostics.core import design, flags, leaks, maintenance, start_risk, trends
-from diagnostics.core.types import UnitDesign
+from diagnostics.core.types import APPLICATIONS, UnitDesign, choice
 from fleet.choices import ComponentKind, RefrigerantEventKind, Stage, VisitKind, VisitStatus
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit, VisitUnit
 
@@ -131,6 +131,14 @@ class _Readings:
 _DAY_S = 86_400
 
 
+def _utc_offset_s(moment: dt.datetime) -> float:
+    """The UTC offset of an aware moment, in seconds (only a naive one has none)."""
+    offset = moment.utcoffset()
+    if offset is None:
+        raise ValueError(f"{moment} has no time zone")
+    return offset.total_seconds()
+
+
 def _local_ordinals(rows: list[tuple], zones: dict[int, str]) -> NDArray[np.int64]:
     """The day number (``date.toordinal``) of each row's ``taken_at`` in its site's time
     zone, a reading after dark in Chicago belonging to that evening, not to the next UTC day.
@@ -155,9 +163,7 @@ def _local_ordinals(rows: list[tuple], zones: dict[int, str]) -> NDArray[np.int6
         days, index = np.unique(np.floor_divide(s, _DAY_S), return_inverse=True)
 
         def offsets(moments: NDArray[np.float64], zone: ZoneInfo = zone) -> NDArray[np.float64]:
-            return np.array(
-                [dt.datetime.fromtimestamp(t, zone).utcoffset().total_seconds() for t in moments]
-            )
+            return np.array([_utc_offset_s(dt.datetime.fromtimestamp(t, zone)) for t in moments])
 
         first, last = offsets(days * _DAY_S), offsets(days * _DAY_S + _DAY_S - 1)
         offset = first[index]
@@ -349,13 +355,14 @@ def _design_splits_k(units: list[dict]) -> list[float]:
         [
             UnitDesign(
                 refrigerant=u["refrigerant__designation"],
-                application=u["application"],
+                application=choice(u["application"], APPLICATIONS, "other"),
                 design_condenser_split_k=u["design_condenser_split_k"],
             )
             for u in units
         ]
     )
-    return resolved.condenser_split_k.value.tolist()
+    splits: list[float] = resolved.condenser_split_k.value.tolist()
+    return splits
 
 
 def _capacitor_series(readings: _Readings, rows: slice, parts: list[dict]) -> tuple:

@@ -82,7 +82,7 @@ class Diagnosis(models.Model):
         return f"score {self.score:.0f} ({self.algorithm_version})"
 
     @cached_property
-    def details(self) -> dict[str, Any]:
+    def details(self) -> core_diagnose.Details:
         """Targets, metrics, findings, cautions and glide choice with their texts."""
         return core_diagnose.read_details([self.document])[0]
 
@@ -96,7 +96,7 @@ class Diagnosis(models.Model):
             diagnosis.details = details
 
     @staticmethod
-    def details_of(documents: Sequence[object]) -> list[dict[str, Any]]:
+    def details_of(documents: Sequence[object]) -> list[core_diagnose.Details]:
         """The details of stored documents fetched as values (``details``' texts), in one
         pass: for readers that select the documents with other columns."""
         return core_diagnose.read_details(documents)
@@ -219,7 +219,7 @@ class Flag(models.Model):
 
     @property
     def forecast_quantities(self) -> list[tuple[str, float, str]]:
-        return [tuple(q) for q in self.forecast.get("quantities", ())]  # type: ignore[misc]
+        return [tuple(q) for q in self.forecast.get("quantities", ())]
 
     def summary_for(self, reader: Mapping[str, str]) -> str:
         """The summary with its numbers in the reader's units (``display_for(...).units``)."""

@@ -7,17 +7,30 @@ core, and stores what comes back with the algorithm version.
 from __future__ import annotations
 
 import dataclasses
+import datetime as dt
 import gc
 from collections.abc import Callable, Iterable
+from typing import Any
 
 import numpy as np
 from django.conf import settings
 from django.db import connection, transaction
+from django.db.models import QuerySet
 from django.utils import timezone
 
 from diagnostics.core import diagnose as core_diagnose
 from diagnostics.core import flags, leaks, plausibility, start_risk
-from diagnostics.core.types import SIGHT_GLASS_STATES, Reading, UnitDesign
+from diagnostics.core.types import (
+    APPLICATIONS,
+    CONDENSER_TYPES,
+    HEAD_PRESSURE_CONTROLS,
+    METERING_DEVICES,
+    SIGHT_GLASS_STATES,
+    TEMPERATURE_BASES,
+    Reading,
+    UnitDesign,
+    choice,
+)
 from fleet.choices import RefrigerantEventKind
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit
 
@@ -54,9 +67,9 @@ def unit_design(unit: Unit, components: Iterable[Component] | None = None) -> Un
         run_tolerance = 100 * (run[1] - run[0]) / 2 / run_nominal
     return UnitDesign(
         refrigerant=unit.refrigerant.designation,
-        application=unit.application,
-        metering_device=unit.metering_device,
-        condenser_type=unit.condenser_type,
+        application=choice(unit.application, APPLICATIONS, "other"),
+        metering_device=choice(unit.metering_device, METERING_DEVICES),
+        condenser_type=choice(unit.condenser_type, CONDENSER_TYPES, "air"),
         has_receiver=unit.has_receiver,
         design_box_temp_c=unit.design_box_temp_c,
         design_evap_td_k=unit.design_evap_td_k,
@@ -74,9 +87,9 @@ def unit_design(unit: Unit, components: Iterable[Component] | None = None) -> Un
         run_capacitor_tolerance_pct=run_tolerance,
         start_capacitor_min_uf=start[0] if start else None,
         start_capacitor_max_uf=start[1] if start else None,
-        head_pressure_control=unit.head_pressure_control or None,
+        head_pressure_control=choice(unit.head_pressure_control, HEAD_PRESSURE_CONTROLS),
         head_pressure_setpoint_c=unit.head_pressure_setpoint_c,
-        temperature_basis=unit.design_temperature_basis,
+        temperature_basis=choice(unit.design_temperature_basis, TEMPERATURE_BASES, "dew"),
     )
 
 
@@ -100,7 +113,7 @@ def reading_of(reading_set: ReadingSet) -> Reading:
         condenser_fan_running=reading_set.condenser_fan_running,
         evaporator_fans_running=reading_set.evaporator_fans_running,
         coil_iced=reading_set.coil_iced,
-        sight_glass=reading_set.sight_glass or None,
+        sight_glass=choice(reading_set.sight_glass, SIGHT_GLASS_STATES),
     )
 
 
@@ -115,7 +128,7 @@ def implausible_fields(reading_set: ReadingSet) -> tuple[plausibility.Implausibl
     )
 
 
-def reading_sets_for_diagnosis():
+def reading_sets_for_diagnosis() -> QuerySet[ReadingSet]:
     """Reading sets with their unit, its site and refrigerant: what the one-row diagnosis
     reads, but for the unit's capacitors, which ``unit_design`` reads itself."""
     return ReadingSet.objects.select_related(
@@ -181,7 +194,9 @@ def _upsert_sql() -> str:
     )
 
 
-def store_diagnoses(ids: list[int], version: str, columns: dict[str, list], now) -> None:
+def store_diagnoses(
+    ids: list[int], version: str, columns: dict[str, list[Any]], now: dt.datetime
+) -> None:
     """Upsert diagnoses of ``ids`` (``columns``: ``core_diagnose.stored_columns``' lists) with
     one executemany of plain tuples.
 
@@ -201,7 +216,9 @@ def store_diagnoses(ids: list[int], version: str, columns: dict[str, list], now)
         cursor.executemany(_upsert_sql(), list(params))
 
 
-def stale_reading_sets(*, rescore_all: bool = False, unit_id: int | None = None, since=None):
+def stale_reading_sets(
+    *, rescore_all: bool = False, unit_id: int | None = None, since: dt.date | None = None
+) -> QuerySet[ReadingSet]:
     """Reading sets whose diagnosis is missing or was made by another algorithm version."""
     qs = ReadingSet.objects.all()
     if not rescore_all:
@@ -214,11 +231,11 @@ def stale_reading_sets(*, rescore_all: bool = False, unit_id: int | None = None,
 
 
 def rescore(
-    reading_sets=None,
+    reading_sets: QuerySet[ReadingSet] | None = None,
     *,
     batch_size: int = 5000,
     progress: Callable[[int], None] | None = None,
-    now=None,
+    now: dt.datetime | None = None,
 ) -> int:
     """Diagnose many reading sets through the core's vectorised path; returns how many.
 
@@ -279,7 +296,7 @@ def rescore(
     return done
 
 
-def _diagnosis_values(reading_set: ReadingSet, now=None) -> dict:
+def _diagnosis_values(reading_set: ReadingSet, now: dt.datetime | None = None) -> dict[str, Any]:
     """The stored fields of ``reading_set``'s diagnosis with the current algorithm."""
     unit = reading_set.visit_unit.unit
     values = core_diagnose.diagnose_row(
@@ -289,14 +306,14 @@ def _diagnosis_values(reading_set: ReadingSet, now=None) -> dict:
     return values
 
 
-def diagnosis_of(reading_set: ReadingSet, now=None) -> Diagnosis:
+def diagnosis_of(reading_set: ReadingSet, now: dt.datetime | None = None) -> Diagnosis:
     """The diagnosis of ``reading_set`` with the current algorithm, not yet stored. Reads
     nothing but the unit's components (none when they are prefetched), so it can run
     before the reading set itself is stored."""
     return Diagnosis(reading_set=reading_set, **_diagnosis_values(reading_set, now))
 
 
-def diagnose_reading_set(reading_set: ReadingSet, now=None) -> Diagnosis:
+def diagnose_reading_set(reading_set: ReadingSet, now: dt.datetime | None = None) -> Diagnosis:
     """Diagnose one stored reading set with the current algorithm and store (or replace)
     the result: one write, whose ``update_or_create`` brings its own savepoint."""
     diagnosis, _ = Diagnosis.objects.update_or_create(
@@ -313,7 +330,7 @@ def _leak_rules() -> tuple[leaks.LeakRuleSet, leaks.LeakRateMethod]:
 
 
 @transaction.atomic
-def record_leak_rates(unit: Unit, now=None) -> dict[int, LeakRate]:
+def record_leak_rates(unit: Unit, now: dt.datetime | None = None) -> dict[int, LeakRate]:
     """Recompute and store the leak rate of every addition to ``unit``; keyed by event id.
 
     The rates of earlier additions feed later ones (rolling window, annualizing clock), so
@@ -323,10 +340,14 @@ def record_leak_rates(unit: Unit, now=None) -> dict[int, LeakRate]:
     events = list(
         RefrigerantEvent.objects.filter(visit_unit__unit=unit).order_by("occurred_on", "id")
     )
-    additions = [e for e in events if e.kind == RefrigerantEventKind.ADDED]
-    repairs = []
+    additions: list[tuple[RefrigerantEvent, leaks.RefrigerantAddition]] = []
+    repairs: list[leaks.LeakRepair] = []
     for e in events:
-        if e.kind == RefrigerantEventKind.LEAK_REPAIRED:
+        # An addition always has its amount: a check constraint holds it.
+        if e.kind == RefrigerantEventKind.ADDED and e.amount_kg is not None:
+            reason = leaks.ExcludedReason(e.leak_rate_exemption) if e.leak_rate_exemption else None
+            additions.append((e, leaks.RefrigerantAddition(e.occurred_on, e.amount_kg, reason)))
+        elif e.kind == RefrigerantEventKind.LEAK_REPAIRED:
             repairs.append(leaks.LeakRepair(repaired_on=e.occurred_on))
         elif e.kind == RefrigerantEventKind.FOLLOW_UP_VERIFICATION and e.passed and repairs:
             repairs[-1] = leaks.LeakRepair(repairs[-1].repaired_on, verified_on=e.occurred_on)
@@ -337,14 +358,7 @@ def record_leak_rates(unit: Unit, now=None) -> dict[int, LeakRate]:
     )
     results = leaks.leak_rates(
         appliance,
-        [
-            leaks.RefrigerantAddition(
-                e.occurred_on,
-                e.amount_kg,
-                leaks.ExcludedReason(e.leak_rate_exemption) if e.leak_rate_exemption else None,
-            )
-            for e in additions
-        ],
+        [addition for _, addition in additions],
         method=method,
         repairs=repairs,
         rules=rules,
@@ -352,11 +366,8 @@ def record_leak_rates(unit: Unit, now=None) -> dict[int, LeakRate]:
     # Same-day additions come back combined (one result per day and exclusion reason).
     by_key = {(r.occurred_on, r.excluded_reason): r for r in results}
     stored: dict[int, LeakRate] = {}
-    for event in additions:
-        reason = (
-            leaks.ExcludedReason(event.leak_rate_exemption) if event.leak_rate_exemption else None
-        )
-        result = by_key[(event.occurred_on, reason)]
+    for event, addition in additions:
+        result = by_key[(addition.occurred_on, addition.excluded_reason)]
         stored[event.id], _ = LeakRate.objects.update_or_create(
             event=event,
             defaults={
@@ -376,7 +387,7 @@ def record_leak_rates(unit: Unit, now=None) -> dict[int, LeakRate]:
     return stored
 
 
-def record_leak_rate(event: RefrigerantEvent, now=None) -> LeakRate | None:
+def record_leak_rate(event: RefrigerantEvent, now: dt.datetime | None = None) -> LeakRate | None:
     """The stored leak rate of one addition (recomputing the unit's history); None otherwise."""
     if event.kind != RefrigerantEventKind.ADDED:
         return None
@@ -390,14 +401,14 @@ class FlagRefresh:
     cleared: int
 
 
-def _forecast_json(decision: flags.FlagDecision) -> dict:
+def _forecast_json(decision: flags.FlagDecision) -> dict[str, Any]:
     return {
         "quantities": [list(q) for q in decision.forecast],
         "dates": {name: day.isoformat() for name, day in decision.forecast_dates},
     }
 
 
-def _evidence_json(decision: flags.FlagDecision) -> list[dict]:
+def _evidence_json(decision: flags.FlagDecision) -> list[dict[str, Any]]:
     return [
         {
             "text": e.text,
@@ -408,7 +419,11 @@ def _evidence_json(decision: flags.FlagDecision) -> list[dict]:
     ]
 
 
-def refresh_flags(today=None, unit_ids=None, now=None) -> FlagRefresh:
+def refresh_flags(
+    today: dt.date | None = None,
+    unit_ids: Iterable[int] | None = None,
+    now: dt.datetime | None = None,
+) -> FlagRefresh:
     """Open, update and clear flags so they match the core's decisions for each unit now.
 
     One open flag per unit and kind: the partial unique constraint guarantees it, and
@@ -424,7 +439,9 @@ def refresh_flags(today=None, unit_ids=None, now=None) -> FlagRefresh:
         cleared_at__isnull=True, unit_id__in=[h.unit_id for h in histories]
     ):
         open_rows.setdefault(flag.unit_id, {})[flag.kind] = flag
-    to_create, to_update, to_clear = [], [], []
+    to_create: list[Flag] = []
+    to_update: list[Flag] = []
+    to_clear: list[int] = []
     for history in histories:
         current = open_rows.get(history.unit_id, {})
         changes = flags.reconcile(current.keys(), decided.get(history.unit_id, ()))

@@ -1,6 +1,13 @@
 """Data upkeep for the office: search, filters and inlines over the fleet records."""
 
+from __future__ import annotations
+
+from typing import Any
+
 from django.contrib import admin
+from django.db.models import Field as ModelField
+from django.forms import Field as FormField
+from django.http import HttpRequest
 
 from . import models
 from .forms import ReceiverSelect
@@ -151,7 +158,9 @@ class UnitAdmin(admin.ModelAdmin):
         ),
     )
 
-    def formfield_for_dbfield(self, db_field, request, **kwargs):
+    def formfield_for_dbfield(
+        self, db_field: ModelField[Any, Any], request: HttpRequest, **kwargs: Any
+    ) -> FormField | None:
         if db_field.name == "has_receiver":
             kwargs["widget"] = ReceiverSelect()
         return super().formfield_for_dbfield(db_field, request, **kwargs)
@@ -230,11 +239,15 @@ class AuditEntryAdmin(admin.ModelAdmin):
         "note",
     )
 
-    def has_add_permission(self, request) -> bool:
+    def has_add_permission(self, request: HttpRequest) -> bool:
         return False
 
-    def has_change_permission(self, request, obj=None) -> bool:
+    def has_change_permission(
+        self, request: HttpRequest, obj: models.AuditEntry | None = None
+    ) -> bool:
         return False
 
-    def has_delete_permission(self, request, obj=None) -> bool:
+    def has_delete_permission(
+        self, request: HttpRequest, obj: models.AuditEntry | None = None
+    ) -> bool:
         return False

@@ -1,3 +1,5 @@
+from typing import Any
+
 from django.apps import AppConfig
 from django.db.models.signals import post_migrate
 
@@ -5,7 +7,7 @@ from django.db.models.signals import post_migrate
 OFFICE_APPS = ("fleet", "diagnostics", "reports")
 
 
-def grant_office_permissions(sender, using="default", **kwargs) -> None:
+def grant_office_permissions(sender: AppConfig, using: str = "default", **kwargs: Any) -> None:
     """Give the office group every model permission of our apps (after each migrate, since
     Django creates permissions only once migrations have run)."""
     from django.contrib.auth.models import Group, Permission

@@ -3,15 +3,20 @@ refrigerant event, when, and what changed (stored SI values, ``[old, new]`` per 
 
 from __future__ import annotations
 
+import datetime as dt
 import json
 from typing import Any
 
+from django.contrib.auth.models import AnonymousUser, User
 from django.contrib.contenttypes.models import ContentType
 from django.core.serializers.json import DjangoJSONEncoder
 from django.db import models
 from django.utils import timezone
 
 from fleet.models import AuditAction, AuditEntry, ReadingSet, RefrigerantEvent, Visit
+
+#: Who acted: a user, or no one (a command, the system); an anonymous one is kept as no one.
+Actor = User | AnonymousUser | None
 
 #: Bookkeeping columns that change on every save and say nothing about the record.
 _SKIPPED = {"id", "created_at", "updated_at"}
@@ -24,7 +29,8 @@ def snapshot(instance: models.Model) -> dict[str, Any]:
         for field in instance._meta.concrete_fields
         if field.attname not in _SKIPPED
     }
-    return json.loads(json.dumps(values, cls=DjangoJSONEncoder))
+    stored: dict[str, Any] = json.loads(json.dumps(values, cls=DjangoJSONEncoder))
+    return stored
 
 
 def diff(before: dict[str, Any], after: dict[str, Any]) -> dict[str, list[Any]]:
@@ -48,10 +54,10 @@ def record(
     instance: models.Model,
     action: AuditAction,
     *,
-    by,
+    by: Actor,
     changes: dict[str, Any],
     note: str = "",
-    now=None,
+    now: dt.datetime | None = None,
 ) -> AuditEntry:
     """Append one entry to the trail (inside the caller's transaction)."""
     return AuditEntry.objects.create(
@@ -66,7 +72,7 @@ def record(
     )
 
 
-def record_created(instance: models.Model, *, by, note: str = "") -> AuditEntry:
+def record_created(instance: models.Model, *, by: Actor, note: str = "") -> AuditEntry:
     return record(
         instance,
         AuditAction.CREATED,
@@ -77,7 +83,7 @@ def record_created(instance: models.Model, *, by, note: str = "") -> AuditEntry:
 
 
 def record_changed(
-    instance: models.Model, before: dict[str, Any], *, by, note: str = ""
+    instance: models.Model, before: dict[str, Any], *, by: Actor, note: str = ""
 ) -> AuditEntry | None:
     """An entry for what changed since ``before``; none when nothing did."""
     changes = diff(before, snapshot(instance))
@@ -86,7 +92,7 @@ def record_changed(
     return record(instance, AuditAction.CHANGED, by=by, changes=changes, note=note)
 
 
-def record_deleted(instance: models.Model, *, by) -> AuditEntry:
+def record_deleted(instance: models.Model, *, by: Actor) -> AuditEntry:
     """Called just before the deletion, in its transaction; keeps the last stored values."""
     return record(
         instance,

@@ -314,7 +314,9 @@ class Visit(models.Model):
 
     reference = models.CharField(max_length=30, unique=True, help_text="Our visit number.")
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="visits")
-    units = models.ManyToManyField(Unit, through="VisitUnit", related_name="visits")
+    units: models.ManyToManyField[Unit, VisitUnit] = models.ManyToManyField(
+        Unit, through="VisitUnit", related_name="visits"
+    )
     kind = models.CharField(max_length=20, choices=choices.VisitKind.choices)
     status = models.CharField(
         max_length=20, choices=choices.VisitStatus.choices, default=choices.VisitStatus.SCHEDULED
@@ -453,6 +455,9 @@ class Component(models.Model):
     #: Who may see it: whoever sees its unit.
     reach = scope.Through(scope.units, "unit__")
     objects = scope.VisibleManager()
+    #: The band the range columns were filled with from the printed rating, as loaded or
+    #: last saved (``_range_given``); unset on a part given by its range.
+    _filled_band: tuple[float, float]
 
     class Meta:
         ordering = ["unit_id", "kind", "-installed_on"]
@@ -567,9 +572,12 @@ class Component(models.Model):
     @classmethod
     def from_db(cls, db: str | None, field_names: Any, values: Any) -> Component:
         instance = super().from_db(db, field_names, values)
-        if instance.__dict__.get("rated_uf") is not None:
-            loaded = instance.__dict__
-            instance._filled_band = (loaded.get("rating_uf_min"), loaded.get("rating_uf_max"))
+        loaded = instance.__dict__
+        if loaded.get("rated_uf") is not None:
+            # A printed rating always stores its band (a check constraint holds them equal).
+            low, high = loaded.get("rating_uf_min"), loaded.get("rating_uf_max")
+            if low is not None and high is not None:
+                instance._filled_band = (low, high)
         return instance
 
     def _range_given(self) -> bool:

@@ -87,7 +87,11 @@ class TargetSerializer(serializers.Serializer):
     value = serializers.FloatField()
     range = RangeSerializer()
     unit = serializers.CharField(help_text="The unit of value and range.")
-    source = serializers.CharField(help_text="Where the target and its range come from.")
+    # A field named as Field's own ``source``: the stubs see the attribute, DRF's metaclass
+    # takes the field off the class.
+    source = serializers.CharField(  # type: ignore[assignment]
+        help_text="Where the target and its range come from."
+    )
 
 
 class MetricSerializer(serializers.Serializer):

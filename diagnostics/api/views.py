@@ -32,11 +32,11 @@ from fleet.api.permissions import HasRole
 from fleet.api.views_.base import UnitSystemMixin
 from fleet.api.wire_units import response_units
 from fleet.choices import Stage
-from fleet.display import from_si, to_si
+from fleet.display import Quantity, from_si, to_si
 from fleet.models import Unit
 
 #: Diagnosis columns served as trend series: wire name, column, quantity (None: as stored).
-TREND_SERIES: tuple[tuple[str, str, str | None, str], ...] = (
+TREND_SERIES: tuple[tuple[str, str, Quantity | None, str], ...] = (
     ("score", "score", None, "points"),
     ("evaporating_temp", "evaporating_c", "temperature", ""),
     ("condensing_temp", "condensing_c", "temperature", ""),
@@ -121,7 +121,7 @@ class UnitTrendsView(_UnitView):
                 {
                     "taken_at": when.to_representation(row[0]),
                     "value": round(
-                        from_si(row[index], quantity, unit_label, unit.site.elevation_m)  # type: ignore[arg-type]
+                        from_si(row[index], quantity, unit_label, unit.site.elevation_m)
                         if quantity
                         else row[index],
                         3,
@@ -200,8 +200,8 @@ class SaturationView(UnitSystemMixin, APIView):
         return Response(data)
 
 
-def _shown(value: float, quantity: str, units: dict[str, str]) -> float:
-    return round(from_si(value, quantity, units[quantity]), 3)  # type: ignore[arg-type]
+def _shown(value: float, quantity: Quantity, units: dict[str, str]) -> float:
+    return round(from_si(value, quantity, units[quantity]), 3)
 
 
 def _gauge(kpa_abs: float, units: dict[str, str], elevation_m: float) -> float:

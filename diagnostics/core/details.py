@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, TypedDict
 
 import numpy as np
 from numpy.typing import NDArray
@@ -24,6 +24,17 @@ from diagnostics.core.reasons import NOT_APPLICABLE_BY_CODE, REASON_HIDDEN
 from diagnostics.core.types import STATUSES, Caution, Finding, Metric, Target
 
 Row = dict[str, Any]
+
+
+class Details(TypedDict):
+    """One stored diagnosis read back with its texts: JSON-ready rows (``expand``)."""
+
+    targets: list[Row]
+    metrics: list[Row]
+    findings: list[Row]
+    cautions: list[Row]
+    glide_choice: str
+
 
 #: The saturation targets with the edges of their ok bands (``BatchResult.saturation_targets``).
 SATURATION_TARGETS: tuple[str, ...] = tuple(
@@ -72,12 +83,12 @@ class StoredRows:
         return len(self.refrigerant)
 
 
-def empty_details() -> Row:
+def empty_details() -> Details:
     """The details of a diagnosis stored without them."""
     return {"targets": [], "metrics": [], "findings": [], "cautions": [], "glide_choice": ""}
 
 
-def expand(rows: StoredRows) -> list[Row]:
+def expand(rows: StoredRows) -> list[Details]:
     """The details of stored rows: targets, metrics, findings, cautions and the glide choice
     as JSON-ready dicts with their texts (reasons, sources, evidence, advice)."""
     k = len(rows)
@@ -335,7 +346,7 @@ def _finding_rows(rows: StoredRows, values: texts.MetricValues) -> dict[int, lis
 
 
 def typed_details(
-    details: Row,
+    details: Details,
 ) -> tuple[tuple[Target, ...], tuple[Metric, ...], tuple[Finding, ...], tuple[Caution, ...]]:
     """Expanded details (``expand``) as the core's dataclasses: targets, metrics, findings
     (most confident first) and cautions."""

@@ -24,7 +24,7 @@ from diagnostics.core.batch import (
     BatchResult,
     diagnose_batch,
 )
-from diagnostics.core.details import Row, typed_details
+from diagnostics.core.details import Details, Row, typed_details
 from diagnostics.core.encode import STORED_DERIVED, documents, stored_columns
 from diagnostics.core.inputs import (
     READING_FLAGS,
@@ -43,6 +43,7 @@ __all__ = [
     "READING_SCALARS",
     "STORED_DERIVED",
     "BatchResult",
+    "Details",
     "ReadingColumns",
     "Row",
     "UnitColumns",
@@ -58,7 +59,7 @@ __all__ = [
 ]
 
 
-def details(res: BatchResult) -> list[Row]:
+def details(res: BatchResult) -> list[Details]:
     """Every row's targets, metrics, findings and cautions with their texts, read back from
     its stored document as any stored diagnosis is."""
     return read_details([orjson.loads(d) for d in documents(res)])

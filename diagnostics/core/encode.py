@@ -55,10 +55,12 @@ def _by_case(keys: NDArray[np.int64], text: Callable[[int], str]) -> list[str]:
         present = np.flatnonzero(np.bincount(keys))
         table = np.empty(present[-1] + 1, dtype=object)
         table[present] = [text(k) for k in present.tolist()]
-        return table[keys].tolist()  # type: ignore[no-any-return]
+        out: list[str] = table[keys].tolist()
+        return out
     distinct, at = np.unique(keys, return_inverse=True)
     written = np.array([text(k) for k in distinct.tolist()], dtype=object)
-    return written[at].tolist()  # type: ignore[no-any-return]
+    out = written[at].tolist()
+    return out
 
 
 def _unit_texts(res: BatchResult) -> list[str]:

@@ -28,7 +28,7 @@ from functools import lru_cache
 
 import CoolProp
 import numpy as np
-from CoolProp.CoolProp import AbstractState
+from CoolProp.CoolProp import AbstractState, phases
 from numpy.typing import ArrayLike, NDArray
 from scipy.interpolate import RectBivariateSpline
 from scipy.optimize import brentq
@@ -64,7 +64,7 @@ def _abstract_state(designation: str) -> AbstractState:
     return refrigerants.get(designation).coolprop_state()
 
 
-def _flash(state: AbstractState, p_pa: float, t_k: float, phase: int) -> tuple[float, float]:
+def _flash(state: AbstractState, p_pa: float, t_k: float, phase: phases) -> tuple[float, float]:
     """Enthalpy and entropy at (p, T) with the phase imposed (PT is all mixtures accept)."""
     state.specify_phase(phase)
     try:

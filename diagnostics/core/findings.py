@@ -530,11 +530,11 @@ def derive_signals(
         return metrics[name]
 
     def scored(name: str) -> BoolArray:
-        return parts(name)[3] != NOT_SCORED
+        return np.not_equal(parts(name)[3], NOT_SCORED)
 
     def off_band(name: str) -> BoolArray:
         status = parts(name)[3]
-        return (status == WATCH) | (status == FAULT)
+        return np.equal(status, WATCH) | np.equal(status, FAULT)
 
     # A NaN deviation (not scored) compares false either way.
     def above(name: str) -> BoolArray:
@@ -544,14 +544,14 @@ def derive_signals(
         return off_band(name) & (parts(name)[2] < 0)
 
     def far_above(name: str) -> BoolArray:
-        return above(name) & (parts(name)[3] == FAULT)
+        return above(name) & np.equal(parts(name)[3], FAULT)
 
     def less_than(name: str, limit: FloatArray | float) -> BoolArray:
         with np.errstate(invalid="ignore"):
             return scored(name) & (parts(name)[0] < limit)
 
     def flag_is(name: str, value: float) -> BoolArray:
-        return np.asarray(flags[name]) == value
+        return np.equal(flags[name], value)
 
     running = flag_is("compressor_running", 1.0)
     n = len(running)

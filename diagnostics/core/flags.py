@@ -376,20 +376,12 @@ def decide_flags_many(
     The split drift and the capacitor slopes run vectorised over all units; leak rates and
     maintenance are a few records per unit, in plain loops.
     """
-    with_split = [h for h in histories if h.split is not None]
-    drifts = assess_split_drift_many(
-        [h.split for h in with_split],  # type: ignore[misc]
-        today,
-        rules.drift,
-    )
-    drift_by_unit = {h.unit_id: d for h, d in zip(with_split, drifts, strict=True)}
-    with_start = [h for h in histories if h.start is not None]
-    risks = assess_start_risk_many(
-        [h.start for h in with_start],  # type: ignore[misc]
-        today,
-        rules.start,
-    )
-    risk_by_unit = {h.unit_id: r for h, r in zip(with_start, risks, strict=True)}
+    splits = {h.unit_id: h.split for h in histories if h.split is not None}
+    drifts = assess_split_drift_many(list(splits.values()), today, rules.drift)
+    drift_by_unit = dict(zip(splits, drifts, strict=True))
+    starts = {h.unit_id: h.start for h in histories if h.start is not None}
+    risks = assess_start_risk_many(list(starts.values()), today, rules.start)
+    risk_by_unit = dict(zip(starts, risks, strict=True))
     out: dict[int, tuple[FlagDecision, ...]] = {}
     for h in histories:
         decisions: list[FlagDecision | None] = []

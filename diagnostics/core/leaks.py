@@ -17,6 +17,7 @@ from dataclasses import dataclass
 from datetime import date, timedelta
 from enum import StrEnum
 from functools import lru_cache
+from typing import TypedDict
 
 from diagnostics.core import refrigerants, units
 from diagnostics.core.sources import Sourced
@@ -329,6 +330,17 @@ def verification_deadlines(
     return initial_due, follow_up
 
 
+class _ResultCommon(TypedDict):
+    """The fields of a ``LeakRateResult`` that an excluded and a calculated addition share."""
+
+    occurred_on: date
+    amount_kg: float
+    method: LeakRateMethod
+    threshold_percent: float
+    threshold_source: str
+    scope: str | None
+
+
 def leak_rates(
     appliance: Appliance,
     additions: Iterable[RefrigerantAddition],
@@ -360,14 +372,14 @@ def leak_rates(
     calculated: list[RefrigerantAddition] = []
     for a in events:
         scope = rules.scope_for(appliance.refrigerant, full, a.occurred_on)
-        common = {
-            "occurred_on": a.occurred_on,
-            "amount_kg": a.amount_kg,
-            "method": method,
-            "threshold_percent": threshold.percent,
-            "threshold_source": threshold.source,
-            "scope": scope.key if scope else None,
-        }
+        common = _ResultCommon(
+            occurred_on=a.occurred_on,
+            amount_kg=a.amount_kg,
+            method=method,
+            threshold_percent=threshold.percent,
+            threshold_source=threshold.source,
+            scope=scope.key if scope else None,
+        )
         if a.excluded_reason is not None:
             results.append(
                 LeakRateResult(calculated=False, excluded_reason=a.excluded_reason, **common)

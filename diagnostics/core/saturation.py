@@ -112,6 +112,7 @@ ERROR_BOUND_K = 0.01
 
 Quantity = Literal["pressure", "temperature"]
 Curve = Literal["dew", "bubble"]
+CURVES: tuple[Curve, Curve] = ("bubble", "dew")
 _QUALITY: dict[Curve, int] = {"bubble": 0, "dew": 1}
 #: Slack, in grid steps, for a value a rounding error outside the table (its own end points).
 _EDGE = 1e-9
@@ -254,25 +255,20 @@ class SaturationTable:
         self.critical_temp_c, self.critical_pressure_kpa_abs = (
             float(v) for v in arrays["critical_point"]
         )
-        self._lnp_of_t = {
-            curve: _Uniform(
+        self._lnp_of_t: dict[Curve, _Uniform] = {}
+        self._t_of_lnp: dict[Curve, _Uniform] = {}
+        for curve in CURVES:
+            self._lnp_of_t[curve] = _Uniform(
                 self.min_temp_c,
                 self.max_temp_c,
                 arrays[f"lnp_{curve}_of_temp"],
                 log_x=False,
                 exp_y=True,
             )
-            for curve in ("dew", "bubble")
-        }
-        self._t_of_lnp = {
-            curve: _Uniform(
-                *arrays[f"lnp_range_{curve}"],
-                arrays[f"temp_{curve}_of_lnp"],
-                log_x=True,
-                exp_y=False,
+            lnp_first, lnp_last = arrays[f"lnp_range_{curve}"]
+            self._t_of_lnp[curve] = _Uniform(
+                lnp_first, lnp_last, arrays[f"temp_{curve}_of_lnp"], log_x=True, exp_y=False
             )
-            for curve in ("dew", "bubble")
-        }
 
     def __repr__(self) -> str:
         return (
@@ -625,10 +621,9 @@ def build_arrays(refrigerant: Refrigerant) -> dict[str, Any]:
         "temp_range_c": np.array([temps_k[0], temps_k[keep - 1]]) - ZERO_C_IN_K,
         "critical_point": np.array([t_crit_k - ZERO_C_IN_K, p_crit_pa / 1e3]),
     }
-    for curve in ("bubble", "dew"):
-        source = (
-            curve if curve in curves else "bubble"
-        )  # a pure fluid's dew curve is its bubble curve
+    for curve in CURVES:
+        # a pure fluid's dew curve is its bubble curve
+        source: Curve = curve if curve in curves else "bubble"
         lnp_nodes, temps, _ = temp_of_lnp[source]
         arrays[f"lnp_{curve}_of_temp"] = lnp_of_t[source][:keep]
         arrays[f"lnp_range_{curve}"] = lnp_nodes[[0, -1]]

@@ -283,7 +283,9 @@ def _current_series(
     history: StartHistory, component: StartComponent, today: date
 ) -> _Series | None:
     """Readings after the capacitor's last replacement (its as-left reading on the day counts)."""
-    parts: list[tuple[NDArray[np.datetime64], FloatArray, FloatArray, FloatArray, Any]] = []
+    parts: list[
+        tuple[NDArray[np.datetime64], FloatArray, FloatArray, FloatArray, NDArray[np.bool_]]
+    ] = []
     singles = [
         r
         for r in history.capacitor_readings
@@ -320,7 +322,13 @@ def _current_series(
         keep &= (days > since) | ((days == since) & as_left)
     if not keep.any():
         return None
-    days, measured, low, high, as_left = (a[keep] for a in (days, measured, low, high, as_left))
+    days, measured, low, high, as_left = (
+        days[keep],
+        measured[keep],
+        low[keep],
+        high[keep],
+        as_left[keep],
+    )
     order = np.lexsort((as_left, days))
     return _Series(component, days[order], measured[order], low[order], high[order], as_left[order])
 
@@ -386,7 +394,7 @@ def _drift_items(
         & np.isfinite(offsets)
     )
     out: dict[int, tuple[RiskItem, date]] = {}
-    for i in np.flatnonzero(hits):
+    for i in np.flatnonzero(hits).tolist():
         series = candidates[i].series
         projected = today + timedelta(days=max(round(float(offsets[i])), 0))
         per_year = float(fit.slope[i]) * 365.25  # slope of -uF per day: the loss
@@ -399,7 +407,7 @@ def _drift_items(
             today + timedelta(days=int(series.days[-1])),
             (*_last_quantities(series), ("loss_per_year", per_year, "uF/year")),
         )
-        out[int(i)] = (item, projected)
+        out[i] = (item, projected)
     return out
 
 

@@ -73,7 +73,7 @@ import numpy as np
 from diagnostics.core import findings, texts
 from diagnostics.core import scoring as sc
 from diagnostics.core.details import (
-    Row,
+    Details,
     StoredMetric,
     StoredRows,
     empty_details,
@@ -244,7 +244,7 @@ _DECODERS: dict[
 }
 
 
-def read_details(docs: Sequence[object]) -> list[Row]:
+def read_details(docs: Sequence[object]) -> list[Details]:
     """Stored documents back to their details (``details.expand``), all at once, each by its
     own version; a document of no known version (nothing stored) has empty details."""
     out = [empty_details() for _ in docs]

@@ -186,7 +186,7 @@ def _tie_term(a: FloatArray, valid: NDArray[np.bool_]) -> FloatArray:
     members gives k(k-1)(2k+5) per group.
     """
     c = (a[:, :, None] == a[:, None, :]).sum(axis=2)
-    return np.where(valid, (c - 1) * (2 * c + 5), 0).sum(axis=1).astype(float)
+    return np.asarray(np.where(valid, (c - 1) * (2 * c + 5), 0).sum(axis=1), dtype=np.float64)
 
 
 def theil_sen(x: ArrayLike, y: ArrayLike, *, confidence: float = 0.90) -> TheilSenFit:
@@ -527,7 +527,7 @@ def _persistently_high(
     last = np.take_along_axis(split, np.clip(at, 0, None), axis=1)
     with np.errstate(invalid="ignore"):
         above = (at >= 0) & (last > (design_split_k + rules.high_split_excess_k)[:, None])
-    return (above.sum(axis=1) >= rules.persistent_min) & above[:, -1]
+    return np.asarray((above.sum(axis=1) >= rules.persistent_min) & above[:, -1], dtype=np.bool_)
 
 
 def _usable(inp: SplitDriftInput, today: date, rules: DriftRules) -> tuple[FloatArray, FloatArray]:
@@ -607,15 +607,19 @@ def _design_day_heads(
     m = len(inputs)
     now = np.full(m, np.nan)
     later = np.full(m, np.nan)
-    groups: dict[tuple[str, float, str], list[int]] = {}
+    # (refrigerant, elevation, condensing point) -> [(row, design-day ambient)]
+    groups: dict[tuple[str, float, CondensingPoint], list[tuple[int, float]]] = {}
     for row, inp in enumerate(inputs):
         if inp.head is not None and arrays.enough_history[row]:
             h = inp.head
-            groups.setdefault((h.refrigerant, h.elevation_m, h.condensing_point), []).append(row)
+            groups.setdefault((h.refrigerant, h.elevation_m, h.condensing_point), []).append(
+                (row, h.design_day_ambient_c)
+            )
     fit = arrays.fit
-    for (refrigerant, elevation_m, point), rows in groups.items():
+    for (refrigerant, elevation_m, point), members in groups.items():
+        rows = [row for row, _ in members]
         idx = np.array(rows)
-        ambient = np.array([inputs[r].head.design_day_ambient_c for r in rows])  # type: ignore[union-attr]
+        ambient = np.array([a for _, a in members])
         split_now = fit.intercept[idx]
         split_later = fit.intercept[idx] + fit.slope[idx] * rules.horizon_days
         temps = np.concatenate([ambient + split_now, ambient + split_later])
@@ -623,7 +627,7 @@ def _design_day_heads(
             refrigerant,
             temps,
             elevation_m=elevation_m,
-            condensing_point=point,  # type: ignore[arg-type]
+            condensing_point=point,
         )
         now[idx] = p[: len(rows)]
         later[idx] = p[len(rows) :]

@@ -12,7 +12,7 @@ A ``None`` in a ``UnitDesign`` means "use the application default" (``targets.py
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import Literal, TypeVar, overload
 
 Application = Literal["medium_temp", "low_temp", "reach_in", "ice_machine", "other"]
 MeteringDevice = Literal["txv", "eev", "capillary", "fixed_orifice"]
@@ -43,6 +43,21 @@ HEAD_PRESSURE_CONTROLS: tuple[HeadPressureControl, ...] = (
     "other",
 )
 TEMPERATURE_BASES: tuple[TemperatureBasis, ...] = ("dew", "mid_point")
+
+_Name = TypeVar("_Name", bound=str)
+
+
+@overload
+def choice(value: str | None, names: tuple[_Name, ...], default: _Name) -> _Name: ...
+@overload
+def choice(value: str | None, names: tuple[_Name, ...], default: None = None) -> _Name | None: ...
+def choice(
+    value: str | None, names: tuple[_Name, ...], default: _Name | None = None
+) -> _Name | None:
+    """``value`` as one of ``names`` (the values of one of the Literal types above), else
+    ``default``: how a record's plain string becomes the core's name. The core reads a name
+    it does not know as the default, so nothing is refused here."""
+    return next((name for name in names if name == value), default)
 
 
 @dataclass(frozen=True)

@@ -108,13 +108,15 @@ class VisitFilterSet(filters.FilterSet):
         model = Visit
         fields = ["status", "kind", "site", "unit", "mine", "date"]
 
-    def filter_mine(self, queryset: QuerySet[Visit], name: str, value: bool | None):
+    def filter_mine(
+        self, queryset: QuerySet[Visit], name: str, value: bool | None
+    ) -> QuerySet[Visit]:
         if value is None:
             return queryset
         mine = Visit.technicians.through.objects.filter(user=self.request.user).values("visit_id")
         return queryset.filter(pk__in=mine) if value else queryset.exclude(pk__in=mine)
 
-    def filter_date(self, queryset: QuerySet[Visit], name: str, value: dt.date):
+    def filter_date(self, queryset: QuerySet[Visit], name: str, value: dt.date) -> QuerySet[Visit]:
         if not 1900 <= value.year <= 9000:
             return queryset.none()  # no visits then; spares the time-zone arithmetic overflow
         # The day in the contractor's zone: a 7 am visit in Chicago is not "tomorrow" in UTC.

@@ -2,11 +2,17 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 from rest_framework.permissions import SAFE_METHODS
 from rest_framework.throttling import SimpleRateThrottle, UserRateThrottle
 
+if TYPE_CHECKING:  # rest_framework.views imports this module (its default throttles)
+    from rest_framework.request import Request
+    from rest_framework.views import APIView
 
-class CellRate:
+
+class CellRate(SimpleRateThrottle):
     """A rate limit that keeps one number per client, not a list of timestamps: the
     generic cell rate algorithm (GCRA, the "virtual scheduling" form).
 
@@ -18,8 +24,13 @@ class CellRate:
     read and write on each request; DRF's list of timestamps grows with the rate.
     """
 
-    def allow_request(self, request, view) -> bool:
-        if self.rate is None:
+    # Set by SimpleRateThrottle.__init__ from the rate (None without one).
+    num_requests: int | None
+    duration: int | None
+    early_by: float
+
+    def allow_request(self, request: Request, view: APIView) -> bool:
+        if self.num_requests is None or self.duration is None:  # no rate configured
             return True
         self.key = self.get_cache_key(request, view)
         if self.key is None:
@@ -43,7 +54,7 @@ class WriteRateThrottle(CellRate, UserRateThrottle):
 
     scope = "write"
 
-    def allow_request(self, request, view) -> bool:
+    def allow_request(self, request: Request, view: APIView) -> bool:
         if request.method in SAFE_METHODS:
             return True
         return super().allow_request(request, view)
@@ -55,5 +66,5 @@ class AuthRateThrottle(CellRate, SimpleRateThrottle):
 
     scope = "auth"
 
-    def get_cache_key(self, request, view) -> str:
+    def get_cache_key(self, request: Request, view: APIView) -> str:
         return self.cache_format % {"scope": self.scope, "ident": self.get_ident(request)}

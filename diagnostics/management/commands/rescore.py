@@ -3,8 +3,9 @@
 from __future__ import annotations
 
 import datetime as dt
+from typing import Any
 
-from django.core.management.base import BaseCommand, CommandError
+from django.core.management.base import BaseCommand, CommandError, CommandParser
 from tqdm import tqdm
 
 from diagnostics.core.diagnose import ALGORITHM_VERSION
@@ -14,13 +15,13 @@ from diagnostics.services import rescore, stale_reading_sets
 class Command(BaseCommand):
     help = "Recompute diagnoses whose algorithm version is stale (or all of them with --all)."
 
-    def add_arguments(self, parser) -> None:
+    def add_arguments(self, parser: CommandParser) -> None:
         parser.add_argument("--all", action="store_true", help="Rescore every reading set.")
         parser.add_argument("--unit", type=int, help="Only this unit's reading sets.")
         parser.add_argument("--since", help="Only reading sets taken on or after YYYY-MM-DD.")
         parser.add_argument("--batch-size", type=int, default=5000)
 
-    def handle(self, *args, **options) -> None:
+    def handle(self, *args: Any, **options: Any) -> None:
         since = None
         if options["since"]:
             try:

@@ -16,6 +16,7 @@ from collections.abc import Mapping
 from typing import Any, ClassVar
 
 from django.core.exceptions import ValidationError as DjangoValidationError
+from django.db.models import Model
 from rest_framework import serializers
 
 from fleet.api.exceptions import django_errors
@@ -27,12 +28,12 @@ from fleet.api.wire_units import (
     limit_error,
     response_units,
 )
-from fleet.display import from_si, to_si
+from fleet.display import Quantity, from_si, to_si
 
 from .fields import UnitsField
 
 
-class RefusesUnknownFields:
+class RefusesUnknownFields(serializers.Serializer):
     """A request body naming a field the serializer does not have is refused with a 400
     naming it (a misspelt field is never silently dropped). Read-only fields a client sends
     back, such as ``id`` or ``diagnosis`` from a response it kept, are known and ignored as
@@ -42,14 +43,17 @@ class RefusesUnknownFields:
     #: serializers default to their model's verbose name.
     noun: ClassVar[str] = ""
 
+    def body_noun(self) -> str:
+        return self.noun
+
     def _unknown_field_errors(self, data: Any) -> dict[str, list[str]]:
         if not isinstance(data, Mapping):
             return {}  # DRF answers that the body is not an object
-        fields = self.fields  # type: ignore[attr-defined]
+        fields = self.fields
         unknown = [name for name in data if name not in fields]
         if not unknown:
             return {}
-        noun = self.noun or self.Meta.model._meta.verbose_name  # type: ignore[attr-defined]
+        noun = self.body_noun()
         writable = [name for name, field in fields.items() if not field.read_only]
         errors = {}
         for name in unknown:
@@ -61,7 +65,7 @@ class RefusesUnknownFields:
     def to_internal_value(self, data: Any) -> Any:
         unknown = self._unknown_field_errors(data)
         try:
-            value = super().to_internal_value(data)  # type: ignore[misc]
+            value = super().to_internal_value(data)
         except serializers.ValidationError as exc:
             if unknown and isinstance(exc.detail, dict):
                 raise serializers.ValidationError({**unknown, **exc.detail}) from exc
@@ -71,7 +75,7 @@ class RefusesUnknownFields:
         return value
 
 
-class ValidatedModelSerializer(RefusesUnknownFields, serializers.ModelSerializer):
+class ValidatedModelSerializer(RefusesUnknownFields, serializers.ModelSerializer[Model]):
     """Runs the model's ``full_clean()`` on the would-be instance (NetBox's
     ``ValidatedModelSerializer``), reporting errors under the wire names."""
 
@@ -83,12 +87,21 @@ class ValidatedModelSerializer(RefusesUnknownFields, serializers.ModelSerializer
     #: field validator generated from the same limits table (fleet/validation.py).
     clean_constraints: ClassVar[bool] = True
 
+    @property
+    def record_model(self) -> type[Model]:
+        """``Meta.model`` (the stubs type the nested ``Meta`` apart from the class's model)."""
+        model: type[Model] = self.Meta.model
+        return model
+
+    def body_noun(self) -> str:
+        return self.noun or str(self.record_model._meta.verbose_name)
+
     def wire_names(self) -> dict[str, str]:
         """Model field -> wire field, for messages from the model."""
         return {}
 
     def run_full_clean(self, attrs: dict[str, Any]) -> None:
-        model = self.Meta.model
+        model = self.record_model
         many = {f.name for f in model._meta.many_to_many}
         plain = {k: v for k, v in attrs.items() if k not in many}
         if self.instance is None:
@@ -147,11 +160,17 @@ class MeasuredSerializer(ValidatedModelSerializer):
             value = attrs.get(measure.column)
             if value is None:
                 continue
-            unit = self._request_unit(measure, units)
-            if unit is None:
-                key = REQUEST_KEY[measure.quantity]  # type: ignore[index]
-                errors[wire] = [f"state its unit in units.{key} ({', '.join(REQUEST_UNITS[key])})"]
-                continue
+            if measure.quantity is None:
+                unit = measure.label
+            else:
+                given = self._request_unit(measure.quantity, units)
+                if given is None:
+                    key = REQUEST_KEY[measure.quantity]
+                    errors[wire] = [
+                        f"state its unit in units.{key} ({', '.join(REQUEST_UNITS[key])})"
+                    ]
+                    continue
+                unit = given
             try:
                 value_si = to_si(value, measure.quantity, unit, elevation_m)
             except (UnitError, ValueError, ArithmeticError) as exc:
@@ -186,10 +205,10 @@ class MeasuredSerializer(ValidatedModelSerializer):
                 attrs.setdefault(name, value)
         return super().validate(attrs)
 
-    def message_unit(self, quantity: str, instance: Any = None) -> str:
+    def message_unit(self, quantity: Quantity, instance: Any = None) -> str:
         """The unit to word a message about ``quantity`` in: the request's, else the one the
         record was entered in, else the response's."""
-        key = REQUEST_KEY[quantity]  # type: ignore[index]
+        key = REQUEST_KEY[quantity]
         entered = getattr(instance, "entered_units", None) or {}
         return (
             getattr(self, "request_units", {}).get(key)
@@ -198,12 +217,11 @@ class MeasuredSerializer(ValidatedModelSerializer):
         )
 
     @staticmethod
-    def _request_unit(measure: Measure, units: dict[str, str]) -> str | None:
-        if measure.quantity is None:
-            return measure.label
-        if measure.quantity == "temperature_difference" and "temperature_difference" in units:
+    def _request_unit(quantity: Quantity, units: dict[str, str]) -> str | None:
+        """The unit the request states for ``quantity``, if it does."""
+        if quantity == "temperature_difference" and "temperature_difference" in units:
             return units["temperature_difference"]
-        return units.get(REQUEST_KEY[measure.quantity])
+        return units.get(REQUEST_KEY[quantity])
 
     def to_representation(self, instance: Any) -> dict[str, Any]:
         data = super().to_representation(instance)

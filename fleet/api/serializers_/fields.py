@@ -79,23 +79,21 @@ def measure_field(help_text: str, **kwargs: Any) -> serializers.FloatField:
     return serializers.FloatField(required=False, allow_null=True, help_text=help_text, **kwargs)
 
 
-def check_in_service_era(value: dt.datetime) -> dt.datetime:
+def check_in_service_era(value: dt.datetime) -> None:
     """Refuse times no service record can have. Before 1900 a zone's offset may be local
     mean time (Chicago's was -05:50:36), which an RFC 3339 date-time cannot even write."""
     if not SERVICE_ERA[0] <= value < SERVICE_ERA[1]:
         raise serializers.ValidationError(
             f"must fall in the years {SERVICE_ERA[0].year} to {SERVICE_ERA[1].year - 1}"
         )
-    return value
 
 
-def check_not_future(value: dt.datetime) -> dt.datetime:
+def check_not_future(value: dt.datetime) -> None:
     check_in_service_era(value)
     if value > timezone.now() + FUTURE_SLACK:
         raise serializers.ValidationError(
             "is in the future (more than an hour ahead of the server clock)"
         )
-    return value
 
 
 class UnknownAsNullChoiceField(serializers.ChoiceField):

@@ -7,6 +7,7 @@ import datetime as dt
 from collections.abc import Callable
 from typing import Any, ClassVar
 
+from django.contrib.auth.models import User
 from django.core.exceptions import ObjectDoesNotExist
 from django.db.models.manager import BaseManager
 from django.utils import timezone
@@ -35,7 +36,7 @@ class VisitRecordSerializer(MeasuredSerializer):
     unit = serializers.IntegerField(
         source="visit_unit.unit_id", help_text="The unit's id; it must be on the visit."
     )
-    created_by = serializers.SlugRelatedField(
+    created_by: serializers.SlugRelatedField[User] = serializers.SlugRelatedField(
         slug_field="username", read_only=True, allow_null=True
     )
 
@@ -48,7 +49,7 @@ class VisitRecordSerializer(MeasuredSerializer):
     created: bool
 
     def create(self, validated_data: dict[str, Any]) -> Any:
-        result = self.store(self.Meta.model(**validated_data), by=self.context["request"].user)
+        result = self.store(self.record_model(**validated_data), by=self.context["request"].user)
         self.created = result.created
         return result.record
 
@@ -80,7 +81,7 @@ class VisitRecordSerializer(MeasuredSerializer):
         )
         return visit_unit.unit.site.elevation_m if visit_unit else 0.0
 
-    def elevation_of(self, instance: Any) -> float:
+    def elevation_of(self, instance: ReadingSet | RefrigerantEvent) -> float:
         return instance.visit_unit.unit.site.elevation_m
 
 

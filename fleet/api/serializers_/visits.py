@@ -99,7 +99,9 @@ class VisitSerializer(ValidatedModelSerializer):
 class AuditEntrySerializer(serializers.ModelSerializer):
     """One entry of a visit's trail; ``changes`` are the stored (SI) values."""
 
-    actor = serializers.SlugRelatedField(slug_field="username", read_only=True, allow_null=True)
+    actor: serializers.SlugRelatedField[User] = serializers.SlugRelatedField(
+        slug_field="username", read_only=True, allow_null=True
+    )
     record = serializers.CharField(source="record_type.model", read_only=True)
 
     class Meta:

@@ -31,6 +31,6 @@ class RefrigerantViewSet(mixins.ListModelMixin, mixins.RetrieveModelMixin, Rimew
             designation = normalise_designation(raw)
         except UnknownRefrigerant as exc:
             raise NotFound({"designation": [str(exc)]}) from exc
-        obj = get_object_or_404(self.get_queryset(), designation=designation)
+        obj: Refrigerant = get_object_or_404(self.get_queryset(), designation=designation)
         self.check_object_permissions(self.request, obj)
         return obj

@@ -16,6 +16,8 @@ from fleet.api.serializers import TokenRequestSerializer, TokenSerializer
 from fleet.api.throttles import AuthRateThrottle
 from fleet.reach import roles_of
 
+from .base import signed_in
+
 
 class TokenView(APIView):
     """A phone signs in once for a token (``Authorization: Token <key>``), and may revoke
@@ -46,5 +48,5 @@ class TokenView(APIView):
 
     @extend_schema(request=None, responses={204: None})
     def delete(self, request: Request) -> Response:
-        Token.objects.filter(user=request.user).delete()
+        Token.objects.filter(user=signed_in(request)).delete()
         return Response(status=status.HTTP_204_NO_CONTENT)

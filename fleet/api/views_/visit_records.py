@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import uuid
 from collections.abc import Callable
-from typing import Any
+from typing import Any, cast
 
 from django.db.models import QuerySet
 from django.http import Http404
@@ -20,12 +20,16 @@ from rest_framework.response import Response
 from fleet import services
 from fleet.api import filtersets
 from fleet.api.permissions import visit_in_reach
-from fleet.api.serializers import ReadingSetSerializer, RefrigerantEventSerializer
+from fleet.api.serializers import (
+    ReadingSetSerializer,
+    RefrigerantEventSerializer,
+    VisitRecordSerializer,
+)
 from fleet.choices import VisitStatus
 from fleet.models import ReadingSet, RefrigerantEvent, Visit, VisitUnit
 from fleet.reach import OFFICE, TECHNICIAN, roles_of
 
-from .base import Conflict, RimewatchViewSet
+from .base import Conflict, RimewatchViewSet, signed_in
 
 VISIT_PK = OpenApiParameter("visit_pk", OpenApiTypes.INT, OpenApiParameter.PATH)
 
@@ -92,7 +96,7 @@ class VisitRecordViewSet(
         return (
             self.model.objects.filter(visit_unit__visit=self.visit)
             .select_related(*services.RECORD_RELATIONS, self.relation)
-            .order_by(*self.model._meta.ordering, "id")
+            .order_by(*(self.model._meta.ordering or ()), "id")
         )
 
     def get_serializer_context(self) -> dict[str, Any]:
@@ -157,9 +161,10 @@ class VisitRecordViewSet(
         if stored is not None:
             return Response(self.get_serializer(stored).data, status=status.HTTP_200_OK)
         self._check_writable()
-        serializer = self.get_serializer(data=request.data)
+        # serializer_class is a VisitRecordSerializer, which says whether it stored
+        serializer = cast(VisitRecordSerializer, self.get_serializer(data=request.data))
         serializer.is_valid(raise_exception=True)
-        record = serializer.save(created_by=request.user)
+        record = serializer.save(created_by=signed_in(request))
         self._check_same_visit(record)
         code = status.HTTP_201_CREATED if serializer.created else status.HTTP_200_OK
         return Response(serializer.data, status=code)
@@ -170,7 +175,7 @@ class VisitRecordViewSet(
 
     def perform_destroy(self, instance: Any) -> None:
         self._check_writable()
-        services.delete_record(instance, by=self.request.user)
+        services.delete_record(instance, by=signed_in(self.request))
 
 
 def visit_record_schema(serializer: type, create_description: str) -> Callable:

@@ -2,12 +2,15 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 from django.db import transaction
 from django.db.models import QuerySet
 from drf_spectacular.utils import extend_schema, extend_schema_view
 from rest_framework.decorators import action
 from rest_framework.request import Request
 from rest_framework.response import Response
+from rest_framework.serializers import BaseSerializer
 
 from fleet import audit, services
 from fleet.api import filtersets
@@ -19,10 +22,19 @@ from fleet.api.serializers import (
     VisitSerializer,
 )
 from fleet.choices import VisitStatus
-from fleet.models import AuditEntry, Visit
+from fleet.models import AuditAction, AuditEntry, Visit
 from fleet.reach import OFFICE, TECHNICIAN
 
-from .base import Conflict, RecordViewSet
+from .base import Conflict, RecordViewSet, signed_in
+
+
+def _audited(visit: Visit) -> dict[str, Any]:
+    """A visit as the trail compares it: its stored values, its units and technicians."""
+    return {
+        **audit.snapshot(visit),
+        "units": sorted(u.pk for u in visit.units.all()),
+        "technicians": sorted(u.pk for u in visit.technicians.all()),
+    }
 
 
 @extend_schema_view(
@@ -51,33 +63,25 @@ class VisitViewSet(RecordViewSet):
         qs = Visit.objects.visible_to(self.request.user).select_related("site")
         return qs.prefetch_related("technicians", "units").order_by("-window_start", "id")
 
-    def perform_create(self, serializer: VisitSerializer) -> None:
+    def perform_create(self, serializer: BaseSerializer[Visit]) -> None:
         with transaction.atomic():
             visit = serializer.save()
-            audit.record_created(visit, by=self.request.user)
+            audit.record_created(visit, by=signed_in(self.request))
 
-    def perform_update(self, serializer: VisitSerializer) -> None:
-        visit = serializer.instance
-        before = {
-            **audit.snapshot(visit),
-            "units": sorted(u.pk for u in visit.units.all()),
-            "technicians": sorted(u.pk for u in visit.technicians.all()),
-        }
+    def perform_update(self, serializer: BaseSerializer[Visit]) -> None:
+        if serializer.instance is None:  # DRF's update() passes the visit it changes
+            raise TypeError("a visit's update needs the visit")
+        before = _audited(serializer.instance)
         with transaction.atomic():
             visit = serializer.save()
-            after = {
-                **audit.snapshot(visit),
-                "units": sorted(u.pk for u in visit.units.all()),
-                "technicians": sorted(u.pk for u in visit.technicians.all()),
-            }
-            changes = audit.diff(before, after)
+            changes = audit.diff(before, _audited(visit))
             if changes:
                 audit.record(
-                    visit, audit.AuditAction.CHANGED, by=self.request.user, changes=changes
+                    visit, AuditAction.CHANGED, by=signed_in(self.request), changes=changes
                 )
 
     def perform_destroy(self, instance: Visit) -> None:
-        services.delete_record(instance, by=self.request.user)
+        services.delete_record(instance, by=signed_in(self.request))
 
     def _moved(self, visit: Visit) -> Response:
         return Response(self.get_serializer(visit).data)
@@ -96,7 +100,9 @@ class VisitViewSet(RecordViewSet):
                     ]
                 }
             )
-        return self._moved(services.move_visit(visit, VisitStatus.IN_PROGRESS, by=request.user))
+        return self._moved(
+            services.move_visit(visit, VisitStatus.IN_PROGRESS, by=signed_in(request))
+        )
 
     @action(detail=True, methods=["post"])
     def submit(self, request: Request, pk: str | None = None) -> Response:
@@ -107,7 +113,7 @@ class VisitViewSet(RecordViewSet):
         moved = services.move_visit(
             visit,
             VisitStatus.SUBMITTED,
-            by=request.user,
+            by=signed_in(request),
             work_summary=body.validated_data.get("work_summary"),
         )
         return self._moved(moved)
@@ -133,7 +139,7 @@ class VisitViewSet(RecordViewSet):
                 }
             )
         moved = services.move_visit(
-            visit, target, by=request.user, note=body.validated_data.get("note", "")
+            visit, target, by=signed_in(request), note=body.validated_data.get("note", "")
         )
         return self._moved(moved)
 
@@ -144,7 +150,10 @@ class VisitViewSet(RecordViewSet):
         body = CancelSerializer(data=request.data)
         body.is_valid(raise_exception=True)
         moved = services.move_visit(
-            visit, VisitStatus.CANCELLED, by=request.user, note=body.validated_data.get("note", "")
+            visit,
+            VisitStatus.CANCELLED,
+            by=signed_in(request),
+            note=body.validated_data.get("note", ""),
         )
         return self._moved(moved)
 

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 from django.contrib.auth import get_user_model
 from django.core.management.base import BaseCommand, CommandError, CommandParser
 from rest_framework.authtoken.models import Token
@@ -22,7 +24,7 @@ class Command(BaseCommand):
             "--rotate", action="store_true", help="issue: replace an existing token"
         )
 
-    def handle(self, *args, **options) -> None:
+    def handle(self, *args: Any, **options: Any) -> None:
         user_model = get_user_model()
         try:
             user = user_model.objects.get(**{user_model.USERNAME_FIELD: options["username"]})

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 from django.core.management.base import BaseCommand
 from django.utils import timezone
 from tqdm import tqdm
@@ -12,7 +14,7 @@ from fixtures.load import load_demo_fleet
 class Command(BaseCommand):
     help = "Load the invented demo fleet: sites, units and 18 months of visits (re-runnable)."
 
-    def handle(self, *args, **options) -> None:
+    def handle(self, *args: Any, **options: Any) -> None:
         bar = tqdm(total=0, desc="demo visits", unit="visit", disable=options["verbosity"] == 0)
 
         def progress(done: int, total: int) -> None:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+from typing import Any
 
 from django.core.management.base import BaseCommand, CommandError, CommandParser
 
@@ -35,7 +36,7 @@ class Command(BaseCommand):
         )
         parser.add_argument("--json", action="store_true", help="print one JSON object")
 
-    def handle(self, *args, **options) -> None:
+    def handle(self, *args: Any, **options: Any) -> None:
         try:
             if options["pressure"] is not None:
                 self._at_pressure(options)
