@@ -10,7 +10,7 @@ For every refrigerant of the catalogue, in one run:
   CoolProp's low-level ``AbstractState.update(PQ_INPUTS, p, 1)``; and ``PropsSI`` per value.
   Each way keeps its fastest run (the least disturbed by other work on the machine). The two
   CoolProp ways run on a sample and are extrapolated; plain calls on a HEOS mixture
-  fail in bands (REFERENCES.md 1.4), and the failures are counted;
+  fail in bands (docs/references.md §1.4), and the failures are counted;
 - the memory all tables take once loaded (tracemalloc), and the arrays they hold.
 
     .venv/bin/python bench/saturation.py [--values 1000000] [--sample 2000] [--only R-404A,...]

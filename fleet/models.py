@@ -546,7 +546,7 @@ class Component(models.Model):
         """The microfarads a measured value of this part must lie in; None when unrated.
 
         The one rule for every reader: a printed rating plus or minus its tolerance (a run
-        capacitor with none printed: the typical 6 %, REFERENCES 4), else the range, whose
+        capacitor with none printed: the typical 6 %, docs/references.md §4), else the range, whose
         upper end defaults to its lower one.
         """
         if self.rated_uf is not None:

@@ -22,7 +22,7 @@ from numpy.typing import ArrayLike, NDArray
 FloatArray = NDArray[np.float64]
 
 #: NEMA MG-1 derating curve for unbalanced voltage (secondary tabulation of the published
-#: curve; REFERENCES section 4): unbalance % -> derating factor. Above 5 % MG-1 advises not
+#: curve; docs/references.md §4): unbalance % -> derating factor. Above 5 % MG-1 advises not
 #: operating the motor, so the factor is undefined (NaN) there.
 NEMA_DERATING_CURVE: tuple[tuple[float, float], ...] = (
     (0.0, 1.00),

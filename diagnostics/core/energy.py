@@ -1,6 +1,6 @@
 """Energy cost of a high head: a simple vapour-compression cycle with CoolProp.
 
-Method (REFERENCES section 7): evaporating pressure ``p_e = p_dew(T_evap)``; state 1 at
+Method (docs/references.md §7): evaporating pressure ``p_e = p_dew(T_evap)``; state 1 at
 ``(p_e, T_dew + superheat)``; state 2s by a 1-D root-find on temperature at ``p_c`` so that
 ``s2s = s1``; ``h2 = h1 + (h2s - h1) / eta_is``; state 3 at ``(p_c, T_bubble - subcooling)``;
 ``COP = (h1 - h3) / (h2 - h1)``. CoolProp's mixture models accept only PT, PQ and QT inputs
@@ -37,11 +37,11 @@ from diagnostics.core import refrigerants, saturation
 
 FloatArray = NDArray[np.float64]
 
-#: Stated compressor isentropic efficiency (REFERENCES section 7 worked example).
+#: Stated compressor isentropic efficiency (docs/references.md §7 worked example).
 ISENTROPIC_EFFICIENCY = 0.65
-#: Nominal evaporator superheat, 10 F (REFERENCES section 7 worked example).
+#: Nominal evaporator superheat, 10 F (docs/references.md §7 worked example).
 NOMINAL_SUPERHEAT_K = 10.0 / 1.8
-#: Nominal subcooling, 5 F (REFERENCES section 7 worked example).
+#: Nominal subcooling, 5 F (docs/references.md §7 worked example).
 NOMINAL_SUBCOOLING_K = 5.0 / 1.8
 
 #: Grid of the batch surface: evaporating dew temperature (C) and lift (K).
@@ -146,7 +146,7 @@ def cycle_cop_at_dew_temperatures(
     subcooling_k: float = NOMINAL_SUBCOOLING_K,
     isentropic_efficiency: float = ISENTROPIC_EFFICIENCY,
 ) -> float:
-    """COP with the two pressures given as dew temperatures (the form of REFERENCES 7)."""
+    """COP with the two pressures given as dew temperatures (the form of docs/references.md §7)."""
     curve = saturation.table(designation)
     return cycle_cop(
         designation,

@@ -1,6 +1,6 @@
 """Probable causes drawn from the metrics: the classic troubleshooting patterns as data.
 
-The patterns are the table in REFERENCES section 6 (TXV systems; common practice with the
+The patterns are the table in docs/references.md §6 (TXV systems; common practice with the
 textbook and trade-press sources cited there). Each is written as a ``Rule`` over named
 *signals*: a signal is a yes/no observation about one reading ("superheat above its range",
 "bubbles in the sight glass"). A signal that cannot be judged (its metric was not scored, the
@@ -42,7 +42,7 @@ SIGNAL_THRESHOLDS: dict[str, tuple[float, str]] = {
     ),
     "superheat_very_low_k": (
         3.0 / 1.8,
-        "REFERENCES 6: an overfeeding valve leaves 0-3 F superheat",
+        "docs/references.md §6: an overfeeding valve leaves 0-3 F superheat",
     ),
 }
 
@@ -165,7 +165,7 @@ class Rule:
     #: The likely repair opens the refrigerant circuit (certified handling applies).
     opens_circuit: bool
     alternatives: tuple[Alternative, ...] = ()
-    source: str = "REFERENCES 6 troubleshooting table (common practice)"
+    source: str = "docs/references.md §6.2 troubleshooting table (common practice)"
 
 
 def _t(*names: str) -> frozenset[str]:
@@ -273,7 +273,7 @@ RULES: tuple[Rule, ...] = (
         # A restriction past the sight glass starves the valve the same way; on a
         # receiverless unit its high subcooling gives it away (and excludes this rule).
         # A restriction starves the valve the same way; its subcooling runs high, but within
-        # the healthy band the two overlap (REFERENCES 6: N/up against up).
+        # the healthy band the two overlap (docs/references.md §6: N/up against up).
         alternatives=(Alternative("liquid_line_restriction", _DRIER_CHECK),),
     ),
     Rule(
@@ -324,16 +324,16 @@ RULES: tuple[Rule, ...] = (
         "standing pressure above the saturation pressure at the ambient temperature "
         "points to non-condensables. Recover, evacuate and recharge by weight.",
         opens_circuit=True,
-        source="REFERENCES 6 troubleshooting table (common practice): its running symptoms "
-        "are a dirty condenser's, so it is named beside that finding, never alone",
+        source="docs/references.md §6.2 troubleshooting table (common practice): its running "
+        "symptoms are a dirty condenser's, so it is named beside that finding, never alone",
     ),
     Rule(
         code="weak_compressor",
         title="Compressor is not pumping well (worn valves or rings)",
         # Evaporating above and condensing below what the box and the air call for at once:
-        # the compressor is not moving the refrigerant (NISTIR 7350 valve leakage; REFERENCES 6).
-        # A warm box over an evaporator that is not starved says the same: capacity is short
-        # on the compressor's side.
+        # the compressor is not moving the refrigerant (NISTIR 7350 valve leakage;
+        # docs/references.md §6). A warm box over an evaporator that is not starved says the same:
+        # capacity is short on the compressor's side.
         triggers=(
             _t("td_low", "split_low"),
             _t("td_low", "sh_high"),
@@ -520,7 +520,7 @@ def derive_signals(
 
     ``metrics`` maps a metric name to (measured, target, deviation, status); a metric that was
     not scored makes every signal about it false. Subcooling signals are raised for
-    receiverless units: with a receiver, subcooling is no charge indicator (REFERENCES 6),
+    receiverless units: with a receiver, subcooling is no charge indicator (docs/references.md §6),
     except that a subcooling above its band while the head is not held up
     (``receiver_backed_up`` may be raised for such units) says the receiver is full and
     liquid is backing into the condenser.

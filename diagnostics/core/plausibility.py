@@ -59,7 +59,7 @@ class PlausibilityRules:
         metadata=cite(
             "ours: twice the combined error of a clamp thermometer (about 1 K, from memory) "
             "and a service gauge's 7 kPa (1 psi), worth up to 1 K of saturation temperature "
-            "at freezer suction pressures"
+            "at freezer suction pressures (docs/references.md §9)"
         ),
     )
 

@@ -17,7 +17,7 @@ interval by arithmetic instead of a search:
   spaced no wider than the temperature grid anywhere.
 
 Both grids come from CoolProp directly (QT and PQ inputs), never from each other. For HEOS
-mixtures a plain saturation call fails in bands that matter (REFERENCES.md section 1.4), so
+mixtures a plain saturation call fails in bands that matter (docs/references.md §1.4), so
 the curves are traced by marching: each point is solved with
 ``AbstractState.update_with_guesses`` seeded with the previous point's pressure or
 temperature, phase compositions and densities. Pure and pseudo-pure fluids take plain calls.

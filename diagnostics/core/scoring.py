@@ -47,7 +47,7 @@ GAUGE_KPA = 7.0
 _INSTRUMENTS_SOURCE = (
     "the instruments' error: a clamp thermometer's 1 K with a gauge's 7 kPa (1 psi) read as "
     "a saturation temperature, combined in quadrature (from memory), so wider where the "
-    "saturation curve is flat at low pressure"
+    "saturation curve is flat at low pressure (docs/references.md §9)"
 )
 
 

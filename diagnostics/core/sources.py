@@ -1,6 +1,6 @@
 """Rule values that carry their source: one way to write it down, one way to read it back.
 
-Thresholds are data (STYLE.md): a rules dataclass declares each value with
+Thresholds are data (docs/contributing.md): a rules dataclass declares each value with
 ``field(default=..., metadata=cite("..."))``, or holds it as a ``Sourced`` value, so
 the reason stands beside the number and reports can print both.
 """

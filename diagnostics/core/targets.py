@@ -129,7 +129,7 @@ class HeadControlDefaults:
 
 _SETPOINT = (
     "common practice (from memory): head-pressure controls hold condensing near 85-100 F; "
-    "90 F is taken when the unit does not say"
+    "90 F is taken when the unit does not say (docs/references.md §10)"
 )
 #: Kind of control -> its defaults. "none" holds nothing (never excused).
 HEAD_PRESSURE_CONTROL_DEFAULTS: dict[HeadPressureControl, HeadControlDefaults] = {

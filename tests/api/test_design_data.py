@@ -45,7 +45,7 @@ def _create(office_user, **fields):
 
 def test_a_dual_voltage_rating_is_stored_and_widens_the_band(office_user):
     """Issue 13: a 208-230 V rating could not be stored. Now it is, and the core gets both
-    ends: NEMA MG-1 12.44 (REFERENCES 4) allows +/- 10 % across a dual rating, 187-253 V
+    ends: NEMA MG-1 12.44 (docs/references.md §4) allows +/- 10 % across a dual rating, 187-253 V
     (187.2 exactly), so a healthy unit at 200 V is inside; on a single 230 V rating
     (207-253 V) it is not. Tolerance 1e-9 V."""
     response = _create(office_user, nameplate_volts=208, nameplate_volts_max=230)
@@ -79,7 +79,7 @@ def test_the_receiver_is_left_to_the_application_unless_given(office_user, appli
     """Issue 13: every unit was taken to have a receiver. Now a unit posted without the flag
     stores none (null on the wire), and the core takes the application's default: a
     self-contained reach-in or ice machine is receiverless, so its subcooling target is the
-    receiverless 6-10 F (Tomczyk, ACHR News, REFERENCES 6; tolerance 1e-3 K), widened
+    receiverless 6-10 F (Tomczyk, ACHR News, docs/references.md §6; tolerance 1e-3 K), widened
     without a gauge reading by the thermometer's 1 K (from memory), rather than a receiver's
     0-5 F (common practice)."""
     response = _create(office_user, application=application)
@@ -166,8 +166,8 @@ def _part(office_user, unit, **fields):
 
 def test_a_run_capacitor_as_printed_on_the_can(office_user):
     """Issue 13: a run capacitor could only be a range. 45 uF +/- 6 % is now stored as
-    printed and resolved to its band, 42.30-47.70 uF (REFERENCES 4 worked example; EIA-456-A,
-    IEC 60252-1), which the core gets back as 45 uF +/- 6 %. Tolerance 1e-9."""
+    printed and resolved to its band, 42.30-47.70 uF (docs/references.md §4 worked example;
+    EIA-456-A, IEC 60252-1), which the core gets back as 45 uF +/- 6 %. Tolerance 1e-9."""
     unit = UnitFactory()
     response = _part(office_user, unit, rated_uf=45.0, tolerance_pct=6.0)
     assert response.status_code == 201, response.json()
@@ -180,7 +180,7 @@ def test_a_run_capacitor_as_printed_on_the_can(office_user):
 
 
 def test_a_run_capacitor_without_a_printed_tolerance_takes_six_percent(office_user):
-    """REFERENCES 4: run capacitors are typically +/- 6 %; 70 uF gives 65.8-74.2 uF."""
+    """docs/references.md §4: run capacitors are typically +/- 6 %; 70 uF gives 65.8-74.2 uF."""
     response = _part(office_user, UnitFactory(), rated_uf=70.0)
     assert response.status_code == 201, response.json()
     assert response.json()["tolerance_pct"] is None

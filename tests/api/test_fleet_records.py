@@ -96,7 +96,7 @@ def test_an_impossible_site_is_refused_in_its_units(office_user):
 
 def test_refrigerants_list_composition_gwp_and_glide(technician):
     """R-404A: ASHRAE 34 composition 44/52/4 (R-125/143a/134a), class A1, GWP 3922 by the
-    40 CFR 84.64(b) rule (REFERENCES section 2); a pure fluid has no glide; any spelling of
+    40 CFR 84.64(b) rule (docs/references.md §2); a pure fluid has no glide; any spelling of
     the designation finds it."""
     client = token_client(technician)
     r404a = client.get("/api/v1/refrigerants/r404a/").json()

@@ -182,7 +182,7 @@ def test_a_suction_pressure_below_the_saturation_range_is_refused(technician, vi
 
 
 def test_a_suction_line_colder_than_its_dew_point_is_refused_in_fahrenheit(technician, visit_unit):
-    """R-404A at 62 psig boils at about 25 F (REFERENCES 1.3: 25 F is 62-63 psig at sea
+    """R-404A at 62 psig boils at about 25 F (docs/references.md §1.3: 25 F is 62-63 psig at sea
     level); a suction line at 10 F on a running unit is 15 F below it, past instrument
     error. The dew point is stated in F, as the request was; within 0.6 F of 25 F."""
     response = _post(

@@ -70,8 +70,8 @@ def test_a_defrosting_unit_is_not_judged_on_its_box_or_cycle(technician, visit_u
 
 def test_a_leak_flag_entered_in_pounds_speaks_in_pounds(office_user):
     """Issue seen in the field: a leak flag entered in lb spoke in kg. 8 lb added 73 days
-    after an earlier addition to a 60 lb unit is a 66.67 % annualized leak rate (REFERENCES
-    3 worked example) over the 20 % threshold: the flag's evidence says "8.00 lb" when the
+    after an earlier addition to a 60 lb unit is a 66.67 % annualized leak rate (docs/references.md
+    §3 worked example) over the 20 % threshold: the flag's evidence says "8.00 lb" when the
     client asks for US units and "3.63 kg" for SI."""
     unit = UnitFactory(full_charge_kg=60 * KG_PER_LB)
     today = dt.date(2026, 11, 20)

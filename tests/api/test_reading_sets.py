@@ -83,7 +83,7 @@ def test_it_stores_si_and_answers_in_the_units_asked_for(technician, visit_unit)
 
 def test_it_makes_absolute_readings_gauge_at_the_site_elevation(technician):
     """At 5000 ft (1524 m) 32.23 psia is 20.0 psig (ASHRAE Fundamentals 2017 ch. 1 eq. 3,
-    worked in REFERENCES section 5; tolerance 0.01 psi)."""
+    worked in docs/references.md §5; tolerance 0.01 psi)."""
     site = SiteFactory(elevation_m=1524.0)
     visit = VisitFactory(site=site, status="in_progress", technicians=[technician])
     visit_unit = VisitUnitFactory(visit=visit, unit=UnitFactory(site=site))

@@ -56,7 +56,7 @@ def _added(visit_unit, pounds: float, **fields) -> dict:
 def test_an_addition_comes_back_with_its_leak_rate(technician, visit_unit):
     """60 lb full charge, 8 lb added 73 days after a 5 lb addition: annualizing 66.67 %,
     rolling average 21.67 %, over the 20 % commercial threshold, repair due in 30 days
-    (40 CFR 82.152 / 84.102 definitions, worked example in REFERENCES section 3;
+    (40 CFR 82.152 / 84.102 definitions, worked example in docs/references.md §3;
     thresholds 82.157(c)(2) / 84.106; tolerance 0.01 %)."""
     earlier = VisitUnitFactory(
         visit=VisitFactory(site=visit_unit.unit.site),

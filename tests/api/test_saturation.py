@@ -48,7 +48,7 @@ def test_r404a_dew_and_bubble_pressures_at_300_k(technician):
 
 def test_a_gauge_reading_is_made_absolute_at_the_elevation(technician):
     """20.0 psig at 5000 ft (1524 m) is 32.23 psia (ASHRAE Fundamentals 2017 ch. 1 eq. 3,
-    REFERENCES section 5; tolerance 0.01 psi), and reads the same saturation point."""
+    docs/references.md §5; tolerance 0.01 psi), and reads the same saturation point."""
     client = token_client(technician)
     high = _get(client, "R-404A", "pressure=20&pressure_unit=psig&elevation_m=1524").json()
     assert high["absolute_pressure_kpa"] / KPA_PER_PSI == pytest.approx(32.23, abs=0.01)

@@ -160,7 +160,7 @@ def _cooler() -> sn.UnitSpec:
 
 def test_it_reads_a_healthy_r404a_cooler_at_25f_as_62_to_63_psig():
     """A healthy R-404A cooler designed for a 35 F box and a 10 F TD evaporates at 25 F dew;
-    its suction gauge then reads about 62-63 psig at sea level (REFERENCES 1.3, common
+    its suction gauge then reads about 62-63 psig at sea level (docs/references.md §1.3, common
     practice: a PT chart, read to about half a psi, so 61.5-63.5 psig is accepted)."""
     unit = dataclasses.replace(_cooler(), site="harbour")
     draws = sn.nominal_draws(dt.datetime(2024, 7, 15, 15, tzinfo=dt.UTC), 30.0)
@@ -206,8 +206,8 @@ def test_it_keeps_healthy_operation_inside_published_ranges():
     """Healthy running visits (true values) stay inside the published ranges: TXV superheat
     6-10 F medium temp and 4-7 F low temp (walk-ins and reach-ins; the tables say nothing of
     ice machines); subcooling 0-5 F with a receiver and 6-10 F on a
-    receiverless TXV (Tomczyk, ACHR News; REFERENCES 6, common practice); discharge line at
-    most 225 F (Tomczyk); supply within ANSI C84.1 range A of its service (REFERENCES 4:
+    receiverless TXV (Tomczyk, ACHR News; docs/references.md §6, common practice); discharge line at
+    most 225 F (Tomczyk); supply within ANSI C84.1 range A of its service (docs/references.md §4:
     120 V 114-126, 208 V 197-218, 240 V 228-252, 480 V 456-504)."""
     services = {115.0: (114, 126), 208.0: (197, 218), 230.0: (228, 252), 460.0: (456, 504)}
     checked = 0
@@ -233,7 +233,7 @@ def test_it_keeps_healthy_operation_inside_published_ranges():
 
 def test_it_hides_a_dirty_condenser_while_the_head_is_held():
     """A dirty condenser's split is masked while the unit's head-pressure control holds the
-    head up in cold weather (common practice, REFERENCES 6): such visits are labelled not
+    head up in cold weather (common practice, docs/references.md §6): such visits are labelled not
     detectable, and a summer visit of the same unit is."""
     unit = next(
         u
@@ -287,7 +287,7 @@ def _healthy_sample(
 )
 def test_it_bounds_every_healthy_unit_of_a_design_by_its_envelope(tag, air_c):
     """The healthy envelope, taken at the corners of the generator's healthy spreads (ours)
-    and of the valve settings (REFERENCES 6 superheat ranges, common practice), holds every
+    and of the valve settings (docs/references.md §6 superheat ranges, common practice), holds every
     primary symptom of 1,000 healthy units drawn at random over the same ranges (to 1e-6 K
     for the saturation tables' round trip) and every condition they are found in; and it
     is no wider than they are: their lowest and highest come within a tenth of its span of
@@ -316,7 +316,7 @@ def test_it_bounds_every_healthy_unit_of_a_design_by_its_envelope(tag, air_c):
 def test_it_builds_every_valve_inside_the_published_superheat_range():
     """Every TXV and EEV in the fleet is set inside the range ``superheat_settings_k``
     allows, and a healthy cooler's envelope of superheat is exactly the published 6-10 F,
-    a freezer's 4-7 F (REFERENCES 6, common practice: medium temp 6-10 F, low temp 4-6 F,
+    a freezer's 4-7 F (docs/references.md §6, common practice: medium temp 6-10 F, low temp 4-6 F,
     5-7 F also common; within 1e-6 F)."""
     valves = [u for u in SEASON.units if u.metering != "capillary"]
     assert valves
@@ -334,7 +334,7 @@ def test_it_builds_every_valve_inside_the_published_superheat_range():
 def test_it_sees_a_slight_undercharge_inside_the_healthy_range_only_against_its_twin():
     """A receiverless TXV cooler slightly short of charge, its subcooling fallen 2.5 K from
     9.5 F to 5 F (the slight size is from memory), stays inside the healthy 6-10 F
-    (Tomczyk; REFERENCES 6, common practice) plus twice the instruments' uncertainty
+    (Tomczyk; docs/references.md §6, common practice) plus twice the instruments' uncertainty
     (thermometer +-1 K, gauge +-1 psi, from memory): detectable against the unit's own
     healthy twin, not against the healthy range."""
     unit = UNITS["F-UC-1"]
@@ -352,7 +352,7 @@ def test_it_sees_a_slight_undercharge_inside_the_healthy_range_only_against_its_
 
 
 def test_it_cannot_see_a_stopped_condenser_fan_while_fan_cycling_holds_the_head():
-    """A condenser fan failed on a fan-cycling unit held in winter (REFERENCES 6, common
+    """A condenser fan failed on a fan-cycling unit held in winter (docs/references.md §6, common
     practice: head-pressure control holds condensing up in cold weather): a healthy unit
     of the design is found with its fan cycled off just as well, and the held split says
     nothing, so it is not detectable against the healthy range (though it is against its

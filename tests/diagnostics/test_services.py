@@ -76,7 +76,7 @@ def test_it_reads_the_fitted_run_capacitor_rating_from_components():
 
 def test_it_reads_a_printed_run_capacitor_and_a_start_capacitor_range():
     """A run capacitor printed 45 uF with no tolerance goes to the core as 45 uF +/- 6 %
-    (REFERENCES 4: typically +/- 6 %); a start capacitor marked 88-108 uF as that range
+    (docs/references.md §4: typically +/- 6 %); a start capacitor marked 88-108 uF as that range
     (IEC 60252-2). Tolerance 1e-9."""
     unit = UnitFactory()
     ComponentFactory(unit=unit, rated_uf=45.0, rating_uf_min=None, rating_uf_max=None)
@@ -163,7 +163,7 @@ def test_rescore_uses_a_fixed_number_of_queries(django_assert_max_num_queries):
 
 
 def test_it_stores_the_leak_rate_of_the_worked_example():
-    """40 CFR 82.152 worked example (shared/REFERENCES.md section 3, computed from the
+    """40 CFR 82.152 worked example (docs/references.md §3, computed from the
     formulas): full charge 60 lb, 8 lb added 73 days after a 5 lb addition: annualizing
     66.67 %, rolling average 21.67 %, over the 20 % commercial threshold; tolerance 0.01."""
     unit = UnitFactory(

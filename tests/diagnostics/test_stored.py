@@ -21,7 +21,8 @@ from tests.factories import ReadingSetFactory, VisitUnitFactory, document_for
 #: tests/diagnostics/core/test_diagnose.py, one row per case it covers: every finding,
 #: R-744 above its critical point, a water-cooled condenser, a glide blend on the
 #: mid-point, an unusable elevation, missing readings), each with the details the float32
-#: reader wrote for it then.
+#: reader wrote for it then (two source texts since carry the docs/references.md section
+#: they cite; texts are written when read, so the stored numbers are untouched).
 FLOAT32_ROWS = json.loads((Path(__file__).parent / "data" / "stored_float32.json").read_text())
 
 to_documents = importlib.import_module("diagnostics.migrations.0005_diagnosis_document")

@@ -93,7 +93,7 @@ def test_it_refuses_an_unknown_control_or_basis_in_the_database():
 
 
 def test_a_run_capacitor_as_printed_resolves_to_its_band():
-    """REFERENCES 4 worked example (EIA-456-A / IEC 60252-1 marking): 45 uF +/- 6 % is
+    """docs/references.md §4 worked example (EIA-456-A / IEC 60252-1 marking): 45 uF +/- 6 % is
     42.30-47.70 uF; the band is stored in the range columns too. Tolerance 1e-9 uF."""
     part = ComponentFactory(
         rated_uf=45.0, tolerance_pct=6.0, rating_uf_min=None, rating_uf_max=None
@@ -105,7 +105,7 @@ def test_a_run_capacitor_as_printed_resolves_to_its_band():
 
 
 def test_a_run_capacitor_without_a_printed_tolerance_takes_the_typical_six_percent():
-    """REFERENCES 4: run capacitors are typically +/- 6 %; 70 uF gives 65.8-74.2 uF.
+    """docs/references.md §4: run capacitors are typically +/- 6 %; 70 uF gives 65.8-74.2 uF.
     Tolerance 1e-9 uF."""
     part = ComponentFactory(rated_uf=70.0, rating_uf_min=None, rating_uf_max=None)
     part.full_clean()
@@ -114,8 +114,8 @@ def test_a_run_capacitor_without_a_printed_tolerance_takes_the_typical_six_perce
 
 
 def test_a_start_capacitor_keeps_its_printed_range():
-    """IEC 60252-2 (REFERENCES 4): a start capacitor is marked with a range, e.g. 88-108 uF,
-    and that range is its band."""
+    """IEC 60252-2 (docs/references.md §4): a start capacitor is marked with a range, e.g. 88-108
+    uF, and that range is its band."""
     part = ComponentFactory(kind="start_capacitor", rating_uf_min=88.0, rating_uf_max=108.0)
     part.full_clean()
     assert part.rating_band_uf() == (88.0, 108.0)

@@ -71,7 +71,7 @@ def test_existing_units_keep_the_mid_point_and_their_receiver_flags(old_apps):
 def test_single_value_run_capacitors_become_printed_ratings(old_apps):
     """A run capacitor stored as one value (no upper end, or both ends equal) was judged as
     that value +/- 6 % by the diagnosis; it becomes that printed rating with its band
-    (REFERENCES 4: 45 uF +/- 6 % is 42.30-47.70 uF; tolerance 1e-9 uF). A real range and a
+    (docs/references.md §4: 45 uF +/- 6 % is 42.30-47.70 uF; tolerance 1e-9 uF). A real range and a
     start capacitor's range are left alone."""
     Component = old_apps.get_model("fleet", "Component")
     unit = _unit(old_apps, "OLD-3", has_receiver=True)

@@ -24,7 +24,7 @@ pytestmark = pytest.mark.django_db
 
 def test_it_seeds_every_refrigerant_of_the_catalogue_with_its_gwp():
     """The data migration seeds the 21 designations; GWP follows the mass-weighted rule of
-    40 CFR 84.64(b) over AR4 values (table in shared/REFERENCES.md section 2, exact)."""
+    40 CFR 84.64(b) over AR4 values (table in docs/references.md §2, exact)."""
     expected = {
         "R-404A": 3922,
         "R-407A": 2107,

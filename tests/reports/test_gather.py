@@ -180,7 +180,7 @@ def test_the_month_check_is_the_as_found_reading_with_its_stored_findings():
 @pytest.mark.django_db
 def test_refrigerant_added_is_totalled_in_co2e_with_the_published_gwp():
     """1.5 kg of R-404A added in the month is 1.5 x 3922 = 5883 kg CO2e (GWP AR4 3922 by the
-    40 CFR 84.64(b) mass-weighted rule, REFERENCES.md section 2; tolerance 1 kg)."""
+    40 CFR 84.64(b) mass-weighted rule, docs/references.md §2; tolerance 1 kg)."""
     vu = VisitUnitFactory()  # the unit factory fits R-404A
     event = RefrigerantEventFactory(visit_unit=vu, amount_kg=1.5, occurred_on=dt.date(2026, 3, 9))
     LeakRateFactory(event=event)

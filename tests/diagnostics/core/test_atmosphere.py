@@ -7,7 +7,7 @@ import pytest
 
 from diagnostics.core.atmosphere import standard_pressure_kpa
 
-#: ASHRAE Handbook - Fundamentals 2017, ch. 1, Table 1 (via REFERENCES.md section 5).
+#: ASHRAE Handbook - Fundamentals 2017, ch. 1, Table 1 (via docs/references.md §5).
 ASHRAE_TABLE_1 = [(-500.0, 107.478), (0.0, 101.325), (500.0, 95.461), (1000.0, 89.875),
                   (4000.0, 61.640)]  # fmt: skip
 
@@ -15,12 +15,12 @@ ASHRAE_TABLE_1 = [(-500.0, 107.478), (0.0, 101.325), (500.0, 95.461), (1000.0, 8
 @pytest.mark.parametrize(("elevation_m", "kpa"), ASHRAE_TABLE_1)
 def test_it_matches_the_ashrae_table(elevation_m, kpa):
     """ASHRAE Fundamentals 2017, ch. 1, Table 1: p at -500, 0, 500, 1000 and 4000 m, within
-    0.01 kPa (REFERENCES.md section 5)."""
+    0.01 kPa (docs/references.md §5)."""
     assert standard_pressure_kpa(elevation_m) == pytest.approx(kpa, abs=0.01)
 
 
 def test_it_gives_12_228_psia_at_5000_ft():
-    """REFERENCES.md section 5: 5000 ft (1524 m) -> 12.228 psia, within 0.001 psi
+    """docs/references.md §5: 5000 ft (1524 m) -> 12.228 psia, within 0.001 psi
     (1 psi = 6.894757 kPa)."""
     assert standard_pressure_kpa(1524.0) / 6.894757293168361 == pytest.approx(12.228, abs=0.001)
 

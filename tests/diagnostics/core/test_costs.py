@@ -33,7 +33,7 @@ def test_three_phase_power_has_root_three() -> None:
 
 
 def test_the_drift_costs_its_share_of_the_measured_energy() -> None:
-    """Penalty 30.7 % (the REFERENCES.md section 7 R-404A example, 100 -> 115 F condensing,
+    """Penalty 30.7 % (the docs/references.md §7 R-404A example, 100 -> 115 F condensing,
     a CoolProp regression value) on a synthetic 1.955 kW compressor running half the time for
     30 days: 703.8 kWh, of which 30.7/130.7 = 165.31 kWh is the drift; at 0.20 USD/kWh
     33.06 USD. Tolerance 0.01."""

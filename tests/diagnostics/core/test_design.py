@@ -16,7 +16,7 @@ F_PER_K = 1.8
 def test_it_takes_the_design_split_where_given_and_the_applications_default_elsewhere():
     """A unit's own split is the design value; without one a medium-temperature unit takes
     14 K, the design split of an air-cooled condenser (14-15 K above design dry bulb, Trott
-    & Welch 3rd ed. Table 10.2, REFERENCES), and says so; an unknown application falls back
+    & Welch 3rd ed. Table 10.2, docs/references.md), and says so; an unknown application falls back
     to the 'other' defaults, not to an error. Tolerance 1e-12 K."""
     resolved = design.resolve(
         [
@@ -47,7 +47,7 @@ def test_its_ranges_are_the_ok_bands_the_diagnosis_judges_against():
 
 
 def test_a_superheat_range_given_in_part_is_as_sure_as_its_defaulted_end():
-    """A TXV cooler's superheat range defaults to 6-10 F (common practice, REFERENCES); a
+    """A TXV cooler's superheat range defaults to 6-10 F (common practice, docs/references.md); a
     unit giving only its lower end keeps its own low end, the default high end, and is
     marked as defaulted, not as its own design. Tolerance 1e-9 K."""
     resolved = design.resolve(

@@ -72,7 +72,7 @@ def test_it_measures_superheat_from_dew_and_subcooling_from_bubble_on_r448a():
     dew temperature and subcooling the bubble temperature minus liquid-line temperature; a
     mid-point or bubble-only (wrong) single-point reading differs by half or all of the
     glide, more than 1 K here. Anchor: R-448A bubble pressure 12.876 bar at 25 C (public
-    data page, low authority, REFERENCES 1.2; tolerance 0.3 K)."""
+    data page, low authority, docs/references.md §1.2; tolerance 0.3 K)."""
     unit = UnitDesign("R-448A", "medium_temp", has_receiver=False)
     head_abs = 1287.6
     reading = Reading(
@@ -106,7 +106,7 @@ def test_it_derives_td_split_and_compression_ratio_on_the_units_basis():
     """TD = box - evaporating, split = condensing - entering air, both on the basis the
     design data is given on (dew point by default, stated in the diagnosis); compression
     ratio from absolute pressures (the elevation enters through the standard atmosphere,
-    REFERENCES 5: 89.875 kPa at 1000 m)."""
+    docs/references.md §5: 89.875 kPa at 1000 m)."""
     result = diagnose(R404A_MT, FULL, elevation_m=1000.0)
     d = result.derived
     assert d.suction_kpa_abs == pytest.approx(330.0 + 89.875, abs=0.01)
@@ -148,8 +148,8 @@ def test_a_healthy_glide_blend_cooler_is_not_short_of_air(designation):
 
 
 def test_a_compressor_that_will_not_start_draws_near_lra_one_that_runs_near_rla():
-    """REFERENCES 4 (common practice): a compressor that hums without starting draws near its
-    LRA (fault, finding 'compressor_not_starting'); one that runs draws near or below RLA
+    """docs/references.md §4 (common practice): a compressor that hums without starting draws near
+    its LRA (fault, finding 'compressor_not_starting'); one that runs draws near or below RLA
     (ok). Synthetic 10 A RLA / 60 A LRA."""
     stuck = diagnose(
         R404A_MT, dataclasses.replace(FULL, compressor_running=False, compressor_amps=(57.0,))
@@ -202,7 +202,7 @@ def test_a_water_cooled_condenser_has_no_split_to_score():
 
 def test_r744_above_its_critical_point_scores_the_gas_cooler_instead():
     """R-744 above 7377 kPa absolute (critical point, Span & Wagner 1996) has no condensing
-    temperature and no subcooling (REFERENCES 1.4): those are not scored with the reason,
+    temperature and no subcooling (docs/references.md §1.4): those are not scored with the reason,
     the gas-cooler approach (outlet - entering air) and the head against the cut-out are."""
     unit = UnitDesign(
         "R-744",
@@ -232,7 +232,7 @@ def test_r744_above_its_critical_point_scores_the_gas_cooler_instead():
 
 
 def test_head_pressure_control_excuses_a_high_split_in_cold_weather():
-    """Common practice (REFERENCES 6): head-pressure control holds condensing up in cold
+    """Common practice (docs/references.md §6): head-pressure control holds condensing up in cold
     weather, so a big split at 0 C entering air with condensing near 35 C is not scored; the
     same split at 30 C entering air is a fault."""
     curve = saturation.table("R-404A")
@@ -268,7 +268,8 @@ def test_a_head_held_at_the_units_own_set_point_is_not_a_condenser_fault():
     """Issue seen in the field: a unit whose control holds 90 F got condenser findings in
     spring and autumn. With its flooding control at 90 F (design data), a 55 F spring day
     condensing at 91 F is the control's doing: the split is not judged, no finding, no
-    energy money. Common practice (REFERENCES 6): score the split only above the set point."""
+    energy money. Common practice (docs/references.md §6): score the split only above the set
+    point."""
     unit = dataclasses.replace(
         R404A_MT, head_pressure_control="flooding", head_pressure_setpoint_c=f_to_c(90.0)
     )
@@ -285,7 +286,7 @@ def test_a_unit_without_head_pressure_control_has_its_dirty_condenser_found_in_c
     no head-pressure control scored 95 with no finding (an assumed control excused it). With
     no control nothing holds the head: 57 F air condensing at 100 F is a 43 F split against
     a 25 F design (Trott & Welch's 14 K), a fault with the condenser named and energy charged
-    (REFERENCES 7 cycle)."""
+    (docs/references.md §7 cycle)."""
     unit = dataclasses.replace(R404A_MT, head_pressure_control="none")
     result = _at_condensing(unit, 57.0, 100.0)
     assert _metrics(result)["condenser_split"].status == "fault"
@@ -310,8 +311,8 @@ def test_a_controlled_head_far_above_its_band_is_the_condensers_own_doing():
 
 
 def test_the_energy_penalty_follows_the_head():
-    """A head above target costs energy (REFERENCES 7 method): the penalty is positive for a
-    high head, larger for a higher one, and zero on a head below target; a head inside its
+    """A head above target costs energy (docs/references.md §7 method): the penalty is positive for
+    a high head, larger for a higher one, and zero on a head below target; a head inside its
     ok band is on target and costs nothing (energy money only where a unit is off it)."""
     curve = saturation.table("R-404A")
     penalties = []
@@ -339,8 +340,8 @@ def test_the_energy_penalty_follows_the_head():
     ],
 )
 def test_it_adds_the_cautions_that_apply(designation, expected, absent):
-    """ASHRAE 34 safety classes (REFERENCES 2): A2L and B2L get the mildly-flammable note, A3
-    the flammable one, B classes the toxic one; every diagnosis carries the electrical,
+    """ASHRAE 34 safety classes (docs/references.md §2): A2L and B2L get the mildly-flammable note,
+    A3 the flammable one, B classes the toxic one; every diagnosis carries the electrical,
     pressure and local-codes cautions."""
     result = diagnose(UnitDesign(designation, "medium_temp"), Reading(box_temp_c=2.0))
     got = {c.code for c in result.cautions}

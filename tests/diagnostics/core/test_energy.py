@@ -1,4 +1,5 @@
-"""The simple vapour-compression cycle and the energy penalty of a high head (REFERENCES 7)."""
+"""The simple vapour-compression cycle and the energy penalty of a high head (docs/references.md
+§7)."""
 
 from __future__ import annotations
 
@@ -13,7 +14,7 @@ def f_to_c(f: float) -> float:
 
 
 def test_it_reproduces_the_r404a_worked_example():
-    """REFERENCES 7 worked example (a CoolProp regression value): R-404A, 20 F dew
+    """docs/references.md §7 worked example (a CoolProp regression value): R-404A, 20 F dew
     evaporating, 10 F superheat, 5 F subcooling, isentropic efficiency 0.65: COP 2.906 at
     100 F condensing (dew), 2.223 at 115 F, +30.7 % energy per unit of cooling. Tolerance
     0.002 on the COPs, 0.1 percentage point on the penalty."""
@@ -26,7 +27,7 @@ def test_it_reproduces_the_r404a_worked_example():
 
 def test_the_penalty_per_kelvin_has_the_size_of_the_published_rule_of_thumb():
     """Published rule of thumb: about 3 % more energy per K of condensing temperature
-    (Energie-Agentur der Wirtschaft, KA-03b; REFERENCES 7). A rule of thumb only sets the
+    (Energie-Agentur der Wirtschaft, KA-03b; docs/references.md §7). A rule of thumb only sets the
     order of magnitude, so the cycle's figure for R-404A at 20 F evaporating, 100 F -> 105 F
     condensing must lie between 2 and 5 % per K."""
     penalty = energy.energy_penalty_pct(
@@ -80,7 +81,7 @@ def test_it_refuses_a_cycle_without_lift():
 
 def test_a_worse_compressor_lowers_the_cop_in_proportion():
     """COP = (h1 - h3) / (h2 - h1) with h2 - h1 = (h2s - h1) / eta: halving the isentropic
-    efficiency halves the COP exactly (a property of the method in REFERENCES 7)."""
+    efficiency halves the COP exactly (a property of the method in docs/references.md §7)."""
     full = energy.cycle_cop_at_dew_temperatures("R-404A", -5.0, 40.0, isentropic_efficiency=0.8)
     half = energy.cycle_cop_at_dew_temperatures("R-404A", -5.0, 40.0, isentropic_efficiency=0.4)
     assert half == pytest.approx(full / 2, rel=1e-9)

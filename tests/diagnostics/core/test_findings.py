@@ -1,6 +1,6 @@
 """The troubleshooting patterns as rules: each fires on its pattern and not on a near miss.
 
-Patterns from the REFERENCES section 6 table (TXV systems; common practice with the
+Patterns from the docs/references.md §6 table (TXV systems; common practice with the
 textbook and trade-press sources cited there). The readings are synthetic: an R-404A
 medium-temperature TXV unit without a receiver, built so the chosen TD, split, superheat
 and subcooling come out exactly (pressures from the saturation tables).
@@ -143,8 +143,8 @@ def test_every_rule_has_a_case():
 
 @pytest.mark.parametrize(("code", "firing", "missing"), CASES, ids=[c[0] for c in CASES])
 def test_each_rule_fires_on_its_pattern_and_not_on_a_near_miss(code, firing, missing):
-    """REFERENCES 6 pattern for the finding: the triggering reading yields it with evidence,
-    a confidence in (0, 1) and advice; the near miss (one contradicting sign) does not."""
+    """docs/references.md §6 pattern for the finding: the triggering reading yields it with
+    evidence, a confidence in (0, 1) and advice; the near miss (one contradicting sign) does not."""
     fired = {f.code: f for f in diagnose(UNIT, reading(**firing)).findings}
     assert code in fired
     finding = fired[code]
@@ -156,7 +156,7 @@ def test_each_rule_fires_on_its_pattern_and_not_on_a_near_miss(code, firing, mis
 
 def test_a_reported_iced_coil_or_stopped_fan_alone_points_at_airflow():
     """An iced coil or stopped evaporator fans is itself the low-airflow pattern
-    (REFERENCES 6), even before the TD shows it; the evidence says what was reported."""
+    (docs/references.md §6), even before the TD shows it; the evidence says what was reported."""
     iced = {f.code: f for f in diagnose(UNIT, reading(coil_iced=True)).findings}
     assert "low_evaporator_airflow" in iced
     assert "evaporator coil reported iced" in iced["low_evaporator_airflow"].evidence
@@ -164,7 +164,7 @@ def test_a_reported_iced_coil_or_stopped_fan_alone_points_at_airflow():
 
 
 def test_a_stopped_condenser_fan_points_at_the_condenser():
-    """A condenser fan reported off triggers the condenser finding (REFERENCES 6: split up
+    """A condenser fan reported off triggers the condenser finding (docs/references.md §6: split up
     sharply); it also rules out non-condensables as the first explanation."""
     found = codes(UNIT, reading(split=20.0, condenser_fan_running=False))
     assert "condenser_heat_rejection" in found
@@ -172,7 +172,7 @@ def test_a_stopped_condenser_fan_points_at_the_condenser():
 
 
 def test_three_phase_unbalance_triggers_the_supply_finding():
-    """NEMA MG-1 14.36 worked examples (REFERENCES 4): 460/467/450 V (1.96 %) is above the
+    """NEMA MG-1 14.36 worked examples (docs/references.md §4): 460/467/450 V (1.96 %) is above the
     1 % design limit and raises the supply finding; 480/476/472 V (0.84 %) does not."""
     unbalanced = reading(volts=(460.0, 467.0, 450.0), amps=(8.0, 8.0, 8.0))
     balanced = reading(volts=(480.0, 476.0, 472.0), amps=(8.0, 8.0, 8.0))
@@ -215,8 +215,8 @@ def test_missing_data_neither_triggers_nor_vetoes():
 
 
 def test_with_a_receiver_low_subcooling_is_not_read_as_charge():
-    """With a receiver, subcooling is no charge indicator (REFERENCES 6, common practice): a
-    low subcooling with high superheat does not make a short-charge finding there (the sight
+    """With a receiver, subcooling is no charge indicator (docs/references.md §6, common practice):
+    a low subcooling with high superheat does not make a short-charge finding there (the sight
     glass tells), while the same reading on a receiverless unit does. A subcooling far above
     a receiver's band with the head not held up says the receiver is full and liquid backs
     into the condenser (common practice): there it counts as on a receiverless unit."""
@@ -245,7 +245,7 @@ def test_every_rule_is_complete_data():
 
 def test_a_high_split_names_non_condensables_beside_the_condenser_not_alone():
     """Issue seen in the field: non-condensables was raised as a finding beside every high
-    split. Its running symptoms are a dirty condenser's (REFERENCES 6, common practice), so
+    split. Its running symptoms are a dirty condenser's (docs/references.md §6, common practice), so
     a high split gives one finding, the condenser, naming non-condensables as what the
     readings cannot rule out and the standing-pressure check that decides; a condenser fan
     seen stopped settles it (no alternative)."""
@@ -262,7 +262,7 @@ def test_a_high_split_names_non_condensables_beside_the_condenser_not_alone():
 def test_an_overcharged_receiverless_txv_unit_is_not_read_as_overfeeding():
     """Issue seen in the field: an overcharged receiverless TXV unit was read as "metering
     device overfeeding". Overcharge backs liquid into the condenser: high subcooling and a
-    high split, with a superheat at or a little under its setting (REFERENCES 6); the
+    high split, with a superheat at or a little under its setting (docs/references.md §6); the
     valve is not at fault, so only the charge is named."""
     found = codes(UNIT, reading(split=19.0, subcooling=9.0, superheat=1.0))
     assert found == {"overcharge"}
@@ -270,7 +270,7 @@ def test_an_overcharged_receiverless_txv_unit_is_not_read_as_overfeeding():
 
 def test_a_short_charge_and_a_restriction_are_told_apart_by_subcooling_or_say_they_cannot():
     """Receiverless: a short charge lowers the subcooling, a restriction raises it
-    (REFERENCES 6), so each is named alone. With a receiver the subcooling says nothing;
+    (docs/references.md §6), so each is named alone. With a receiver the subcooling says nothing;
     bubbles and a high superheat then read as a
     short charge that cannot rule out a restriction ahead of the sight glass, and the drier
     check decides."""
@@ -293,7 +293,7 @@ def test_a_short_charge_and_a_restriction_are_told_apart_by_subcooling_or_say_th
 def test_txv_superheat_within_instrument_error_of_its_band_is_fine(application, superheat_f):
     """Issue seen in the field: a low-temperature TXV unit at 5-7 F superheat was read as
     underfeeding, a TXV cooler at 10.2 F superheat as "watch". The bands are common
-    practice (TXV low temp 4-6 F, medium temp 8-10 F, REFERENCES 6) and a reading is off
+    practice (TXV low temp 4-6 F, medium temp 8-10 F, docs/references.md §6) and a reading is off
     them only by more than the instruments' error (2 F, ours): these are ok, no finding."""
     unit = dataclasses.replace(UNIT, application=application, has_receiver=True)
     result = diagnose(unit, reading(superheat=superheat_f / 1.8, sight_glass="clear"))
@@ -303,7 +303,7 @@ def test_txv_superheat_within_instrument_error_of_its_band_is_fine(application, 
 
 
 def test_a_capacitor_outside_its_marked_tolerance_is_named():
-    """A run capacitor rated 45 uF +/-6 % passes 42.3-47.7 uF (REFERENCES 4 worked example:
+    """A run capacitor rated 45 uF +/-6 % passes 42.3-47.7 uF (docs/references.md §4 worked example:
     EIA-456-A / IEC 60252-1); 38 uF is named as a capacitor out of its rating, 44 uF is not,
     and a compressor that will not start names the start problem instead of both."""
     unit = dataclasses.replace(UNIT, run_capacitor_uf=45.0)

@@ -131,7 +131,7 @@ def leak(additions: tuple[RefrigerantAddition, ...], repairs: tuple[LeakRepair, 
 
 
 def test_a_leak_over_threshold_stays_open_until_a_verified_repair() -> None:
-    """REFERENCES.md section 3 worked example (60 lb, 8 lb 73 days after 5 lb: 21.67 %
+    """docs/references.md §3 worked example (60 lb, 8 lb 73 days after 5 lb: 21.67 %
     rolling average, over 20 %): open as a warning before the 30-day repair deadline, still
     open after a repair without verification, closed once a follow-up test verified it."""
     additions = (
@@ -150,14 +150,14 @@ def test_a_leak_over_threshold_stays_open_until_a_verified_repair() -> None:
 
 
 def test_a_missed_repair_deadline_makes_the_leak_flag_high() -> None:
-    """The 30-day repair deadline (40 CFR 82.157(d), REFERENCES.md section 3) passed without a
+    """The 30-day repair deadline (40 CFR 82.157(d), docs/references.md §3) passed without a
     repair: urgent."""
     additions = (RefrigerantAddition(ago(40), lb(15)),)
     assert kinds(UnitHistory(1, leak=leak(additions))) == {FlagKind.LEAK_RATE: Severity.URGENT}
 
 
 def test_a_leak_below_the_scope_is_a_low_flag() -> None:
-    """A 10 lb R-404A unit is below the 15 lb Part 84 floor (REFERENCES.md section 3): the
+    """A 10 lb R-404A unit is below the 15 lb Part 84 floor (docs/references.md §3): the
     exceedance is a notice, with no legal deadline."""
     history = LeakHistory(Appliance("R-404A", lb(10)), (RefrigerantAddition(ago(3), lb(5)),))
     (decision,) = decide_flags(UnitHistory(1, leak=history), TODAY)

@@ -1,4 +1,4 @@
-"""Leak rates against the US EPA rules (REFERENCES.md section 3)."""
+"""Leak rates against the US EPA rules (docs/references.md §3)."""
 
 from __future__ import annotations
 
@@ -40,7 +40,7 @@ def walk_in(full_charge_lb: float = 60.0, **kw: object) -> Appliance:
 def test_annualizing_worked_example() -> None:
     """60 lb full charge, 8 lb added 73 days after the previous addition -> 66.67 %.
 
-    Source: REFERENCES.md section 3 worked example, computed from the annualizing formula of
+    Source: docs/references.md §3 worked example, computed from the annualizing formula of
     40 CFR 82.152; tolerance 0.01 percentage points.
     """
     additions = (
@@ -57,7 +57,7 @@ def test_annualizing_worked_example() -> None:
 def test_rolling_average_worked_example_with_earlier_addition_in_window() -> None:
     """An earlier 5 lb addition inside the 365-day window -> (5 + 8) / 60 = 21.67 %.
 
-    Source: REFERENCES.md section 3 worked example (40 CFR 82.152, rolling average);
+    Source: docs/references.md §3 worked example (40 CFR 82.152, rolling average);
     tolerance 0.01 percentage points.
     """
     additions = (
@@ -73,7 +73,7 @@ def test_rolling_average_worked_example_with_earlier_addition_in_window() -> Non
 def test_rolling_window_starts_after_the_last_verified_repair() -> None:
     """A verified repair between the additions leaves only the 8 lb: 8 / 60 = 13.33 %.
 
-    Source: REFERENCES.md section 3 worked example ('13.33 % if the 8 lb is the only addition
+    Source: docs/references.md §3 worked example ('13.33 % if the 8 lb is the only addition
     in the window') and 40 CFR 82.152 (window 'since the last repair if shorter');
     tolerance 0.01 percentage points.
     """
@@ -90,7 +90,7 @@ def test_rolling_window_starts_after_the_last_verified_repair() -> None:
 def test_annualizing_caps_the_days_at_365() -> None:
     """8 lb added 400 days after the previous addition -> 13.33 % (days capped at 365).
 
-    Source: REFERENCES.md section 3 worked example (40 CFR 82.152); tolerance 0.01 points.
+    Source: docs/references.md §3 worked example (40 CFR 82.152); tolerance 0.01 points.
     """
     additions = (
         RefrigerantAddition(DAY - timedelta(days=400), lb(5)),
@@ -105,7 +105,7 @@ def test_annualizing_caps_the_days_at_365() -> None:
 def test_first_addition_uses_365_days() -> None:
     """With no earlier addition the annualizing method uses 365 days: 8 / 60 = 13.33 %.
 
-    Source: REFERENCES.md section 3 edge cases (Part 84: no earlier addition, use 365 days;
+    Source: docs/references.md §3 edge cases (Part 84: no earlier addition, use 365 days;
     from memory there); tolerance 0.01 points.
     """
     result = leak_rates(walk_in(), (RefrigerantAddition(DAY, lb(8)),))[0]
@@ -118,7 +118,7 @@ def test_same_day_additions_are_one_addition() -> None:
     """3 lb and 5 lb on one day, 73 days after the last: one result of 66.67 %, not days = 0.
 
     Source: 40 CFR 82.152 ('whether in one addition or if multiple additions related to same
-    leak') and the REFERENCES.md section 3 worked example; tolerance 0.01 points.
+    leak') and the docs/references.md §3 worked example; tolerance 0.01 points.
     """
     additions = (
         RefrigerantAddition(DAY - timedelta(days=73), lb(5)),
@@ -185,7 +185,7 @@ def test_a_rule_set_can_leave_excluded_additions_off_the_clock() -> None:
 def test_threshold_by_appliance_type(appliance_type: ApplianceType, threshold: float) -> None:
     """Thresholds: commercial 20 %, industrial process 30 %, comfort cooling and other 10 %.
 
-    Source: 40 CFR 82.157(c)(2) and 84.106 (REFERENCES.md section 3); exact. A 15 lb addition
+    Source: 40 CFR 82.157(c)(2) and 84.106 (docs/references.md §3); exact. A 15 lb addition
     of 60 lb (25 %) is over 10 % and 20 % but not 30 %.
     """
     appliance = walk_in(appliance_type=appliance_type)
@@ -206,7 +206,7 @@ def test_repair_and_verification_deadlines() -> None:
     """Repair within 30 days of the addition; initial verification within 30 days of the
     repair, follow-up within 10 days of the initial test.
 
-    Source: REFERENCES.md section 3 (repair 30 days per 40 CFR 82.157(d); the verification
+    Source: docs/references.md §3 (repair 30 days per 40 CFR 82.157(d); the verification
     days from memory there); exact dates.
     """
     result = leak_rates(walk_in(), (RefrigerantAddition(DAY, lb(15)),))[0]
@@ -223,8 +223,8 @@ def test_repair_and_verification_deadlines() -> None:
 
 
 def test_industrial_shutdown_gets_120_days() -> None:
-    """A repair needing an industrial process shutdown is due in 120 days (REFERENCES.md
-    section 3, 40 CFR 82.157(d)); exact date."""
+    """A repair needing an industrial process shutdown is due in 120 days (docs/references.md
+    §3, 40 CFR 82.157(d)); exact date."""
     appliance = walk_in(
         appliance_type=ApplianceType.INDUSTRIAL_PROCESS, repair_needs_industrial_shutdown=True
     )
@@ -257,9 +257,9 @@ def test_scope_by_charge_refrigerant_and_date(
     refrigerant: str, charge_lb: float, on: date, scope: str | None
 ) -> None:
     """Part 82: 50 lb or more of an ozone-depleting refrigerant (40 CFR 82.157(a)); Part 84:
-    15 lb or more of an HFC or substitute with GWP above 53 from 2026-01-01 (REFERENCES.md
-    section 3; GWP > 53 and the date from memory there). GWP values per REFERENCES.md
-    section 2 (R-290 3, R-744 1)."""
+    15 lb or more of an HFC or substitute with GWP above 53 from 2026-01-01 (docs/references.md
+    §3; GWP > 53 and the date from memory there). GWP values per docs/references.md
+    §2 (R-290 3, R-744 1)."""
     appliance = Appliance(refrigerant=refrigerant, full_charge_kg=lb(charge_lb))
     result = leak_rates(appliance, (RefrigerantAddition(on, lb(charge_lb)),))[0]
     assert result.scope == scope
@@ -270,7 +270,7 @@ def test_scope_by_charge_refrigerant_and_date(
 def test_chronic_leaker_at_125_percent_in_a_calendar_year() -> None:
     """125 % or more of full charge added in a calendar year is reported by 1 March next year.
 
-    Source: REFERENCES.md section 3 (40 CFR 82.157); 40 + 36 lb of 60 lb = 126.7 % in 2026,
+    Source: docs/references.md §3 (40 CFR 82.157); 40 + 36 lb of 60 lb = 126.7 % in 2026,
     the excluded seasonal addition not counted; 2027's 30 lb (50 %) is not chronic.
     """
     additions = (
@@ -286,7 +286,7 @@ def test_chronic_leaker_at_125_percent_in_a_calendar_year() -> None:
 
 
 def test_site_totals_in_kg_and_co2e() -> None:
-    """CO2e = kg x GWP; R-404A GWP 3922 and R-134a 1430 (REFERENCES.md section 2, AR4 values
+    """CO2e = kg x GWP; R-404A GWP 3922 and R-134a 1430 (docs/references.md §2, AR4 values
     by 40 CFR 84.64(b)); tolerance 1e-6 t. Additions outside the period are left out."""
     totals = site_totals(
         (

@@ -1,7 +1,7 @@
 """Readings no working system can produce are named before anything is scored.
 
 Saturation values behind the limits: R-404A at 62 psig is about 25 F at sea level and at
-100 F condensing about 236 psig (REFERENCES 1.3, common practice: a technician's PT chart);
+100 F condensing about 236 psig (docs/references.md §1.3, common practice: a technician's PT chart);
 the saturation tables themselves are checked against the published equations of state in
 ``test_saturation.py``. The 3 K margin is ours (``PlausibilityRules``).
 """

@@ -8,7 +8,7 @@ import pytest
 from diagnostics.core import refrigerants as rf
 
 #: ANSI/ASHRAE Standard 34 (mass %, safety class) and the GWP by the rule of 40 CFR 84.64(b)
-#: with IPCC AR4 constituent values, as tabulated in REFERENCES.md section 2.
+#: with IPCC AR4 constituent values, as tabulated in docs/references.md §2.
 BLENDS = {
     "R-404A": ({"R-125": 44, "R-143a": 52, "R-134a": 4}, "A1", 3922),
     "R-407A": ({"R-32": 20, "R-125": 40, "R-134a": 40}, "A1", 2107),
@@ -27,7 +27,7 @@ BLENDS = {
     "R-507A": ({"R-125": 50, "R-143a": 50}, "A1", 3985),
     "R-513A": ({"R-1234yf": 56, "R-134a": 44}, "A1", 631),
 }
-#: Single fluids: ASHRAE 34 class and AR4 GWP (REFERENCES.md section 2).
+#: Single fluids: ASHRAE 34 class and AR4 GWP (docs/references.md §2).
 SINGLES = {
     "R-22": ("A1", 1810), "R-32": ("A2L", 675), "R-134a": ("A1", 1430), "R-290": ("A3", 3),
     "R-600a": ("A3", 3), "R-717": ("B2L", 0), "R-744": ("A1", 1), "R-1234yf": ("A2L", 4),
@@ -36,14 +36,14 @@ SINGLES = {
 
 
 def test_it_holds_every_refrigerant_of_the_references_and_nothing_else():
-    """The catalogue is exactly the blends and single fluids of REFERENCES.md section 2."""
+    """The catalogue is exactly the blends and single fluids of docs/references.md §2."""
     assert set(rf.CATALOGUE) == set(BLENDS) | set(SINGLES)
 
 
 @pytest.mark.parametrize("designation", sorted(BLENDS))
 def test_it_gives_blends_their_ashrae_composition_class_and_gwp(designation):
     """Composition and class per ASHRAE 34; GWP = sum of constituent AR4 GWP x mass fraction
-    (40 CFR 84.64(b)), matching REFERENCES.md section 2 to the unit."""
+    (40 CFR 84.64(b)), matching docs/references.md §2 to the unit."""
     parts, safety_class, gwp = BLENDS[designation]
     blend = rf.get(designation)
     assert dict(blend.composition) == pytest.approx({c: w / 100 for c, w in parts.items()})
@@ -54,7 +54,7 @@ def test_it_gives_blends_their_ashrae_composition_class_and_gwp(designation):
 
 @pytest.mark.parametrize("designation", sorted(SINGLES))
 def test_it_gives_single_fluids_their_class_and_gwp(designation):
-    """ASHRAE 34 class and IPCC AR4 GWP (REFERENCES.md section 2)."""
+    """ASHRAE 34 class and IPCC AR4 GWP (docs/references.md §2)."""
     fluid = rf.get(designation)
     assert (fluid.safety_class, fluid.gwp_ar4) == SINGLES[designation]
     assert fluid.composition == ((designation, 1.0),)

@@ -35,7 +35,7 @@ def table(cache_dir):
     return get
 
 
-# --- published values (REFERENCES.md section 1) ------------------------------------------------
+# --- published values (docs/references.md §1) ------------------------------------------------
 
 TILLNER_ROTH_BAEHR = "Tillner-Roth & Baehr, J. Phys. Chem. Ref. Data 23 (1994) 657, Table 8"
 SPAN_WAGNER = "Span & Wagner, J. Phys. Chem. Ref. Data 25 (1996) 1509, Table 34"
@@ -87,7 +87,7 @@ PUBLISHED = [
     ("R-507A", "bubble", "T", 300.0, 1346.2, 2e-4, LEMMON_2003),
     ("R-507A", "dew", "T", 300.0, 1345.0, 2e-4, LEMMON_2003),
     ("R-507A", "bubble", "p", 101.325, 226.41, 226.41 * 2e-4, LEMMON_2003),
-    # R-448A: no authoritative table exists (REFERENCES.md 1.2); 0.3 % / 0.3 K.
+    # R-448A: no authoritative table exists (docs/references.md §1.2); 0.3 % / 0.3 K.
     ("R-448A", "bubble", "T", K + 25.0, 1287.6, 3e-3, R448A_PAGE),
     ("R-448A", "bubble", "p", 101.325, K - 45.9, 0.3, R448A_PAGE),
     ("R-448A", "dew", "p", 101.325, K - 39.9, 0.3, R448A_PAGE),
@@ -153,7 +153,7 @@ def _temp(table, curve, p_kpa_abs, **kw):
 def test_it_matches_published_saturation_values(
     table, designation, curve, given, value, published, tolerance, source
 ):
-    """Each row's source is named beside it (REFERENCES.md 1.1 and 1.2): pressures within the
+    """Each row's source is named beside it (docs/references.md §1.1 and §1.2): pressures within the
     stated relative tolerance, temperatures within the stated kelvins. Pure fluids' rows are
     checked on both curves (dew and bubble are one curve)."""
     t = table(designation)
@@ -195,7 +195,8 @@ def test_every_refrigerant_of_the_issue_has_at_least_five_checks():
     assert all(count[d] >= 5 for d in [*named, "R-513A"]), count
 
 
-# --- common practice (REFERENCES.md 1.3) -------------------------------------------------------
+# --- common practice (docs/references.md §1.3)
+# -------------------------------------------------------
 
 
 def test_r404a_evaporating_at_25_f_reads_about_62_to_63_psig(table):

@@ -38,7 +38,7 @@ def test_every_rule_names_its_source_and_costs_more_for_a_fault_than_a_watch():
     [(0.84, sc.OK, 0), (1.96, sc.WATCH, 10), (5.5, sc.FAULT, 25)],
 )
 def test_it_grades_voltage_unbalance_by_nema_mg1(unbalance, status, points):
-    """NEMA MG-1 14.36 (REFERENCES 4): motors are designed for 1 % (480/476/472 V = 0.84 %
+    """NEMA MG-1 14.36 (docs/references.md §4): motors are designed for 1 % (480/476/472 V = 0.84 %
     is ok), derate between 1 and 5 % (460/467/450 V = 1.96 % is watched), and must not run
     above 5 % (fault)."""
     got_status, got_points, _ = _grade("voltage_unbalance", unbalance, 0.0)
@@ -57,7 +57,7 @@ def test_it_grades_running_amps_against_rla_as_a_fraction_of_it():
 
 def test_it_marks_half_of_lra_at_standstill_as_a_fault():
     """A stopped compressor drawing current near its LRA is trying and failing to start
-    (REFERENCES 4, common practice): from half the LRA it is a fault, below that ok."""
+    (docs/references.md §4, common practice): from half the LRA it is a fault, below that ok."""
     status, points, _ = _grade("standstill_amps", [0.0, 20.0, 31.0, 58.0], 60.0)
     assert status.tolist() == [sc.OK, sc.OK, sc.FAULT, sc.FAULT]
     assert points.tolist() == [0, 0, 40, 40]
@@ -96,7 +96,7 @@ def test_it_does_not_score_a_missing_measurement_or_target():
 
 
 def test_it_fails_a_capacitor_outside_its_marked_band_at_once():
-    """REFERENCES 4: 74.5 uF against 70 uF +/-6 % (65.8-74.2) is outside the marked
+    """docs/references.md §4: 74.5 uF against 70 uF +/-6 % (65.8-74.2) is outside the marked
     tolerance, which is a failed part (fault, no watch step)."""
     status, points, _ = _grade("run_capacitor", [74.5, 70.0], 70.0, 65.8, 74.2)
     assert status.tolist() == [sc.FAULT, sc.OK]

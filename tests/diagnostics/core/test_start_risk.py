@@ -33,7 +33,7 @@ def codes(history: StartHistory) -> set[str]:
 def test_a_run_capacitor_just_above_its_tolerance_is_out_of_rating() -> None:
     """8.3 A at 295.4 V reads 74.5 uF, just above 70 uF +/-6 % (65.8-74.2 uF).
 
-    Source: REFERENCES.md section 4 worked example (uF = 2652.58 x A / V; tolerance per
+    Source: docs/references.md §4 worked example (uF = 2652.58 x A / V; tolerance per
     EIA-456-A / IEC 60252-1); the measured value within 0.05 uF.
     """
     measured = electrical.capacitor_uf_in_circuit(8.3, 295.4)
@@ -48,7 +48,7 @@ def test_a_run_capacitor_just_above_its_tolerance_is_out_of_rating() -> None:
 def test_a_run_capacitor_inside_its_tolerance_raises_nothing() -> None:
     """4.1 A at 240 V reads 45.31 uF, inside 45 uF +/-6 % (42.30-47.70 uF).
 
-    Source: REFERENCES.md section 4 worked example; tolerance 0.01 uF on the reading.
+    Source: docs/references.md §4 worked example; tolerance 0.01 uF on the reading.
     """
     measured = electrical.capacitor_uf_in_circuit(4.1, 240.0)
     assert measured == pytest.approx(45.31, abs=0.01)
@@ -60,7 +60,7 @@ def test_a_run_capacitor_inside_its_tolerance_raises_nothing() -> None:
 
 def test_a_start_capacitor_outside_its_marked_range() -> None:
     """A start capacitor marked 88-108 uF passes inside the range only (IEC 60252-2,
-    REFERENCES.md section 4): 80 uF is out, 95 uF is in."""
+    docs/references.md §4): 80 uF is out, 95 uF is in."""
     out = StartHistory(capacitor_readings=(CapacitorReading.start(ago(1), 80.0, 88.0, 108.0),))
     ok = StartHistory(capacitor_readings=(CapacitorReading.start(ago(1), 95.0, 88.0, 108.0),))
     assert codes(out) == {"start_capacitor_out_of_rating"}
@@ -99,7 +99,7 @@ def test_readings_of_a_replaced_capacitor_do_not_count() -> None:
 
 def test_a_locked_rotor_start_and_a_plain_failed_start() -> None:
     """A compressor that hums near LRA without starting points at start components, a locked
-    compressor or low voltage (common practice, REFERENCES.md section 4); 'near' is our 80 %.
+    compressor or low voltage (common practice, docs/references.md §4); 'near' is our 80 %.
     Synthetic LRA 60 A: 55 A without starting is locked-rotor; 10 A without starting while
     the control calls is a failed start; 58 A inrush on a good start is normal."""
     history = StartHistory(
@@ -135,7 +135,7 @@ def test_a_compressor_found_off_cycle_is_not_a_failed_start() -> None:
 
 
 def test_low_voltage_at_start_against_the_nameplate_band() -> None:
-    """A 208-230 V nameplate runs on 187-253 V (NEMA MG-1 12.44, REFERENCES.md section 4):
+    """A 208-230 V nameplate runs on 187-253 V (NEMA MG-1 12.44, docs/references.md §4):
     180 V at start is low, 190 V is not."""
     low = StartHistory(
         start_attempts=(StartAttempt(ago(5), True, volts_at_start=180.0),),

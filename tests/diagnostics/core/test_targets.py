@@ -31,8 +31,8 @@ def _targets(unit: UnitDesign, reading: Reading, elevation_m: float = 0.0) -> di
 
 
 def test_it_targets_25f_evaporating_for_a_35f_box_with_a_10f_td():
-    """Common practice (REFERENCES 1.3 and 6): a medium-temperature R-404A box at 35 F with a
-    10 F evaporator TD targets 25 F evaporating, about 62-63 psig at sea level. Tolerance:
+    """Common practice (docs/references.md §1.3 and §6): a medium-temperature R-404A box at 35 F
+    with a 10 F evaporator TD targets 25 F evaporating, about 62-63 psig at sea level. Tolerance:
     1e-4 K on the temperature (a subtraction, stored to 4 decimals); the pressure must fall
     inside the chart's 62-63 psig."""
     unit = UnitDesign("R-404A", "medium_temp", design_evap_td_k=10 / 1.8)
@@ -45,7 +45,7 @@ def test_it_targets_25f_evaporating_for_a_35f_box_with_a_10f_td():
 
 
 def test_it_targets_100f_condensing_for_70f_air_with_a_30f_split():
-    """Common practice (REFERENCES 1.3 and 6): 70 F entering air with a 30 F split targets
+    """Common practice (docs/references.md §1.3 and §6): 70 F entering air with a 30 F split targets
     100 F condensing, about 235-237 psig for R-404A at sea level on a chart's liquid
     (bubble) column. The unit's design split is on the dew point by default, whose pressure
     is about 1 % lower (Lemmon 2003, Table V, at 300 K: dew 1.3034 against bubble 1.3169
@@ -93,7 +93,7 @@ def test_a_pure_fluid_target_pressure_is_its_saturation_pressure():
 
 
 def test_a_txv_cooler_is_set_to_6_to_10_f_superheat():
-    """Common practice (REFERENCES 6): a TXV medium-temperature evaporator runs 6-10 F
+    """Common practice (docs/references.md §6): a TXV medium-temperature evaporator runs 6-10 F
     superheat (8-10 F usual), a TXV freezer 4-6 F. Without a gauge reading the accepted
     range is widened by the thermometer's 1 K each side (from memory); the source says so.
     Tolerance 1e-4 K (a conversion, stored to 4 decimals)."""
@@ -111,7 +111,7 @@ def test_a_txv_cooler_is_set_to_6_to_10_f_superheat():
 
 def test_the_instruments_error_grows_where_the_saturation_curve_is_flat():
     """The band widens by the thermometer's 1 K and the gauge's 7 kPa read through the
-    saturation curve, in quadrature (from memory). R-404A's PT chart (REFERENCES 1.3,
+    saturation curve, in quadrature (from memory). R-404A's PT chart (docs/references.md §1.3,
     common practice) puts 55 psig at about 19.5 F and 62.5 psig at about 25 F: 0.73 F/psi,
     0.059 K/kPa, so at 62 psig the margin is hypot(1, 7 x 0.059) = 1.08 K (tolerance
     0.03 K). A freezer's suction at about 16 psig reads a flatter curve: a wider margin."""
@@ -124,7 +124,7 @@ def test_the_instruments_error_grows_where_the_saturation_curve_is_flat():
 
 
 def test_it_ranges_subcooling_with_and_without_a_receiver():
-    """Tomczyk, ACHR News (REFERENCES 6): receiverless systems 6-10 F subcooling; with a
+    """Tomczyk, ACHR News (docs/references.md §6): receiverless systems 6-10 F subcooling; with a
     receiver 0-5 F (common practice); without a gauge reading 1 K each side for the
     thermometer (from memory). Tolerance 1e-4 K (stored to 4 decimals). Without design data
     the receiver follows the application: a reach-in has none (common practice: critically
@@ -143,7 +143,7 @@ def test_it_ranges_subcooling_with_and_without_a_receiver():
 
 
 def test_it_limits_the_discharge_line_to_225f_and_the_ratio_to_10():
-    """Tomczyk, ACHR News (REFERENCES 6): discharge line at most 225 F; single-stage
+    """Tomczyk, ACHR News (docs/references.md §6): discharge line at most 225 F; single-stage
     compression ratio about 10:1 (common practice). Tolerance 1e-4 (stored to 4 decimals)."""
     found = _targets(UnitDesign("R-404A", "medium_temp"), Reading())
     assert found["discharge_line_temp"].high == pytest.approx(f_to_c(225.0), abs=STORED)
@@ -165,7 +165,7 @@ def test_design_data_wins_over_the_application_default():
 def test_the_suction_target_in_gauge_rises_with_elevation():
     """The absolute target pressure does not change with elevation, so the gauge target
     rises by the drop in atmospheric pressure: 101.325 - 89.875 = 11.450 kPa at 1000 m
-    (ASHRAE Fundamentals 2017 ch. 1 Table 1, REFERENCES 5); tolerance 0.01 kPa."""
+    (ASHRAE Fundamentals 2017 ch. 1 Table 1, docs/references.md §5); tolerance 0.01 kPa."""
     unit = UnitDesign("R-404A", "medium_temp")
     reading = Reading(box_temp_c=2.0)
     sea = _targets(unit, reading, 0.0)["suction_pressure"].value

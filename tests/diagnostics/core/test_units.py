@@ -28,7 +28,7 @@ def test_it_uses_the_exact_definitions_of_the_pound_and_the_psi():
 
 
 def test_it_reads_gauge_units_against_the_standard_atmosphere_at_the_site():
-    """REFERENCES.md section 5 (ASHRAE Fundamentals 2017, ch. 1): at 5000 ft the atmosphere is
+    """docs/references.md §5 (ASHRAE Fundamentals 2017, ch. 1): at 5000 ft the atmosphere is
     12.228 psia, so 20.0 psig there is 32.23 psia, not the 34.70 a sea-level reading gives
     (tolerance 0.005 psi)."""
     at_5000_ft = u.length_to_m(5000.0, "ft")
@@ -40,7 +40,8 @@ def test_it_reads_gauge_units_against_the_standard_atmosphere_at_the_site():
 
 
 def test_it_treats_kpa_and_bar_as_gauge_and_their_abs_forms_as_absolute():
-    """'kPa' and 'bar' are gauge (API.md); 'kPa_abs' and 'bar_abs' are not moved by elevation."""
+    """'kPa' and 'bar' are gauge (docs/api.md); 'kPa_abs' and 'bar_abs' are not moved by
+    elevation."""
     assert u.pressure_to_kpa_abs(0.0, "kPa") == pytest.approx(101.325)
     assert u.pressure_to_kpa_abs(1.0, "bar") == pytest.approx(201.325)
     assert u.pressure_to_kpa_abs(300.0, "kPa_abs", 2000.0) == 300.0
