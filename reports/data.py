@@ -220,9 +220,9 @@ class LeakRateRow:
     @property
     def leak_rate_percent(self) -> float | None:
         """The rate by the facility's chosen method (the one compared with the threshold)."""
-        if self.method == "annualizing":
-            return self.annualizing_percent
-        return self.rolling_average_percent
+        return leaks.rate_by_method(
+            self.method, self.annualizing_percent, self.rolling_average_percent
+        )
 
 
 @dataclass(frozen=True)

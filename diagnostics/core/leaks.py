@@ -17,7 +17,7 @@ from dataclasses import dataclass
 from datetime import date, timedelta
 from enum import StrEnum
 from functools import lru_cache
-from typing import TypedDict
+from typing import TypedDict, TypeVar
 
 from diagnostics.core import refrigerants, units
 from diagnostics.core.sources import Sourced
@@ -28,6 +28,17 @@ class ApplianceType(StrEnum):
     INDUSTRIAL_PROCESS = "industrial_process"
     COMFORT_COOLING = "comfort_cooling"
     OTHER = "other"
+
+
+_Rate = TypeVar("_Rate", float, float | None)
+
+
+def rate_by_method(
+    method: LeakRateMethod | str, annualizing: _Rate, rolling_average: _Rate
+) -> _Rate:
+    """The leak rate compared with the threshold: the facility's one method of the two
+    (40 CFR 82.152, docs/references.md §3); every reader picks it here."""
+    return annualizing if LeakRateMethod(method) is LeakRateMethod.ANNUALIZING else rolling_average
 
 
 class LeakRateMethod(StrEnum):
@@ -401,7 +412,7 @@ def leak_rates(
         calculated.append(a)
         window_kg = sum(c.amount_kg for c in calculated if c.occurred_on > window_start)
         rolling = rolling_average_percent(window_kg, full)
-        rate = annual if method is LeakRateMethod.ANNUALIZING else rolling
+        rate = rate_by_method(method, annual, rolling)
         over = rate > threshold.percent
         repair_due = verification_due = None
         if over and scope is not None:
