@@ -9,7 +9,7 @@ voltages and microfarads are shown as stored.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Literal
+from typing import Literal, overload
 
 from django.conf import settings
 
@@ -83,6 +83,14 @@ class Display:
     def mass_symbol(self) -> str:
         return SYMBOLS[self.units["mass"]]
 
+    # A number gives a number and None gives None: a page that has checked for None gets a
+    # float back, a report passing a reading that may be missing gets either.
+    @overload
+    def _shown(self, value: float, quantity: Quantity, elevation_m: float = 0.0) -> float: ...
+    @overload
+    def _shown(
+        self, value: float | None, quantity: Quantity, elevation_m: float = 0.0
+    ) -> float | None: ...
     def _shown(
         self, value: float | None, quantity: Quantity, elevation_m: float = 0.0
     ) -> float | None:
@@ -90,15 +98,31 @@ class Display:
             return None
         return float(from_si(value, quantity, self.units[quantity], elevation_m))
 
+    @overload
+    def temperature(self, value_c: float) -> float: ...
+    @overload
+    def temperature(self, value_c: float | None) -> float | None: ...
     def temperature(self, value_c: float | None) -> float | None:
         return self._shown(value_c, "temperature")
 
+    @overload
+    def difference(self, value_k: float) -> float: ...
+    @overload
+    def difference(self, value_k: float | None) -> float | None: ...
     def difference(self, value_k: float | None) -> float | None:
         return self._shown(value_k, "temperature_difference")
 
+    @overload
+    def pressure(self, value_kpa_gauge: float, elevation_m: float) -> float: ...
+    @overload
+    def pressure(self, value_kpa_gauge: float | None, elevation_m: float) -> float | None: ...
     def pressure(self, value_kpa_gauge: float | None, elevation_m: float) -> float | None:
         return self._shown(value_kpa_gauge, "pressure", elevation_m)
 
+    @overload
+    def mass(self, value_kg: float) -> float: ...
+    @overload
+    def mass(self, value_kg: float | None) -> float | None: ...
     def mass(self, value_kg: float | None) -> float | None:
         return self._shown(value_kg, "mass")
 
