@@ -18,13 +18,14 @@ from __future__ import annotations
 
 import datetime as dt
 import logging
+import uuid
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from contextlib import contextmanager, nullcontext
 from dataclasses import dataclass
-from typing import Generic, TypeVar
+from typing import Any, Generic, TypeVar
 from zoneinfo import ZoneInfo
 
-from django.contrib.auth.models import AbstractBaseUser
+from django.contrib.auth.models import User
 from django.db import IntegrityError, models, transaction
 from django.utils import timezone
 
@@ -82,7 +83,7 @@ def next_reference(day: dt.date) -> str:
     return f"{prefix}{number:04d}"
 
 
-def save_new_visit(visit: Visit, units: Iterable[Unit], people=()) -> Visit:
+def save_new_visit(visit: Visit, units: Iterable[Unit], people: Iterable[User] = ()) -> Visit:
     """Store a new visit under our next free reference, with its units and people.
 
     Two coordinators saving at the same moment could pick the same number; the unique
@@ -105,7 +106,11 @@ def save_new_visit(visit: Visit, units: Iterable[Unit], people=()) -> Visit:
 
 @transaction.atomic
 def book_proposed_visits(
-    proposals: Sequence[VisitProposal], units: Mapping[int, Unit], *, by, now=None
+    proposals: Sequence[VisitProposal],
+    units: Mapping[int, Unit],
+    *,
+    by: User | None,
+    now: dt.datetime | None = None,
 ) -> list[Visit]:
     """Book the planned visits the maintenance core proposed, unassigned (the coordinator
     assigns them after), each on a morning at its site still ahead of ``now``."""
@@ -151,7 +156,7 @@ class IllegalTransition(Exception):
 
 
 def _change_status(
-    visit: Visit, target: str, *, by: AbstractBaseUser | None, note: str, now
+    visit: Visit, target: str, *, by: User | None, note: str, now: dt.datetime
 ) -> Visit:
     """Move a visit to ``target`` if its status allows it.
 
@@ -189,10 +194,10 @@ def move_visit(
     visit: Visit,
     target: str,
     *,
-    by: AbstractBaseUser | None = None,
+    by: User | None = None,
     note: str = "",
     work_summary: str | None = None,
-    now=None,
+    now: dt.datetime | None = None,
 ) -> Visit:
     """Move a visit along its life cycle and record it; the one way a visit changes status.
 
@@ -224,7 +229,7 @@ class Stored(Generic[R]):
     created: bool
 
 
-def stored_with_client_id(model: type[R], client_id) -> R | None:
+def stored_with_client_id(model: type[R], client_id: uuid.UUID) -> R | None:
     """The record stored under ``client_id``, ready to serialise; None if there is none."""
     extra = ("diagnosis",) if model is ReadingSet else ("leak_rate",)
     return (
@@ -272,7 +277,7 @@ def _compute_leak_rate(event: RefrigerantEvent) -> None:
             event.leak_rate = leak_rate
 
 
-def _record_once(record: R, compute: Callable[[R], None], *, by) -> Stored[R]:
+def _record_once(record: R, compute: Callable[[R], None], *, by: User | None) -> Stored[R]:
     def compute_and_audit(inserted: R) -> None:
         compute(inserted)
         audit.record_created(inserted, by=by)
@@ -280,14 +285,16 @@ def _record_once(record: R, compute: Callable[[R], None], *, by) -> Stored[R]:
     return _insert_once(record, compute_and_audit)
 
 
-def _change(record: R, before: dict, compute: Callable[[R], None], *, by) -> R:
+def _change(
+    record: R, before: dict[str, Any], compute: Callable[[R], None], *, by: User | None
+) -> R:
     record.save()
     compute(record)
     audit.record_changed(record, before, by=by)
     return record
 
 
-def record_reading_set(reading_set: ReadingSet, *, by) -> Stored[ReadingSet]:
+def record_reading_set(reading_set: ReadingSet, *, by: User | None) -> Stored[ReadingSet]:
     """Store a validated reading set unless its ``client_id`` is stored, with its diagnosis.
 
     The diagnosis is computed first, before any write (the core reads only what is in
@@ -312,25 +319,31 @@ def record_reading_set(reading_set: ReadingSet, *, by) -> Stored[ReadingSet]:
 
 
 @transaction.atomic
-def change_reading_set(reading_set: ReadingSet, before: dict, *, by) -> ReadingSet:
+def change_reading_set(
+    reading_set: ReadingSet, before: dict[str, Any], *, by: User | None
+) -> ReadingSet:
     """After an office edit: diagnose again and record what changed."""
     return _change(reading_set, before, _diagnose, by=by)
 
 
-def record_refrigerant_event(event: RefrigerantEvent, *, by) -> Stored[RefrigerantEvent]:
+def record_refrigerant_event(
+    event: RefrigerantEvent, *, by: User | None
+) -> Stored[RefrigerantEvent]:
     """Store a validated event unless its ``client_id`` is stored; for an addition, compute
     and store its leak rate."""
     return _record_once(event, _compute_leak_rate, by=by)
 
 
 @transaction.atomic
-def change_refrigerant_event(event: RefrigerantEvent, before: dict, *, by) -> RefrigerantEvent:
+def change_refrigerant_event(
+    event: RefrigerantEvent, before: dict[str, Any], *, by: User | None
+) -> RefrigerantEvent:
     """After an office edit: compute the leak rate again and record what changed."""
     return _change(event, before, _compute_leak_rate, by=by)
 
 
 @transaction.atomic
-def delete_record(record: models.Model, *, by) -> None:
+def delete_record(record: models.Model, *, by: User | None) -> None:
     """Delete with its trail entry in the same transaction."""
     audit.record_deleted(record, by=by)
     record.delete()
