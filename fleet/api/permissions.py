@@ -18,9 +18,11 @@ from __future__ import annotations
 from typing import Any
 
 from rest_framework.permissions import SAFE_METHODS, BasePermission
+from rest_framework.request import Request
+from rest_framework.views import APIView
 
 from fleet.models import Visit, VisitUnit
-from fleet.reach import OFFICE, roles_of
+from fleet.reach import OFFICE, Roles, roles_of
 
 #: The largest id a 64-bit key holds; a larger one in a URL is simply not found.
 _MAX_ID = 2**63 - 1
@@ -59,7 +61,7 @@ class HasRole(BasePermission):
 
     message = "your account has no role (office, technician or manager) in Rimewatch"
 
-    def has_permission(self, request, view) -> bool:
+    def has_permission(self, request: Request, view: APIView) -> bool:
         roles = roles_of(request.user)
         if not roles:
             return False
@@ -69,19 +71,19 @@ class HasRole(BasePermission):
             return True  # judged on the object, once it is known to be within reach
         return self._may(roles, view)
 
-    def has_object_permission(self, request, view, obj) -> bool:
+    def has_object_permission(self, request: Request, view: APIView, obj: object) -> bool:
         if request.method in SAFE_METHODS:
             return True
         return self._may(roles_of(request.user), view)
 
-    def _may(self, roles, view) -> bool:
+    def _may(self, roles: Roles, view: APIView) -> bool:
         if roles.any_of(self._allowed(view)):
             return True
         self.message = f"the {roles} role{'s' if len(roles.names) > 1 else ''} may not do this"
         return False
 
     @staticmethod
-    def _allowed(view) -> frozenset[str]:
+    def _allowed(view: APIView) -> frozenset[str]:
         action_roles = getattr(view, "action_roles", {})
         action = getattr(view, "action", None)
         if action in action_roles:
