@@ -8,11 +8,13 @@ validation lives once, in the models.
 from __future__ import annotations
 
 import datetime as dt
+from typing import Any
 from zoneinfo import ZoneInfo
 
 from django import forms
-from django.contrib.auth import get_user_model
+from django.contrib.auth.models import User
 from django.db import transaction
+from django.db.models import QuerySet
 from django.utils import timezone
 
 from diagnostics.models import Flag
@@ -21,13 +23,11 @@ from .choices import Role, VisitStatus
 from .models import Site, Unit, Visit, VisitUnit
 from .services import save_new_visit
 
-User = get_user_model()
-
 #: Statuses in which the office may still change a visit's time, people or units.
 EDITABLE_STATUSES = frozenset({VisitStatus.SCHEDULED, VisitStatus.IN_PROGRESS})
 
 
-def technician_users():
+def technician_users() -> QuerySet[User]:
     """Active users of the technician group, in the order the schedule lists them."""
     return (
         User.objects.filter(groups__name=Role.TECHNICIAN, is_active=True)
@@ -37,7 +37,7 @@ def technician_users():
 
 
 class TechnicianChoiceField(forms.ModelMultipleChoiceField):
-    def label_from_instance(self, obj) -> str:
+    def label_from_instance(self, obj: User) -> str:
         return obj.get_full_name() or obj.get_username()
 
 
@@ -52,8 +52,8 @@ class LocalDateTimeInput(forms.DateTimeInput):
 
     input_type = "datetime-local"
 
-    def __init__(self, **kwargs) -> None:
-        super().__init__(format="%Y-%m-%dT%H:%M", **kwargs)
+    def __init__(self, attrs: dict[str, Any] | None = None) -> None:
+        super().__init__(attrs, format="%Y-%m-%dT%H:%M")
 
 
 def site_wall_clock(value: dt.datetime | None, site: Site | None) -> dt.datetime | None:
@@ -61,6 +61,14 @@ def site_wall_clock(value: dt.datetime | None, site: Site | None) -> dt.datetime
     if value is None or site is None:
         return value
     return timezone.localtime(value, ZoneInfo(site.time_zone)).replace(tzinfo=None)
+
+
+def _records_field(form: forms.BaseForm, name: str) -> forms.ModelChoiceField:
+    """The form's own copy of a field that picks records, whose choices it narrows."""
+    field = form.fields[name]
+    if not isinstance(field, forms.ModelChoiceField):
+        raise TypeError(f"{name!r} does not pick records")
+    return field
 
 
 class ReceiverSelect(forms.NullBooleanSelect):
@@ -100,22 +108,28 @@ class VisitForm(forms.ModelForm):
         help_text="Leave empty to book the visit now and assign it later.",
     )
 
+    instance: Visit
+    #: The site picked (bound data, initial data or the visit's), whose units are offered.
+    site: Site | None
+    #: Units with readings or refrigerant records on this visit: they cannot be dropped.
+    _locked_unit_ids: set[int]
+
     class Meta:
         model = Visit
         fields = ["site", "kind", "window_start", "window_end", "reported_problem"]
         labels = {"reported_problem": "Problem reported (for calls)"}
         widgets = {"reported_problem": forms.Textarea(attrs={"rows": 3})}
 
-    def __init__(self, *args, **kwargs) -> None:
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
-        self.fields["site"].queryset = Site.objects.select_related("customer").order_by(
+        _records_field(self, "site").queryset = Site.objects.select_related("customer").order_by(
             "customer__name", "name"
         )
-        self.fields["technicians"].queryset = technician_users()
+        _records_field(self, "technicians").queryset = technician_users()
         site = self._chosen_site()
         self.site = site
         if site is not None:
-            self.fields["units"].queryset = (
+            _records_field(self, "units").queryset = (
                 Unit.objects.filter(site=site, retired_on__isnull=True)
                 .select_related("refrigerant")
                 .order_by("tag")
@@ -158,8 +172,9 @@ class VisitForm(forms.ModelForm):
         except (TypeError, ValueError, Site.DoesNotExist):
             return None
 
-    def clean(self) -> dict:
-        data = super().clean()
+    def clean(self) -> dict[str, Any]:
+        super().clean()
+        data = self.cleaned_data
         site = data.get("site")
         if site is not None:
             zone = ZoneInfo(site.time_zone)
@@ -196,7 +211,7 @@ class VisitForm(forms.ModelForm):
 
     @transaction.atomic
     def save(self, commit: bool = True) -> Visit:
-        visit = super().save(commit=False)
+        visit: Visit = super().save(commit=False)
         units = self.cleaned_data["units"]
         people = self.cleaned_data["technicians"]
         if visit.pk is None:
@@ -230,8 +245,9 @@ class ReviewForm(forms.Form):
         help_text="Required when returning: say what to measure again or explain.",
     )
 
-    def clean(self) -> dict:
-        data = super().clean()
+    def clean(self) -> dict[str, Any]:
+        super().clean()
+        data = self.cleaned_data
         if data.get("decision") == self.RETURN and not (data.get("note") or "").strip():
             self.add_error("note", "Say what the technician should change before returning it.")
         return data
@@ -246,7 +262,7 @@ class AcknowledgeFlagForm(forms.ModelForm):
         labels = {"acknowledgement_note": "What is being done"}
         widgets = {"acknowledgement_note": forms.Textarea(attrs={"rows": 2})}
 
-    def __init__(self, *args, **kwargs) -> None:
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
         field = self.fields["acknowledgement_note"]
         field.required = True
