@@ -9,13 +9,19 @@ word and a symbol.
 from __future__ import annotations
 
 import datetime as dt
+from typing import Any
 
 from django import template
+from django.contrib.auth.models import User
+from django.forms import BoundField
 from django.urls import reverse
 from django.utils import timezone
 from django.utils.html import format_html
+from django.utils.safestring import SafeString
 
+from diagnostics.models import Diagnosis
 from fleet.display import display_for
+from fleet.models import Visit
 from reports import data, summary, words
 
 register = template.Library()
@@ -114,7 +120,7 @@ FLAG_SEVERITY = {
 }
 
 
-def _badge(symbol: str, word: str, modifier: str, extra: str = ""):
+def _badge(symbol: str, word: str, modifier: str, extra: str = "") -> SafeString:
     return format_html(
         '<span class="badge badge--{}"><span aria-hidden="true">{}</span> {}{}</span>',
         modifier,
@@ -125,37 +131,37 @@ def _badge(symbol: str, word: str, modifier: str, extra: str = ""):
 
 
 @register.simple_tag
-def verdict(metric: dict):
+def verdict(metric: dict) -> SafeString:
     """A reading's verdict against its aim ('high', 'far too low'), from its stored status."""
     v = words.verdict(metric["status"], metric.get("deviation"))
     return _badge(v.symbol, v.word, v.modifier)
 
 
 @register.simple_tag
-def visit_status(status: str):
+def visit_status(status: str) -> SafeString:
     return _badge(*VISIT_STATUS.get(status, ("?", status, "none")))
 
 
 @register.simple_tag
-def flag_severity(severity: str):
+def flag_severity(severity: str) -> SafeString:
     return _badge(*FLAG_SEVERITY.get(severity, ("?", severity, "none")))
 
 
-def _condition_badge(key: str, score: float | None):
+def _condition_badge(key: str, score: float | None) -> SafeString:
     c = words.CONDITIONS[key]
     extra = "" if score is None else f" \u00b7 {score:.0f}"
     return _badge(c.symbol, c.label, c.modifier, extra)
 
 
 @register.simple_tag
-def health(score: float | None):
+def health(score: float | None) -> SafeString:
     """A check score with the condition it stands for on its own, e.g. '✔ Healthy · 92';
     None: too few readings to judge."""
     return _condition_badge(summary.score_condition(score), score)
 
 
 @register.simple_tag
-def condition(judged: data.Health | None, score: float | None = None):
+def condition(judged: data.Health | None, score: float | None = None) -> SafeString:
     """A condition judged from a check and its flags (``summary.judge``), with the score."""
     if judged is None:
         return health(score)
@@ -163,7 +169,7 @@ def condition(judged: data.Health | None, score: float | None = None):
 
 
 @register.simple_tag
-def judged(diagnosis, application: str = ""):
+def judged(diagnosis: Diagnosis, application: str = "") -> SafeString:
     """The condition of one stored diagnosis, by the rule the report uses."""
     found = summary.judge_stored(
         diagnosis.score, diagnosis.metrics, diagnosis.findings, application=application
@@ -184,7 +190,9 @@ def could_also_be(finding: dict) -> str:
 
 
 @register.filter
-def readings(metrics: list[dict], application: str = ""):
+def readings(
+    metrics: list[dict], application: str = ""
+) -> list[tuple[words.ReadingGroup, list[Any]]]:
     """A diagnosis's metrics grouped by what they tell (``words.group_readings``)."""
     return words.group_readings(metrics, application=application)
 
@@ -208,7 +216,7 @@ def ice_machine_basis() -> str:
 
 
 @register.simple_tag
-def cause_line(diagnosis, application: str = "") -> str:
+def cause_line(diagnosis: Diagnosis, application: str = "") -> str:
     """Where no probable cause is listed: the sentence the report would say."""
     skip = words.NOT_FOR_ICE_MACHINES if application == "ice_machine" else frozenset()
     metrics = [m for m in diagnosis.metrics if m["name"] not in skip]
@@ -241,14 +249,14 @@ def days_from_today(day: dt.date | None, today: dt.date | None = None) -> str:
 
 
 @register.filter
-def person(user) -> str:
+def person(user: User | None) -> str:
     if user is None:
         return EMPTY
     return user.get_full_name() or user.get_username()
 
 
 @register.simple_tag(takes_context=True)
-def visit_ref(context: template.Context, visit) -> str:
+def visit_ref(context: template.Context, visit: Visit) -> str:
     """A visit's reference, linked to its page when the visit is within the reader's reach:
     ``reachable_visits`` in the context holds the ids within reach (absent: all are)."""
     reachable = context.get("reachable_visits")
@@ -266,14 +274,14 @@ def metric_label(name: str) -> str:
 
 
 @register.simple_tag
-def field_widget(bound_field):
+def field_widget(bound_field: BoundField) -> SafeString:
     """The input with its help text and errors tied to it for screen readers."""
     ids = []
     if bound_field.help_text:
         ids.append(f"{bound_field.auto_id}_helptext")
     if bound_field.errors:
         ids.append(f"{bound_field.auto_id}_errors")
-    attrs = {"aria-describedby": " ".join(ids)} if ids else {}
+    attrs: dict[str, str | bool] = {"aria-describedby": " ".join(ids)} if ids else {}
     return bound_field.as_widget(attrs=attrs)
 
 
