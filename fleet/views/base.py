@@ -15,7 +15,10 @@ from typing import Any
 from zoneinfo import ZoneInfo
 
 from django.contrib.auth.decorators import login_required
+from django.contrib.auth.models import User
+from django.core.exceptions import PermissionDenied
 from django.http import Http404, HttpRequest, HttpResponse
+from django.http.response import HttpResponseBase
 from django.shortcuts import redirect, render
 from django.utils.http import url_has_allowed_host_and_scheme
 
@@ -28,7 +31,8 @@ from fleet.reach import roles_of
 ANY_ROLE = tuple(Role.values)
 
 
-View = Callable[..., HttpResponse]
+#: A page: a response, or a file streamed (a stored report's PDF).
+View = Callable[..., HttpResponseBase]
 
 
 def within_reach(*allowed: str) -> Callable[[View], View]:
@@ -38,7 +42,7 @@ def within_reach(*allowed: str) -> Callable[[View], View]:
     def decorate(view: View) -> View:
         @login_required
         @wraps(view)
-        def wrapped(request: HttpRequest, *args: Any, **kwargs: Any) -> HttpResponse:
+        def wrapped(request: HttpRequest, *args: Any, **kwargs: Any) -> HttpResponseBase:
             if not roles_of(request.user).any_of(allowed):
                 raise Http404("not within your reach")
             return view(request, *args, **kwargs)
@@ -62,6 +66,16 @@ def page(request: HttpRequest, template: str, context: dict, status: int = 200) 
                 Flag.objects.visible_to(request.user).filter(cleared_at__isnull=True).count()
             )
     return render(request, template, context, status=status)
+
+
+def signed_in(request: HttpRequest) -> User:
+    """The user a page acts for. ``within_reach`` signs every page's user in first, so an
+    anonymous one never gets this far; one that did would be refused, never recorded as
+    no one."""
+    user = request.user
+    if not user.is_authenticated:
+        raise PermissionDenied
+    return user
 
 
 def is_htmx(request: HttpRequest) -> bool:

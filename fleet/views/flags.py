@@ -40,5 +40,7 @@ def flag_acknowledge(request: HttpRequest, pk: int) -> HttpResponse:
             {"flag": flag, "can_acknowledge": True, "ack_form": form, "show_unit": False},
         )
     if form.errors:
-        messages.error(request, form.errors["acknowledgement_note"][0])
+        # An ErrorList item is its message (Django unpacks the ValidationError on indexing);
+        # the stubs type it as the list's stored items, ValidationError included.
+        messages.error(request, form.errors["acknowledgement_note"][0])  # type: ignore[arg-type]
     return redirect(safe_next(request, reverse("fleet:unit", args=[flag.unit_id])))

@@ -20,7 +20,7 @@ from fleet.choices import Role
 from fleet.models import Unit
 from fleet.services import book_proposed_visits
 
-from .base import page, within_reach
+from .base import page, signed_in, within_reach
 
 
 @dataclass(frozen=True)
@@ -84,7 +84,7 @@ def maintenance_propose(request: HttpRequest) -> HttpResponse:
     today = timezone.localdate()
     plans, units = _plans_and_units(today, Unit.objects.visible_to(request.user))
     proposals = maintenance.propose_visits(plans, today)
-    booked = book_proposed_visits(proposals, units, by=request.user)
+    booked = book_proposed_visits(proposals, units, by=signed_in(request))
     if booked:
         messages.success(
             request,

@@ -15,7 +15,7 @@ from fleet.models import Visit
 from fleet.services import IllegalTransition, move_visit
 from reports.summary import worst
 
-from .base import page, within_reach
+from .base import page, signed_in, within_reach
 from .stored import covered_units
 from .visit_page import visit_page, visit_with_everything
 
@@ -31,7 +31,7 @@ def visit_review(request: HttpRequest, pk: int) -> HttpResponse:
     accept = form.cleaned_data["decision"] == forms.ReviewForm.ACCEPT
     target = VisitStatus.REVIEWED if accept else VisitStatus.IN_PROGRESS
     try:
-        move_visit(visit, target, by=request.user, note=form.cleaned_data["note"].strip())
+        move_visit(visit, target, by=signed_in(request), note=form.cleaned_data["note"].strip())
     except IllegalTransition as refused:
         messages.error(request, f"Nothing changed: {refused}.")
         return redirect("fleet:visit", pk=visit.pk)

@@ -9,6 +9,7 @@ from typing import Any
 from django.db.models import F, Func, IntegerField, OuterRef, Prefetch, QuerySet, Subquery
 from django.db.models.functions import Coalesce
 from django.http import FileResponse, HttpRequest, HttpResponse
+from django.http.response import HttpResponseBase
 from django.shortcuts import get_object_or_404
 from django.urls import reverse
 from django.views.decorators.http import require_GET
@@ -85,7 +86,7 @@ def _reports_for(request: HttpRequest, site: Site) -> list[dict[str, Any]]:
 
 @within_reach(*ANY_ROLE)
 @require_GET
-def site_report(request: HttpRequest, pk: int, month: str) -> HttpResponse:
+def site_report(request: HttpRequest, pk: int, month: str) -> HttpResponseBase:
     """The stored monthly report of a site as generated (HTML, or the PDF with
     ?format=pdf, shown in the browser): what the manager was sent, not a fresh computation.
     Found as the reports' own pages find it (``reports.views.stored_report``)."""

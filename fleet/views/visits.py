@@ -21,7 +21,7 @@ from fleet.services import (
     move_visit,
 )
 
-from .base import page, within_reach
+from .base import page, signed_in, within_reach
 
 
 def _initial_from_query(request: HttpRequest) -> dict:
@@ -112,10 +112,12 @@ def visit_cancel(request: HttpRequest, pk: int) -> HttpResponse:
     visit = get_object_or_404(Visit.objects.visible_to(request.user), pk=pk)
     form = forms.CancelVisitForm(request.POST)
     if not form.is_valid():
-        messages.error(request, form.errors["confirm"][0])
+        # An ErrorList item is its message (Django unpacks the ValidationError on indexing);
+        # the stubs type it as the list's stored items, ValidationError included.
+        messages.error(request, form.errors["confirm"][0])  # type: ignore[arg-type]
     else:
         try:
-            move_visit(visit, VisitStatus.CANCELLED, by=request.user)
+            move_visit(visit, VisitStatus.CANCELLED, by=signed_in(request))
         except IllegalTransition as refused:
             messages.error(request, f"Not cancelled: {refused}.")
         else:
