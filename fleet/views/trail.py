@@ -4,6 +4,7 @@ last return, shown on the visit's page."""
 from __future__ import annotations
 
 import datetime as dt
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -35,13 +36,13 @@ class ReturnHistory:
     new_event_ids: set[int] = field(default_factory=set)
 
 
-#: Audit field-name endings and the display filter that shows their SI value.
-_FIELD_DISPLAY = (
-    ("_kpa_gauge", "pressure"),
-    ("_temp_c", "temp"),
-    ("_c", "temp"),
-    ("_k", "tempdiff"),
-    ("_kg", "mass"),
+#: Audit field-name endings and the display filter that shows their SI value (pressures,
+#: ``_kpa_gauge``, are shown at the site's elevation).
+_FIELD_DISPLAY: tuple[tuple[str, Callable[[float], str]], ...] = (
+    ("_temp_c", shown.temp),
+    ("_c", shown.temp),
+    ("_k", shown.tempdiff),
+    ("_kg", shown.mass),
 )
 
 
@@ -49,11 +50,11 @@ def _shown(name: str, value: Any, elevation_m: float) -> str:
     if value is None or value == "":
         return "\u2014"
     if isinstance(value, int | float) and not isinstance(value, bool):
-        for ending, how in _FIELD_DISPLAY:
+        if name.endswith("_kpa_gauge"):
+            return shown.pressure(value, elevation_m)
+        for ending, show in _FIELD_DISPLAY:
             if name.endswith(ending):
-                if how == "pressure":
-                    return shown.pressure(value, elevation_m)
-                return getattr(shown, how)(value)
+                return show(value)
     return str(value)
 
 
@@ -68,12 +69,13 @@ def _describe(entry: AuditEntry, labels: dict[tuple[str, int], str], elevation_m
         words = dict(VisitStatus.choices)
         text = f"moved the visit from {words.get(old, old)} to {words.get(new, new)}"
         return Change(entry.at, entry.actor, text)
-    verb = {
+    verbs: dict[str, str] = {
         AuditAction.CREATED: "added",
         AuditAction.CHANGED: "changed",
         AuditAction.DELETED: "deleted",
-    }.get(entry.action, entry.action)
-    fields = ()
+    }
+    verb = verbs.get(entry.action, entry.action)
+    fields: tuple[tuple[str, str, str], ...] = ()
     if entry.action == AuditAction.CHANGED:
         fields = tuple(
             (

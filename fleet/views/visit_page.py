@@ -3,8 +3,6 @@ records, and what changed since the office last returned it; the office reviews 
 
 from __future__ import annotations
 
-from typing import Any
-
 from django.db.models import Prefetch, QuerySet
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import get_object_or_404
@@ -23,31 +21,32 @@ from .trail import return_history
 
 
 def visit_with_everything(request: HttpRequest) -> QuerySet[Visit]:
-    """A visit with all its detail page shows, in a fixed number of queries."""
+    """A visit with all its detail page shows, in a fixed number of queries.
+
+    One Prefetch per ``prefetch_related`` call: the stubs type a call's Prefetch objects
+    as one query set type, and these prefetch different models.
+    """
     readings = ReadingSet.objects.select_related("diagnosis", "created_by").order_by("taken_at")
     events = RefrigerantEvent.objects.select_related("leak_rate", "created_by").order_by(
         "occurred_on", "id"
     )
     covered = (
         VisitUnit.objects.select_related("unit__refrigerant")
-        .prefetch_related(
-            Prefetch("reading_sets", queryset=readings),
-            Prefetch("refrigerant_events", queryset=events),
-        )
+        .prefetch_related(Prefetch("reading_sets", queryset=readings))
+        .prefetch_related(Prefetch("refrigerant_events", queryset=events))
         .order_by("unit__tag")
     )
     return (
         Visit.objects.visible_to(request.user)
         .select_related("site__customer", "reviewed_by")
+        .prefetch_related("technicians", Prefetch("visit_units", queryset=covered))
         .prefetch_related(
-            "technicians",
-            Prefetch("visit_units", queryset=covered),
             Prefetch(
                 "components_changed",
                 queryset=Component.objects.select_related("unit").order_by(
                     "unit__tag", "kind", "-installed_on"
                 ),
-            ),
+            )
         )
     )
 
@@ -60,7 +59,9 @@ def visit_detail(request: HttpRequest, pk: int) -> HttpResponse:
     return visit_page(request, pk)
 
 
-def visit_page(request: HttpRequest, pk: int, review_form: Any = None) -> HttpResponse:
+def visit_page(
+    request: HttpRequest, pk: int, review_form: forms.ReviewForm | None = None
+) -> HttpResponse:
     """The visit's page, with the review form given (a refused review) or a fresh one."""
     visit = get_object_or_404(visit_with_everything(request), pk=pk)
     covered = covered_units(visit)
