@@ -4,6 +4,7 @@ visits, its monthly reports) and a stored report as it was sent."""
 from __future__ import annotations
 
 import datetime as dt
+from dataclasses import dataclass
 from typing import Any
 
 from django.db.models import F, Func, IntegerField, OuterRef, Prefetch, QuerySet, Subquery
@@ -17,11 +18,22 @@ from django.views.decorators.http import require_GET
 from diagnostics.models import Diagnosis, Flag
 from fleet.choices import VisitStatus
 from fleet.models import Site, Unit, Visit
+from reports.data import Health
 from reports.models import MonthlyReport
 from reports.views import stored_html, stored_report
 
 from .base import ANY_ROLE, page, within_reach
 from .stored import diagnosis_condition
+
+
+@dataclass(frozen=True)
+class SiteUnit:
+    """A unit as its site's page shows it: with its latest diagnosis and the condition
+    judged from it and the unit's open flags (None: not checked yet)."""
+
+    unit: Unit
+    latest: Diagnosis | None
+    condition: Health | None
 
 
 def _latest_diagnosis(field_name: str) -> Subquery:
@@ -121,17 +133,21 @@ def site_detail(request: HttpRequest, pk: int) -> HttpResponse:
     )
     # The latest diagnosis of each unit, rebuilt from the annotations (no query per unit):
     # its details are judged with the unit's open flags, as the monthly report judges them.
-    for u in units:
-        u.latest = (
-            Diagnosis(score=u.latest_score, document=u.latest_document)
-            if u.latest_at is not None
-            else None
+    latest = [
+        Diagnosis(score=u.latest_score, document=u.latest_document)
+        if u.latest_at is not None
+        else None
+        for u in units
+    ]
+    Diagnosis.attach_details(d for d in latest if d is not None)
+    shown = [
+        SiteUnit(
+            u,
+            d,
+            diagnosis_condition(d, u.open_flags, u.application) if d is not None else None,
         )
-    Diagnosis.attach_details(u.latest for u in units if u.latest is not None)
-    for u in units:
-        u.condition = (
-            diagnosis_condition(u.latest, u.open_flags, u.application) if u.latest else None
-        )
+        for u, d in zip(units, latest, strict=True)
+    ]
     upcoming = list(
         Visit.objects.visible_to(request.user)
         .filter(
@@ -146,7 +162,7 @@ def site_detail(request: HttpRequest, pk: int) -> HttpResponse:
         "fleet/site_detail.html",
         {
             "site": site,
-            "units": units,
+            "units": shown,
             "flag_total": sum(len(u.open_flags) for u in units),
             "upcoming": upcoming,
             "reports": _reports_for(request, site),
