@@ -8,6 +8,7 @@ from collections import defaultdict
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 
+from django.contrib.auth.models import User
 from django.db.models import Count
 from django.http import HttpRequest, HttpResponse
 from django.utils import timezone
@@ -21,33 +22,45 @@ from fleet.reach import roles_of
 from .base import page, site_zone, within_reach
 
 
+@dataclass
+class ScheduledVisit:
+    """A visit as the schedule shows it: its window on the site's wall clock (with the
+    zone's abbreviation where the site is not in ours) and the visits it clashes with."""
+
+    visit: Visit
+    local_start: dt.datetime
+    local_end: dt.datetime
+    zone_label: str
+    overlaps: list[str] = field(default_factory=list)
+
+
 @dataclass(frozen=True)
 class Overlap:
     """One technician booked at two places at once."""
 
-    technician: object
-    first: Visit
-    second: Visit
+    technician: User
+    first: ScheduledVisit
+    second: ScheduledVisit
 
 
-def find_overlaps(visits: Iterable[Visit]) -> list[Overlap]:
+def find_overlaps(visits: Iterable[ScheduledVisit]) -> list[Overlap]:
     """Every pair of live visits of the same technician whose windows overlap.
 
     Plain loops over the week's visits (a few dozen): sorted by start, a later visit can
     only overlap while it starts before the earlier one ends.
     """
-    by_person: dict[object, list[Visit]] = defaultdict(list)
-    for visit in visits:
-        if visit.status == VisitStatus.CANCELLED:
+    by_person: dict[User, list[ScheduledVisit]] = defaultdict(list)
+    for shown in visits:
+        if shown.visit.status == VisitStatus.CANCELLED:
             continue
-        for person in visit.technicians.all():
-            by_person[person].append(visit)
+        for person in shown.visit.technicians.all():
+            by_person[person].append(shown)
     found = []
     for person, booked in by_person.items():
-        booked.sort(key=lambda v: (v.window_start, v.pk))
+        booked.sort(key=lambda s: (s.visit.window_start, s.visit.pk))
         for i, first in enumerate(booked):
             for second in booked[i + 1 :]:
-                if second.window_start >= first.window_end:
+                if second.visit.window_start >= first.visit.window_end:
                     break
                 found.append(Overlap(person, first, second))
     return found
@@ -66,7 +79,7 @@ def monday_of(raw: str | None) -> dt.date:
 class ScheduleRow:
     label: str
     person_id: int | None
-    cells: list[list[Visit]] = field(default_factory=list)
+    cells: list[list[ScheduledVisit]] = field(default_factory=list)
 
 
 @within_reach(Role.OFFICE, Role.TECHNICIAN)
@@ -79,7 +92,7 @@ def schedule(request: HttpRequest) -> HttpResponse:
     # Sites may sit a few hours from our zone: fetch a day either side, place by local date.
     lo = dt.datetime.combine(monday - dt.timedelta(days=1), dt.time.min, zone)
     hi = dt.datetime.combine(monday + dt.timedelta(days=8), dt.time.min, zone)
-    visits = list(
+    fetched = (
         Visit.objects.visible_to(request.user)
         .filter(window_start__lt=hi, window_end__gt=lo)
         .select_related("site__customer")
@@ -87,21 +100,23 @@ def schedule(request: HttpRequest) -> HttpResponse:
         .annotate(unit_count=Count("visit_units"))
         .order_by("window_start", "reference")
     )
-    for visit in visits:
+    visits = []
+    for visit in fetched:
         zone_at_site = site_zone(visit.site)
-        visit.local_start = timezone.localtime(visit.window_start, zone_at_site)
-        visit.local_end = timezone.localtime(visit.window_end, zone_at_site)
-        visit.overlaps = []
-        visit.zone_label = (
-            visit.local_start.strftime("%Z")
+        local_start = timezone.localtime(visit.window_start, zone_at_site)
+        if local_start.date() not in days:
+            continue
+        zone_label = (
+            local_start.strftime("%Z")
             if visit.site.time_zone != timezone.get_current_timezone_name()
             else ""
         )
-    visits = [v for v in visits if v.local_start.date() in days]
+        local_end = timezone.localtime(visit.window_end, zone_at_site)
+        visits.append(ScheduledVisit(visit, local_start, local_end, zone_label))
     overlaps = find_overlaps(visits)
     for o in overlaps:
-        o.first.overlaps.append(o.second.reference)
-        o.second.overlaps.append(o.first.reference)
+        o.first.overlaps.append(o.second.visit.reference)
+        o.second.overlaps.append(o.first.visit.reference)
 
     office = roles_of(request.user).office
     if office:
@@ -113,13 +128,13 @@ def schedule(request: HttpRequest) -> HttpResponse:
     index = {row.person_id: row for row in rows}
     for row in rows:
         row.cells = [[] for _ in days]
-    for visit in visits:
-        column = (visit.local_start.date() - monday).days
-        assigned = [p.pk for p in visit.technicians.all()]
+    for shown in visits:
+        column = (shown.local_start.date() - monday).days
+        assigned: list[int | None] = [p.pk for p in shown.visit.technicians.all()]
         for pk in assigned or [None]:
-            row = index.get(pk if office else request.user.pk)
-            if row is not None and visit not in row.cells[column]:
-                row.cells[column].append(visit)
+            in_row = index.get(pk if office else request.user.pk)
+            if in_row is not None and shown not in in_row.cells[column]:
+                in_row.cells[column].append(shown)
     today = timezone.localdate()
     return page(
         request,
@@ -133,6 +148,6 @@ def schedule(request: HttpRequest) -> HttpResponse:
             "next_week": monday + dt.timedelta(days=7),
             "this_week": monday_of(None),
             "monday": monday,
-            "visit_count": len({v.pk for v in visits}),
+            "visit_count": len({v.visit.pk for v in visits}),
         },
     )
