@@ -1,7 +1,8 @@
 """A site-month as plain data: what ``gather`` reads and what ``summary`` judges, as frozen
 dataclasses that hold no ORM object, so the charts and the templates cannot trigger a
-query. The queries are in ``queries``, their assembly in ``gather``, the judgement in
-``summary``; every one of them imports these types, none of them imports another for them.
+query. The queries are in ``queries`` and ``events``, their assembly in ``gather``, the
+judgement in ``summary``; every one of them imports these types, none of them imports another
+for them.
 """
 
 from __future__ import annotations

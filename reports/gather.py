@@ -1,7 +1,7 @@
-"""One site-month turned into plain data, judged: the queries of ``queries`` (a fixed
-number, whatever the number of units, visits or readings), grouped per unit in plain loops
-and judged by ``summary``. Nothing past this module holds an ORM object, so the charts and
-the templates cannot trigger a query.
+"""One site-month turned into plain data, judged: the queries of ``queries`` and ``events``
+(a fixed number, whatever the number of units, visits or readings), grouped per unit in
+plain loops and judged by ``summary``. Nothing past this module holds an ORM object, so the
+charts and the templates cannot trigger a query.
 """
 
 from __future__ import annotations
@@ -16,7 +16,7 @@ from diagnostics.core.scoring import SCORING_TABLE
 from diagnostics.core.types import Caution
 from fleet import choices
 
-from . import overview, queries, summary, words
+from . import events, overview, queries, summary, words
 from .data import (
     Check,
     ComponentRow,
@@ -153,9 +153,9 @@ def gather_site_month(site_id: int, month: Month, *, now: datetime) -> SiteMonth
     details = queries.month_details(
         [r for rows in readings.values() for r in rows if r["taken_at"] >= month_start]
     )
-    visits = queries.visits_in(site_id, month_start, end, tz)
-    additions = queries.additions_by_unit(site_id, window_start.first_day, month.last_day)
-    flags = queries.flags_open_at(site_id, as_of, tz, provenance)
+    visits = events.visits_in(site_id, month_start, end, tz)
+    additions = events.additions_by_unit(site_id, window_start.first_day, month.last_day)
+    flags = events.flags_open_at(site_id, as_of, tz, provenance)
 
     unit_months = []
     for unit in units:
