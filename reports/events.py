@@ -98,10 +98,10 @@ def visits_in(site_id: int, start: datetime, end: datetime, tz: ZoneInfo) -> lis
             _person(row["user__first_name"], row["user__last_name"], row["user__username"])
         )
     tags: dict[int, list[str]] = defaultdict(list)
-    for row in (
+    for on_visit in (
         VisitUnit.objects.filter(in_month).order_by("unit__tag").values("visit_id", "unit__tag")
     ):
-        tags[row["visit_id"]].append(row["unit__tag"])
+        tags[on_visit["visit_id"]].append(on_visit["unit__tag"])
     kind = choice_labels(choices.VisitKind)
     status = choice_labels(choices.VisitStatus)
     rows = (

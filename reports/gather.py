@@ -6,6 +6,7 @@ charts and the templates cannot trigger a query.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from datetime import date, datetime
 from statistics import fmean
 from typing import Any
@@ -83,7 +84,7 @@ def _finding_row(f: dict[str, Any]) -> FindingRow:
     )
 
 
-def _check(row: dict[str, Any], details: dict[str, Any], tz: ZoneInfo, unit: UnitInfo) -> Check:
+def _check(row: dict[str, Any], details: Mapping[str, Any], tz: ZoneInfo, unit: UnitInfo) -> Check:
     """A month's diagnosed reading set. An ice machine's box metrics are left out: it is
     judged on its circuit and electrics (``words.ICE_MACHINE_BASIS``)."""
     stage = choice_labels(choices.Stage)
@@ -110,7 +111,7 @@ def _check(row: dict[str, Any], details: dict[str, Any], tz: ZoneInfo, unit: Uni
     )
 
 
-def _component_rows(parts: list[dict[str, Any]], first: date, last: date) -> list[ComponentRow]:
+def _component_rows(parts: list[Mapping[str, Any]], first: date, last: date) -> list[ComponentRow]:
     """Parts fitted or taken out in the window; the original equipment is not news."""
     labels = choice_labels(choices.ComponentKind)
     out = []

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import math
 from collections import defaultdict
+from collections.abc import Mapping
 from datetime import date, datetime, tzinfo
 from typing import Any
 
@@ -126,8 +127,8 @@ def site_info(site_id: int) -> SiteInfo:
     )
 
 
-def components_by_unit(site_id: int) -> dict[int, list[dict[str, Any]]]:
-    by_unit: dict[int, list[dict[str, Any]]] = defaultdict(list)
+def components_by_unit(site_id: int) -> dict[int, list[Mapping[str, Any]]]:
+    by_unit: dict[int, list[Mapping[str, Any]]] = defaultdict(list)
     for row in (
         Component.objects.filter(unit__site_id=site_id)
         .order_by("unit_id", "installed_on", "id")
@@ -147,7 +148,7 @@ def components_by_unit(site_id: int) -> dict[int, list[dict[str, Any]]]:
     return by_unit
 
 
-def _fitted_rating(parts: list[dict[str, Any]], role: str, on: date) -> CapacitorRating | None:
+def _fitted_rating(parts: list[Mapping[str, Any]], role: str, on: date) -> CapacitorRating | None:
     """The rating of the capacitor of a role in service on ``on``."""
     newest = start_risk.fitted_capacitor(parts, role, on)
     if newest is None:
@@ -161,7 +162,7 @@ def _fitted_rating(parts: list[dict[str, Any]], role: str, on: date) -> Capacito
 
 
 def units_in_month(
-    site_id: int, month: Month, components: dict[int, list[dict[str, Any]]]
+    site_id: int, month: Month, components: dict[int, list[Mapping[str, Any]]]
 ) -> list[UnitInfo]:
     app = choice_labels(choices.Application)
     appliance = choice_labels(choices.ApplianceType)
@@ -249,7 +250,7 @@ def readings_by_unit(
     return by_unit
 
 
-def month_details(rows: list[dict[str, Any]]) -> dict[int, dict[str, Any]]:
+def month_details(rows: list[dict[str, Any]]) -> dict[int, Mapping[str, Any]]:
     """The details (metrics, findings, cautions, glide choice) of the month's diagnoses, by
     reading set, read from their stored diagnoses in one pass."""
     expanded = Diagnosis.details_of([r["diagnosis__document"] for r in rows])
