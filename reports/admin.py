@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 from django.contrib import admin
+from django.db.models import QuerySet
+from django.http import HttpRequest
 
 from .models import MonthlyReport
 
@@ -29,11 +31,11 @@ class MonthlyReportAdmin(admin.ModelAdmin):
         "unit_count",
     )
 
-    def get_queryset(self, request):
+    def get_queryset(self, request: HttpRequest) -> QuerySet[MonthlyReport]:
         return super().get_queryset(request).defer("html")
 
-    def has_add_permission(self, request) -> bool:
+    def has_add_permission(self, request: HttpRequest) -> bool:
         return False
 
-    def has_change_permission(self, request, obj=None) -> bool:
+    def has_change_permission(self, request: HttpRequest, obj: MonthlyReport | None = None) -> bool:
         return False

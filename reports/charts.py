@@ -21,16 +21,19 @@ import threading
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from datetime import date
+from typing import TypedDict, Unpack
 
 import matplotlib
 from PIL import Image
 
 matplotlib.use("Agg")
 
+from matplotlib.axes import Axes
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.ticker import MaxNLocator
 from matplotlib.transforms import Bbox
+from matplotlib.typing import RcKeyType
 
 #: Line looks that survive a grey-scale printer: (colour, line style, marker, filled marker).
 STYLES: dict[str, tuple[str, str, str, bool]] = {
@@ -44,7 +47,7 @@ STYLES: dict[str, tuple[str, str, str, bool]] = {
 #: Matplotlib settings for every chart: text kept as text in the SVG (small files, searchable
 #: PDFs), one font that the PDF renderer also has (DejaVu, installed system-wide), a fixed
 #: hash salt and no date so the same data always gives the same bytes.
-RC: dict[str, object] = {
+RC: dict[RcKeyType, object] = {
     "svg.fonttype": "none",
     "svg.hashsalt": "rimewatch",
     "font.family": "sans-serif",
@@ -152,30 +155,30 @@ def _spread(ys: list[float], gap: float) -> list[float]:
     return out
 
 
-def _draw_panel(ax, panel: Panel, window: Window) -> None:
+def _draw_panel(ax: Axes, panel: Panel, window: Window) -> None:
     x0, x1 = window.first.toordinal(), window.last.toordinal()
     span = x1 - x0
     labels: list[tuple[float, float, str, str]] = []
     if panel.band is not None:
-        pts = [
+        spans = [
             (d.toordinal(), lo, hi)
             for d, lo, hi in zip(panel.band.dates, panel.band.low, panel.band.high, strict=True)
             if lo is not None and hi is not None
         ]
-        if pts:
-            xs = [p[0] for p in pts]
-            if len(xs) == 1:
-                xs = [xs[0] - 5, xs[0] + 5]
-                pts = pts * 2
+        if spans:
+            band_xs = [s[0] for s in spans]
+            if len(band_xs) == 1:
+                band_xs = [band_xs[0] - 5, band_xs[0] + 5]
+                spans = spans * 2
             ax.fill_between(
-                xs,
-                [p[1] for p in pts],
-                [p[2] for p in pts],
+                band_xs,
+                [s[1] for s in spans],
+                [s[2] for s in spans],
                 color="#e3e3e3",
                 linewidth=0,
                 step=None,
             )
-            labels.append((xs[-1], pts[-1][2], panel.band.label, "#6a6a6a"))
+            labels.append((band_xs[-1], spans[-1][2], panel.band.label, "#6a6a6a"))
     for ref in panel.references:
         # Stops at the window's end, so the direct label to its right stays clear of it.
         ax.hlines(
@@ -248,11 +251,13 @@ def _draw_panel(ax, panel: Panel, window: Window) -> None:
 
 #: Figures kept per layout and reused chart after chart: creating axes and their ticks is
 #: most of matplotlib's cost, and a report draws the same layout for every unit.
-_FIGURES: dict[tuple[int, int, float, float], tuple[Figure, list]] = {}
+_FIGURES: dict[tuple[int, int, float, float], tuple[Figure, list[Axes]]] = {}
 _LOCK = threading.Lock()
 
 
-def _figure(rows: int, columns: int, width_in: float, panel_height_in: float):
+def _figure(
+    rows: int, columns: int, width_in: float, panel_height_in: float
+) -> tuple[Figure, list[Axes]]:
     key = (rows, columns, width_in, panel_height_in)
     if key not in _FIGURES:
         fig = Figure(figsize=(width_in, panel_height_in * rows + 0.15), layout=None)
@@ -275,7 +280,7 @@ def _figure(rows: int, columns: int, width_in: float, panel_height_in: float):
     return _FIGURES[key]
 
 
-def _clear(ax) -> None:
+def _clear(ax: Axes) -> None:
     """Empty an axes for the next chart, keeping its ticks (cheaper than ``cla``)."""
     for artist in [*ax.lines, *ax.collections, *ax.patches, *ax.texts]:
         artist.remove()
@@ -315,7 +320,17 @@ def _draw(
     return fig
 
 
-def _render(panels: Sequence[Panel], window: Window, fmt: str, dpi: int, **layout) -> bytes:
+class Layout(TypedDict, total=False):
+    """How ``_draw`` lays the panels out; a caller gives what it changes."""
+
+    columns: int
+    width_in: float
+    panel_height_in: float
+
+
+def _render(
+    panels: Sequence[Panel], window: Window, fmt: str, dpi: int, **layout: Unpack[Layout]
+) -> bytes:
     buf = io.BytesIO()
     with _LOCK, matplotlib.rc_context(RC):
         fig = _draw(panels, window, **layout)
@@ -337,7 +352,7 @@ def _render(panels: Sequence[Panel], window: Window, fmt: str, dpi: int, **layou
     return buf.getvalue()
 
 
-def chart_svg(panels: Sequence[Panel], window: Window, **layout) -> str:
+def chart_svg(panels: Sequence[Panel], window: Window, **layout: Unpack[Layout]) -> str:
     """The panels as an SVG document (text as text, reproducible bytes)."""
     data = _render(panels, window, "svg", 72, **layout).decode("utf-8")
     # The XML prologue and matplotlib's RDF block are no use inside a page.
@@ -349,7 +364,9 @@ def chart_svg(panels: Sequence[Panel], window: Window, **layout) -> str:
     return svg
 
 
-def chart_png(panels: Sequence[Panel], window: Window, *, dpi: int = 300, **layout) -> bytes:
+def chart_png(
+    panels: Sequence[Panel], window: Window, *, dpi: int = 300, **layout: Unpack[Layout]
+) -> bytes:
     """The same chart as an 8-bit grey PNG at print resolution (300 dpi by default)."""
     return _render(panels, window, "png", dpi, **layout)
 

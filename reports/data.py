@@ -1,13 +1,15 @@
 """A site-month as plain data: what ``gather`` reads and what ``summary`` judges, as frozen
 dataclasses that hold no ORM object, so the charts and the templates cannot trigger a
-query. The queries are in ``queries``, their assembly in ``gather``, the judgement in
-``summary``; every one of them imports these types, none of them imports another for them.
+query. The queries are in ``queries`` and ``events``, their assembly in ``gather``, the
+judgement in ``summary``; every one of them imports these types, none of them imports another
+for them.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import date, datetime
+from zoneinfo import ZoneInfo
 
 from diagnostics.core import costs, leaks
 from diagnostics.core.types import Caution
@@ -55,7 +57,8 @@ class UnitInfo:
     full_charge_kg: float
     metering_label: str
     condenser_label: str
-    has_receiver: bool
+    #: None where the unit's record does not say.
+    has_receiver: bool | None
     design_box_temp_c: float
     design_evap_td_k: float | None
     design_condenser_split_k: float | None
@@ -407,8 +410,9 @@ class SiteMonth:
 
     @property
     def month_closed(self) -> bool:
-        """The flags are read at the month's end (the month was over when it was made)."""
-        return self.as_of >= self.month.end_in(self.as_of.tzinfo)
+        """The flags are read at the month's end at the site (the month was over when it
+        was made)."""
+        return self.as_of >= self.month.end_in(ZoneInfo(self.site.time_zone))
 
     @property
     def has_visits(self) -> bool:

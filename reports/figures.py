@@ -43,7 +43,7 @@ def trend_panels(
     dates = [p.taken_on for p in h]
     t, d = display.temperature, display.difference
     ice_machine = application == "ice_machine"
-    evaporating_lines = (
+    evaporating_lines: tuple[Line, ...] = (
         Line("evaporating", dates, [t(p.evaporating_c) for p in h], "measured"),
         Line("target", dates, [t(p.evaporating_target_c) for p in h], "target"),
     )

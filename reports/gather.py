@@ -1,11 +1,12 @@
-"""One site-month turned into plain data, judged: the queries of ``queries`` (a fixed
-number, whatever the number of units, visits or readings), grouped per unit in plain loops
-and judged by ``summary``. Nothing past this module holds an ORM object, so the charts and
-the templates cannot trigger a query.
+"""One site-month turned into plain data, judged: the queries of ``queries`` and ``events``
+(a fixed number, whatever the number of units, visits or readings), grouped per unit in
+plain loops and judged by ``summary``. Nothing past this module holds an ORM object, so the
+charts and the templates cannot trigger a query.
 """
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from datetime import date, datetime
 from statistics import fmean
 from typing import Any
@@ -16,7 +17,7 @@ from diagnostics.core.scoring import SCORING_TABLE
 from diagnostics.core.types import Caution
 from fleet import choices
 
-from . import overview, queries, summary, words
+from . import events, overview, queries, summary, words
 from .data import (
     Check,
     ComponentRow,
@@ -83,7 +84,7 @@ def _finding_row(f: dict[str, Any]) -> FindingRow:
     )
 
 
-def _check(row: dict[str, Any], details: dict[str, Any], tz: ZoneInfo, unit: UnitInfo) -> Check:
+def _check(row: dict[str, Any], details: Mapping[str, Any], tz: ZoneInfo, unit: UnitInfo) -> Check:
     """A month's diagnosed reading set. An ice machine's box metrics are left out: it is
     judged on its circuit and electrics (``words.ICE_MACHINE_BASIS``)."""
     stage = choice_labels(choices.Stage)
@@ -110,7 +111,7 @@ def _check(row: dict[str, Any], details: dict[str, Any], tz: ZoneInfo, unit: Uni
     )
 
 
-def _component_rows(parts: list[dict[str, Any]], first: date, last: date) -> list[ComponentRow]:
+def _component_rows(parts: list[Mapping[str, Any]], first: date, last: date) -> list[ComponentRow]:
     """Parts fitted or taken out in the window; the original equipment is not news."""
     labels = choice_labels(choices.ComponentKind)
     out = []
@@ -153,9 +154,9 @@ def gather_site_month(site_id: int, month: Month, *, now: datetime) -> SiteMonth
     details = queries.month_details(
         [r for rows in readings.values() for r in rows if r["taken_at"] >= month_start]
     )
-    visits = queries.visits_in(site_id, month_start, end, tz)
-    additions = queries.additions_by_unit(site_id, window_start.first_day, month.last_day)
-    flags = queries.flags_open_at(site_id, as_of, tz, provenance)
+    visits = events.visits_in(site_id, month_start, end, tz)
+    additions = events.additions_by_unit(site_id, window_start.first_day, month.last_day)
+    flags = events.flags_open_at(site_id, as_of, tz, provenance)
 
     unit_months = []
     for unit in units:

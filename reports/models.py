@@ -32,7 +32,7 @@ class MonthlyReportQuerySet(scope.VisibleQuerySet["MonthlyReport"]):
         """The sites whose reports are within ``user``'s reach, by the rule of
         ``visible_to`` (``fleet.reach.report_sites``), a site without a report yet
         included."""
-        condition = scope.report_sites(scope.roles_of(user), user)  # type: ignore[arg-type]
+        condition = scope.report_sites(scope.roles_of(user), user)
         return Site.objects.none() if condition is None else Site.objects.filter(condition)
 
 

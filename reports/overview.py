@@ -37,17 +37,18 @@ ENERGY_ROWS = 8
 def overview(units: Sequence[UnitMonth], visits: Sequence[VisitInfo]) -> SiteOverview:
     counts = Counter(u.health.status for u in units)
     scores = [u.current.score for u in units if u.current and u.current.score is not None]
-    estimated = [u for u in units if u.energy and u.energy.cost]
+    # The units priced: each one's tag and its estimate.
+    estimated = [(u.unit.tag, u.energy) for u in units if u.energy and u.energy.cost]
     by_kind = Counter(v.kind_label for v in visits if v.status != "cancelled")
     priced = sorted(
         (
             (
-                u.unit.tag,
-                u.energy.penalty_percent,
-                u.energy.extra_kwh_per_month or 0.0,
-                u.energy.extra_cost_per_month or 0.0,
+                tag,
+                energy.penalty_percent,
+                energy.extra_kwh_per_month or 0.0,
+                energy.extra_cost_per_month or 0.0,
             )
-            for u in estimated
+            for tag, energy in estimated
         ),
         key=lambda row: (-row[3], row[0]),
     )
@@ -61,8 +62,8 @@ def overview(units: Sequence[UnitMonth], visits: Sequence[VisitInfo]) -> SiteOve
         open_flag_count=sum(len(u.flags) for u in units),
         not_checked=tuple(u.unit.tag for u in units if u.current is None),
         visits_by_kind=tuple(sorted(by_kind.items())),
-        energy_cost_per_month=sum(u.energy.extra_cost_per_month or 0.0 for u in estimated),
-        energy_kwh_per_month=sum(u.energy.extra_kwh_per_month or 0.0 for u in estimated),
+        energy_cost_per_month=sum(e.extra_cost_per_month or 0.0 for _, e in estimated),
+        energy_kwh_per_month=sum(e.extra_kwh_per_month or 0.0 for _, e in estimated),
         energy_units_estimated=len(estimated),
         energy_units_not_estimated=tuple(
             u.unit.tag for u in units if u.energy is not None and u.energy.cost is None

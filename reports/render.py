@@ -62,17 +62,21 @@ def _static_roots() -> list[Path]:
     return sorted(set(roots))
 
 
-def url_fetcher(url: str, timeout: int = 10, **kwargs) -> dict:
+def url_fetcher(url: str, timeout: int = 10, **kwargs: object) -> dict[str, object]:
     """WeasyPrint's fetcher, limited to data URIs and files inside our static folders."""
     import weasyprint
 
+    # WeasyPrint's fetchers answer a dict of the resource (its bytes or file, its type).
+    fetched: dict[str, object]
     parsed = urlparse(url)
     if parsed.scheme == "data":
-        return weasyprint.default_url_fetcher(url, timeout=timeout)
+        fetched = weasyprint.default_url_fetcher(url, timeout=timeout)
+        return fetched
     if parsed.scheme == "file":
         path = Path(unquote(parsed.path)).resolve()
         if any(path.is_relative_to(root) for root in _static_roots()) and path.is_file():
-            return weasyprint.default_url_fetcher(url, timeout=timeout)
+            fetched = weasyprint.default_url_fetcher(url, timeout=timeout)
+            return fetched
     logger.warning("report rendering refused to fetch %s", url)
     raise RefusedFetch(f"reports load only their own static files, not {url}")
 

@@ -19,6 +19,7 @@ from datetime import datetime
 from django.conf import settings
 from django.core.files.base import ContentFile
 from django.core.mail import EmailMessage, get_connection
+from django.core.mail.backends.base import BaseEmailBackend
 from django.db import IntegrityError, transaction
 from django.db.models import Max
 from django.utils import timezone
@@ -91,12 +92,13 @@ def build_report(
     version: int | None = None,
 ) -> BuiltReport:
     """Gather, draw, lay out and print one site-month (nothing is stored)."""
-    workers = workers or getattr(settings, "RIMEWATCH_REPORT_CHART_WORKERS", DEFAULT_CHART_WORKERS)
+    configured: int = getattr(settings, "RIMEWATCH_REPORT_CHART_WORKERS", DEFAULT_CHART_WORKERS)
+    chart_workers = workers or configured
     marks = [(time.perf_counter(), time.process_time())]
     sm = gather_site_month(site_id, month, now=now)
     marks.append((time.perf_counter(), time.process_time()))
     figures = [unit_figure(u, display) for u in sm.units]
-    images = draw_unit_charts(figures, window_of(sm), workers=workers, fmt=chart_format)
+    images = draw_unit_charts(figures, window_of(sm), workers=chart_workers, fmt=chart_format)
     unit_charts = {
         f.unit_id: UnitChart(
             charts.data_uri(images[f.unit_id]) if f.unit_id in images else "",
@@ -196,7 +198,7 @@ def latest_report(site_id: int, month: Month) -> MonthlyReport | None:
     )
 
 
-def email_report(report: MonthlyReport, *, connection=None) -> int:
+def email_report(report: MonthlyReport, *, connection: BaseEmailBackend | None = None) -> int:
     """Send the PDF to each of the site's managers (one message each); returns how many."""
     recipients = list(
         report.site.managers.filter(is_active=True)
@@ -225,5 +227,5 @@ def email_report(report: MonthlyReport, *, connection=None) -> int:
         message = EmailMessage(subject, body, to=[address])
         message.attach(report.filename, pdf, "application/pdf")
         messages.append(message)
-    connection = connection or get_connection()
-    return connection.send_messages(messages) or 0
+    backend: BaseEmailBackend = connection or get_connection()
+    return backend.send_messages(messages) or 0

@@ -440,12 +440,12 @@ def actions_for(
         for m in current.metrics:
             if m.status != "fault":
                 continue
-            decision = METRIC_ACTIONS.get(m.name)
-            if decision is not None:
-                asked.append((decision, decision.text))
+            on_metric = METRIC_ACTIONS.get(m.name)
+            if on_metric is not None:
+                asked.append((on_metric, on_metric.text))
             # With no probable cause named, a reading far off its aim needs a visit to find
             # one (stock at risk included: checking it is not a repair).
-            if not current.findings and (decision is None or decision.first):
+            if not current.findings and (on_metric is None or on_metric.first):
                 asked.append((follow_up(m.label), follow_up(m.label).text))
     elif flags:
         asked.append(

@@ -7,7 +7,8 @@ of ``fleet.reach``: office all sites, managers their granted sites), so a site o
 
 from __future__ import annotations
 
-from django.http import FileResponse, Http404
+from django.db.models import QuerySet
+from django.http import FileResponse, Http404, QueryDict
 from django.shortcuts import get_object_or_404
 from drf_spectacular.types import OpenApiTypes
 from drf_spectacular.utils import (
@@ -18,7 +19,8 @@ from drf_spectacular.utils import (
 )
 from rest_framework import generics
 from rest_framework.exceptions import ValidationError
-from rest_framework.renderers import JSONRenderer
+from rest_framework.renderers import BaseRenderer, JSONRenderer
+from rest_framework.request import Request
 from rest_framework.views import APIView
 
 from reports.models import MonthlyReport
@@ -39,9 +41,9 @@ VERSION = OpenApiParameter(
 )
 
 
-def requested_version(params) -> int | None:
+def requested_version(params: QueryDict) -> int | None:
     raw = params.get("version")
-    if raw in (None, ""):
+    if raw is None or raw == "":
         return None
     try:
         version = int(raw)
@@ -61,7 +63,7 @@ class SiteReportList(generics.ListAPIView):
     serializer_class = MonthlyReportSerializer
     queryset = MonthlyReport.objects.none()
 
-    def get_queryset(self):
+    def get_queryset(self) -> QuerySet[MonthlyReport]:
         sites = MonthlyReport.objects.sites_visible_to(self.request.user)
         site = get_object_or_404(sites, pk=self.kwargs["site_id"])
         return MonthlyReport.objects.filter(site=site).defer("html").order_by("-month", "-version")
@@ -70,7 +72,9 @@ class SiteReportList(generics.ListAPIView):
 class SiteReportPdf(APIView):
     """The PDF of a site-month: the latest version, or ``?version=``."""
 
-    def perform_content_negotiation(self, request, force=False):
+    def perform_content_negotiation(
+        self, request: Request, force: bool = False
+    ) -> tuple[BaseRenderer, str]:
         # The PDF itself bypasses the renderers; errors are JSON whatever was asked for,
         # so an ``Accept: application/pdf`` never turns into a 406.
         renderer = JSONRenderer()
@@ -86,7 +90,7 @@ class SiteReportPdf(APIView):
         tags=["reports"],
         operation_id="site_report_pdf",
     )
-    def get(self, request, site_id: int, month: str):
+    def get(self, request: Request, site_id: int, month: str) -> FileResponse:
         try:
             first_day = Month.parse(month).first_day
         except ValueError as exc:

@@ -6,10 +6,15 @@ template never converts by itself; a missing value prints as an en dash.
 
 from __future__ import annotations
 
+from collections.abc import Iterable
+from typing import Any, SupportsFloat
+
 from django import template
 
 from diagnostics.core import wording
+from fleet.display import Display
 from reports import words as vocabulary
+from reports.data import MetricRow
 
 register = template.Library()
 
@@ -24,9 +29,15 @@ def _fmt(value: float | None, digits: int) -> str:
     return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
 
 
+def _display(context: template.Context) -> Display:
+    """The report's display units: the renderer puts them in the context (``render``)."""
+    display: Display = context["display"]
+    return display
+
+
 @register.simple_tag(takes_context=True)
-def temp(context, value_c, digits: int = 0) -> str:
-    d = context["display"]
+def temp(context: template.Context, value_c: float | None, digits: int = 0) -> str:
+    d = _display(context)
     return (
         f"{_fmt(d.temperature(value_c), digits)} {d.temperature_symbol}"
         if value_c is not None
@@ -35,8 +46,8 @@ def temp(context, value_c, digits: int = 0) -> str:
 
 
 @register.simple_tag(takes_context=True)
-def tdiff(context, value_k, digits: int = 1) -> str:
-    d = context["display"]
+def tdiff(context: template.Context, value_k: float | None, digits: int = 1) -> str:
+    d = _display(context)
     return (
         f"{_fmt(d.difference(value_k), digits)} {d.difference_symbol}"
         if value_k is not None
@@ -45,25 +56,33 @@ def tdiff(context, value_k, digits: int = 1) -> str:
 
 
 @register.simple_tag(takes_context=True)
-def pressure(context, value_kpa_gauge, elevation_m, digits: int = 0) -> str:
-    d = context["display"]
+def pressure(
+    context: template.Context, value_kpa_gauge: float | None, elevation_m: float, digits: int = 0
+) -> str:
+    d = _display(context)
     if value_kpa_gauge is None:
         return DASH
     return f"{_fmt(d.pressure(value_kpa_gauge, elevation_m), digits)} {d.pressure_symbol}"
 
 
 @register.simple_tag(takes_context=True)
-def mass(context, value_kg, digits: int = 1) -> str:
-    d = context["display"]
+def mass(context: template.Context, value_kg: float | None, digits: int = 1) -> str:
+    d = _display(context)
     return f"{_fmt(d.mass(value_kg), digits)} {d.mass_symbol}" if value_kg is not None else DASH
 
 
 @register.simple_tag(takes_context=True)
-def quantity(context, value, unit: str, digits: int = 1, elevation_m: float = 0.0) -> str:
+def quantity(
+    context: template.Context,
+    value: float | None,
+    unit: str,
+    digits: int = 1,
+    elevation_m: float = 0.0,
+) -> str:
     """A stored quantity whose SI unit is named beside it (metrics, flag evidence)."""
     if value is None:
         return DASH
-    d = context["display"]
+    d = _display(context)
     if unit == "C":
         return f"{_fmt(d.temperature(value), digits)} {d.temperature_symbol}"
     if unit == "K":
@@ -77,13 +96,20 @@ def quantity(context, value, unit: str, digits: int = 1, elevation_m: float = 0.
 
 
 @register.simple_tag(takes_context=True)
-def said(context, text: str, quantities) -> str:
+def said(context: template.Context, text: str, quantities: Iterable[wording.Quantity]) -> str:
     """A flag's sentence with its named quantities in the report's display units."""
-    return wording.fill(text, quantities, context["display"].units)
+    return wording.fill(text, quantities, _display(context).units)
 
 
 @register.simple_tag(takes_context=True)
-def band(context, low, high, unit: str, digits: int = 1, elevation_m: float = 0.0) -> str:
+def band(
+    context: template.Context,
+    low: float | None,
+    high: float | None,
+    unit: str,
+    digits: int = 1,
+    elevation_m: float = 0.0,
+) -> str:
     """An ok range: "a to b", "up to b" or "at least a"."""
     if low is None and high is None:
         return DASH
@@ -96,7 +122,7 @@ def band(context, low, high, unit: str, digits: int = 1, elevation_m: float = 0.
 
 
 @register.filter
-def num(value, digits: int = 0) -> str:
+def num(value: SupportsFloat | str | None, digits: int = 0) -> str:
     try:
         return _fmt(None if value is None else float(value), int(digits))
     except (TypeError, ValueError):
@@ -104,18 +130,18 @@ def num(value, digits: int = 0) -> str:
 
 
 @register.filter
-def percent(value, digits: int = 1) -> str:
+def percent(value: SupportsFloat | None, digits: int = 1) -> str:
     return DASH if value is None else f"{_fmt(float(value), int(digits))} %"
 
 
 @register.filter
-def words(value) -> str:
+def words(value: object) -> str:
     """A stored name such as ``condenser_split`` as words."""
     return str(value).replace("_", " ")
 
 
 @register.simple_tag
-def money(amount, currency: str) -> str:
+def money(amount: float | None, currency: str) -> str:
     if amount is None:
         return DASH
     symbol = {"USD": "$", "CAD": "CA$", "EUR": "€", "GBP": "£"}.get(currency)
@@ -123,7 +149,7 @@ def money(amount, currency: str) -> str:
 
 
 @register.simple_tag(takes_context=True)
-def reading(context, m, elevation_m: float = 0.0) -> str:
+def reading(context: template.Context, m: MetricRow, elevation_m: float = 0.0) -> str:
     """A metric against its aim in one line (``vocabulary.reading_sentence``)."""
     return vocabulary.reading_sentence(
         m.measured,
@@ -136,7 +162,9 @@ def reading(context, m, elevation_m: float = 0.0) -> str:
 
 
 @register.filter
-def grouped(metrics, application: str = ""):
+def grouped(
+    metrics: Iterable[MetricRow], application: str = ""
+) -> list[tuple[vocabulary.ReadingGroup, list[Any]]]:
     """The judged metrics in our groups by what they tell (``vocabulary.group_readings``)."""
     return vocabulary.group_readings(
         metrics, application=application, shown=("ok", "watch", "fault")

@@ -10,6 +10,7 @@ A site that fails is reported and the others still run; the command then exits n
 from __future__ import annotations
 
 from pathlib import Path
+from typing import Any
 
 from django.core.management.base import BaseCommand, CommandError, CommandParser
 from django.utils import timezone
@@ -38,19 +39,19 @@ class Command(BaseCommand):
             "--email", action="store_true", help="Email each report to the site's managers."
         )
 
-    def handle(self, *args, **options) -> None:
+    def handle(self, *args: Any, **options: Any) -> None:
         month = _month(options["month"])
-        sites = Site.objects.select_related("customer").order_by("customer__name", "name")
+        wanted = Site.objects.select_related("customer").order_by("customer__name", "name")
         if options["site"] is not None:
-            sites = sites.filter(pk=options["site"])
-            if not sites.exists():
+            wanted = wanted.filter(pk=options["site"])
+            if not wanted.exists():
                 raise CommandError(f"--site: no site with id {options['site']}")
         out: Path | None = options["out"]
         if out is not None:
             out.mkdir(parents=True, exist_ok=True)
         now = timezone.now()
         failures: list[str] = []
-        sites = list(sites)
+        sites = list(wanted)
         quiet = options["verbosity"] == 0
         with tqdm(total=len(sites), desc=f"reports {month}", unit="site", disable=quiet) as bar:
             for site in sites:
