@@ -22,7 +22,7 @@ from django.db.models import Max, Min, Q, QuerySet
 from django.utils import timezone
 from numpy.typing import NDArray
 
-from diagnostics.core import design, flags, leaks, maintenance, start_risk, trends
+from diagnostics.core import appliance_leaks, design, flags, leaks, maintenance, start_risk, trends
 from diagnostics.core.types import APPLICATIONS, UnitDesign, choice
 from fleet.choices import ComponentKind, RefrigerantEventKind, Stage, VisitKind, VisitStatus
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit, VisitUnit
@@ -445,13 +445,17 @@ def _history(
             reason = (
                 leaks.ExcludedReason(e["leak_rate_exemption"]) if e["leak_rate_exemption"] else None
             )
-            additions.append(leaks.RefrigerantAddition(e["occurred_on"], e["amount_kg"], reason))
+            additions.append(
+                appliance_leaks.RefrigerantAddition(e["occurred_on"], e["amount_kg"], reason)
+            )
         elif e["kind"] == RefrigerantEventKind.LEAK_REPAIRED:
-            repairs.append(leaks.LeakRepair(e["occurred_on"]))
+            repairs.append(appliance_leaks.LeakRepair(e["occurred_on"]))
         elif e["kind"] == RefrigerantEventKind.FOLLOW_UP_VERIFICATION and e["passed"] and repairs:
-            repairs[-1] = leaks.LeakRepair(repairs[-1].repaired_on, verified_on=e["occurred_on"])
+            repairs[-1] = appliance_leaks.LeakRepair(
+                repairs[-1].repaired_on, verified_on=e["occurred_on"]
+            )
     leak = flags.LeakHistory(
-        appliance=leaks.Appliance(
+        appliance=appliance_leaks.Appliance(
             refrigerant=u["refrigerant__designation"],
             full_charge_kg=u["full_charge_kg"],
             appliance_type=leaks.ApplianceType(u["appliance_type"]),

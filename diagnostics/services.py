@@ -18,8 +18,8 @@ from django.db import connection, transaction
 from django.db.models import QuerySet
 from django.utils import timezone
 
+from diagnostics.core import appliance_leaks, flags, leaks, plausibility, start_risk
 from diagnostics.core import diagnose as core_diagnose
-from diagnostics.core import flags, leaks, plausibility, start_risk
 from diagnostics.core.types import (
     APPLICATIONS,
     CONDENSER_TYPES,
@@ -340,23 +340,27 @@ def record_leak_rates(unit: Unit, now: dt.datetime | None = None) -> dict[int, L
     events = list(
         RefrigerantEvent.objects.filter(visit_unit__unit=unit).order_by("occurred_on", "id")
     )
-    additions: list[tuple[RefrigerantEvent, leaks.RefrigerantAddition]] = []
-    repairs: list[leaks.LeakRepair] = []
+    additions: list[tuple[RefrigerantEvent, appliance_leaks.RefrigerantAddition]] = []
+    repairs: list[appliance_leaks.LeakRepair] = []
     for e in events:
         # An addition always has its amount: a check constraint holds it.
         if e.kind == RefrigerantEventKind.ADDED and e.amount_kg is not None:
             reason = leaks.ExcludedReason(e.leak_rate_exemption) if e.leak_rate_exemption else None
-            additions.append((e, leaks.RefrigerantAddition(e.occurred_on, e.amount_kg, reason)))
+            additions.append(
+                (e, appliance_leaks.RefrigerantAddition(e.occurred_on, e.amount_kg, reason))
+            )
         elif e.kind == RefrigerantEventKind.LEAK_REPAIRED:
-            repairs.append(leaks.LeakRepair(repaired_on=e.occurred_on))
+            repairs.append(appliance_leaks.LeakRepair(repaired_on=e.occurred_on))
         elif e.kind == RefrigerantEventKind.FOLLOW_UP_VERIFICATION and e.passed and repairs:
-            repairs[-1] = leaks.LeakRepair(repairs[-1].repaired_on, verified_on=e.occurred_on)
-    appliance = leaks.Appliance(
+            repairs[-1] = appliance_leaks.LeakRepair(
+                repairs[-1].repaired_on, verified_on=e.occurred_on
+            )
+    appliance = appliance_leaks.Appliance(
         refrigerant=unit.refrigerant.designation,
         full_charge_kg=unit.full_charge_kg,
         appliance_type=leaks.ApplianceType(unit.appliance_type),
     )
-    results = leaks.leak_rates(
+    results = appliance_leaks.leak_rates(
         appliance,
         [addition for _, addition in additions],
         method=method,

@@ -13,16 +13,14 @@ from dataclasses import dataclass, field
 from datetime import date
 from enum import StrEnum
 
-from diagnostics.core.leaks import (
-    US_EPA,
+from diagnostics.core.appliance_leaks import (
     Appliance,
-    LeakRateMethod,
     LeakRepair,
-    LeakRuleSet,
     RefrigerantAddition,
     chronic_leaker_years,
     leak_rates,
 )
+from diagnostics.core.leaks import US_EPA, LeakRateMethod, LeakRuleSet
 from diagnostics.core.maintenance import (
     DEFAULT_MAINTENANCE_RULES,
     MaintenancePlan,
