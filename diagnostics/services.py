@@ -18,7 +18,7 @@ from django.db import connection, transaction
 from django.db.models import QuerySet
 from django.utils import timezone
 
-from diagnostics.core import appliance_leaks, flags, leaks, plausibility, start_risk
+from diagnostics.core import appliance_leaks, flags, leaks, plausibility, start_history
 from diagnostics.core import diagnose as core_diagnose
 from diagnostics.core.types import (
     APPLICATIONS,
@@ -37,14 +37,14 @@ from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit
 from .history import unit_histories
 from .models import Diagnosis, Flag, LeakRate
 
-#: What ``start_risk.fitted_capacitor`` reads of a component.
+#: What ``start_history.fitted_capacitor`` reads of a component.
 _PART_FIELDS = ("id", "kind", "installed_on", "removed_on", "rating_uf_min", "rating_uf_max")
 
 
 def _fitted_band(components: list[Component], role: str) -> tuple[float, float] | None:
     """The band (``Component.rating_band_uf``) of the capacitor of ``role`` fitted now."""
     parts = [{"component": c, **{f: getattr(c, f) for f in _PART_FIELDS}} for c in components]
-    fitted = start_risk.fitted_capacitor(parts, role)
+    fitted = start_history.fitted_capacitor(parts, role)
     return None if fitted is None else fitted["component"].rating_band_uf()
 
 

@@ -28,7 +28,7 @@ from zoneinfo import ZoneInfo
 
 from django.db.models import Q
 
-from diagnostics.core import start_risk
+from diagnostics.core import start_history
 from diagnostics.models import Diagnosis, Flag, FlagKind, FlagSeverity
 from fleet import choices
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Site, Unit, Visit, VisitUnit
@@ -210,7 +210,7 @@ def components_by_unit(site_id: int) -> dict[int, list[dict[str, Any]]]:
 
 def _fitted_rating(parts: list[dict[str, Any]], role: str, on: date) -> CapacitorRating | None:
     """The rating of the capacitor of a role in service on ``on``."""
-    newest = start_risk.fitted_capacitor(parts, role, on)
+    newest = start_history.fitted_capacitor(parts, role, on)
     if newest is None:
         return None
     high = newest["rating_uf_max"]

@@ -28,13 +28,13 @@ from diagnostics.core.maintenance import (
     maintenance_status,
 )
 from diagnostics.core.sources import cite
-from diagnostics.core.start_risk import (
+from diagnostics.core.start_history import StartHistory
+from diagnostics.core.start_risk import assess_start_risk_many
+from diagnostics.core.start_risk_rules import (
     DEFAULT_START_RULES,
     RiskLevel,
-    StartHistory,
     StartRiskAssessment,
     StartRiskRules,
-    assess_start_risk_many,
 )
 from diagnostics.core.trends import (
     DEFAULT_DRIFT_RULES,

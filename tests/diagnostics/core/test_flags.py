@@ -23,7 +23,7 @@ from diagnostics.core.flags import (
 )
 from diagnostics.core.maintenance import MaintenancePlan
 from diagnostics.core.sources import describe_rules
-from diagnostics.core.start_risk import StartAttempt, StartHistory
+from diagnostics.core.start_history import StartAttempt, StartHistory
 from diagnostics.core.trends import DEFAULT_DRIFT_RULES, SplitDriftInput, SplitPoint
 
 TODAY = date(2026, 8, 1)
