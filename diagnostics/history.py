@@ -28,8 +28,8 @@ from diagnostics.core import (
     flags,
     leaks,
     maintenance,
+    split_drift_types,
     start_history,
-    trends,
 )
 from diagnostics.core.types import APPLICATIONS, UnitDesign, choice
 from fleet.choices import ComponentKind, RefrigerantEventKind, Stage, VisitKind, VisitStatus
@@ -413,8 +413,8 @@ def _history(
     rows = slice(*readings.spans.get(u["id"], (0, 0)))
     split_k = readings.split_k[rows]
     found = ~np.isnan(split_k)
-    split = trends.SplitDriftInput(
-        points=trends.SplitColumns.of(
+    split = split_drift_types.SplitDriftInput(
+        points=split_drift_types.SplitColumns.of(
             readings.days[rows][found],
             split_k[found],
             readings.entering_air_c[rows][found],
@@ -422,7 +422,7 @@ def _history(
         ),
         design_split_k=design_split_k,
         head=(
-            trends.HeadPressureLimit(
+            split_drift_types.HeadPressureLimit(
                 refrigerant=u["refrigerant__designation"],
                 design_day_ambient_c=u["site__design_ambient_c"],
                 high_pressure_cutout_kpa_gauge=u["high_pressure_cutout_kpa_gauge"],

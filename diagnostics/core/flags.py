@@ -28,6 +28,8 @@ from diagnostics.core.maintenance import (
     maintenance_status,
 )
 from diagnostics.core.sources import cite
+from diagnostics.core.split_drift import DEFAULT_DRIFT_RULES, DriftRules, assess_split_drift_many
+from diagnostics.core.split_drift_types import SplitDrift, SplitDriftInput
 from diagnostics.core.start_history import StartHistory
 from diagnostics.core.start_risk import assess_start_risk_many
 from diagnostics.core.start_risk_rules import (
@@ -35,13 +37,6 @@ from diagnostics.core.start_risk_rules import (
     RiskLevel,
     StartRiskAssessment,
     StartRiskRules,
-)
-from diagnostics.core.trends import (
-    DEFAULT_DRIFT_RULES,
-    DriftRules,
-    SplitDrift,
-    SplitDriftInput,
-    assess_split_drift_many,
 )
 
 

@@ -23,8 +23,9 @@ from diagnostics.core.flags import (
 )
 from diagnostics.core.maintenance import MaintenancePlan
 from diagnostics.core.sources import describe_rules
+from diagnostics.core.split_drift import DEFAULT_DRIFT_RULES
+from diagnostics.core.split_drift_types import SplitDriftInput, SplitPoint
 from diagnostics.core.start_history import StartAttempt, StartHistory
-from diagnostics.core.trends import DEFAULT_DRIFT_RULES, SplitDriftInput, SplitPoint
 
 TODAY = date(2026, 8, 1)
 
