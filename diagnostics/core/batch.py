@@ -8,7 +8,7 @@ a condenser off its target, and the signals and findings. Nothing here writes te
 stored row: the result is columns (``BatchResult``), turned into the stored form by
 ``encode.py``.
 
-Saturation temperatures come from ``saturation.py`` (dew and bubble, see ``targets.py`` for
+Saturation temperatures come from ``saturation`` (dew and bubble, see ``targets.py`` for
 the glide choice), gauge pressures are made absolute with the standard atmosphere at the
 site's elevation. Cycle metrics (TD, split, superheat, subcooling, compression ratio,
 discharge temperature) are not scored when the compressor is reported stopped. R-744 with the
