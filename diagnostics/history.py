@@ -22,16 +22,24 @@ from django.db.models import Max, Min, Q, QuerySet
 from django.utils import timezone
 from numpy.typing import NDArray
 
-from diagnostics.core import design, flags, leaks, maintenance, start_risk, trends
+from diagnostics.core import (
+    appliance_leaks,
+    design,
+    flags,
+    leaks,
+    maintenance,
+    split_drift_types,
+    start_history,
+)
 from diagnostics.core.types import APPLICATIONS, UnitDesign, choice
 from fleet.choices import ComponentKind, RefrigerantEventKind, Stage, VisitKind, VisitStatus
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit, VisitUnit
 
 _START_PARTS = {
-    ComponentKind.RUN_CAPACITOR: start_risk.StartComponent.RUN_CAPACITOR,
-    ComponentKind.START_CAPACITOR: start_risk.StartComponent.START_CAPACITOR,
-    ComponentKind.START_RELAY: start_risk.StartComponent.START_RELAY,
-    ComponentKind.HARD_START_KIT: start_risk.StartComponent.HARD_START_KIT,
+    ComponentKind.RUN_CAPACITOR: start_history.StartComponent.RUN_CAPACITOR,
+    ComponentKind.START_CAPACITOR: start_history.StartComponent.START_CAPACITOR,
+    ComponentKind.START_RELAY: start_history.StartComponent.START_RELAY,
+    ComponentKind.HARD_START_KIT: start_history.StartComponent.HARD_START_KIT,
 }
 
 
@@ -66,7 +74,7 @@ class _Readings:
     start_uf: NDArray[np.float64]
     as_left: NDArray[np.bool_]
     spans: dict[int, tuple[int, int]]
-    attempts: dict[int, list[start_risk.StartAttempt]]
+    attempts: dict[int, list[start_history.StartAttempt]]
 
     @classmethod
     def of(cls, rows: list[tuple], zones: dict[int, str]) -> _Readings:
@@ -78,12 +86,12 @@ class _Readings:
         # core tells a failed start from off-cycle by the call for cooling and the amps); a
         # running compressor's supply voltage is not its voltage at start; nor is one stopped
         # for defrost a start attempt.
-        attempts: dict[int, list[start_risk.StartAttempt]] = defaultdict(list)
+        attempts: dict[int, list[start_history.StartAttempt]] = defaultdict(list)
         found = Stage.AS_FOUND.value
         for r, ordinal in zip(rows, ordinals.tolist(), strict=True):
             if r[7] is False and r[2] == found and not r[11]:
                 attempts[r[0]].append(
-                    start_risk.StartAttempt(
+                    start_history.StartAttempt(
                         observed_on=dt.date.fromordinal(ordinal),
                         started=False,
                         peak_amps=r[8],
@@ -369,10 +377,10 @@ def _capacitor_series(readings: _Readings, rows: slice, parts: list[dict]) -> tu
     """Capacitor readings as columns, judged against the rating of the part fitted now."""
     series = []
     for values, role, component in (
-        (readings.run_uf, "run", start_risk.StartComponent.RUN_CAPACITOR),
-        (readings.start_uf, "start", start_risk.StartComponent.START_CAPACITOR),
+        (readings.run_uf, "run", start_history.StartComponent.RUN_CAPACITOR),
+        (readings.start_uf, "start", start_history.StartComponent.START_CAPACITOR),
     ):
-        current = start_risk.fitted_capacitor(parts, role)
+        current = start_history.fitted_capacitor(parts, role)
         if current is None:
             continue
         measured = values[rows]
@@ -380,7 +388,7 @@ def _capacitor_series(readings: _Readings, rows: slice, parts: list[dict]) -> tu
         if not taken.any():
             continue
         series.append(
-            start_risk.CapacitorColumns.of(
+            start_history.CapacitorColumns.of(
                 component,
                 readings.days[rows][taken],
                 measured[taken],
@@ -405,8 +413,8 @@ def _history(
     rows = slice(*readings.spans.get(u["id"], (0, 0)))
     split_k = readings.split_k[rows]
     found = ~np.isnan(split_k)
-    split = trends.SplitDriftInput(
-        points=trends.SplitColumns.of(
+    split = split_drift_types.SplitDriftInput(
+        points=split_drift_types.SplitColumns.of(
             readings.days[rows][found],
             split_k[found],
             readings.entering_air_c[rows][found],
@@ -414,7 +422,7 @@ def _history(
         ),
         design_split_k=design_split_k,
         head=(
-            trends.HeadPressureLimit(
+            split_drift_types.HeadPressureLimit(
                 refrigerant=u["refrigerant__designation"],
                 design_day_ambient_c=u["site__design_ambient_c"],
                 high_pressure_cutout_kpa_gauge=u["high_pressure_cutout_kpa_gauge"],
@@ -427,11 +435,11 @@ def _history(
         ),
     )
     replacements = tuple(
-        start_risk.ComponentReplacement(p["installed_on"], _START_PARTS[p["kind"]])
+        start_history.ComponentReplacement(p["installed_on"], _START_PARTS[p["kind"]])
         for p in parts
         if p["kind"] in _START_PARTS and p["installed_on"] is not None
     )
-    start = start_risk.StartHistory(
+    start = start_history.StartHistory(
         capacitor_readings=_capacitor_series(readings, rows, parts),
         start_attempts=tuple(readings.attempts.get(u["id"], ())),
         replacements=replacements,
@@ -445,13 +453,17 @@ def _history(
             reason = (
                 leaks.ExcludedReason(e["leak_rate_exemption"]) if e["leak_rate_exemption"] else None
             )
-            additions.append(leaks.RefrigerantAddition(e["occurred_on"], e["amount_kg"], reason))
+            additions.append(
+                appliance_leaks.RefrigerantAddition(e["occurred_on"], e["amount_kg"], reason)
+            )
         elif e["kind"] == RefrigerantEventKind.LEAK_REPAIRED:
-            repairs.append(leaks.LeakRepair(e["occurred_on"]))
+            repairs.append(appliance_leaks.LeakRepair(e["occurred_on"]))
         elif e["kind"] == RefrigerantEventKind.FOLLOW_UP_VERIFICATION and e["passed"] and repairs:
-            repairs[-1] = leaks.LeakRepair(repairs[-1].repaired_on, verified_on=e["occurred_on"])
+            repairs[-1] = appliance_leaks.LeakRepair(
+                repairs[-1].repaired_on, verified_on=e["occurred_on"]
+            )
     leak = flags.LeakHistory(
-        appliance=leaks.Appliance(
+        appliance=appliance_leaks.Appliance(
             refrigerant=u["refrigerant__designation"],
             full_charge_kg=u["full_charge_kg"],
             appliance_type=leaks.ApplianceType(u["appliance_type"]),

@@ -18,8 +18,8 @@ from django.db import connection, transaction
 from django.db.models import QuerySet
 from django.utils import timezone
 
+from diagnostics.core import appliance_leaks, flags, leaks, plausibility, start_history
 from diagnostics.core import diagnose as core_diagnose
-from diagnostics.core import flags, leaks, plausibility, start_risk
 from diagnostics.core.types import (
     APPLICATIONS,
     CONDENSER_TYPES,
@@ -37,14 +37,14 @@ from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit
 from .history import unit_histories
 from .models import Diagnosis, Flag, LeakRate
 
-#: What ``start_risk.fitted_capacitor`` reads of a component.
+#: What ``start_history.fitted_capacitor`` reads of a component.
 _PART_FIELDS = ("id", "kind", "installed_on", "removed_on", "rating_uf_min", "rating_uf_max")
 
 
 def _fitted_band(components: list[Component], role: str) -> tuple[float, float] | None:
     """The band (``Component.rating_band_uf``) of the capacitor of ``role`` fitted now."""
     parts = [{"component": c, **{f: getattr(c, f) for f in _PART_FIELDS}} for c in components]
-    fitted = start_risk.fitted_capacitor(parts, role)
+    fitted = start_history.fitted_capacitor(parts, role)
     return None if fitted is None else fitted["component"].rating_band_uf()
 
 
@@ -340,23 +340,27 @@ def record_leak_rates(unit: Unit, now: dt.datetime | None = None) -> dict[int, L
     events = list(
         RefrigerantEvent.objects.filter(visit_unit__unit=unit).order_by("occurred_on", "id")
     )
-    additions: list[tuple[RefrigerantEvent, leaks.RefrigerantAddition]] = []
-    repairs: list[leaks.LeakRepair] = []
+    additions: list[tuple[RefrigerantEvent, appliance_leaks.RefrigerantAddition]] = []
+    repairs: list[appliance_leaks.LeakRepair] = []
     for e in events:
         # An addition always has its amount: a check constraint holds it.
         if e.kind == RefrigerantEventKind.ADDED and e.amount_kg is not None:
             reason = leaks.ExcludedReason(e.leak_rate_exemption) if e.leak_rate_exemption else None
-            additions.append((e, leaks.RefrigerantAddition(e.occurred_on, e.amount_kg, reason)))
+            additions.append(
+                (e, appliance_leaks.RefrigerantAddition(e.occurred_on, e.amount_kg, reason))
+            )
         elif e.kind == RefrigerantEventKind.LEAK_REPAIRED:
-            repairs.append(leaks.LeakRepair(repaired_on=e.occurred_on))
+            repairs.append(appliance_leaks.LeakRepair(repaired_on=e.occurred_on))
         elif e.kind == RefrigerantEventKind.FOLLOW_UP_VERIFICATION and e.passed and repairs:
-            repairs[-1] = leaks.LeakRepair(repairs[-1].repaired_on, verified_on=e.occurred_on)
-    appliance = leaks.Appliance(
+            repairs[-1] = appliance_leaks.LeakRepair(
+                repairs[-1].repaired_on, verified_on=e.occurred_on
+            )
+    appliance = appliance_leaks.Appliance(
         refrigerant=unit.refrigerant.designation,
         full_charge_kg=unit.full_charge_kg,
         appliance_type=leaks.ApplianceType(unit.appliance_type),
     )
-    results = leaks.leak_rates(
+    results = appliance_leaks.leak_rates(
         appliance,
         [addition for _, addition in additions],
         method=method,

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 from datetime import date, datetime
 from zoneinfo import ZoneInfo
 
-from diagnostics.core import costs, leaks
+from diagnostics.core import costs, leaks, site_leaks
 from diagnostics.core.types import Caution
 
 from . import words
@@ -399,7 +399,7 @@ class SiteMonth:
     as_of: datetime
     units: tuple[UnitMonth, ...]
     visits: tuple[VisitInfo, ...]
-    refrigerant: leaks.SiteLeakTotals
+    refrigerant: site_leaks.SiteLeakTotals
     overview: SiteOverview
     attention: tuple[UnitMonth, ...]
     algorithm_versions: tuple[str, ...]

@@ -12,7 +12,7 @@ from statistics import fmean
 from typing import Any
 from zoneinfo import ZoneInfo
 
-from diagnostics.core import leaks
+from diagnostics.core import appliance_leaks, leaks, site_leaks
 from diagnostics.core.scoring import SCORING_TABLE
 from diagnostics.core.types import Caution
 from fleet import choices
@@ -203,13 +203,13 @@ def gather_site_month(site_id: int, month: Month, *, now: datetime) -> SiteMonth
             )
         )
 
-    totals = leaks.site_totals(
+    totals = site_leaks.site_totals(
         [
-            leaks.UnitAdditions(
+            site_leaks.UnitAdditions(
                 u.unit.id,
                 u.unit.refrigerant,
                 tuple(
-                    leaks.RefrigerantAddition(
+                    appliance_leaks.RefrigerantAddition(
                         a.occurred_on,
                         a.amount_kg,
                         leaks.ExcludedReason(a.exemption) if a.exemption else None,

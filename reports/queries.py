@@ -26,7 +26,7 @@ from typing import Any
 
 from django.db.models import Q
 
-from diagnostics.core import start_risk
+from diagnostics.core import start_history
 from diagnostics.models import Diagnosis
 from fleet import choices
 from fleet.models import Component, ReadingSet, Site, Unit
@@ -150,7 +150,7 @@ def components_by_unit(site_id: int) -> dict[int, list[Mapping[str, Any]]]:
 
 def _fitted_rating(parts: list[Mapping[str, Any]], role: str, on: date) -> CapacitorRating | None:
     """The rating of the capacitor of a role in service on ``on``."""
-    newest = start_risk.fitted_capacitor(parts, role, on)
+    newest = start_history.fitted_capacitor(parts, role, on)
     if newest is None:
         return None
     high = newest["rating_uf_max"]

@@ -8,7 +8,7 @@ a condenser off its target, and the signals and findings. Nothing here writes te
 stored row: the result is columns (``BatchResult``), turned into the stored form by
 ``encode.py``.
 
-Saturation temperatures come from ``saturation.py`` (dew and bubble, see ``targets.py`` for
+Saturation temperatures come from ``saturation`` (dew and bubble, see ``targets.py`` for
 the glide choice), gauge pressures are made absolute with the standard atmosphere at the
 site's elevation. Cycle metrics (TD, split, superheat, subcooling, compression ratio,
 discharge temperature) are not scored when the compressor is reported stopped. R-744 with the
@@ -31,6 +31,7 @@ from diagnostics.core import (
     energy,
     findings,
     grading,
+    rule_firing,
     saturation,
 )
 from diagnostics.core import scoring as sc
@@ -38,6 +39,7 @@ from diagnostics.core import targets as tg
 from diagnostics.core.grading import MetricColumns
 from diagnostics.core.inputs import ReadingColumns, UnitColumns
 from diagnostics.core.numeric import FloatArray
+from diagnostics.core.signals import derive_signals
 from diagnostics.core.types import HEAD_PRESSURE_CONTROLS, STATUSES, DerivedValues, UnitDesign
 
 #: Bump whenever a change alters any stored result; ``manage.py rescore`` keys on it.
@@ -318,7 +320,7 @@ def diagnose_batch(
         total_points += m.points
         judged |= m.status != sc.NOT_SCORED
 
-    signals = findings.derive_signals(
+    signals = derive_signals(
         {name: (m.measured, m.target, m.deviation, m.status) for name, m in metrics.items()},
         flags={
             "call_for_cooling": r.call_for_cooling,
@@ -336,7 +338,7 @@ def diagnose_batch(
         & ~(cond_on_basis > head.high),
         receiver_backed_up=(t.has_receiver == 1.0) & ~held,
     )
-    fired = findings.evaluate(signals, n)
+    fired = rule_firing.evaluate(signals, n)
     sat_targets: dict[str, FloatArray] = {}
     for side, temps, pressure, pressures in (
         ("evaporating_c", s.t_evap, "suction_kpa_gauge", s.p_evap),

@@ -21,17 +21,18 @@ from numpy.typing import NDArray
 from diagnostics.core import electrical
 from diagnostics.core import scoring as sc
 from diagnostics.core import targets as tg
+from diagnostics.core import unit_defaults as ud
 from diagnostics.core.inputs import UnitColumns
 from diagnostics.core.numeric import FloatArray
 from diagnostics.core.types import APPLICATIONS, UnitDesign
 
-#: Where a resolved quantity came from (``targets.FROM_DESIGN`` / ``FROM_DEFAULT`` /
+#: Where a resolved quantity came from (``unit_defaults.FROM_DESIGN`` / ``FROM_DEFAULT`` /
 #: ``MISSING``), by name.
 Origin = Literal["design", "application_default", "missing"]
 ORIGINS: dict[int, Origin] = {
-    tg.FROM_DESIGN: "design",
-    tg.FROM_DEFAULT: "application_default",
-    tg.MISSING: "missing",
+    ud.FROM_DESIGN: "design",
+    ud.FROM_DEFAULT: "application_default",
+    ud.MISSING: "missing",
 }
 
 
@@ -71,7 +72,7 @@ class Resolved:
         )
 
 
-def _banded(resolved: tg.Resolved, metric: str) -> Resolved:
+def _banded(resolved: ud.Resolved, metric: str) -> Resolved:
     """A resolved target with the ok band its metric's rule puts around it."""
     low, high = sc.ok_band(sc.SCORING_TABLE[metric], resolved.value)
     return Resolved(resolved.value, low, high, resolved.origin)
@@ -161,34 +162,34 @@ def resolve(units: Sequence[UnitDesign] | UnitColumns) -> DesignTargets:
     (``targets.APPLICATION_DEFAULTS``), with the ok range and the origin of each."""
     u = units if isinstance(units, UnitColumns) else UnitColumns.from_designs(units)
     f, app = u.floats, u.application_code
-    box = tg.resolve(f["design_box_temp_c"], tg.default_box_temp_c(app))
+    box = ud.resolve(f["design_box_temp_c"], ud.default_box_temp_c(app))
     # An ice machine makes ice: its bin is no box held at a set point, so no box target.
     ice = app == APPLICATIONS.index("ice_machine")
-    box = tg.Resolved(np.where(ice, np.nan, box.value), np.where(ice, tg.MISSING, box.origin))
-    sh_low, sh_high = tg.default_superheat_range_k(app, u.metering_code)
-    sh_min = tg.resolve(f["superheat_min_k"], sh_low)
-    sh_max = tg.resolve(f["superheat_max_k"], sh_high)
+    box = ud.Resolved(np.where(ice, np.nan, box.value), np.where(ice, ud.MISSING, box.origin))
+    sh_low, sh_high = ud.default_superheat_range_k(app, u.metering_code)
+    sh_min = ud.resolve(f["superheat_min_k"], sh_low)
+    sh_max = ud.resolve(f["superheat_max_k"], sh_high)
     sh_origin = np.stack([sh_min.origin, sh_max.origin])
-    sc_low, sc_high = tg.subcooling_range_k(u.has_receiver)
+    sc_low, sc_high = ud.subcooling_range_k(u.has_receiver)
     receiver_origin = np.where(
         np.isnan(u.has_receiver),
-        tg.MISSING,
-        np.where([d.has_receiver is not None for d in u.designs], tg.FROM_DESIGN, tg.FROM_DEFAULT),
+        ud.MISSING,
+        np.where([d.has_receiver is not None for d in u.designs], ud.FROM_DESIGN, ud.FROM_DEFAULT),
     ).astype(np.int8)
-    setpoint, held_low, held_high = tg.head_control_band(
+    setpoint, held_low, held_high = ud.head_control_band(
         u.control_code, f["head_pressure_setpoint_c"]
     )
     setpoint_origin = np.where(
         np.isnan(setpoint),
-        tg.MISSING,
-        np.where(np.isnan(f["head_pressure_setpoint_c"]), tg.FROM_DEFAULT, tg.FROM_DESIGN),
+        ud.MISSING,
+        np.where(np.isnan(f["head_pressure_setpoint_c"]), ud.FROM_DEFAULT, ud.FROM_DESIGN),
     ).astype(np.int8)
-    typical_low, typical_high = tg.compression_ratio_typical(app)
+    typical_low, typical_high = ud.compression_ratio_typical(app)
     volts, volts_max = f["nameplate_volts"], f["nameplate_volts_max"]
     upper = np.where(np.isnan(volts_max), volts, volts_max)
     volt_tol = electrical.NEMA_VOLTAGE_TOLERANCE_PCT / 100.0
     rating = f["run_capacitor_uf"]
-    tolerance = tg.resolve(f["run_capacitor_tolerance_pct"], tg.RUN_CAPACITOR_TOLERANCE_PCT.value)
+    tolerance = ud.resolve(f["run_capacitor_tolerance_pct"], tg.RUN_CAPACITOR_TOLERANCE_PCT.value)
     tol_pct = np.where(np.isnan(rating), np.nan, tolerance.value)
     s_min, s_max = f["start_capacitor_min_uf"], f["start_capacitor_max_uf"]
     s_min, s_max = np.where(np.isnan(s_min), s_max, s_min), np.where(np.isnan(s_max), s_min, s_max)
@@ -196,10 +197,10 @@ def resolve(units: Sequence[UnitDesign] | UnitColumns) -> DesignTargets:
     return DesignTargets(
         box_temp_c=_banded(box, "box_temp"),
         evap_td_k=_banded(
-            tg.resolve(f["design_evap_td_k"], tg.default_evap_td_k(app)), "evaporator_td"
+            ud.resolve(f["design_evap_td_k"], ud.default_evap_td_k(app)), "evaporator_td"
         ),
         condenser_split_k=_banded(
-            tg.resolve(f["design_condenser_split_k"], tg.default_condenser_split_k(app)),
+            ud.resolve(f["design_condenser_split_k"], ud.default_condenser_split_k(app)),
             "condenser_split",
         ),
         superheat_k=Resolved(
@@ -207,13 +208,13 @@ def resolve(units: Sequence[UnitDesign] | UnitColumns) -> DesignTargets:
             sh_min.value,
             sh_max.value,
             np.where(
-                (sh_origin == tg.MISSING).any(axis=0), tg.MISSING, sh_origin.max(axis=0)
+                (sh_origin == ud.MISSING).any(axis=0), ud.MISSING, sh_origin.max(axis=0)
             ).astype(np.int8),
         ),
         subcooling_k=Resolved(0.5 * (sc_low + sc_high), sc_low, sc_high, receiver_origin),
         head_setpoint_c=Resolved(setpoint, held_low, held_high, setpoint_origin),
         run_capacitor_tolerance_pct=Resolved(
-            tol_pct, nan, nan, np.where(np.isnan(rating), tg.MISSING, tolerance.origin)
+            tol_pct, nan, nan, np.where(np.isnan(rating), ud.MISSING, tolerance.origin)
         ),
         ice_machine=ice,
         water_cooled=u.water_cooled,

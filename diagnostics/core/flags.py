@@ -13,16 +13,14 @@ from dataclasses import dataclass, field
 from datetime import date
 from enum import StrEnum
 
-from diagnostics.core.leaks import (
-    US_EPA,
+from diagnostics.core.appliance_leaks import (
     Appliance,
-    LeakRateMethod,
     LeakRepair,
-    LeakRuleSet,
     RefrigerantAddition,
     chronic_leaker_years,
     leak_rates,
 )
+from diagnostics.core.leaks import US_EPA, LeakRateMethod, LeakRuleSet
 from diagnostics.core.maintenance import (
     DEFAULT_MAINTENANCE_RULES,
     MaintenancePlan,
@@ -30,20 +28,15 @@ from diagnostics.core.maintenance import (
     maintenance_status,
 )
 from diagnostics.core.sources import cite
-from diagnostics.core.start_risk import (
+from diagnostics.core.split_drift import DEFAULT_DRIFT_RULES, DriftRules, assess_split_drift_many
+from diagnostics.core.split_drift_types import SplitDrift, SplitDriftInput
+from diagnostics.core.start_history import StartHistory
+from diagnostics.core.start_risk import assess_start_risk_many
+from diagnostics.core.start_risk_rules import (
     DEFAULT_START_RULES,
     RiskLevel,
-    StartHistory,
     StartRiskAssessment,
     StartRiskRules,
-    assess_start_risk_many,
-)
-from diagnostics.core.trends import (
-    DEFAULT_DRIFT_RULES,
-    DriftRules,
-    SplitDrift,
-    SplitDriftInput,
-    assess_split_drift_many,
 )
 
 

@@ -9,8 +9,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from diagnostics.core import refrigerants
-from diagnostics.core import targets as tg
+from diagnostics.core import refrigerants, unit_defaults
 from diagnostics.core.numeric import FloatArray
 from diagnostics.core.types import (
     APPLICATIONS,
@@ -204,7 +203,7 @@ class UnitColumns:
         apps = [d.application if d.application in APPLICATIONS else "other" for d in designs]
         app_code = np.array([APPLICATIONS.index(a) for a in apps], dtype=np.intp)
         given = np.array([d.metering_device in METERING_DEVICES for d in designs], dtype=bool)
-        default_meter = tg.default_metering_codes(app_code).astype(np.intp)
+        default_meter = unit_defaults.default_metering_codes(app_code).astype(np.intp)
         meter = np.array(
             [
                 METERING_DEVICES.index(d.metering_device)
@@ -218,7 +217,9 @@ class UnitColumns:
         receiver = _col(
             [None if d.has_receiver is None else float(d.has_receiver) for d in designs]
         )
-        receiver = np.where(np.isnan(receiver), tg.default_has_receiver(app_code), receiver)
+        receiver = np.where(
+            np.isnan(receiver), unit_defaults.default_has_receiver(app_code), receiver
+        )
         control_given = np.array(
             [d.head_pressure_control in HEAD_PRESSURE_CONTROLS for d in designs], dtype=bool
         )
@@ -229,7 +230,9 @@ class UnitColumns:
             ],
             dtype=np.intp,
         )
-        control = np.where(control_given, control, tg.default_head_pressure_control_codes(app_code))
+        control = np.where(
+            control_given, control, unit_defaults.default_head_pressure_control_codes(app_code)
+        )
         return cls(
             designs=tuple(designs),
             refrigerants=distinct,

@@ -2,7 +2,7 @@
 clearly when it is not a number), and floats back out with None for what is missing.
 
 Shared by the unit conversions (``units.py``), the standard atmosphere (``atmosphere.py``)
-and the saturation tables (``saturation.py``); it imports nothing of ours, so none of them
+and the saturation tables (``saturation.lookup``); it imports nothing of ours, so none of them
 imports another for it.
 """
 

@@ -14,7 +14,7 @@ import string
 from collections.abc import Callable, Mapping
 from typing import NamedTuple
 
-from diagnostics.core import findings, refrigerants, units
+from diagnostics.core import findings, refrigerants, rule_firing, units
 from diagnostics.core import scoring as sc
 from diagnostics.core import targets as tg
 from diagnostics.core.design import Origin
@@ -252,13 +252,13 @@ def evidence_texts(signal: str, at: list[int], values: MetricValues) -> list[str
 @functools.cache
 def evidence_names(bit: int, first_trigger: int, support: int) -> tuple[str, ...]:
     """The signals behind rule ``bit`` for rows whose first holding trigger and supporting
-    signals (bit j = ``rule.supporting[j]``) are these; ``findings.signals_behind`` decides."""
+    signals (bit j = ``rule.supporting[j]``) are these; ``rule_firing.signals_behind`` decides."""
     rule = findings.RULES[bit]
     holding = dict.fromkeys(rule.triggers[first_trigger], True)
     for j, name in enumerate(rule.supporting):
         if support >> j & 1:
             holding[name] = True
-    return findings.signals_behind(rule, holding)
+    return rule_firing.signals_behind(rule, holding)
 
 
 # --- cautions ------------------------------------------------------------------------------

@@ -10,6 +10,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from diagnostics.core import units
+from diagnostics.core.appliance_leaks import Appliance, LeakRepair, RefrigerantAddition
 from diagnostics.core.flags import (
     DEFAULT_FLAG_RULES,
     FlagKind,
@@ -20,11 +21,11 @@ from diagnostics.core.flags import (
     decide_flags_many,
     reconcile,
 )
-from diagnostics.core.leaks import Appliance, LeakRepair, RefrigerantAddition
 from diagnostics.core.maintenance import MaintenancePlan
 from diagnostics.core.sources import describe_rules
-from diagnostics.core.start_risk import StartAttempt, StartHistory
-from diagnostics.core.trends import DEFAULT_DRIFT_RULES, SplitDriftInput, SplitPoint
+from diagnostics.core.split_drift import DEFAULT_DRIFT_RULES
+from diagnostics.core.split_drift_types import SplitDriftInput, SplitPoint
+from diagnostics.core.start_history import StartAttempt, StartHistory
 
 TODAY = date(2026, 8, 1)
 

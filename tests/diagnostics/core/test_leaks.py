@@ -8,23 +8,18 @@ from datetime import date, timedelta
 import pytest
 
 from diagnostics.core import units
-from diagnostics.core.leaks import (
-    RULE_SETS,
-    US_EPA,
+from diagnostics.core.appliance_leaks import (
     Appliance,
-    ApplianceType,
-    ExcludedReason,
-    LeakRateMethod,
     LeakRepair,
     RefrigerantAddition,
-    UnitAdditions,
     annualizing_percent,
     chronic_leaker_years,
     leak_rates,
     rolling_average_percent,
-    site_totals,
     verification_deadlines,
 )
+from diagnostics.core.leaks import RULE_SETS, US_EPA, ApplianceType, ExcludedReason, LeakRateMethod
+from diagnostics.core.site_leaks import UnitAdditions, site_totals
 
 DAY = date(2026, 3, 15)
 

@@ -6,7 +6,7 @@ import dataclasses
 
 from diagnostics.core.costs import DEFAULT_COST_RULES
 from diagnostics.core.sources import describe_rules, source_of
-from diagnostics.core.start_risk import DEFAULT_START_RULES
+from diagnostics.core.start_risk_rules import DEFAULT_START_RULES
 
 
 def test_it_reads_back_the_source_of_each_default() -> None:

@@ -7,17 +7,17 @@ from datetime import date, timedelta
 import pytest
 
 from diagnostics.core import electrical
-from diagnostics.core.start_risk import (
+from diagnostics.core.start_history import (
     CapacitorColumns,
     CapacitorReading,
     ComponentReplacement,
-    RiskLevel,
     StartAttempt,
     StartComponent,
     StartHistory,
-    assess_start_risk,
     fitted_capacitor,
 )
+from diagnostics.core.start_risk import assess_start_risk
+from diagnostics.core.start_risk_rules import RiskLevel
 
 TODAY = date(2026, 7, 1)
 

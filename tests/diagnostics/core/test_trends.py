@@ -8,22 +8,22 @@ import numpy as np
 import pytest
 import scipy.stats
 
-from diagnostics.core.trends import (
+from diagnostics.core.head_pressure import highest_condensing_c
+from diagnostics.core.split_drift import (
     DEFAULT_DRIFT_RULES,
-    DriftStatus,
-    HeadPressureLimit,
-    MetricPoint,
-    SplitColumns,
-    SplitDriftInput,
-    SplitPoint,
     assess_split_drift,
     assess_split_drift_arrays,
     assess_split_drift_many,
-    build_series,
-    highest_condensing_c,
-    split_series,
-    theil_sen,
 )
+from diagnostics.core.split_drift_types import (
+    DriftStatus,
+    HeadPressureLimit,
+    SplitColumns,
+    SplitDriftInput,
+    SplitPoint,
+    split_series,
+)
+from diagnostics.core.trends import MetricPoint, build_series, theil_sen
 
 TODAY = date(2026, 6, 30)
 DESIGN_SPLIT_K = 14.0
