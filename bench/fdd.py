@@ -1,6 +1,6 @@
 """How well Rimewatch's judgement detects and names faults: a fault-labelled fleet season.
 
-Generates the season of ``fixtures/season.py`` (healthy units over every confounder and every
+Generates the season of ``fixtures/season/`` (healthy units over every confounder and every
 single fault at graded intensities, 24 monthly visits each, labelled), creates it in a
 throwaway SQLite database through the public REST API in-process (customer, sites, units,
 capacitors, one visit per site and month, each reading set posted with its ``units``), reads
@@ -11,11 +11,11 @@ tools (Frank et al., NREL/TP-5500-72801, 2019):
 - per fault and intensity: visits, detectable visits, detection rate (of the detectable
   visits, the share with an alarm), and of those detected the correct-diagnosis,
   misdiagnosis and no-diagnosis rates;
-- "detectable" two ways (``fixtures/season.py``): against the healthy range (outside what
-  any healthy unit of the same design shows at the same conditions, beyond the instruments'
-  uncertainty: the most a judgement of one reading set can see; the rates and goals use
-  it) and, beside it, against the unit's own healthy twin (the fault's shift from this very
-  unit's healthy values);
+- "detectable" two ways (``fixtures/season/detection.py``): against the healthy range
+  (outside what any healthy unit of the same design shows at the same conditions, beyond the
+  instruments' uncertainty: the most a judgement of one reading set can see; the rates and
+  goals use it) and, beside it, against the unit's own healthy twin (the fault's shift from
+  this very unit's healthy values);
 - per confounder: the false-alarm rate on healthy visits (a healthy visit with an alarm);
 - the flags open at the end against those each unit's story calls for;
 - the goals, met or missed, and the run time.
@@ -122,12 +122,15 @@ def _run(folder: Path, seed: int, started: float) -> None:
     from tqdm import tqdm
 
     from diagnostics.services import refresh_flags
-    from fixtures import season as sn
+    from fixtures.season import judging
+    from fixtures.season.draws import visit_day
+    from fixtures.season.specs import DIAGNOSTIC_FLAG_KINDS, MONTHS, SEASON_LAST_DAY, SITES
+    from fixtures.season.visits import build_season
     from fixtures.season_api import SeasonClient
 
     print(f"database set up in {time.perf_counter() - started:.1f} s")
     t = time.perf_counter()
-    season = sn.build_season(seed)
+    season = build_season(seed)
     visits = sum(len(v) for v in season.visits.values())
     print(
         f"season generated in {time.perf_counter() - t:.1f} s: {len(season.units)} units, "
@@ -140,7 +143,7 @@ def _run(folder: Path, seed: int, started: float) -> None:
     client.force_authenticate(office)
     api = SeasonClient(client)
 
-    site_ids = {key: api.site(site) for key, site in sn.SITES.items()}
+    site_ids = {key: api.site(site) for key, site in SITES.items()}
     unit_ids = {u.tag: api.unit(u, site_ids[u.site]) for u in season.units}
 
     #: Per fault and intensity: rated against the healthy range, and against the twin.
@@ -152,14 +155,14 @@ def _run(folder: Path, seed: int, started: float) -> None:
     with tqdm(
         total=visits, desc="posting reading sets", unit="set", file=sys.stdout, mininterval=2
     ) as bar:
-        for month in range(sn.MONTHS):
-            for key, site in sn.SITES.items():
+        for month in range(MONTHS):
+            for key, site in SITES.items():
                 units = [u for u in season.units if u.site == key]
-                day = sn.visit_day(site, month, seed)
+                day = visit_day(site, month, seed)
                 visit_id = api.visit(site, site_ids[key], day, [unit_ids[u.tag] for u in units])
                 for unit in units:
                     visit = season.visits[unit.tag][month]
-                    verdict = sn.verdict(api.reading(visit_id, unit_ids[unit.tag], visit))
+                    verdict = judging.verdict(api.reading(visit_id, unit_ids[unit.tag], visit))
                     if visit.fault is None:
                         for name in ("all healthy visits", *visit.confounders):
                             healthy[name][0] += 1
@@ -184,10 +187,10 @@ def _run(folder: Path, seed: int, started: float) -> None:
     posting = time.perf_counter() - t
 
     t = time.perf_counter()
-    refresh_flags(today=sn.SEASON_LAST_DAY)
+    refresh_flags(today=SEASON_LAST_DAY)
     flags = {
         u.tag: sorted(
-            {f["kind"] for f in api.open_flags(unit_ids[u.tag])} & set(sn.DIAGNOSTIC_FLAG_KINDS)
+            {f["kind"] for f in api.open_flags(unit_ids[u.tag])} & set(DIAGNOSTIC_FLAG_KINDS)
         )
         for u in season.units
     }

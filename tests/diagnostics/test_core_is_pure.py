@@ -32,10 +32,10 @@ def test_it_finds_no_django_or_record_import_in_the_core():
     """Every module under diagnostics/core/ imports only the standard library, numpy, scipy,
     CoolProp, orjson and the core itself."""
     core_dir = Path(diagnostics.core.__file__).parent
-    modules = sorted(core_dir.glob("*.py"))
-    assert len(modules) > 3
+    modules = sorted(core_dir.rglob("*.py"))
+    assert any(path.parent != core_dir for path in modules), "the packages are read too"
     offenders = {
-        f"{path.name}: {name}"
+        f"{path.relative_to(core_dir)}: {name}"
         for path in modules
         for name in _imports(path)
         if any(name == bad or name.startswith(bad + ".") for bad in FORBIDDEN)
@@ -43,21 +43,41 @@ def test_it_finds_no_django_or_record_import_in_the_core():
     assert not offenders, offenders
 
 
+def _core_name(path: Path, core_dir: Path) -> str:
+    """``saturation/lookup.py`` -> ``saturation.lookup``; a package is named by its folder."""
+    parts = list(path.relative_to(core_dir).with_suffix("").parts)
+    if parts[-1] == "__init__":
+        parts.pop()
+    return ".".join(parts)
+
+
 def _core_graph() -> dict[str, set[str]]:
-    """Core module -> the core modules it imports, at the top or inside a function."""
+    """Core module -> the core modules it imports, at the top or inside a function (relative
+    imports inside the core's packages resolved)."""
     core_dir = Path(diagnostics.core.__file__).parent
     graph: dict[str, set[str]] = {}
-    for path in core_dir.glob("*.py"):
+    for path in core_dir.rglob("*.py"):
+        if path.parent == core_dir and path.stem == "__init__":
+            continue
+        name = _core_name(path, core_dir)
+        package = name if path.stem == "__init__" else name.rpartition(".")[0]
         tree = ast.parse(path.read_text(), filename=str(path))
         targets: set[str] = set()
         for node in ast.walk(tree):
-            if isinstance(node, ast.ImportFrom) and node.module == "diagnostics.core":
+            if isinstance(node, ast.ImportFrom) and node.level > 0:
+                base = ".".join(package.split(".")[: len(package.split(".")) - node.level + 1])
+                module = ".".join(p for p in (base, node.module or "") if p)
+                targets.add(module)
+                targets.update(f"{module}.{alias.name}" for alias in node.names)
+            elif isinstance(node, ast.ImportFrom) and node.module == "diagnostics.core":
                 targets.update(alias.name for alias in node.names)
             elif isinstance(node, ast.ImportFrom) and node.module:
-                targets.add(node.module.removeprefix("diagnostics.core."))
+                module = node.module.removeprefix("diagnostics.core.")
+                targets.add(module)
+                targets.update(f"{module}.{alias.name}" for alias in node.names)
             elif isinstance(node, ast.Import):
                 targets.update(a.name.removeprefix("diagnostics.core.") for a in node.names)
-        graph[path.stem] = targets
+        graph[name] = targets
     return {name: targets & graph.keys() - {name} for name, targets in graph.items()}
 
 
@@ -66,6 +86,7 @@ def test_it_finds_no_import_circle_in_the_core():
     (a circle makes the import order matter and hides which module owns a rule)."""
     graph = _core_graph()
     assert "atmosphere" in graph["units"]
+    assert "saturation.lookup" in graph["saturation"], "the packages are read too"
     state: dict[str, int] = {}
     circles: list[list[str]] = []
 

@@ -1,4 +1,4 @@
-"""A labelled sample of the fleet season (``fixtures/season.py``) posted through the API.
+"""A labelled sample of the fleet season (``fixtures/season/``) posted through the API.
 
 Healthy visits of every confounder must raise no finding and no fault metric; one clearly
 detectable visit of each fault must get the expected finding first (or the expected code
@@ -19,40 +19,59 @@ from django.core.cache import cache
 from rest_framework.test import APIClient
 
 from diagnostics.core.units import KPA_PER_PSI
-from fixtures import season as sn
+from fixtures.season.detection import (
+    detectable,
+    detectable_by_twin,
+    healthy_envelope,
+    reported_conditions,
+    symptoms,
+)
+from fixtures.season.draws import HEALTHY_SPREADS, Draws, nominal_draws, visit_day
+from fixtures.season.judging import Verdict, verdict
+from fixtures.season.physics import Physics, State, operating_state, superheat_settings_k
+from fixtures.season.specs import (
+    EXPECTED_CODES,
+    INTENSITY_LEVELS,
+    MONTHS,
+    SEED,
+    SITES,
+    UnitSpec,
+    f_to_c,
+)
+from fixtures.season.visits import SeasonVisit, build_season, reading_of
 from fixtures.season_api import SeasonClient
 
-SEASON = sn.build_season()
+SEASON = build_season()
 UNITS = {u.tag: u for u in SEASON.units}
 #: Healthy visits picked per confounder.
 PER_CONFOUNDER = 2
 
 
-def _healthy_sample() -> list[sn.SeasonVisit]:
+def _healthy_sample() -> list[SeasonVisit]:
     """At least ``PER_CONFOUNDER`` visits of healthy units for every confounder seen on
     them, spread over the units and the months (a visit counts for each confounder in
     force)."""
     healthy = [v for u, v in SEASON.all_visits() if u.fault is None]
     order = {tag: i for i, tag in enumerate(UNITS)}
     wanted = sorted({c for v in healthy for c in v.confounders})
-    picked: list[sn.SeasonVisit] = []
+    picked: list[SeasonVisit] = []
     for name in wanted:
         have = sum(name in v.confounders for v in picked)
         used_units = {v.tag for v in picked}
         candidates = sorted(
             (v for v in healthy if name in v.confounders and v not in picked),
             # Units not picked yet first; months spread over the season.
-            key=lambda v: (v.tag in used_units, (v.month * 7 + order[v.tag] * 5) % sn.MONTHS),
+            key=lambda v: (v.tag in used_units, (v.month * 7 + order[v.tag] * 5) % MONTHS),
         )
         picked.extend(candidates[: max(0, PER_CONFOUNDER - have)])
     return picked
 
 
-def _fault_sample() -> list[sn.SeasonVisit]:
+def _fault_sample() -> list[SeasonVisit]:
     """One clearly detectable visit per fault: the most intense, running (or stalled on its
     start), head not held, nearest midsummer."""
     chosen = []
-    for kind in sn.EXPECTED_CODES:
+    for kind in EXPECTED_CODES:
         candidates = [
             v
             for _, v in SEASON.all_visits()
@@ -79,17 +98,17 @@ def api(office_user) -> SeasonClient:
     return SeasonClient(client)
 
 
-def _post(api: SeasonClient, visit: sn.SeasonVisit) -> sn.Verdict:
+def _post(api: SeasonClient, visit: SeasonVisit) -> Verdict:
     """Create the visit's site and unit, book the visit on its day, post the reading set."""
     unit = UNITS[visit.tag]
-    site = sn.SITES[unit.site]
+    site = SITES[unit.site]
     site_id = api.site(site)
     unit_id = api.unit(unit, site_id)
-    visit_id = api.visit(site, site_id, sn.visit_day(site, visit.month), [unit_id])
-    return sn.verdict(api.reading(visit_id, unit_id, visit))
+    visit_id = api.visit(site, site_id, visit_day(site, visit.month), [unit_id])
+    return verdict(api.reading(visit_id, unit_id, visit))
 
 
-def _id(visit: sn.SeasonVisit) -> str:
+def _id(visit: SeasonVisit) -> str:
     return f"{visit.tag}-m{visit.month:02d}"
 
 
@@ -118,7 +137,7 @@ def test_it_names_a_clearly_detectable_fault(api, visit):
     )
 
 
-def _labels(visit: sn.SeasonVisit) -> tuple:
+def _labels(visit: SeasonVisit) -> tuple:
     return (
         visit.reading,
         visit.fault,
@@ -131,8 +150,8 @@ def _labels(visit: sn.SeasonVisit) -> tuple:
 
 def test_it_generates_the_same_season_for_the_same_seed():
     """The same seed gives the same readings and labels; another seed other readings."""
-    again = sn.build_season()
-    other = sn.build_season(seed=sn.SEED + 1)
+    again = build_season()
+    other = build_season(seed=SEED + 1)
     for unit in SEASON.units:
         first, second = SEASON.visits[unit.tag], again.visits[unit.tag]
         assert [_labels(v) for v in first] == [_labels(v) for v in second]
@@ -147,14 +166,14 @@ def test_it_covers_every_fault_intensity_and_healthy_units():
     """Every fault appears at each graded intensity on some visits, and healthy units are a
     good share of the fleet (at least a quarter)."""
     seen = {(v.fault, v.intensity) for _, v in SEASON.all_visits() if v.fault is not None}
-    for kind in sn.EXPECTED_CODES:
-        for intensity in sn.INTENSITY_LEVELS:
+    for kind in EXPECTED_CODES:
+        for intensity in INTENSITY_LEVELS:
             assert (kind, intensity) in seen, (kind, intensity)
     healthy = [u for u in SEASON.units if u.fault is None]
     assert len(healthy) >= len(SEASON.units) / 4
 
 
-def _cooler() -> sn.UnitSpec:
+def _cooler() -> UnitSpec:
     return next(u for u in SEASON.units if u.fault is None and u.refrigerant == "R-404A")
 
 
@@ -163,10 +182,10 @@ def test_it_reads_a_healthy_r404a_cooler_at_25f_as_62_to_63_psig():
     its suction gauge then reads about 62-63 psig at sea level (docs/references.md §1.3, common
     practice: a PT chart, read to about half a psi, so 61.5-63.5 psig is accepted)."""
     unit = dataclasses.replace(_cooler(), site="harbour")
-    draws = sn.nominal_draws(dt.datetime(2024, 7, 15, 15, tzinfo=dt.UTC), 30.0)
-    state = sn.operating_state(unit, draws)
-    physics = sn.Physics("R-404A", 0.0)
-    assert physics.dew_c(state.suction_kpa_abs) == pytest.approx(sn.f_to_c(25.0), abs=0.01)
+    draws = nominal_draws(dt.datetime(2024, 7, 15, 15, tzinfo=dt.UTC), 30.0)
+    state = operating_state(unit, draws)
+    physics = Physics("R-404A", 0.0)
+    assert physics.dew_c(state.suction_kpa_abs) == pytest.approx(f_to_c(25.0), abs=0.01)
     psig = (state.suction_kpa_abs - 101.325) / KPA_PER_PSI
     assert 61.5 <= psig <= 63.5
 
@@ -176,12 +195,12 @@ def test_it_reads_gauges_at_1610_m_against_83_4_kpa():
     Fundamentals 2017, ch. 1, eq. 3; within 0.05 kPa), and a generated reading's suction
     gauge is the absolute pressure less that (within the 0.1 kPa it is rounded to)."""
     unit = next(u for u in SEASON.units if u.site == "plateau" and u.fault is None)
-    assert sn.SITES["plateau"].elevation_m == 1610.0
-    physics = sn.Physics(unit.refrigerant, 1610.0)
+    assert SITES["plateau"].elevation_m == 1610.0
+    physics = Physics(unit.refrigerant, 1610.0)
     assert physics.atmosphere_kpa == pytest.approx(83.4, abs=0.05)
-    draws = sn.nominal_draws(dt.datetime(2024, 7, 15, 15, tzinfo=dt.UTC), 30.0)
-    state = sn.operating_state(unit, draws)
-    reading = sn.reading_of(unit, state, draws)
+    draws = nominal_draws(dt.datetime(2024, 7, 15, 15, tzinfo=dt.UTC), 30.0)
+    state = operating_state(unit, draws)
+    reading = reading_of(unit, state, draws)
     assert reading["suction_pressure"] == pytest.approx(
         state.suction_kpa_abs - physics.atmosphere_kpa, abs=0.051
     )
@@ -192,9 +211,9 @@ def test_it_puts_a_mid_point_design_on_the_mid_point_of_the_glide():
     points at box - TD, and its dew point lies above that by about half the glide (R-449A
     glides about 4-5 K at evaporating pressures, from memory: the half-glide must be 1-3 K)."""
     unit = next(u for u in SEASON.units if u.basis == "mid_point")
-    draws = sn.nominal_draws(dt.datetime(2024, 7, 15, 15, tzinfo=dt.UTC), 30.0)
-    state = sn.operating_state(unit, draws)
-    physics = sn.Physics(unit.refrigerant, sn.SITES[unit.site].elevation_m)
+    draws = nominal_draws(dt.datetime(2024, 7, 15, 15, tzinfo=dt.UTC), 30.0)
+    state = operating_state(unit, draws)
+    physics = Physics(unit.refrigerant, SITES[unit.site].elevation_m)
     mid = (physics.dew_c(state.suction_kpa_abs) + physics.bubble_c(state.suction_kpa_abs)) / 2
     assert unit.design_box_c is not None
     assert unit.design_evap_td_k is not None
@@ -216,7 +235,7 @@ def test_it_keeps_healthy_operation_inside_published_ranges():
         if visit.fault is not None or not state.compressor_running:
             continue
         checked += 1
-        found = sn.symptoms(unit, state)
+        found = symptoms(unit, state)
         superheat_f, subcooling_f = found["superheat_k"] * 1.8, found["subcooling_k"] * 1.8
         if unit.metering == "txv" and unit.application != "ice_machine":
             low, high = (6, 10) if unit.application != "low_temp" else (4, 7)
@@ -254,15 +273,15 @@ MIDWINTER = dt.datetime(2024, 1, 15, 15, tzinfo=dt.UTC)
 
 
 def _healthy_sample(
-    unit: sn.UnitSpec, draws: sn.Draws, rng: np.random.Generator, count: int
-) -> list[tuple[sn.UnitSpec, sn.State]]:
+    unit: UnitSpec, draws: Draws, rng: np.random.Generator, count: int
+) -> list[tuple[UnitSpec, State]]:
     """``count`` healthy units of ``unit``'s design at the conditions of ``draws``, running,
     each spread and the valve setting drawn uniformly over its range, the fan's phase at
     random."""
-    settings = sn.superheat_settings_k(unit)
+    settings = superheat_settings_k(unit)
     found = []
     for _ in range(count):
-        spreads = {name: float(rng.uniform(*ends)) for name, ends in sn.HEALTHY_SPREADS.items()}
+        spreads = {name: float(rng.uniform(*ends)) for name, ends in HEALTHY_SPREADS.items()}
         corner = dataclasses.replace(
             draws, off_cycle=False, fan_off_phase=bool(rng.uniform() < 0.5), **spreads
         )
@@ -271,7 +290,7 @@ def _healthy_sample(
             if settings is None
             else dataclasses.replace(unit, superheat_setting_k=float(rng.uniform(*settings)))
         )
-        found.append((design, sn.operating_state(design, corner)))
+        found.append((design, operating_state(design, corner)))
     return found
 
 
@@ -293,13 +312,13 @@ def test_it_bounds_every_healthy_unit_of_a_design_by_its_envelope(tag, air_c):
     is no wider than they are: their lowest and highest come within a tenth of its span of
     its ends, and they are found in every condition it allows."""
     unit = UNITS[tag]
-    draws = sn.nominal_draws(MIDWINTER if air_c < 10 else MIDSUMMER, air_c)
-    envelope = sn.healthy_envelope(unit, draws)
+    draws = nominal_draws(MIDWINTER if air_c < 10 else MIDSUMMER, air_c)
+    envelope = healthy_envelope(unit, draws)
     values: dict[str, list[float]] = {name: [] for name in envelope.low}
     reported: set[str] = set()
     for design, state in _healthy_sample(unit, draws, np.random.default_rng(13), 1000):
-        reported |= sn.reported_conditions(state)
-        for name, value in sn.symptoms(design, state).items():
+        reported |= reported_conditions(state)
+        for name, value in symptoms(design, state).items():
             if name in values:
                 values[name].append(value)
     assert {"superheat_k", "subcooling_k", "condenser_split_k"} <= set(values)
@@ -321,12 +340,12 @@ def test_it_builds_every_valve_inside_the_published_superheat_range():
     valves = [u for u in SEASON.units if u.metering != "capillary"]
     assert valves
     for unit in valves:
-        settings = sn.superheat_settings_k(unit)
+        settings = superheat_settings_k(unit)
         assert settings is not None
         assert settings[0] <= unit.superheat_setting_k <= settings[1], unit.tag
-    draws = sn.nominal_draws(MIDSUMMER, 30.0)
+    draws = nominal_draws(MIDSUMMER, 30.0)
     for tag, (low_f, high_f) in (("H-WIC-1", (6.0, 10.0)), ("H-WIF-1", (4.0, 7.0))):
-        envelope = sn.healthy_envelope(UNITS[tag], draws)
+        envelope = healthy_envelope(UNITS[tag], draws)
         assert envelope.low["superheat_k"] * 1.8 == pytest.approx(low_f, abs=1e-6)
         assert envelope.high["superheat_k"] * 1.8 == pytest.approx(high_f, abs=1e-6)
 
@@ -340,15 +359,15 @@ def test_it_sees_a_slight_undercharge_inside_the_healthy_range_only_against_its_
     unit = UNITS["F-UC-1"]
     assert unit.metering == "txv"
     assert not unit.has_receiver
-    draws = dataclasses.replace(sn.nominal_draws(MIDSUMMER, 30.0), subcooling_position=1.0)
-    twin = sn.operating_state(unit, draws)
-    faulted = sn.operating_state(unit, draws, sn.INTENSITY_LEVELS["slight"])
-    assert sn.symptoms(unit, twin)["subcooling_k"] * 1.8 == pytest.approx(9.5, abs=0.01)
-    assert sn.symptoms(unit, faulted)["subcooling_k"] * 1.8 == pytest.approx(5.0, abs=0.01)
-    envelope = sn.healthy_envelope(unit, draws)
+    draws = dataclasses.replace(nominal_draws(MIDSUMMER, 30.0), subcooling_position=1.0)
+    twin = operating_state(unit, draws)
+    faulted = operating_state(unit, draws, INTENSITY_LEVELS["slight"])
+    assert symptoms(unit, twin)["subcooling_k"] * 1.8 == pytest.approx(9.5, abs=0.01)
+    assert symptoms(unit, faulted)["subcooling_k"] * 1.8 == pytest.approx(5.0, abs=0.01)
+    envelope = healthy_envelope(unit, draws)
     assert 6.0 <= envelope.low["subcooling_k"] * 1.8 <= envelope.high["subcooling_k"] * 1.8 <= 10
-    assert sn.detectable_by_twin(unit, faulted, twin)
-    assert not sn.detectable(unit, faulted, twin, draws)
+    assert detectable_by_twin(unit, faulted, twin)
+    assert not detectable(unit, faulted, twin, draws)
 
 
 def test_it_cannot_see_a_stopped_condenser_fan_while_fan_cycling_holds_the_head():
@@ -361,18 +380,18 @@ def test_it_cannot_see_a_stopped_condenser_fan_while_fan_cycling_holds_the_head(
     detectable against the range."""
     unit = UNITS["F-CF-3"]
     assert unit.head_control == "fan_cycling"
-    severe = sn.INTENSITY_LEVELS["severe"]
-    winter = dataclasses.replace(sn.nominal_draws(MIDWINTER, -5.0), fan_off_phase=False)
-    twin, faulted = sn.operating_state(unit, winter), sn.operating_state(unit, winter, severe)
+    severe = INTENSITY_LEVELS["severe"]
+    winter = dataclasses.replace(nominal_draws(MIDWINTER, -5.0), fan_off_phase=False)
+    twin, faulted = operating_state(unit, winter), operating_state(unit, winter, severe)
     assert faulted.held
     assert not faulted.condenser_fan_running
     assert twin.condenser_fan_running
-    assert sn.detectable_by_twin(unit, faulted, twin)
-    assert not sn.detectable(unit, faulted, twin, winter)
-    summer = sn.nominal_draws(MIDSUMMER, 32.0)
-    twin, faulted = sn.operating_state(unit, summer), sn.operating_state(unit, summer, severe)
+    assert detectable_by_twin(unit, faulted, twin)
+    assert not detectable(unit, faulted, twin, winter)
+    summer = nominal_draws(MIDSUMMER, 32.0)
+    twin, faulted = operating_state(unit, summer), operating_state(unit, summer, severe)
     assert not faulted.held
-    assert sn.detectable(unit, faulted, twin, summer)
+    assert detectable(unit, faulted, twin, summer)
     held = [v for v in SEASON.visits[unit.tag] if v.state.held]
     assert held
     assert not any(v.detectable for v in held)

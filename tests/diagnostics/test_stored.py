@@ -18,7 +18,7 @@ from diagnostics.models import Diagnosis
 from tests.factories import ReadingSetFactory, VisitUnitFactory, document_for
 
 #: Float32 rows as the diagnosis stored them before documents (the varied batch of
-#: tests/diagnostics/core/test_diagnose.py, one row per case it covers: every finding,
+#: tests/diagnostics/core/test_diagnose_batch.py, one row per case it covers: every finding,
 #: R-744 above its critical point, a water-cooled condenser, a glide blend on the
 #: mid-point, an unusable elevation, missing readings), each with the details the float32
 #: reader wrote for it then (two source texts since carry the docs/references.md section

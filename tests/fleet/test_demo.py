@@ -9,7 +9,8 @@ import pytest
 from django.core.management import call_command
 
 from diagnostics.models import Diagnosis, Flag, LeakRate
-from fixtures import demo
+from fixtures.demo.fleet import SITES
+from fixtures.demo.visits import MONTHS
 from fixtures.load import load_demo_fleet
 from fleet import models
 
@@ -37,7 +38,7 @@ def test_the_demo_fleet_tells_its_stories_and_loads_idempotently(capsys):
     assert summary.created["sites"] == 6
     assert 35 <= summary.created["units"] <= 45
     assert models.Site.objects.filter(elevation_m__gte=1500).count() == 1
-    assert models.Visit.objects.count() == len(demo.SITES) * (demo.MONTHS + 1)
+    assert models.Visit.objects.count() == len(SITES) * (MONTHS + 1)
     latest = models.ReadingSet.objects.order_by("-taken_at").first()
     assert latest.taken_at.date() >= today - dt.timedelta(days=1)
     assert set(

@@ -12,7 +12,7 @@ from diagnostics.core.diagnose import diagnose_batch, read_details
 from diagnostics.core.inputs import ReadingColumns
 from diagnostics.core.scoring import SCORING_TABLE
 from diagnostics.core.types import Reading, UnitDesign
-from tests.diagnostics.core.test_diagnose import _varied_batch
+from tests.diagnostics.core.test_diagnose_batch import _varied_batch
 
 COOLER = UnitDesign(
     "R-404A",
