@@ -191,6 +191,26 @@ if not DEBUG:
     # Preload by default so `check --deploy` is clean; set SECURE_HSTS_PRELOAD=0 to opt out.
     SECURE_HSTS_PRELOAD = env_bool("SECURE_HSTS_PRELOAD", True)
 
+# Background work (the scheduled monthly reports, the nightly flag refresh, alert delivery,
+# reports asked for from the page) runs on django-tasks (the backport of Django 6's
+# django.tasks) with its database backend: a job is a row in our own database, enqueued in
+# the same transaction as the record it is about, and run by `manage.py db_worker`;
+# `manage.py run_scheduler` enqueues the scheduled jobs. No extra server. The choice and
+# its measurements: docs/operations.md.
+INSTALLED_APPS += ["django_tasks", "django_tasks_db", "jobs", "alerts"]
+TASKS = {"default": {"BACKEND": "django_tasks_db.DatabaseBackend"}}
+# A failed job runs again up to this many times in all, waiting 1, 4, 16 ... minutes.
+RIMEWATCH_JOB_ATTEMPTS = int(os.environ.get("RIMEWATCH_JOB_ATTEMPTS", "5"))
+RIMEWATCH_JOB_FIRST_RETRY_SECONDS = int(os.environ.get("RIMEWATCH_JOB_FIRST_RETRY_SECONDS", "60"))
+# The nightly flag refresh and the daily alert digest, at these hours of TIME_ZONE.
+RIMEWATCH_FLAG_REFRESH_HOUR = int(os.environ.get("RIMEWATCH_FLAG_REFRESH_HOUR", "2"))
+RIMEWATCH_DIGEST_HOUR = int(os.environ.get("RIMEWATCH_DIGEST_HOUR", "7"))
+# Alerts: a leak-repair deadline this many days ahead is announced; the signed webhook
+# (docs/api.md) is posted to RIMEWATCH_ALERT_WEBHOOK_URL when both it and its secret are set.
+RIMEWATCH_ALERT_LEAK_DAYS = int(os.environ.get("RIMEWATCH_ALERT_LEAK_DAYS", "7"))
+RIMEWATCH_ALERT_WEBHOOK_URL = os.environ.get("RIMEWATCH_ALERT_WEBHOOK_URL", "")
+RIMEWATCH_ALERT_WEBHOOK_SECRET = os.environ.get("RIMEWATCH_ALERT_WEBHOOK_SECRET", "")
+
 LOGGING = {
     "version": 1,
     "disable_existing_loggers": False,

@@ -11,5 +11,7 @@ urlpatterns = [
     path("api/schema/", SpectacularAPIView.as_view(), name="schema"),
     path("api/docs/", SpectacularRedocView.as_view(url_name="schema"), name="api-docs"),
     path("reports/", include("reports.urls")),
+    path("jobs/", include("jobs.urls")),
+    path("alerts/", include("alerts.urls")),
     path("", include("fleet.urls")),
 ]

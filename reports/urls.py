@@ -10,6 +10,7 @@ app_name = "reports"
 urlpatterns = [
     path("", views.report_index, name="index"),
     path("sites/<int:site_id>/", views.site_reports, name="site"),
+    path("sites/<int:site_id>/make/", views.request_report, name="request"),
     re_path(
         rf"^sites/(?P<site_id>\d+)/(?P<month>{MONTH_PATTERN})/$",
         views.report_page,

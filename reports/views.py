@@ -7,11 +7,19 @@ to them; anything else is 404. A report page serves the HTML exactly as stored w
 
 from __future__ import annotations
 
+from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.db.models import Count, Max
 from django.http import FileResponse, Http404, HttpRequest, HttpResponse
-from django.shortcuts import get_object_or_404, render
-from django.views.decorators.http import require_GET
+from django.shortcuts import get_object_or_404, redirect, render
+from django.utils import timezone
+from django.views.decorators.http import require_GET, require_POST
+from django_tasks import TaskResultStatus
+from django_tasks_db.models import DBTaskResult
+
+from fleet.models import Site
+from fleet.reach import roles_of
+from jobs.tasks import make_report_now
 
 from .models import MonthlyReport
 from .months import Month
@@ -67,8 +75,51 @@ def site_reports(request: HttpRequest, site_id: int) -> HttpResponse:
     site = get_object_or_404(
         MonthlyReport.objects.sites_visible_to(request.user).select_related("customer"), pk=site_id
     )
+    return _site_page(request, site)
+
+
+def _site_page(
+    request: HttpRequest, site: Site, *, month_error: str = "", status: int = 200
+) -> HttpResponse:
     reports = MonthlyReport.objects.filter(site=site).defer("html").order_by("-month", "-version")
-    return render(request, "reports/site_reports.html", {"site": site, "reports": reports})
+    context = {
+        "site": site,
+        "reports": reports,
+        "can_request": roles_of(request.user).office,
+        "last_month": Month.of(timezone.localdate()).shift(-1),
+        "month_error": month_error,
+    }
+    return render(request, "reports/site_reports.html", context, status=status)
+
+
+@require_POST
+@login_required
+def request_report(request: HttpRequest, site_id: int) -> HttpResponse:
+    """The office asks for a site-month's report now: a job makes it in the background
+    (a new version; earlier ones stay). Asked again while one waits, nothing more is queued."""
+    site = get_object_or_404(
+        MonthlyReport.objects.sites_visible_to(request.user).select_related("customer"), pk=site_id
+    )
+    if not roles_of(request.user).office:
+        raise Http404("not within your reach")
+    try:
+        month = Month.parse(request.POST.get("month", ""))
+    except ValueError as exc:
+        return _site_page(request, site, month_error=f"month: {exc}", status=400)
+    if month.first_day > timezone.localdate():
+        return _site_page(request, site, month_error="month: that month has not begun", status=400)
+    waiting = DBTaskResult.objects.filter(
+        task_path=make_report_now.module_path,
+        status__in=[TaskResultStatus.READY, TaskResultStatus.RUNNING],
+        args_kwargs={"args": [site.pk, str(month)], "kwargs": {}},
+    ).exists()
+    if not waiting:
+        make_report_now.enqueue(site.pk, str(month))
+    messages.success(
+        request,
+        f"The report for {month.label} is being made; it appears here in a minute or two.",
+    )
+    return redirect("reports:site", site_id=site.pk)
 
 
 @require_GET

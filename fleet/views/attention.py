@@ -4,7 +4,6 @@ every box found far off its design temperature within reach, soonest first."""
 from __future__ import annotations
 
 import datetime as dt
-from collections import defaultdict
 from dataclasses import dataclass
 from typing import Any
 
@@ -13,10 +12,11 @@ from django.http import HttpRequest, HttpResponse
 from django.utils import timezone
 from django.views.decorators.http import require_GET
 
+from diagnostics.deadlines import open_leak_deadlines
 from diagnostics.models import Diagnosis, Flag, LeakRate
 from fleet import forms
-from fleet.choices import Application, RefrigerantEventKind, Role, Stage
-from fleet.models import ReadingSet, RefrigerantEvent, Unit
+from fleet.choices import Application, Role, Stage
+from fleet.models import ReadingSet, Unit
 
 from .base import page, within_reach
 
@@ -39,41 +39,18 @@ class AttentionItem:
         return self.kind in ("repair", "verification")
 
 
-def _open_leak_deadlines(today: dt.date, user: Any) -> list[AttentionItem]:
-    """Repair and initial-verification deadlines not yet met, from the stored leak rates.
-
-    A repair deadline is met by a leak-repaired record on or after the addition; a
-    verification deadline by an initial verification test on or after that repair.
-    """
+def _open_leak_deadlines(user: Any) -> list[AttentionItem]:
+    """Repair and initial-verification deadlines not yet met, from the stored leak rates
+    within reach (the rule of ``diagnostics.deadlines``)."""
     rates = list(
         LeakRate.objects.visible_to(user)
         .filter(Q(repair_due_on__isnull=False) | Q(verification_due_on__isnull=False))
         .select_related("event__visit_unit__unit__site__customer", "event__visit_unit__visit")
     )
-    unit_ids = {r.event.visit_unit.unit_id for r in rates}
-    done: dict[tuple[int, str], list[dt.date]] = defaultdict(list)
-    for unit_id, kind, day in RefrigerantEvent.objects.filter(
-        visit_unit__unit_id__in=unit_ids,
-        kind__in=[RefrigerantEventKind.LEAK_REPAIRED, RefrigerantEventKind.INITIAL_VERIFICATION],
-    ).values_list("visit_unit__unit_id", "kind", "occurred_on"):
-        done[(unit_id, kind)].append(day)
-    items = []
-    for rate in rates:
-        unit = rate.event.visit_unit.unit
-        added_on = rate.event.occurred_on
-        repairs = [d for d in done[(unit.pk, RefrigerantEventKind.LEAK_REPAIRED)] if d >= added_on]
-        repaired_on = min(repairs, default=None)
-        if rate.repair_due_on and repaired_on is None:
-            items.append(AttentionItem(rate.repair_due_on, "repair", unit, leak_rate=rate))
-        checks_after = repaired_on or added_on
-        verified = any(
-            d >= checks_after for d in done[(unit.pk, RefrigerantEventKind.INITIAL_VERIFICATION)]
-        )
-        if rate.verification_due_on and not verified:
-            items.append(
-                AttentionItem(rate.verification_due_on, "verification", unit, leak_rate=rate)
-            )
-    return items
+    return [
+        AttentionItem(d.due_on, d.kind, d.rate.event.visit_unit.unit, leak_rate=d.rate)
+        for d in open_leak_deadlines(rates)
+    ]
 
 
 def _warm_boxes(user: Any) -> list[AttentionItem]:
@@ -137,7 +114,7 @@ def attention(request: HttpRequest) -> HttpResponse:
         AttentionItem(f.projected_on or timezone.localdate(f.opened_at), "flag", f.unit, flag=f)
         for f in flags
     ]
-    items.extend(_open_leak_deadlines(today, request.user))
+    items.extend(_open_leak_deadlines(request.user))
     items.extend(_warm_boxes(request.user))
     items.sort(key=lambda i: (i.due_on, i.unit.tag, i.kind))
     return page(
