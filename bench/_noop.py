@@ -1,0 +1,13 @@
+"""The no-op job bench/tasks.py times (imported by the worker with bench/ on its path)."""
+
+from __future__ import annotations
+
+import time
+
+from django_tasks import task
+
+
+@task()
+def noop() -> float:
+    """The moment the worker started it (Unix seconds)."""
+    return time.time()
