@@ -21,7 +21,7 @@ run: install
 	$(PY) manage.py demo_fleet
 	$(PY) manage.py rescore
 	@echo "Rimewatch on http://127.0.0.1:8000/ (admin at /admin/, API at /api/v1/, docs at /api/docs/)"
-	$(PY) manage.py runserver 127.0.0.1:8000
+	bash scripts/with-worker.sh $(PY) manage.py runserver 127.0.0.1:8000
 
 lint: install
 	$(VENV)/bin/ruff check .

@@ -57,7 +57,8 @@ def test_a_scheduled_report_is_made_and_mailed_once(run_jobs):
         run_jobs()
 
     run = ReportRun.objects.get(site=site, month=NOVEMBER.first_day)
-    assert run.report is not None and run.emailed_at is not None
+    assert run.report is not None
+    assert run.emailed_at is not None
     assert list(MonthlyReport.objects.filter(site=site).values_list("version", flat=True)) == [1]
     assert [m.to for m in mail.outbox] == [[manager.email]]
     assert "November 2026" in mail.outbox[0].subject
@@ -184,7 +185,8 @@ def test_make_now_refuses_a_bad_month_naming_the_field(client, office_user, mont
     with time_machine.travel(dt.datetime(2026, 12, 5, 10, 0, tzinfo=CHICAGO), tick=False):
         response = client.post(reverse("reports:request", args=[site.pk]), {"month": month})
     assert response.status_code == 400
-    assert "month:" in response.content.decode() and says in response.content.decode()
+    assert "month:" in response.content.decode()
+    assert says in response.content.decode()
     assert not DBTaskResult.objects.exists()
 
 
