@@ -291,3 +291,30 @@ def test_the_alerts_page_saves_a_persons_own_choices(client, office_user, techni
 
     client.force_login(technician)
     assert client.get(url).status_code == 404
+
+
+def test_the_alerts_page_lists_the_latest_in_the_same_queries_however_many(
+    client, office_user, django_assert_max_num_queries
+):
+    client.force_login(office_user)
+    url = reverse("alerts:settings")
+
+    def alert(count: int) -> None:
+        for _ in range(count):
+            unit = UnitFactory()
+            AlertEvent.objects.create(
+                key=f"flag:{unit.pk}",
+                kind="flag_opened",
+                unit=unit,
+                title=f"{unit.tag} flag",
+                happened_at=NOW,
+            )
+
+    alert(1)
+    client.get(url)
+    with django_assert_max_num_queries(10) as few:
+        client.get(url)
+    alert(10)
+    with django_assert_max_num_queries(len(few.captured_queries)):
+        page = client.get(url)
+    assert page.content.decode().count(" flag</a>") == 11

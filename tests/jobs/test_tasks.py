@@ -197,3 +197,31 @@ def test_make_now_is_the_offices(client, manager):
     response = client.post(reverse("reports:request", args=[site.pk]), {"month": "2026-11"})
     assert response.status_code == 404
     assert not DBTaskResult.objects.exists()
+
+
+def test_the_failed_jobs_page_reads_in_the_same_queries_however_many_failed(
+    client, office_user, django_assert_max_num_queries
+):
+    def fail(count: int) -> None:
+        for n in range(count):
+            DBTaskResult.objects.create(
+                status=TaskResultStatus.FAILED,
+                args_kwargs={"args": [n], "kwargs": {"attempt": 5}},
+                task_path="jobs.tasks.make_scheduled_report",
+                backend_name="default",
+                run_after=timezone.now(),
+                finished_at=timezone.now(),
+                exception_class_path="builtins.OSError",
+                traceback="Traceback...\nOSError: disk full",
+            )
+
+    client.force_login(office_user)
+    url = reverse("jobs:failed")
+    fail(1)
+    client.get(url)  # the session and the user read once
+    with django_assert_max_num_queries(8) as few:
+        client.get(url)
+    fail(20)
+    with django_assert_max_num_queries(len(few.captured_queries)):
+        page = client.get(url)
+    assert page.content.decode().count("disk full") == 21
