@@ -35,6 +35,8 @@ class Command(BaseCommand):
             try:
                 done = tick()
             except Exception:  # a database outage, say: try again at the next pass
+                if options["once"]:
+                    raise
                 log.exception("scheduler pass failed")
                 done = Tick(0, (), 0)
             if done.reports or done.daily or done.alerts or options["verbosity"] > 1:
