@@ -7,8 +7,12 @@ import datetime as dt
 from zoneinfo import ZoneInfo
 
 import pytest
+import time_machine
+from django.core.management import call_command
+from django.db import OperationalError
 from django_tasks_db.models import DBTaskResult
 
+from jobs.management.commands import run_scheduler
 from jobs.models import DailyRun, ReportRun
 from jobs.schedule import tick
 from reports.months import Month
@@ -97,3 +101,21 @@ def test_daily_jobs_from_their_hour_on_once_a_day(settings):
         "digest",
     }
     assert DBTaskResult.objects.filter(task_path="jobs.tasks.refresh_flags_nightly").count() == 1
+
+
+def test_the_scheduler_command_makes_one_pass_with_once(capsys):
+    site = SiteFactory(time_zone="America/Chicago")
+    with time_machine.travel(dt.datetime(2026, 12, 1, 0, 30, tzinfo=CHICAGO), tick=False):
+        call_command("run_scheduler", "--once")
+        call_command("run_scheduler", "--once")
+    assert claimed(NOVEMBER) == {site.pk}
+    assert capsys.readouterr().out.count("enqueued 1 report(s)") == 1
+
+
+def test_the_scheduler_command_says_when_a_pass_fails_with_once(monkeypatch):
+    def down(now=None):
+        raise OperationalError("connection refused")
+
+    monkeypatch.setattr(run_scheduler, "tick", down)
+    with pytest.raises(OperationalError):
+        call_command("run_scheduler", "--once")
