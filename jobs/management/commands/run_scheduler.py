@@ -31,7 +31,6 @@ class Command(BaseCommand):
 
     def handle(self, *args: Any, **options: Any) -> None:
         while True:
-            close_old_connections()
             try:
                 done = tick()
             except Exception:  # a database outage, say: try again at the next pass
@@ -47,3 +46,5 @@ class Command(BaseCommand):
             if options["once"]:
                 return
             time.sleep(options["interval"])
+            # As after a request: a connection gone stale or past its age is replaced.
+            close_old_connections()
