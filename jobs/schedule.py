@@ -64,8 +64,8 @@ def _due_reports(now: dt.datetime) -> list[tuple[Site, Month]]:
         for site_id, month, made_at in MonthlyReport.objects.filter(month__in=months).values_list(
             "site_id", "month", "generated_at"
         )
-        if made_at >= Month.of(month).end_in(ZoneInfo(wanted[(site_id, month)].time_zone))
         if (site_id, month) in wanted
+        and made_at >= Month.of(month).end_in(ZoneInfo(wanted[(site_id, month)].time_zone))
     }
     return [
         (site, Month.of(month))

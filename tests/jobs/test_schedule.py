@@ -119,3 +119,16 @@ def test_the_scheduler_command_says_when_a_pass_fails_with_once(monkeypatch):
     monkeypatch.setattr(run_scheduler, "tick", down)
     with pytest.raises(OperationalError):
         call_command("run_scheduler", "--once")
+
+
+def test_a_report_of_a_month_another_site_is_due_for_does_not_stop_the_pass():
+    """When Auckland is due for November and Chicago still for October, a Chicago report
+    of November (made from the page) is no reason to skip or fail either."""
+    chicago = SiteFactory(time_zone="America/Chicago")
+    auckland = SiteFactory(time_zone="Pacific/Auckland")
+    MonthlyReportFactory(site=chicago, month=NOVEMBER.first_day)
+
+    tick(dt.datetime(2026, 11, 30, 18, 0, tzinfo=CHICAGO))
+
+    assert claimed(NOVEMBER) == {auckland.pk}
+    assert claimed(Month(2026, 10)) == {chicago.pk}
