@@ -182,16 +182,29 @@ def deliver(event_id: int, now: dt.datetime | None = None) -> int:
         event=event, way=Way.IMMEDIATE, sent_at__isnull=True
     ).select_related("user")
     connection = get_connection()
+    # One refused address or a receiver down holds back neither the others nor the
+    # webhook; the first failure is raised at the end, so the job is retried for the rest.
+    failures: list[Exception] = []
     for delivery in pending:
         message = _mail(event)
         message.to = [delivery.user.email]
-        connection.send_messages([message])
+        try:
+            connection.send_messages([message])
+        except Exception as exc:
+            failures.append(exc)
+            continue
         AlertDelivery.objects.filter(pk=delivery.pk).update(sent_at=timezone.now())
         sent += 1
     url, secret = settings.RIMEWATCH_ALERT_WEBHOOK_URL, settings.RIMEWATCH_ALERT_WEBHOOK_SECRET
     if url and secret and event.webhook_sent_at is None:
-        webhook.post(url, secret, event.key, payload_of(event), time.time())
-        AlertEvent.objects.filter(pk=event.pk).update(webhook_sent_at=timezone.now())
+        try:
+            webhook.post(url, secret, event.key, payload_of(event), time.time())
+        except Exception as exc:
+            failures.append(exc)
+        else:
+            AlertEvent.objects.filter(pk=event.pk).update(webhook_sent_at=timezone.now())
+    if failures:
+        raise failures[0]
     return sent
 
 
@@ -220,6 +233,7 @@ def send_digests(day: dt.date) -> int:
     for delivery in waiting:
         by_user.setdefault(delivery.user_id, []).append(delivery)
     connection = get_connection()
+    failures: list[Exception] = []
     for deliveries in by_user.values():
         user = deliveries[0].user
         lines = [f"- {d.event.title}\n  {d.event.detail}" for d in deliveries]
@@ -230,8 +244,14 @@ def send_digests(day: dt.date) -> int:
         )
         message = EmailMessage(f"Rimewatch daily digest: {len(deliveries)} alert(s)", body)
         message.to = [user.email]
-        connection.send_messages([message])
+        try:
+            connection.send_messages([message])
+        except Exception as exc:  # the others still get theirs; a retry sends this one
+            failures.append(exc)
+            continue
         AlertDelivery.objects.filter(pk__in=[d.pk for d in deliveries]).update(
             sent_at=timezone.now()
         )
+    if failures:
+        raise failures[0]
     return len(by_user)

@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import datetime as dt
 import json
+import smtplib
 import threading
 import time
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
@@ -14,6 +15,7 @@ from zoneinfo import ZoneInfo
 import pytest
 import time_machine
 from django.core import mail
+from django.core.mail.backends import locmem
 from django.urls import reverse
 from django.utils import timezone
 from django_tasks import TaskResultStatus
@@ -34,6 +36,7 @@ from tests.factories import (
     VisitUnitFactory,
     document_for,
 )
+from tests.jobs.conftest import run_queued
 
 pytestmark = pytest.mark.django_db
 
@@ -318,3 +321,50 @@ def test_the_alerts_page_lists_the_latest_in_the_same_queries_however_many(
     with django_assert_max_num_queries(len(few.captured_queries)):
         page = client.get(url)
     assert page.content.decode().count(" flag</a>") == 11
+
+
+class RefusingBackend(locmem.EmailBackend):
+    """A mail server that refuses one address (as SMTP refuses a recipient)."""
+
+    def send_messages(self, messages):
+        if any(to.startswith("office-refused") for m in messages for to in m.to):
+            raise smtplib.SMTPRecipientsRefused({"office-refused@example.invalid": (550, b"no")})
+        return super().send_messages(messages)
+
+
+def test_one_refused_address_holds_back_neither_the_others_nor_the_webhook(
+    run_jobs, receiver, settings, clock
+):
+    settings.EMAIL_BACKEND = "tests.alerts.test_alerts.RefusingBackend"
+    office("office-refused")
+    fine = office("office-fine")
+    fault_on(UnitFactory())
+    detect_events()
+    run_jobs()
+
+    assert [to for to, _ in inboxes()] == [fine.email]
+    assert len(receiver.requests) == 1
+    assert DBTaskResult.objects.filter(status=TaskResultStatus.FAILED).count() == 1
+
+    settings.EMAIL_BACKEND = "django.core.mail.backends.locmem.EmailBackend"
+    clock.shift(dt.timedelta(minutes=1))
+    run_jobs()
+    assert [to for to, _ in inboxes()] == [fine.email, "office-refused@example.invalid"]
+    assert len(receiver.requests) == 1
+
+
+def test_a_refused_digest_is_sent_on_the_retry_and_the_others_once(settings):
+    settings.EMAIL_BACKEND = "tests.alerts.test_alerts.RefusingBackend"
+    office("office-refused", urgent_fault="digest")
+    fine = office("office-fine", urgent_fault="digest")
+    fault_on(UnitFactory())
+    detect_events()
+    run_queued()
+
+    with pytest.raises(smtplib.SMTPRecipientsRefused):
+        send_digests(NOW.date())
+    assert [to for to, _ in inboxes()] == [fine.email]
+
+    settings.EMAIL_BACKEND = "django.core.mail.backends.locmem.EmailBackend"
+    assert send_digests(NOW.date()) == 1
+    assert [to for to, _ in inboxes()] == [fine.email, "office-refused@example.invalid"]
