@@ -1,11 +1,20 @@
 """Top-level URLs: office pages, admin, the versioned API and its schema."""
 
 from django.contrib import admin
+from django.contrib.auth.views import PasswordResetView
 from django.urls import include, path
 from drf_spectacular.views import SpectacularAPIView, SpectacularRedocView
 
+from jobs.mail import QueuedPasswordResetForm
+
 urlpatterns = [
     path("admin/", admin.site.urls),
+    # The reset e-mail is sent by the background worker, not in the request.
+    path(
+        "accounts/password_reset/",
+        PasswordResetView.as_view(form_class=QueuedPasswordResetForm),
+        name="password_reset",
+    ),
     path("accounts/", include("django.contrib.auth.urls")),
     path("api/v1/", include("config.api_urls")),
     path("api/schema/", SpectacularAPIView.as_view(), name="schema"),

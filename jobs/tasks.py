@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import datetime as dt
 
+from django.core.mail import EmailMultiAlternatives
 from django.db import transaction
 from django.db.models import Q
 from django.utils import timezone
@@ -88,3 +89,15 @@ def daily_digest(run_id: int) -> int:
     sent = send_digests(run.day)
     DailyRun.objects.filter(pk=run_id).update(finished_at=timezone.now())
     return sent
+
+
+@retried
+def send_email(
+    subject: str, body: str, to: list[str], from_email: str | None = None, html: str = ""
+) -> int:
+    """An e-mail composed during a request (a password reset), sent by the worker: the
+    request does not wait on the mail server, and a server down is tried again later."""
+    message = EmailMultiAlternatives(subject, body, from_email, to)
+    if html:
+        message.attach_alternative(html, "text/html")
+    return message.send()
