@@ -78,6 +78,8 @@ TEMPLATES = [
                 "django.template.context_processors.request",
                 "django.contrib.auth.context_processors.auth",
                 "django.contrib.messages.context_processors.messages",
+                # the menu's roles and counts, for pages rendered without fleet's page()
+                "fleet.views.base.navigation",
             ],
         },
     },
