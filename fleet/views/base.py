@@ -53,6 +53,19 @@ def within_reach(*allowed: str) -> Callable[[View], View]:
     return decorate
 
 
+def office_admin(view: View) -> View:
+    """An office administrator's page (``Roles.manages_people``): 404 for anyone else, as
+    ``within_reach`` answers."""
+
+    @wraps(view)
+    def wrapped(request: HttpRequest, *args: Any, **kwargs: Any) -> HttpResponseBase:
+        if not roles_of(request.user).manages_people:
+            raise Http404("not within your reach")
+        return view(request, *args, **kwargs)
+
+    return within_reach(Role.OFFICE)(wrapped)
+
+
 def _queue_count(user: Any) -> int:
     return Visit.objects.visible_to(user).filter(status=VisitStatus.SUBMITTED).count()
 
