@@ -161,7 +161,8 @@ REST_FRAMEWORK = {
     "DEFAULT_FILTER_BACKENDS": ["django_filters.rest_framework.DjangoFilterBackend"],
     "DEFAULT_PAGINATION_CLASS": "rest_framework.pagination.PageNumberPagination",
     "PAGE_SIZE": 50,
-    "DEFAULT_SCHEMA_CLASS": "drf_spectacular.openapi.AutoSchema",
+    # drf-spectacular's, plus each operation's error answers (fleet/api/schema.py).
+    "DEFAULT_SCHEMA_CLASS": "fleet.api.schema.ErrorsAutoSchema",
     "EXCEPTION_HANDLER": "fleet.api.exceptions.exception_handler",
     # Writes are limited per user, token requests per client address. The counters live in
     # the default cache (per process unless a shared cache is configured).
