@@ -15,7 +15,10 @@ from tests.factories import UserFactory
 from tests.reports.factories import FlagFactory
 
 pytestmark = [
-    pytest.mark.skipif(connection.vendor != "postgresql", reason="PostgreSQL's own tools"),
+    pytest.mark.skipif(
+        connection.vendor != "postgresql",
+        reason="pg_dump and pg_restore need PostgreSQL; `make test` runs this on a throwaway one",
+    ),
     # pg_dump reads from another connection: the rows must be committed.
     pytest.mark.django_db(transaction=True, serialized_rollback=True),
 ]
