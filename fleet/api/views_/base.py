@@ -7,7 +7,6 @@ from typing import Any
 
 from django.contrib.auth.models import User
 from django.db import transaction
-from drf_spectacular.openapi import AutoSchema
 from drf_spectacular.types import OpenApiTypes
 from drf_spectacular.utils import OpenApiParameter
 from rest_framework import mixins, status, viewsets
@@ -17,6 +16,7 @@ from rest_framework.request import Request
 from rest_framework.views import APIView
 
 from fleet.api.permissions import HasRole
+from fleet.api.schema import ErrorsAutoSchema
 from fleet.display import SYSTEMS
 from fleet.reach import OFFICE
 
@@ -46,7 +46,7 @@ class Conflict(APIException):
     default_code = "conflict"
 
 
-class UnitsAutoSchema(AutoSchema):
+class UnitsAutoSchema(ErrorsAutoSchema):
     """Documents ``?units=`` on every endpoint whose records carry measurements."""
 
     def get_override_parameters(self) -> list:
