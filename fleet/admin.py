@@ -1,16 +1,70 @@
-"""Data upkeep for the office: search, filters and inlines over the fleet records."""
+"""Data upkeep for the office: search, filters and inlines over the fleet records.
+
+Visits, reading sets and refrigerant events are saved and deleted here through
+``fleet.services``, as on the pages and the API: each change leaves its audit entry and
+computes again what rests on it (a diagnosis, leak rates, the unit's flags), and a record
+the refrigerant rules keep is not deleted (``services.why_kept``).
+"""
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from typing import Any
 
 from django.contrib import admin
+from django.contrib.auth.models import User
+from django.core.exceptions import PermissionDenied
 from django.db.models import Field as ModelField
+from django.db.models import Model, QuerySet
+from django.forms import BaseFormSet, ModelForm
 from django.forms import Field as FormField
 from django.http import HttpRequest
 
-from . import models
+from diagnostics.models import Diagnosis, Flag, LeakRate
+
+from . import models, services
 from .forms import ReceiverSelect
+
+#: Results computed from a record: read-only in their own admin, deleted with the record.
+COMPUTED_FROM_RECORDS = (Diagnosis, LeakRate, Flag)
+
+
+def acting(request: HttpRequest) -> User:
+    """The staff user an admin change is recorded for (the admin signs everyone in first)."""
+    if not isinstance(request.user, User):
+        raise PermissionDenied
+    return request.user
+
+
+class ResultsGoWithTheirRecord(admin.ModelAdmin):
+    """A record's computed results (no one may delete them by themselves) do not stop its
+    own deletion: they go with it."""
+
+    def get_deleted_objects(
+        self, objs: Sequence[Model] | QuerySet[Model], request: HttpRequest
+    ) -> tuple[list[Any], dict[str, int], set[str], list[Any]]:
+        to_delete, counts, perms_needed, protected = super().get_deleted_objects(objs, request)
+        computed = {str(model._meta.verbose_name) for model in COMPUTED_FROM_RECORDS}
+        return to_delete, counts, perms_needed - computed, protected
+
+
+class DeletesThroughServices(ResultsGoWithTheirRecord):
+    """Deletion, one record or a selection, by ``services.delete_record``: a trail entry
+    for each, what rested on it computed again, all in one transaction. A record the rules
+    keep is listed with the reason on the confirmation page, which then deletes nothing."""
+
+    def get_deleted_objects(
+        self, objs: Sequence[Model] | QuerySet[Model], request: HttpRequest
+    ) -> tuple[list[Any], dict[str, int], set[str], list[Any]]:
+        to_delete, counts, perms_needed, protected = super().get_deleted_objects(objs, request)
+        kept = [reason for obj in objs if (reason := services.why_kept(obj)) is not None]
+        return to_delete, counts, perms_needed, [*protected, *kept]
+
+    def delete_model(self, request: HttpRequest, obj: Model) -> None:
+        services.delete_record(obj, by=acting(request))
+
+    def delete_queryset(self, request: HttpRequest, queryset: QuerySet[Model]) -> None:
+        services.delete_records(queryset, by=acting(request))
 
 
 class SiteInline(admin.TabularInline):
@@ -70,7 +124,7 @@ class ComponentInline(admin.TabularInline):
 
 
 @admin.register(models.Unit)
-class UnitAdmin(admin.ModelAdmin):
+class UnitAdmin(ResultsGoWithTheirRecord):
     list_display = (
         "tag",
         "site",
@@ -189,7 +243,9 @@ class VisitUnitInline(admin.TabularInline):
 
 
 @admin.register(models.Visit)
-class VisitAdmin(admin.ModelAdmin):
+class VisitAdmin(DeletesThroughServices):
+    """A visit's status moves only along its life cycle, on the pages or the API."""
+
     list_display = ("reference", "site", "kind", "status", "window_start")
     list_filter = ("status", "kind", "site__customer")
     search_fields = ("reference", "site__name", "reported_problem", "work_summary")
@@ -198,10 +254,40 @@ class VisitAdmin(admin.ModelAdmin):
     filter_horizontal = ("technicians",)
     autocomplete_fields = ("site",)
     inlines = [VisitUnitInline]
+    readonly_fields = ("status", "submitted_at", "reviewed_by", "reviewed_at")
+
+    def save_model(self, request: HttpRequest, obj: models.Visit, form: Any, change: bool) -> None:
+        """Saved in ``save_related``, with its units and people, so the trail sees them."""
+
+    def save_related(
+        self, request: HttpRequest, form: ModelForm, formsets: list[BaseFormSet], change: bool
+    ) -> None:
+        visit: models.Visit = form.instance
+
+        def save() -> models.Visit:
+            visit.save()
+            super(VisitAdmin, self).save_related(request, form, formsets, change)
+            return visit
+
+        note = "changed in the admin" if change else "booked in the admin"
+        services.save_visit(visit, save, by=acting(request), note=note, changed=form.changed_data)
+
+
+class VisitRecordAdmin(DeletesThroughServices):
+    """Reading sets and refrigerant events, stored by the services the API stores them by."""
+
+    def save_model(
+        self,
+        request: HttpRequest,
+        obj: models.ReadingSet | models.RefrigerantEvent,
+        form: Any,
+        change: bool,
+    ) -> None:
+        services.save_record(obj, by=acting(request), changed=form.changed_data)
 
 
 @admin.register(models.ReadingSet)
-class ReadingSetAdmin(admin.ModelAdmin):
+class ReadingSetAdmin(VisitRecordAdmin):
     list_display = ("taken_at", "visit_unit", "stage", "suction_kpa_gauge", "head_kpa_gauge")
     list_filter = ("stage",)
     search_fields = ("visit_unit__unit__tag", "visit_unit__visit__reference", "client_id")
@@ -211,7 +297,7 @@ class ReadingSetAdmin(admin.ModelAdmin):
 
 
 @admin.register(models.RefrigerantEvent)
-class RefrigerantEventAdmin(admin.ModelAdmin):
+class RefrigerantEventAdmin(VisitRecordAdmin):
     list_display = ("occurred_on", "kind", "amount_kg", "visit_unit")
     list_filter = ("kind", "leak_rate_exemption")
     search_fields = ("visit_unit__unit__tag", "visit_unit__visit__reference", "client_id")
