@@ -1,14 +1,15 @@
 """Data upkeep for the office: search, filters and inlines over the fleet records.
 
-Visits, reading sets and refrigerant events are saved and deleted here through
-``fleet.services``, as on the pages and the API: each change leaves its audit entry and
-computes again what rests on it (a diagnosis, leak rates, the unit's flags), and a record
-the refrigerant rules keep is not deleted (``services.why_kept``).
+Customers, sites, units, parts, visits, reading sets and refrigerant events are saved and
+deleted here (inlines and the bulk action too) through ``fleet.services``, as on the pages
+and the API: each change leaves its audit entry and computes again what rests on it (a
+diagnosis, leak rates, the unit's flags), and a record the refrigerant rules keep is not
+deleted (``services.why_kept``).
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import Any
 
 from django.contrib import admin
@@ -67,6 +68,57 @@ class DeletesThroughServices(ResultsGoWithTheirRecord):
         services.delete_records(queryset, by=acting(request))
 
 
+def _saving(record: Model) -> Callable[[], Model]:
+    def save() -> Model:
+        record.save()
+        return record
+
+    return save
+
+
+class SavedWithTrail(DeletesThroughServices):
+    """Saved by ``services.save_with_trail``, the record with its relations and inlines in
+    one step, so the trail sees every change; each inline row is recorded the same way."""
+
+    #: Whether inline rows get entries of their own (a visit's units are in the visit's).
+    inline_rows_recorded = True
+
+    def save_model(self, request: HttpRequest, obj: Model, form: Any, change: bool) -> None:
+        """Saved in ``save_related``, together with its relations."""
+
+    def save_related(
+        self, request: HttpRequest, form: ModelForm, formsets: list[BaseFormSet], change: bool
+    ) -> None:
+        record: Model = form.instance
+
+        def save() -> Model:
+            record.save()
+            super(SavedWithTrail, self).save_related(request, form, formsets, change)
+            return record
+
+        note = "changed in the admin" if change else "added in the admin"
+        services.save_with_trail(
+            record, save, by=acting(request), note=note, changed=form.changed_data
+        )
+
+    def save_formset(
+        self, request: HttpRequest, form: ModelForm, formset: Any, change: bool
+    ) -> None:
+        if not self.inline_rows_recorded:
+            super().save_formset(request, form, formset, change)
+            return
+        by = acting(request)
+        formset.save(commit=False)
+        services.delete_records(formset.deleted_objects, by=by)
+        for row in formset.new_objects:
+            services.save_with_trail(row, _saving(row), by=by, note="added in the admin")
+        for row, fields in formset.changed_objects:
+            services.save_with_trail(
+                row, _saving(row), by=by, note="changed in the admin", changed=fields
+            )
+        formset.save_m2m()
+
+
 class SiteInline(admin.TabularInline):
     model = models.Site
     extra = 0
@@ -75,7 +127,7 @@ class SiteInline(admin.TabularInline):
 
 
 @admin.register(models.Customer)
-class CustomerAdmin(admin.ModelAdmin):
+class CustomerAdmin(SavedWithTrail):
     list_display = ("name", "contact_name", "contact_email", "phone")
     search_fields = ("name", "contact_name", "contact_email")
     inlines = [SiteInline]
@@ -89,7 +141,7 @@ class UnitInline(admin.TabularInline):
 
 
 @admin.register(models.Site)
-class SiteAdmin(admin.ModelAdmin):
+class SiteAdmin(SavedWithTrail):
     list_display = ("name", "customer", "elevation_m", "design_ambient_c", "time_zone")
     list_filter = ("customer", "time_zone")
     search_fields = ("name", "address", "customer__name")
@@ -124,7 +176,7 @@ class ComponentInline(admin.TabularInline):
 
 
 @admin.register(models.Unit)
-class UnitAdmin(ResultsGoWithTheirRecord):
+class UnitAdmin(SavedWithTrail):
     list_display = (
         "tag",
         "site",
@@ -221,7 +273,7 @@ class UnitAdmin(ResultsGoWithTheirRecord):
 
 
 @admin.register(models.Component)
-class ComponentAdmin(admin.ModelAdmin):
+class ComponentAdmin(SavedWithTrail):
     list_display = ("kind", "unit", "installed_on", "removed_on", "reason")
     list_filter = ("kind",)
     search_fields = ("unit__tag", "reason")
@@ -243,7 +295,7 @@ class VisitUnitInline(admin.TabularInline):
 
 
 @admin.register(models.Visit)
-class VisitAdmin(DeletesThroughServices):
+class VisitAdmin(SavedWithTrail):
     """A visit's status moves only along its life cycle, on the pages or the API."""
 
     list_display = ("reference", "site", "kind", "status", "window_start")
@@ -255,22 +307,7 @@ class VisitAdmin(DeletesThroughServices):
     autocomplete_fields = ("site",)
     inlines = [VisitUnitInline]
     readonly_fields = ("status", "submitted_at", "reviewed_by", "reviewed_at")
-
-    def save_model(self, request: HttpRequest, obj: models.Visit, form: Any, change: bool) -> None:
-        """Saved in ``save_related``, with its units and people, so the trail sees them."""
-
-    def save_related(
-        self, request: HttpRequest, form: ModelForm, formsets: list[BaseFormSet], change: bool
-    ) -> None:
-        visit: models.Visit = form.instance
-
-        def save() -> models.Visit:
-            visit.save()
-            super(VisitAdmin, self).save_related(request, form, formsets, change)
-            return visit
-
-        note = "changed in the admin" if change else "booked in the admin"
-        services.save_visit(visit, save, by=acting(request), note=note, changed=form.changed_data)
+    inline_rows_recorded = False
 
 
 class VisitRecordAdmin(DeletesThroughServices):

@@ -38,15 +38,17 @@ from diagnostics.services import (
     record_leak_rate,
     record_leak_rates,
     refresh_flags,
+    rescore,
 )
 
 from . import audit
 from .choices import VISIT_TRANSITIONS, VisitKind, VisitStatus
-from .models import AuditAction, ReadingSet, RefrigerantEvent, Unit, Visit, VisitUnit
+from .models import AuditAction, Component, ReadingSet, RefrigerantEvent, Unit, Visit, VisitUnit
 
 log = logging.getLogger(__name__)
 
 R = TypeVar("R", ReadingSet, RefrigerantEvent)
+M = TypeVar("M", bound=models.Model)
 
 #: What a stored record is returned with, so it serialises without further queries.
 RECORD_RELATIONS = ("visit_unit__unit__site", "visit_unit__visit", "created_by")
@@ -226,7 +228,7 @@ def move_visit(
     return visit
 
 
-# --- visits: edits --------------------------------------------------------------------------
+# --- edits to visits and to the fleet's records --------------------------------------------
 
 
 def _keep_stored(record: models.Model, stored: models.Model, changed: Collection[str]) -> None:
@@ -246,32 +248,52 @@ def visit_state(visit: Visit) -> dict[str, Any]:
     }
 
 
+def _state(record: models.Model) -> dict[str, Any]:
+    return visit_state(record) if isinstance(record, Visit) else audit.snapshot(record)
+
+
+def _compute_after_edit(record: models.Model) -> None:
+    """What rests on a unit's own data: its diagnoses (its design), its leak rates (its
+    full charge, appliance type, refrigerant) and its flags; on a part (a capacitor's
+    rating), its unit's flags."""
+    if isinstance(record, Unit):
+        with _logged_failure("rescore and leak rates failed for unit %s", record.pk):
+            rescore(ReadingSet.objects.filter(visit_unit__unit=record))
+            record_leak_rates(record)
+        _refresh_flags_of_units([record.pk])
+    elif isinstance(record, Component):
+        _refresh_flags_of_units([record.unit_id])
+
+
 @transaction.atomic
-def save_visit(
-    visit: Visit | None,
-    save: Callable[[], Visit],
+def save_with_trail(
+    record: M | None,
+    save: Callable[[], M],
     *,
     by: User | None,
     note: str = "",
     changed: Collection[str] | None = None,
-) -> Visit:
-    """Store a new visit, or an edit to ``visit``, as ``save`` writes it (a form or a
-    serializer, with the visit's units and people), and record it in the trail: created, or
-    each value changed since the stored one, which is read before ``save`` runs (a form
-    names the fields it ``changed``; the others keep their stored values). Its status
-    moves only by ``move_visit``."""
-    if visit is None or visit.pk is None:
+) -> M:
+    """Store a new record, or an edit to ``record``, as ``save`` writes it (a form or a
+    serializer, with its relations: a visit's units and people), record it in the trail
+    (created, or each value changed since the stored one, read before ``save`` runs; a
+    form names the fields it ``changed``, the others keep their stored values), and compute
+    again what rests on it. For visits, customers, sites, units and parts; a visit's status
+    moves only by ``move_visit``, readings and refrigerant events go by ``save_record``."""
+    if record is None or record._state.adding:
         created = save()
         audit.record_created(created, by=by, note=note)
+        _compute_after_edit(created)
         return created
-    stored = Visit.objects.get(pk=visit.pk)
+    stored = type(record)._default_manager.get(pk=record.pk)
     if changed is not None:
-        _keep_stored(visit, stored, changed)
-    before = visit_state(stored)
+        _keep_stored(record, stored, changed)
+    before = _state(stored)
     saved = save()
-    changes = audit.diff(before, visit_state(saved))
+    changes = audit.diff(before, _state(saved))
     if changes:
         audit.record(saved, AuditAction.CHANGED, by=by, changes=changes, note=note)
+    _compute_after_edit(saved)
     return saved
 
 

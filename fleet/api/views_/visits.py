@@ -7,7 +7,6 @@ from drf_spectacular.utils import extend_schema, extend_schema_view
 from rest_framework.decorators import action
 from rest_framework.request import Request
 from rest_framework.response import Response
-from rest_framework.serializers import BaseSerializer
 
 from fleet import services
 from fleet.api import filtersets
@@ -50,17 +49,6 @@ class VisitViewSet(RecordViewSet):
     def get_queryset(self) -> QuerySet[Visit]:
         qs = Visit.objects.visible_to(self.request.user).select_related("site")
         return qs.prefetch_related("technicians", "units").order_by("-window_start", "id")
-
-    def perform_create(self, serializer: BaseSerializer[Visit]) -> None:
-        services.save_visit(None, serializer.save, by=signed_in(self.request))
-
-    def perform_update(self, serializer: BaseSerializer[Visit]) -> None:
-        if serializer.instance is None:  # DRF's update() passes the visit it changes
-            raise TypeError("a visit's update needs the visit")
-        services.save_visit(serializer.instance, serializer.save, by=signed_in(self.request))
-
-    def perform_destroy(self, instance: Visit) -> None:
-        services.delete_record(instance, by=signed_in(self.request))
 
     def _moved(self, visit: Visit) -> Response:
         return Response(self.get_serializer(visit).data)
