@@ -1,5 +1,6 @@
-"""The audit trail: who created, changed, moved or deleted a visit, a reading set or a
-refrigerant event, when, and what changed (stored SI values, ``[old, new]`` per field)."""
+"""The audit trail: who created, changed, moved or deleted a record (a visit, a reading set,
+a refrigerant event, a customer, site, unit or part), when, and what changed (stored SI
+values, ``[old, new]`` per field)."""
 
 from __future__ import annotations
 
