@@ -9,6 +9,7 @@ deleted (``services.why_kept``).
 
 from __future__ import annotations
 
+import copy
 from collections.abc import Callable, Sequence
 from typing import Any
 
@@ -22,8 +23,10 @@ from django.forms import Field as FormField
 from django.http import HttpRequest
 
 from diagnostics.models import Diagnosis, Flag, LeakRate
+from diagnostics.services import implausible_fields
 
 from . import models, services
+from .display import SYSTEMS
 from .forms import ReceiverSelect
 
 #: Results computed from a record: read-only in their own admin, deleted with the record.
@@ -323,8 +326,30 @@ class VisitRecordAdmin(DeletesThroughServices):
         services.save_record(obj, by=acting(request), changed=form.changed_data)
 
 
+class ReadingSetForm(ModelForm):
+    """Refuses, as the API does, readings no working system can produce
+    (``implausible_fields``), each limit written in the SI the form is in."""
+
+    def clean(self) -> dict[str, Any]:
+        super().clean()
+        cleaned: dict[str, Any] = self.cleaned_data
+        if self.errors or cleaned.get("visit_unit") is None:
+            return cleaned
+        candidate = copy.copy(self.instance)
+        for name, value in cleaned.items():
+            setattr(candidate, name, value)
+        for problem in implausible_fields(candidate):
+            why = problem.why
+            if problem.limit is not None and problem.quantity is not None:
+                unit = SYSTEMS["si"][problem.quantity]
+                why = why.replace("{limit}", f"{problem.limit:.1f} {unit}")
+            self.add_error(problem.field if problem.field in self.fields else None, why)
+        return cleaned
+
+
 @admin.register(models.ReadingSet)
 class ReadingSetAdmin(VisitRecordAdmin):
+    form = ReadingSetForm
     list_display = ("taken_at", "visit_unit", "stage", "suction_kpa_gauge", "head_kpa_gauge")
     list_filter = ("stage",)
     search_fields = ("visit_unit__unit__tag", "visit_unit__visit__reference", "client_id")
