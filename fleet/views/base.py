@@ -9,6 +9,7 @@ visits; the records' pages are for every role, scoped by reach.
 
 from __future__ import annotations
 
+import datetime as dt
 from collections.abc import Callable
 from functools import wraps
 from typing import Any
@@ -25,8 +26,10 @@ from django.utils.http import url_has_allowed_host_and_scheme
 
 from diagnostics.models import Flag
 from fleet.choices import Role, VisitStatus
+from fleet.limits import SERVICE_ERA
 from fleet.models import Site, Visit
 from fleet.reach import roles_of
+from fleet.validation import date_problem
 
 #: Every role: a page of records, scoped by reach alone.
 ANY_ROLE = tuple(Role.values)
@@ -97,6 +100,36 @@ def page(request: HttpRequest, template: str, context: dict, status: int = 200) 
         if "nav_flag_count" not in context:
             context["nav_flag_count"] = _flag_count(request.user)
     return render(request, template, context, status=status)
+
+
+class BadParameter(Exception):
+    """A query parameter a page cannot work with: answered 400 naming it (never a 500, and
+    never silently replaced by something the address did not ask for)."""
+
+    def __init__(self, name: str, value: str, problem: str) -> None:
+        super().__init__(f"{name}={value}: {problem}")
+        self.name, self.value, self.problem = name, value, problem
+
+
+def query_date(request: HttpRequest, name: str) -> dt.date | None:
+    """The day a query parameter names (YYYY-MM-DD, within ``SERVICE_ERA``), or None when
+    the address does not give one."""
+    raw = request.GET.get(name, "")
+    if not raw:
+        return None
+    try:
+        day = dt.date.fromisoformat(raw)
+    except ValueError:
+        raise BadParameter(name, raw, "is not a date; write it as YYYY-MM-DD") from None
+    problem = date_problem(day, SERVICE_ERA)
+    if problem:
+        raise BadParameter(name, raw, problem)
+    return day
+
+
+def bad_parameter(request: HttpRequest, error: BadParameter) -> HttpResponse:
+    """The 400 page for a query parameter the page cannot use, naming it."""
+    return page(request, "fleet/bad_parameter.html", {"error": error}, status=400)
 
 
 def signed_in(request: HttpRequest) -> User:

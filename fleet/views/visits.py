@@ -21,16 +21,14 @@ from fleet.services import (
     move_visit,
 )
 
-from .base import page, signed_in, within_reach
+from .base import BadParameter, bad_parameter, page, query_date, signed_in, within_reach
 
 
 def _initial_from_query(request: HttpRequest) -> dict:
-    """Prefill from the schedule's 'add' links: ?day=YYYY-MM-DD&technician=ID&site=ID."""
+    """Prefill from the schedule's 'add' links: ?day=YYYY-MM-DD&technician=ID&site=ID (a
+    day the page cannot use raises ``BadParameter``)."""
     initial: dict = {"kind": VisitKind.PLANNED}
-    try:
-        day = dt.date.fromisoformat(request.GET.get("day", ""))
-    except ValueError:
-        day = None
+    day = query_date(request, "day")
     if day is not None:
         start = dt.datetime.combine(day, DEFAULT_VISIT_START)
         initial["window_start"] = start
@@ -65,7 +63,11 @@ def _warn_about_overlaps(request: HttpRequest, visit: Visit) -> None:
 
 @within_reach(Role.OFFICE)
 def visit_create(request: HttpRequest) -> HttpResponse:
-    form = forms.VisitForm(request.POST or None, initial=_initial_from_query(request))
+    try:
+        initial = _initial_from_query(request)
+    except BadParameter as error:
+        return bad_parameter(request, error)
+    form = forms.VisitForm(request.POST or None, initial=initial)
     if request.method == "POST" and form.is_valid():
         with transaction.atomic():
             visit = form.save()

@@ -7,6 +7,7 @@ import datetime as dt
 from zoneinfo import ZoneInfo
 
 import pytest
+import time_machine
 from django.urls import reverse
 from django.utils import timezone
 
@@ -14,6 +15,14 @@ from fleet.models import AuditEntry, Visit
 from tests.factories import CustomerFactory, SiteFactory, UnitFactory, VisitFactory
 
 pytestmark = pytest.mark.django_db
+
+
+@pytest.fixture(autouse=True)
+def _spring_2026():
+    """The bookings below are typed for spring 2026; the form books at most three years
+    back (``fleet.limits.VISIT_BOOKING_BACK``), so their clock stays in 2026."""
+    with time_machine.travel(dt.datetime(2026, 6, 1, 12, 0, tzinfo=dt.UTC)):
+        yield
 
 
 def _form(site, units, start: str, end: str, technicians=(), kind="planned") -> dict:
