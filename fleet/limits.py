@@ -4,6 +4,10 @@ One table serves the field validators (messages that name the field) and the dat
 check constraints (what must never be stored), so the two can never disagree. The bounds
 are wide on purpose: they refuse the impossible (a gauge below a perfect vacuum, a 500 F
 box, a 10,000 uF capacitor), not the unusual; scoring judges the unusual.
+
+The date ranges at the end (``SERVICE_ERA``, ``RECORD_DATES``, the visit window and the
+booking range) are judged by ``fleet.validation`` for the models, the pages' query
+parameters and the fleet-wide jobs alike.
 """
 
 from __future__ import annotations
