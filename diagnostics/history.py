@@ -34,6 +34,7 @@ from diagnostics.core import (
 )
 from diagnostics.core.types import APPLICATIONS, UnitDesign, choice
 from fleet.choices import ComponentKind, RefrigerantEventKind, Stage, VisitKind, VisitStatus
+from fleet.limits import SERVICE_ERA
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit, VisitUnit
 from fleet.validation import stored_date_problem
 
@@ -256,23 +257,50 @@ class SkippedUnit:
         return f"skipped unit {self.tag} (id {self.unit_id}): {'; '.join(self.problems)}"
 
 
-def _unworkable(u: dict, visits: dict | None, skipped: list[SkippedUnit] | None) -> bool:
-    """Whether the unit's stored dates cannot be worked with; if so it is logged, and kept
-    in ``skipped`` for the caller to report."""
-    dates = [("installed_on", u["installed_on"])]
+def _unworkable(
+    u: dict,
+    visits: dict | None,
+    skipped: list[SkippedUnit] | None,
+    reading_taken: dt.datetime | None = None,
+) -> bool:
+    """Whether the unit's stored dates cannot be worked with (its own, its visits', and
+    the first reading time found out of ``SERVICE_ERA``); if so it is logged, and kept in
+    ``skipped`` for the caller to report."""
+    problems = [stored_date_problem("installed_on", u["installed_on"])]
     if visits:
-        dates += [
-            ("last visit", visits["last_done"]),
-            ("next planned visit", visits["next_booked"]),
+        problems += [
+            stored_date_problem("last visit", visits["last_done"]),
+            stored_date_problem("next planned visit", visits["next_booked"]),
         ]
-    problems = tuple(p for name, value in dates if (p := stored_date_problem(name, value)))
-    if not problems:
+    problems.append(stored_date_problem("reading taken", reading_taken, SERVICE_ERA))
+    found = tuple(p for p in problems if p)
+    if not found:
         return False
-    unit = SkippedUnit(u["id"], u["tag"], problems)
+    unit = SkippedUnit(u["id"], u["tag"], found)
     logger.warning("%s", unit)
     if skipped is not None:
         skipped.append(unit)
     return True
+
+
+#: ``SERVICE_ERA`` in POSIX seconds, [first, end): reading times outside it are set aside
+#: before any is put on a site's calendar (year 9999 in Tokyo is past the last date).
+_ERA_SECONDS = (
+    dt.datetime.combine(SERVICE_ERA.first, dt.time.min, dt.UTC).timestamp(),
+    dt.datetime.combine(SERVICE_ERA.last + dt.timedelta(days=1), dt.time.min, dt.UTC).timestamp(),
+)
+
+
+def _set_aside_out_of_era(rows: list[tuple]) -> tuple[list[tuple], dict[int, dt.datetime]]:
+    """The reading rows within ``SERVICE_ERA``, and per unit the first time out of it."""
+    seconds = np.fromiter((r[1].timestamp() for r in rows), dtype=np.float64, count=len(rows))
+    within = (seconds >= _ERA_SECONDS[0]) & (seconds < _ERA_SECONDS[1])
+    if within.all():
+        return rows, {}
+    outside: dict[int, dt.datetime] = {}
+    for i in np.flatnonzero(~within).tolist():
+        outside.setdefault(rows[i][0], rows[i][1])
+    return [r for r, keep in zip(rows, within.tolist(), strict=True) if keep], outside
 
 
 def _maintenance_plan(
@@ -392,7 +420,8 @@ def _gather(
     skipped: list[SkippedUnit] | None = None,
 ) -> list[flags.UnitHistory]:
     units = list(queries.units)
-    readings = _Readings.of(list(queries.readings), {u["id"]: u["site__time_zone"] for u in units})
+    rows, out_of_era = _set_aside_out_of_era(list(queries.readings))
+    readings = _Readings.of(rows, {u["id"]: u["site__time_zone"] for u in units})
     parts: dict[int, list[dict]] = defaultdict(list)
     for part in queries.parts:
         parts[part["unit_id"]].append(part)
@@ -406,7 +435,7 @@ def _gather(
             u, split, readings, parts[u["id"]], events[u["id"]], visits.get(u["id"]), method, today
         )
         for u, split in zip(units, splits, strict=True)
-        if not _unworkable(u, visits.get(u["id"]), skipped)
+        if not _unworkable(u, visits.get(u["id"]), skipped, out_of_era.get(u["id"]))
     ]
 
 

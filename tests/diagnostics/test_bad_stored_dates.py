@@ -15,8 +15,15 @@ from django.utils import timezone
 from diagnostics import services
 from diagnostics.history import maintenance_plans
 from diagnostics.models import Flag
-from fleet.models import Unit, Visit
-from tests.factories import UnitFactory, UserFactory, VisitFactory, VisitUnitFactory
+from fleet.models import ReadingSet, Unit, Visit
+from tests.factories import (
+    ReadingSetFactory,
+    SiteFactory,
+    UnitFactory,
+    UserFactory,
+    VisitFactory,
+    VisitUnitFactory,
+)
 
 pytestmark = pytest.mark.django_db
 
@@ -83,3 +90,19 @@ def test_maintenance_plans_leave_out_a_unit_with_a_date_out_of_range():
     assert [str(s) for s in skipped] == [
         f"skipped unit BAD-2 (id {bad.pk}): installed_on 0001-01-01 out of range"
     ]
+
+
+def test_a_reading_time_out_of_range_skips_its_unit_not_the_refresh():
+    """A reading stamped 9999-12-31 23:00 UTC at a Tokyo site is past the last date on the
+    site's calendar: that unit is skipped and named, the others refreshed."""
+    site = SiteFactory(time_zone="Asia/Tokyo")
+    bad = UnitFactory(site=site, tag="TK-1")
+    taken = dt.datetime(9999, 12, 31, 23, 0, tzinfo=dt.UTC)
+    ReadingSetFactory(visit_unit=VisitUnitFactory(unit=bad, visit__site=site))
+    ReadingSet.objects.update(taken_at=taken)
+    good = _overdue_unit("GOOD-3")
+    result = services.refresh_flags()
+    assert [str(s) for s in result.skipped] == [
+        f"skipped unit TK-1 (id {bad.pk}): reading taken 9999-12-31 out of range"
+    ]
+    assert Flag.objects.filter(unit=good, kind="maintenance_overdue").exists()
