@@ -21,6 +21,7 @@ from django.utils import timezone
 from diagnostics.models import Flag
 
 from .choices import Role, VisitStatus
+from .limits import SERVICE_ERA
 from .models import Site, Unit, Visit, VisitUnit
 from .services import save_new_visit
 from .validation import booking_problems
@@ -59,9 +60,12 @@ class LocalDateTimeInput(forms.DateTimeInput):
 
 
 def site_wall_clock(value: dt.datetime | None, site: Site | None) -> dt.datetime | None:
-    """An aware datetime shown as the naive wall-clock time at the site (for the picker)."""
+    """An aware datetime shown as the naive wall-clock time at the site (for the picker);
+    none for a stored time outside ``SERVICE_ERA``, which the coordinator types anew."""
     if value is None or site is None:
         return value
+    if value not in SERVICE_ERA:
+        return None
     return timezone.localtime(value, ZoneInfo(site.time_zone)).replace(tzinfo=None)
 
 

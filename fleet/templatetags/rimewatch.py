@@ -309,3 +309,9 @@ def window_end(start: dt.datetime, end: dt.datetime, time_format: str = "H:i") -
         return dateformat.format(end, time_format)
     shown = dateformat.format(end, f"D j M, {time_format}")
     return f"{shown} (next day)" if (end.date() - start.date()).days == 1 else shown
+
+
+@register.simple_tag
+def stored_moment(moment: dt.datetime) -> str:
+    """A stored time as written in UTC, for a time no wall clock can show (out of range)."""
+    return moment.astimezone(dt.UTC).isoformat(" ", "minutes").replace("+00:00", " UTC")

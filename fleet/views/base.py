@@ -21,6 +21,7 @@ from django.core.exceptions import PermissionDenied
 from django.http import Http404, HttpRequest, HttpResponse
 from django.http.response import HttpResponseBase
 from django.shortcuts import redirect, render
+from django.utils import timezone
 from django.utils.functional import SimpleLazyObject
 from django.utils.http import url_has_allowed_host_and_scheme
 
@@ -155,6 +156,16 @@ def safe_next(request: HttpRequest, fallback: str) -> str:
 
 def site_zone(site: Site) -> ZoneInfo:
     return ZoneInfo(site.time_zone)
+
+
+def site_window(visit: Visit) -> tuple[dt.datetime, dt.datetime] | None:
+    """The visit's window on the site's wall clock; None when a stored end lies outside
+    ``SERVICE_ERA`` (written before the models checked it), which no wall clock can show:
+    the page says "date out of range" instead of failing."""
+    if visit.window_start not in SERVICE_ERA or visit.window_end not in SERVICE_ERA:
+        return None
+    zone = site_zone(visit.site)
+    return timezone.localtime(visit.window_start, zone), timezone.localtime(visit.window_end, zone)
 
 
 @login_required

@@ -147,3 +147,23 @@ def test_a_visit_left_where_it_was_is_not_judged_by_todays_booking_range(office)
     assert response.status_code == 302
     visit.refresh_from_db()
     assert visit.reported_problem == "door seal"
+
+
+def test_a_stored_window_out_of_range_is_shown_as_such(office):
+    """A visit stored (before the models checked) at 9999-12-31 20:00 UTC at a Tokyo site
+    is past the last date on the site's clock: its page says "date out of range" with the
+    stored times, and its edit page leaves the window for the coordinator to type anew."""
+    site = SiteFactory(time_zone="Asia/Tokyo")
+    visit = VisitFactory(site=site, status="scheduled")
+    Visit.objects.filter(pk=visit.pk).update(
+        window_start=dt.datetime(9999, 12, 31, 20, 0, tzinfo=dt.UTC),
+        window_end=dt.datetime(9999, 12, 31, 23, 0, tzinfo=dt.UTC),
+    )
+    response = office.get(reverse("fleet:visit", args=[visit.pk]))
+    assert response.status_code == 200
+    page = response.content.decode()
+    assert "date out of range" in page
+    assert "stored as 9999-12-31 20:00 UTC to 9999-12-31 23:00 UTC" in page
+    response = office.get(reverse("fleet:visit-edit", args=[visit.pk]))
+    assert response.status_code == 200
+    assert response.context["form"].initial["window_start"] is None
