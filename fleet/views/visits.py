@@ -6,12 +6,11 @@ from __future__ import annotations
 import datetime as dt
 
 from django.contrib import messages
-from django.db import transaction
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.views.decorators.http import require_GET, require_POST
 
-from fleet import audit, forms
+from fleet import forms
 from fleet.choices import Role, VisitKind, VisitStatus
 from fleet.models import Visit
 from fleet.services import (
@@ -19,6 +18,7 @@ from fleet.services import (
     DEFAULT_VISIT_START,
     IllegalTransition,
     move_visit,
+    save_with_trail,
 )
 
 from .base import BadParameter, bad_parameter, page, query_date, signed_in, within_reach
@@ -69,9 +69,9 @@ def visit_create(request: HttpRequest) -> HttpResponse:
         return bad_parameter(request, error)
     form = forms.VisitForm(request.POST or None, initial=initial)
     if request.method == "POST" and form.is_valid():
-        with transaction.atomic():
-            visit = form.save()
-            audit.record_created(visit, by=request.user, note="booked on the office pages")
+        visit = save_with_trail(
+            None, form.save, by=signed_in(request), note="booked on the office pages"
+        )
         messages.success(request, f"Visit {visit.reference} booked.")
         _warn_about_overlaps(request, visit)
         return redirect("fleet:visit", pk=visit.pk)
@@ -88,12 +88,15 @@ def visit_edit(request: HttpRequest, pk: int) -> HttpResponse:
             "its time, people and units can no longer change.",
         )
         return redirect("fleet:visit", pk=visit.pk)
-    before = audit.snapshot(visit)
     form = forms.VisitForm(request.POST or None, instance=visit)
     if request.method == "POST" and form.is_valid():
-        with transaction.atomic():
-            visit = form.save()
-            audit.record_changed(visit, before, by=request.user, note="changed on the office pages")
+        visit = save_with_trail(
+            visit,
+            form.save,
+            by=signed_in(request),
+            note="changed on the office pages",
+            changed=form.changed_data,
+        )
         messages.success(request, f"Visit {visit.reference} updated.")
         _warn_about_overlaps(request, visit)
         return redirect("fleet:visit", pk=visit.pk)

@@ -114,7 +114,10 @@ def test_it_reschedules_and_reassigns_a_visit(office, world, other_technician):
     chicago = ZoneInfo("America/Chicago")
     assert visit.window_start == dt.datetime(2026, 4, 2, 13, 0, tzinfo=chicago)
     assert list(visit.technicians.all()) == [other_technician]
-    assert AuditEntry.objects.filter(visit_id=visit.pk, action="changed").exists()
+    entry = AuditEntry.objects.get(visit_id=visit.pk, action="changed")
+    # The trail keeps who was swapped, as the admin's and the API's edits record it.
+    assert entry.changes["technicians"][1] == [other_technician.pk]
+    assert "window_start" in entry.changes
 
 
 def test_it_keeps_a_unit_that_already_has_readings(office, world):
