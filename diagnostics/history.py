@@ -11,6 +11,7 @@ from __future__ import annotations
 import contextlib
 import datetime as dt
 import gc
+import logging
 from collections import defaultdict
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
@@ -33,7 +34,11 @@ from diagnostics.core import (
 )
 from diagnostics.core.types import APPLICATIONS, UnitDesign, choice
 from fleet.choices import ComponentKind, RefrigerantEventKind, Stage, VisitKind, VisitStatus
+from fleet.limits import SERVICE_ERA
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit, VisitUnit
+from fleet.validation import stored_date_problem
+
+logger = logging.getLogger(__name__)
 
 _START_PARTS = {
     ComponentKind.RUN_CAPACITOR: start_history.StartComponent.RUN_CAPACITOR,
@@ -214,11 +219,15 @@ def _in_service(today: dt.date, unit_ids: Iterable[int] | None = None) -> QueryS
 
 
 def _visit_dates(today: dt.date) -> dict:
-    """Per unit: the last reviewed visit, and the first planned visit still to come or under
-    way (its window not yet over), for the maintenance plan."""
+    """Per unit: the last visit done (reviewed, or handed in and waiting for review: the
+    work is done, only the office's reading of it is not), and the first planned visit
+    still to come or under way (its window not yet over), for the maintenance plan."""
     start_of_today = dt.datetime.combine(today, dt.time.min, timezone.get_current_timezone())
     return {
-        "last_done": Max("visit__window_start", filter=Q(visit__status=VisitStatus.REVIEWED)),
+        "last_done": Max(
+            "visit__window_start",
+            filter=Q(visit__status__in=[VisitStatus.SUBMITTED, VisitStatus.REVIEWED]),
+        ),
         "next_booked": Min(
             "visit__window_start",
             filter=Q(
@@ -233,6 +242,65 @@ def _visit_dates(today: dt.date) -> dict:
 def _local_date(moment: dt.datetime, time_zone: str) -> dt.date:
     """The calendar day at the site: a visit at 20:00 in Denver is that day, not tomorrow UTC."""
     return moment.astimezone(ZoneInfo(time_zone)).date()
+
+
+@dataclass(frozen=True)
+class SkippedUnit:
+    """A unit a fleet-wide job left out, because a stored value of it cannot be worked with
+    (a date no arithmetic can use): one bad row must not stop the job for the fleet."""
+
+    unit_id: int
+    tag: str
+    problems: tuple[str, ...]
+
+    def __str__(self) -> str:
+        return f"skipped unit {self.tag} (id {self.unit_id}): {'; '.join(self.problems)}"
+
+
+def _unworkable(
+    u: dict,
+    visits: dict | None,
+    skipped: list[SkippedUnit] | None,
+    reading_taken: dt.datetime | None = None,
+) -> bool:
+    """Whether the unit's stored dates cannot be worked with (its own, its visits', and
+    the first reading time found out of ``SERVICE_ERA``); if so it is logged, and kept in
+    ``skipped`` for the caller to report."""
+    problems = [stored_date_problem("installed_on", u["installed_on"])]
+    if visits:
+        problems += [
+            stored_date_problem("last visit", visits["last_done"]),
+            stored_date_problem("next planned visit", visits["next_booked"]),
+        ]
+    problems.append(stored_date_problem("reading taken", reading_taken, SERVICE_ERA))
+    found = tuple(p for p in problems if p)
+    if not found:
+        return False
+    unit = SkippedUnit(u["id"], u["tag"], found)
+    logger.warning("%s", unit)
+    if skipped is not None:
+        skipped.append(unit)
+    return True
+
+
+#: ``SERVICE_ERA`` in POSIX seconds, [first, end): reading times outside it are set aside
+#: before any is put on a site's calendar (year 9999 in Tokyo is past the last date).
+_ERA_SECONDS = (
+    dt.datetime.combine(SERVICE_ERA.first, dt.time.min, dt.UTC).timestamp(),
+    dt.datetime.combine(SERVICE_ERA.last + dt.timedelta(days=1), dt.time.min, dt.UTC).timestamp(),
+)
+
+
+def _set_aside_out_of_era(rows: list[tuple]) -> tuple[list[tuple], dict[int, dt.datetime]]:
+    """The reading rows within ``SERVICE_ERA``, and per unit the first time out of it."""
+    seconds = np.fromiter((r[1].timestamp() for r in rows), dtype=np.float64, count=len(rows))
+    within = (seconds >= _ERA_SECONDS[0]) & (seconds < _ERA_SECONDS[1])
+    if within.all():
+        return rows, {}
+    outside: dict[int, dt.datetime] = {}
+    for i in np.flatnonzero(~within).tolist():
+        outside.setdefault(rows[i][0], rows[i][1])
+    return [r for r, keep in zip(rows, within.tolist(), strict=True) if keep], outside
 
 
 def _maintenance_plan(
@@ -253,10 +321,13 @@ def _maintenance_plan(
 
 
 def maintenance_plans(
-    today: dt.date, unit_ids: Iterable[int] | None = None
+    today: dt.date,
+    unit_ids: Iterable[int] | None = None,
+    skipped: list[SkippedUnit] | None = None,
 ) -> list[maintenance.MaintenancePlan]:
     """Every unit in service as the maintenance core sees it, in two queries: the same plans
-    the flag refresh decides on, for the office's maintenance page."""
+    the flag refresh decides on, for the office's maintenance page. A unit whose dates
+    cannot be worked with is left out (and added to ``skipped``)."""
     units = _in_service(today, unit_ids)
     visits = {
         row["unit_id"]: row
@@ -267,8 +338,9 @@ def maintenance_plans(
     return [
         _maintenance_plan(u, visits.get(u["id"]), today)
         for u in units.values(
-            "id", "site_id", "pm_interval_days", "installed_on", "site__time_zone"
+            "id", "tag", "site_id", "pm_interval_days", "installed_on", "site__time_zone"
         )
+        if not _unworkable(u, visits.get(u["id"]), skipped)
     ]
 
 
@@ -284,6 +356,7 @@ def history_queries(today: dt.date, unit_ids: Iterable[int] | None = None) -> Hi
     return HistoryQueries(
         units=units.values(
             "id",
+            "tag",
             "site_id",
             "application",
             "refrigerant__designation",
@@ -327,19 +400,28 @@ def unit_histories(
     today: dt.date,
     unit_ids: Iterable[int] | None = None,
     method: leaks.LeakRateMethod | None = None,
+    skipped: list[SkippedUnit] | None = None,
 ) -> list[flags.UnitHistory]:
-    """The flag inputs of every unit in service (or of ``unit_ids``)."""
+    """The flag inputs of every unit in service (or of ``unit_ids``), but for those whose
+    dates cannot be worked with (added to ``skipped``)."""
     with collector_paused():
         return _gather(
-            history_queries(today, unit_ids), method or leaks.LeakRateMethod.ROLLING_AVERAGE, today
+            history_queries(today, unit_ids),
+            method or leaks.LeakRateMethod.ROLLING_AVERAGE,
+            today,
+            skipped,
         )
 
 
 def _gather(
-    queries: HistoryQueries, method: leaks.LeakRateMethod, today: dt.date
+    queries: HistoryQueries,
+    method: leaks.LeakRateMethod,
+    today: dt.date,
+    skipped: list[SkippedUnit] | None = None,
 ) -> list[flags.UnitHistory]:
     units = list(queries.units)
-    readings = _Readings.of(list(queries.readings), {u["id"]: u["site__time_zone"] for u in units})
+    rows, out_of_era = _set_aside_out_of_era(list(queries.readings))
+    readings = _Readings.of(rows, {u["id"]: u["site__time_zone"] for u in units})
     parts: dict[int, list[dict]] = defaultdict(list)
     for part in queries.parts:
         parts[part["unit_id"]].append(part)
@@ -353,6 +435,7 @@ def _gather(
             u, split, readings, parts[u["id"]], events[u["id"]], visits.get(u["id"]), method, today
         )
         for u, split in zip(units, splits, strict=True)
+        if not _unworkable(u, visits.get(u["id"]), skipped, out_of_era.get(u["id"]))
     ]
 
 

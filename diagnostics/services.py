@@ -34,7 +34,7 @@ from diagnostics.core.types import (
 from fleet.choices import RefrigerantEventKind
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit
 
-from .history import unit_histories
+from .history import SkippedUnit, unit_histories
 from .models import Diagnosis, Flag, LeakRate
 
 #: What ``start_history.fitted_capacitor`` reads of a component.
@@ -322,11 +322,15 @@ def diagnose_reading_set(reading_set: ReadingSet, now: dt.datetime | None = None
     return diagnosis
 
 
+def configured_leak_rules() -> leaks.LeakRuleSet:
+    """The jurisdiction's rule set the deployment names (``RIMEWATCH_LEAK_RULE_SET``)."""
+    return leaks.RULE_SETS[settings.RIMEWATCH_LEAK_RULE_SET]
+
+
 def _leak_rules() -> tuple[leaks.LeakRuleSet, leaks.LeakRateMethod]:
     """The configured rule set and the facility-wide method (settings, so other
     jurisdictions can plug in their own rules)."""
-    rules = leaks.RULE_SETS[settings.RIMEWATCH_LEAK_RULE_SET]
-    return rules, leaks.LeakRateMethod(settings.RIMEWATCH_LEAK_RATE_METHOD)
+    return configured_leak_rules(), leaks.LeakRateMethod(settings.RIMEWATCH_LEAK_RATE_METHOD)
 
 
 @transaction.atomic
@@ -403,6 +407,9 @@ class FlagRefresh:
     opened: int
     updated: int
     cleared: int
+    #: Units left out because a stored value of theirs cannot be worked with (their flags
+    #: are left as they were).
+    skipped: tuple[SkippedUnit, ...] = ()
 
 
 def _forecast_json(decision: flags.FlagDecision) -> dict[str, Any]:
@@ -431,12 +438,14 @@ def refresh_flags(
     """Open, update and clear flags so they match the core's decisions for each unit now.
 
     One open flag per unit and kind: the partial unique constraint guarantees it, and
-    ``flags.reconcile`` decides which rows to open, update or clear.
+    ``flags.reconcile`` decides which rows to open, update or clear. A unit whose stored
+    dates cannot be worked with is skipped (and reported in the result), not the refresh.
     """
     now = now or timezone.now()
     today = today or timezone.localdate(now)
     rules, method = _leak_rules()
-    histories = unit_histories(today, unit_ids, method)
+    skipped: list[SkippedUnit] = []
+    histories = unit_histories(today, unit_ids, method, skipped)
     decided = flags.decide_flags_many(histories, today, flags.FlagRules(leak=rules))
     open_rows: dict[int, dict[str, Flag]] = {}
     for flag in Flag.objects.filter(
@@ -492,4 +501,9 @@ def refresh_flags(
             ["severity", "summary", "evidence", "projected_on", "forecast", "updated_at"],
         )
         Flag.objects.filter(pk__in=to_clear).update(cleared_at=now, updated_at=now)
-    return FlagRefresh(opened=len(to_create), updated=len(to_update), cleared=len(to_clear))
+    return FlagRefresh(
+        opened=len(to_create),
+        updated=len(to_update),
+        cleared=len(to_clear),
+        skipped=tuple(skipped),
+    )

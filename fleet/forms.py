@@ -13,6 +13,7 @@ from zoneinfo import ZoneInfo
 
 from django import forms
 from django.contrib.auth.models import User
+from django.core.exceptions import ValidationError
 from django.db import transaction
 from django.db.models import QuerySet
 from django.utils import timezone
@@ -20,8 +21,10 @@ from django.utils import timezone
 from diagnostics.models import Flag
 
 from .choices import Role, VisitStatus
+from .limits import SERVICE_ERA
 from .models import Site, Unit, Visit, VisitUnit
 from .services import save_new_visit
+from .validation import booking_problems
 
 #: Statuses in which the office may still change a visit's time, people or units.
 EDITABLE_STATUSES = frozenset({VisitStatus.SCHEDULED, VisitStatus.IN_PROGRESS})
@@ -57,9 +60,12 @@ class LocalDateTimeInput(forms.DateTimeInput):
 
 
 def site_wall_clock(value: dt.datetime | None, site: Site | None) -> dt.datetime | None:
-    """An aware datetime shown as the naive wall-clock time at the site (for the picker)."""
+    """An aware datetime shown as the naive wall-clock time at the site (for the picker);
+    none for a stored time outside ``SERVICE_ERA``, which the coordinator types anew."""
     if value is None or site is None:
         return value
+    if value not in SERVICE_ERA:
+        return None
     return timezone.localtime(value, ZoneInfo(site.time_zone)).replace(tzinfo=None)
 
 
@@ -109,6 +115,7 @@ class VisitForm(forms.ModelForm):
     )
 
     instance: Visit
+    _booked_start: dt.datetime | None
     #: The site picked (bound data, initial data or the visit's), whose units are offered.
     site: Site | None
     #: Units with readings or refrigerant records on this visit: they cannot be dropped.
@@ -128,6 +135,8 @@ class VisitForm(forms.ModelForm):
         _records_field(self, "technicians").queryset = technician_users()
         site = self._chosen_site()
         self.site = site
+        #: The start as booked, to tell a moved window from one left alone.
+        self._booked_start = self.instance.window_start if self.instance.pk else None
         if site is not None:
             _records_field(self, "units").queryset = (
                 Unit.objects.filter(site=site, retired_on__isnull=True)
@@ -152,6 +161,31 @@ class VisitForm(forms.ModelForm):
                 self.initial[name] = site_wall_clock(getattr(self.instance, name), site)
         else:
             self._locked_unit_ids = set()
+
+    @property
+    def end_note(self) -> str:
+        """Said beside the window when it ends on another day than it starts, so that an
+        end typed a day (or a year) off is seen before it is booked."""
+        days = []
+        for name in ("window_start", "window_end"):
+            value = self[name].value()
+            if isinstance(value, str):
+                try:
+                    value = self.fields[name].to_python(value)
+                except ValidationError:
+                    return ""
+            if not isinstance(value, dt.datetime):
+                return ""
+            days.append(value.date())
+        start, end = days
+        if end <= start:
+            return ""
+        after = (
+            "the day after it starts"
+            if (end - start).days == 1
+            else f"{(end - start).days} days after it starts"
+        )
+        return f"Ends on {end:%a %-d %b %Y}, {after}."
 
     @property
     def site_chosen(self) -> bool:
@@ -185,6 +219,10 @@ class VisitForm(forms.ModelForm):
                     wall = timezone.localtime(value).replace(tzinfo=None)
                     data[name] = wall.replace(tzinfo=zone)
                     setattr(self.instance, name, data[name])
+        start = data.get("window_start")
+        if start is not None and start != self._booked_start:
+            for name, problem in booking_problems(start, timezone.localdate()).items():
+                self.add_error(name, problem)
         units = data.get("units")
         if units is not None and site is not None:
             strangers = [u.tag for u in units if u.site_id != site.pk]

@@ -4,10 +4,15 @@ One table serves the field validators (messages that name the field) and the dat
 check constraints (what must never be stored), so the two can never disagree. The bounds
 are wide on purpose: they refuse the impossible (a gauge below a perfect vacuum, a 500 F
 box, a 10,000 uF capacitor), not the unusual; scoring judges the unusual.
+
+The date ranges at the end (``SERVICE_ERA``, ``RECORD_DATES``, the visit window and the
+booking range) are judged by ``fleet.validation`` for the models, the pages' query
+parameters and the fleet-wide jobs alike.
 """
 
 from __future__ import annotations
 
+import datetime as dt
 from dataclasses import dataclass
 
 #: A perfect vacuum at sea level reads -101.325 kPa (-14.7 psig) on a gauge; nothing reads lower.
@@ -95,3 +100,45 @@ EVENT_LIMITS: dict[str, Limit] = {
 #: is about one full charge, and nameplate charges are approximate (a line set added on
 #: site), so a quarter more is still believable; far more is usually a slipped digit or unit.
 CONFIRM_AMOUNT_ABOVE_FULL_CHARGE = 1.25
+
+
+@dataclass(frozen=True)
+class DateRange:
+    """Calendar days from ``first`` to ``last``, both included."""
+
+    first: dt.date
+    last: dt.date
+    why: str
+
+    def __contains__(self, day: object) -> bool:
+        if isinstance(day, dt.datetime):
+            day = day.date()
+        return isinstance(day, dt.date) and self.first <= day <= self.last
+
+
+#: The times a visit or a reading may carry, and the days a page may be asked for
+#: (``?week=``, ``?day=``). Before 1900 a zone's offset may be local mean time (Chicago's
+#: was -05:50:36), which an RFC 3339 date-time cannot even write; ours: nothing this
+#: service records happened before 1970 or is planned past 2199.
+SERVICE_ERA = DateRange(
+    dt.date(1970, 1, 1), dt.date(2199, 12, 31), "outside the years this service records"
+)
+
+#: The days a unit or a part may be installed or retired on: equipment older than our
+#: records is real (a 1960s walk-in), so the range starts earlier than ``SERVICE_ERA``. A
+#: stored date outside it (written before this check, or straight into the database) is
+#: one no job can do date arithmetic with: fleet-wide jobs skip that row and say so.
+RECORD_DATES = DateRange(
+    dt.date(1900, 1, 1), dt.date(2199, 12, 31), "outside any equipment's service life"
+)
+
+#: The office pages book a visit starting at most this far back: the refrigerant rules
+#: keep service records for three years (40 CFR 82.157(l)), so a visit older than that is
+#: history to import, not one to book.
+VISIT_BOOKING_BACK = dt.timedelta(days=3 * 365)
+#: ... and at most this far ahead: the longest planned-maintenance interval (``pm_interval_days``
+#: up to 730) is two years, so no planned visit is due later than that.
+VISIT_BOOKING_AHEAD = dt.timedelta(days=730)
+#: The longest window a visit may have (pages and API): a compressor change-out may take
+#: two working days; longer work is booked as several visits, one per trip.
+VISIT_WINDOW_LONGEST = dt.timedelta(days=2)

@@ -1,11 +1,22 @@
-"""Turn the limits table into field validators and check constraints."""
+"""Turn the limits table into field validators and check constraints, and judge dates:
+the range a stored date must fall in, and the window a visit may have."""
 
 from __future__ import annotations
+
+import datetime as dt
 
 from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 
-from .limits import Limit
+from .limits import (
+    RECORD_DATES,
+    SERVICE_ERA,
+    VISIT_BOOKING_AHEAD,
+    VISIT_BOOKING_BACK,
+    VISIT_WINDOW_LONGEST,
+    DateRange,
+    Limit,
+)
 
 
 def limit_validators(limit: Limit) -> list:
@@ -26,3 +37,69 @@ def limit_constraints(prefix: str, limits: dict[str, Limit]) -> list[models.Chec
         )
         for name, limit in limits.items()
     ]
+
+
+def date_problem(value: dt.date, dates: DateRange) -> str | None:
+    """What is wrong with a day (or a time's day) outside ``dates``, or None."""
+    if value in dates:
+        return None
+    return f"must fall between {dates.first.isoformat()} and {dates.last.isoformat()} ({dates.why})"
+
+
+def stored_date_problem(name: str, value: dt.date | None, dates: DateRange = RECORD_DATES) -> str:
+    """For a stored row a fleet-wide job reads: "installed_on 9999-12-31 out of range" when
+    the date (or a time's day) cannot be worked with (date arithmetic on it may overflow),
+    else ""."""
+    if value is None or value in dates:
+        return ""
+    day = value.date() if isinstance(value, dt.datetime) else value
+    return f"{name} {day.isoformat()} out of range"
+
+
+def visit_window_problems(start: dt.datetime, end: dt.datetime) -> dict[str, str]:
+    """The window every visit must have, wherever it is written (pages, API, admin)."""
+    problems = {
+        name: f"must fall in the years {SERVICE_ERA.first.year} to {SERVICE_ERA.last.year}"
+        for name, value in (("window_start", start), ("window_end", end))
+        if value not in SERVICE_ERA
+    }
+    if problems:
+        return problems
+    if end <= start:
+        return {"window_end": "must be after the start of the window"}
+    if end - start > VISIT_WINDOW_LONGEST:
+        return {
+            "window_end": f"must be at most {_span(VISIT_WINDOW_LONGEST)} after the start "
+            "(book longer work as one visit per trip)"
+        }
+    return {}
+
+
+def booking_problems(start: dt.datetime, today: dt.date) -> dict[str, str]:
+    """The range the office pages book in: not further back than the service records kept,
+    not further ahead than the longest maintenance interval."""
+    first, last = today - VISIT_BOOKING_BACK, today + VISIT_BOOKING_AHEAD
+    if not first <= start.date() <= last:
+        return {
+            "window_start": f"must fall between {first:%-d %b %Y} and {last:%-d %b %Y} "
+            f"(at most {_span(VISIT_BOOKING_BACK)} back and {_span(VISIT_BOOKING_AHEAD)} ahead)"
+        }
+    return {}
+
+
+def _span(length: dt.timedelta) -> str:
+    days = length.days
+    if days >= 365:
+        return f"{round(days / 365)} years"
+    return f"{days} days"
+
+
+def record_date_errors(record: models.Model, names: tuple[str, ...]) -> dict[str, str]:
+    """A model's ``clean()`` errors for its dates outside ``RECORD_DATES``."""
+    errors = {}
+    for name in names:
+        value = getattr(record, name)
+        problem = None if value is None else date_problem(value, RECORD_DATES)
+        if problem:
+            errors[name] = problem
+    return errors

@@ -29,6 +29,13 @@ class MaintenanceRules:
             "ours: propose the visits falling due within a month, for the office to book"
         ),
     )
+    working_days: frozenset[int] = field(
+        default=frozenset(range(5)),
+        metadata=cite(
+            "ours: planned visits go on Monday to Friday (date.weekday() 0 to 4); "
+            "weekends are for calls"
+        ),
+    )
 
 
 DEFAULT_MAINTENANCE_RULES = MaintenanceRules()
@@ -102,6 +109,15 @@ def maintenance_status(plan: MaintenancePlan, today: date) -> MaintenanceStatus:
     )
 
 
+def next_working_day(day: date, rules: MaintenanceRules = DEFAULT_MAINTENANCE_RULES) -> date:
+    """``day`` itself if it is a working day, else the first working day after it."""
+    if not rules.working_days:
+        raise ValueError("at least one day of the week must be a working day")
+    while day.weekday() not in rules.working_days:
+        day += timedelta(days=1)
+    return day
+
+
 def propose_visits(
     plans: Iterable[MaintenancePlan],
     today: date,
@@ -109,8 +125,9 @@ def propose_visits(
 ) -> tuple[VisitProposal, ...]:
     """Visits to book: per site, the units due within the horizon that nobody has booked.
 
-    The proposed date is the earliest due date, or today when something is already overdue.
-    Proposals come most urgent first.
+    The proposed date is the earliest due date, or today when something is already overdue,
+    moved on to the next working day when it falls on another. Proposals come most urgent
+    first.
     """
     horizon = today + timedelta(days=rules.proposal_horizon_days)
     by_site: dict[int, list[MaintenanceStatus]] = {}
@@ -125,7 +142,7 @@ def propose_visits(
         proposals.append(
             VisitProposal(
                 site_id=site_id,
-                proposed_on=max(earliest, today),
+                proposed_on=next_working_day(max(earliest, today), rules),
                 unit_ids=tuple(s.unit_id for s in statuses),
                 overdue_unit_ids=tuple(s.unit_id for s in statuses if s.overdue),
                 earliest_due_on=earliest,

@@ -16,7 +16,7 @@ from diagnostics.core.electrical import DEFAULT_RUN_CAPACITOR_TOLERANCE_PCT, run
 from .. import choices
 from .. import reach as scope
 from ..limits import COMPONENT_LIMITS
-from ..validation import limit_constraints, limit_validators
+from ..validation import limit_constraints, limit_validators, record_date_errors
 from .units import Unit
 from .visits import Visit
 
@@ -172,6 +172,7 @@ class Component(models.Model):
             errors["rating_uf_max"] = "must not be below the lowest rating"
         if self.installed_on and self.removed_on and self.removed_on < self.installed_on:
             errors["removed_on"] = "cannot be before the installation date"
+        errors.update(record_date_errors(self, ("installed_on", "removed_on")))
         if errors:
             raise ValidationError(errors)
         self._store_band()

@@ -10,7 +10,7 @@ from django.db.models import Q
 from .. import choices
 from .. import reach as scope
 from ..limits import UNIT_LIMITS
-from ..validation import limit_constraints, limit_validators
+from ..validation import limit_constraints, limit_validators, record_date_errors
 from .sites import Site
 
 
@@ -202,6 +202,7 @@ class Unit(models.Model):
             errors["superheat_max_k"] = "must not be below the minimum superheat"
         if self.installed_on and self.retired_on and self.retired_on < self.installed_on:
             errors["retired_on"] = "cannot be before the installation date"
+        errors.update(record_date_errors(self, ("installed_on", "retired_on")))
         if (
             self.head_pressure_control == choices.HeadPressureControl.NONE
             and self.head_pressure_setpoint_c is not None

@@ -10,6 +10,7 @@ from django.db.models import Q
 
 from .. import choices
 from .. import reach as scope
+from ..validation import visit_window_problems
 from .sites import Site
 from .units import Unit
 
@@ -70,8 +71,10 @@ class Visit(models.Model):
         return f"{self.reference} {self.get_kind_display()} at {self.site.name}"
 
     def clean(self) -> None:
-        if self.window_start and self.window_end and self.window_end <= self.window_start:
-            raise ValidationError({"window_end": "must be after the start of the window"})
+        if self.window_start and self.window_end:
+            problems = visit_window_problems(self.window_start, self.window_end)
+            if problems:
+                raise ValidationError(problems)
 
 
 class VisitUnit(models.Model):

@@ -15,7 +15,7 @@ from django import template
 from django.contrib.auth.models import User
 from django.forms import BoundField
 from django.urls import reverse
-from django.utils import timezone
+from django.utils import dateformat, timezone
 from django.utils.html import format_html
 from django.utils.safestring import SafeString
 
@@ -299,3 +299,19 @@ def box_offset(metric: dict) -> str:
 def count_status(metrics: list[dict], status: str) -> int:
     """How many of a diagnosis's metrics have ``status``."""
     return sum(1 for m in metrics if m["status"] == status)
+
+
+@register.simple_tag
+def window_end(start: dt.datetime, end: dt.datetime, time_format: str = "H:i") -> str:
+    """The end of a visit's window: its time, and its day too when that is not the start's
+    (an overnight job shown as 22:00 to 02:00 looks like one ending before it starts)."""
+    if end.date() == start.date():
+        return dateformat.format(end, time_format)
+    shown = dateformat.format(end, f"D j M, {time_format}")
+    return f"{shown} (next day)" if (end.date() - start.date()).days == 1 else shown
+
+
+@register.simple_tag
+def stored_moment(moment: dt.datetime) -> str:
+    """A stored time as written in UTC, for a time no wall clock can show (out of range)."""
+    return moment.astimezone(dt.UTC).isoformat(" ", "minutes").replace("+00:00", " UTC")

@@ -9,6 +9,7 @@ visits; the records' pages are for every role, scoped by reach.
 
 from __future__ import annotations
 
+import datetime as dt
 from collections.abc import Callable
 from functools import wraps
 from typing import Any
@@ -20,12 +21,16 @@ from django.core.exceptions import PermissionDenied
 from django.http import Http404, HttpRequest, HttpResponse
 from django.http.response import HttpResponseBase
 from django.shortcuts import redirect, render
+from django.utils import timezone
+from django.utils.functional import SimpleLazyObject
 from django.utils.http import url_has_allowed_host_and_scheme
 
 from diagnostics.models import Flag
 from fleet.choices import Role, VisitStatus
+from fleet.limits import SERVICE_ERA
 from fleet.models import Site, Visit
 from fleet.reach import roles_of
+from fleet.validation import date_problem
 
 #: Every role: a page of records, scoped by reach alone.
 ANY_ROLE = tuple(Role.values)
@@ -52,20 +57,80 @@ def within_reach(*allowed: str) -> Callable[[View], View]:
     return decorate
 
 
+def office_admin(view: View) -> View:
+    """An office administrator's page (``Roles.manages_people``): 404 for anyone else, as
+    ``within_reach`` answers."""
+
+    @wraps(view)
+    def wrapped(request: HttpRequest, *args: Any, **kwargs: Any) -> HttpResponseBase:
+        if not roles_of(request.user).manages_people:
+            raise Http404("not within your reach")
+        return view(request, *args, **kwargs)
+
+    return within_reach(Role.OFFICE)(wrapped)
+
+
+def _queue_count(user: Any) -> int:
+    return Visit.objects.visible_to(user).filter(status=VisitStatus.SUBMITTED).count()
+
+
+def _flag_count(user: Any) -> int:
+    return Flag.objects.visible_to(user).filter(cleared_at__isnull=True).count()
+
+
+def navigation(request: HttpRequest) -> dict[str, Any]:
+    """Template context processor: what the menu of ``base.html`` needs, on every page
+    that extends it (the reports' pages and the htmx fragments too, which render without
+    ``page``). Each value is read lazily, so a page that shows no menu (the admin, the
+    sign-in page) asks nothing; a value the view passes itself takes precedence."""
+    user = request.user
+    return {
+        "roles": SimpleLazyObject(lambda: roles_of(user)),
+        "nav_queue_count": SimpleLazyObject(lambda: _queue_count(user)),
+        "nav_flag_count": SimpleLazyObject(lambda: _flag_count(user)),
+    }
+
+
 def page(request: HttpRequest, template: str, context: dict, status: int = 200) -> HttpResponse:
     """Render a page with the user's roles and what the navigation shows for them (two
     counts for the office; a page that has counted one already passes it in)."""
     context = {"roles": roles_of(request.user), **context}
     if context["roles"].office:
         if "nav_queue_count" not in context:
-            context["nav_queue_count"] = (
-                Visit.objects.visible_to(request.user).filter(status=VisitStatus.SUBMITTED).count()
-            )
+            context["nav_queue_count"] = _queue_count(request.user)
         if "nav_flag_count" not in context:
-            context["nav_flag_count"] = (
-                Flag.objects.visible_to(request.user).filter(cleared_at__isnull=True).count()
-            )
+            context["nav_flag_count"] = _flag_count(request.user)
     return render(request, template, context, status=status)
+
+
+class BadParameter(Exception):
+    """A query parameter a page cannot work with: answered 400 naming it (never a 500, and
+    never silently replaced by something the address did not ask for)."""
+
+    def __init__(self, name: str, value: str, problem: str) -> None:
+        super().__init__(f"{name}={value}: {problem}")
+        self.name, self.value, self.problem = name, value, problem
+
+
+def query_date(request: HttpRequest, name: str) -> dt.date | None:
+    """The day a query parameter names (YYYY-MM-DD, within ``SERVICE_ERA``), or None when
+    the address does not give one."""
+    raw = request.GET.get(name, "")
+    if not raw:
+        return None
+    try:
+        day = dt.date.fromisoformat(raw)
+    except ValueError:
+        raise BadParameter(name, raw, "is not a date; write it as YYYY-MM-DD") from None
+    problem = date_problem(day, SERVICE_ERA)
+    if problem:
+        raise BadParameter(name, raw, problem)
+    return day
+
+
+def bad_parameter(request: HttpRequest, error: BadParameter) -> HttpResponse:
+    """The 400 page for a query parameter the page cannot use, naming it."""
+    return page(request, "fleet/bad_parameter.html", {"error": error}, status=400)
 
 
 def signed_in(request: HttpRequest) -> User:
@@ -91,6 +156,16 @@ def safe_next(request: HttpRequest, fallback: str) -> str:
 
 def site_zone(site: Site) -> ZoneInfo:
     return ZoneInfo(site.time_zone)
+
+
+def site_window(visit: Visit) -> tuple[dt.datetime, dt.datetime] | None:
+    """The visit's window on the site's wall clock; None when a stored end lies outside
+    ``SERVICE_ERA`` (written before the models checked it), which no wall clock can show:
+    the page says "date out of range" instead of failing."""
+    if visit.window_start not in SERVICE_ERA or visit.window_end not in SERVICE_ERA:
+        return None
+    zone = site_zone(visit.site)
+    return timezone.localtime(visit.window_start, zone), timezone.localtime(visit.window_end, zone)
 
 
 @login_required

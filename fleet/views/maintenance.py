@@ -15,7 +15,7 @@ from django.utils import timezone
 from django.views.decorators.http import require_GET, require_POST
 
 from diagnostics.core import maintenance
-from diagnostics.history import maintenance_plans
+from diagnostics.history import SkippedUnit, maintenance_plans
 from fleet.choices import Role
 from fleet.models import Unit
 from fleet.services import book_proposed_visits
@@ -30,15 +30,26 @@ class MaintenanceRow:
     last_done_on: dt.date | None
 
 
+@dataclass(frozen=True)
+class LeftOut:
+    """A unit within reach that no plan can be made for, and why (a stored date no
+    arithmetic can use): shown, so that someone corrects its record."""
+
+    unit: Unit
+    problems: tuple[str, ...]
+
+
 def _plans_and_units(
     today: dt.date, within_reach: QuerySet[Unit]
-) -> tuple[list[maintenance.MaintenancePlan], dict[int, Unit]]:
+) -> tuple[list[maintenance.MaintenancePlan], dict[int, Unit], list[LeftOut]]:
     """The maintenance plans the flag refresh decides on for the units within reach, with
-    the units to show them by."""
-    plans = maintenance_plans(today)
-    units = within_reach.filter(pk__in=[p.unit_id for p in plans])
+    the units to show them by, and the units left out of them."""
+    skipped: list[SkippedUnit] = []
+    plans = maintenance_plans(today, skipped=skipped)
+    units = within_reach.filter(pk__in=[p.unit_id for p in plans] + [s.unit_id for s in skipped])
     by_id = {u.pk: u for u in units.select_related("site__customer")}
-    return [p for p in plans if p.unit_id in by_id], by_id
+    left_out = [LeftOut(by_id[s.unit_id], s.problems) for s in skipped if s.unit_id in by_id]
+    return [p for p in plans if p.unit_id in by_id], by_id, left_out
 
 
 @within_reach(Role.OFFICE)
@@ -47,7 +58,7 @@ def maintenance_due(request: HttpRequest) -> HttpResponse:
     """Units due or overdue for planned maintenance, and the visits the core proposes."""
     today = timezone.localdate()
     rules = maintenance.DEFAULT_MAINTENANCE_RULES
-    plans, units = _plans_and_units(today, Unit.objects.visible_to(request.user))
+    plans, units, left_out = _plans_and_units(today, Unit.objects.visible_to(request.user))
     horizon = today + dt.timedelta(days=rules.proposal_horizon_days)
     rows = []
     for plan in plans:
@@ -70,6 +81,7 @@ def maintenance_due(request: HttpRequest) -> HttpResponse:
         {
             "rows": rows,
             "proposals": proposals,
+            "left_out": left_out,
             "today": today,
             "horizon_days": rules.proposal_horizon_days,
             "overdue_count": sum(1 for r in rows if r.status.overdue and not r.status.scheduled_on),
@@ -82,7 +94,7 @@ def maintenance_due(request: HttpRequest) -> HttpResponse:
 def maintenance_propose(request: HttpRequest) -> HttpResponse:
     """Book the proposed planned visits (unassigned; the coordinator assigns them after)."""
     today = timezone.localdate()
-    plans, units = _plans_and_units(today, Unit.objects.visible_to(request.user))
+    plans, units, _ = _plans_and_units(today, Unit.objects.visible_to(request.user))
     proposals = maintenance.propose_visits(plans, today)
     booked = book_proposed_visits(proposals, units, by=signed_in(request))
     if booked:

@@ -19,7 +19,7 @@ from fleet.choices import Role, VisitStatus
 from fleet.models import Visit
 from fleet.reach import roles_of
 
-from .base import page, site_zone, within_reach
+from .base import BadParameter, bad_parameter, page, query_date, site_zone, within_reach
 
 
 @dataclass
@@ -66,12 +66,9 @@ def find_overlaps(visits: Iterable[ScheduledVisit]) -> list[Overlap]:
     return found
 
 
-def monday_of(raw: str | None) -> dt.date:
-    today = timezone.localdate()
-    try:
-        day = dt.date.fromisoformat(raw) if raw else today
-    except ValueError:
-        day = today
+def monday_of(day: dt.date | None) -> dt.date:
+    """The Monday of the week of ``day`` (of today when None)."""
+    day = day or timezone.localdate()
     return day - dt.timedelta(days=day.weekday())
 
 
@@ -86,7 +83,10 @@ class ScheduleRow:
 @require_GET
 def schedule(request: HttpRequest) -> HttpResponse:
     """A week of visits, one row per technician and one column per day (site-local dates)."""
-    monday = monday_of(request.GET.get("week"))
+    try:
+        monday = monday_of(query_date(request, "week"))
+    except BadParameter as error:
+        return bad_parameter(request, error)
     days = [monday + dt.timedelta(days=i) for i in range(7)]
     zone = timezone.get_current_timezone()
     # Sites may sit a few hours from our zone: fetch a day either side, place by local date.
@@ -122,6 +122,14 @@ def schedule(request: HttpRequest) -> HttpResponse:
     if office:
         people = list(forms.technician_users())
         rows = [ScheduleRow(p.get_full_name() or p.get_username(), p.pk) for p in people]
+        # Someone disabled or re-roled keeps the visits still assigned to them: a row of
+        # their own, so no visit within reach drops off the week.
+        listed = {p.pk for p in people}
+        former = {t.pk: t for s in visits for t in s.visit.technicians.all() if t.pk not in listed}
+        rows.extend(
+            ScheduleRow(f"{p.get_full_name() or p.get_username()} (not a technician now)", p.pk)
+            for p in sorted(former.values(), key=lambda p: (p.get_full_name(), p.username))
+        )
         rows.append(ScheduleRow("Not assigned yet", None))
     else:
         rows = [ScheduleRow("My visits", request.user.pk)]

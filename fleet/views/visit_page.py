@@ -6,7 +6,6 @@ from __future__ import annotations
 from django.db.models import Prefetch, QuerySet
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import get_object_or_404
-from django.utils import timezone
 from django.views.decorators.http import require_GET
 
 from diagnostics.models import Diagnosis
@@ -15,7 +14,7 @@ from fleet.choices import VisitStatus
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Visit, VisitUnit
 from fleet.reach import roles_of
 
-from .base import ANY_ROLE, page, site_zone, within_reach
+from .base import ANY_ROLE, page, site_window, within_reach
 from .stored import cautions_of, covered_units
 from .trail import return_history
 
@@ -69,15 +68,15 @@ def visit_page(
     Diagnosis.attach_details(diagnoses)
     office = roles_of(request.user).office
     can_review = office and visit.status == VisitStatus.SUBMITTED
-    zone = site_zone(visit.site)
+    window = site_window(visit)
     return page(
         request,
         "fleet/visit_detail.html",
         {
             "visit": visit,
             "covered": covered,
-            "local_start": timezone.localtime(visit.window_start, zone),
-            "local_end": timezone.localtime(visit.window_end, zone),
+            "local_start": window[0] if window else None,
+            "local_end": window[1] if window else None,
             "cautions": cautions_of(diagnoses),
             "flammable": sorted(
                 {c.unit.refrigerant.designation for c in covered if c.unit.refrigerant.flammable}

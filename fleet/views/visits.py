@@ -6,12 +6,11 @@ from __future__ import annotations
 import datetime as dt
 
 from django.contrib import messages
-from django.db import transaction
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.views.decorators.http import require_GET, require_POST
 
-from fleet import audit, forms
+from fleet import forms
 from fleet.choices import Role, VisitKind, VisitStatus
 from fleet.models import Visit
 from fleet.services import (
@@ -19,18 +18,17 @@ from fleet.services import (
     DEFAULT_VISIT_START,
     IllegalTransition,
     move_visit,
+    save_with_trail,
 )
 
-from .base import page, signed_in, within_reach
+from .base import BadParameter, bad_parameter, page, query_date, signed_in, within_reach
 
 
 def _initial_from_query(request: HttpRequest) -> dict:
-    """Prefill from the schedule's 'add' links: ?day=YYYY-MM-DD&technician=ID&site=ID."""
+    """Prefill from the schedule's 'add' links: ?day=YYYY-MM-DD&technician=ID&site=ID (a
+    day the page cannot use raises ``BadParameter``)."""
     initial: dict = {"kind": VisitKind.PLANNED}
-    try:
-        day = dt.date.fromisoformat(request.GET.get("day", ""))
-    except ValueError:
-        day = None
+    day = query_date(request, "day")
     if day is not None:
         start = dt.datetime.combine(day, DEFAULT_VISIT_START)
         initial["window_start"] = start
@@ -65,11 +63,15 @@ def _warn_about_overlaps(request: HttpRequest, visit: Visit) -> None:
 
 @within_reach(Role.OFFICE)
 def visit_create(request: HttpRequest) -> HttpResponse:
-    form = forms.VisitForm(request.POST or None, initial=_initial_from_query(request))
+    try:
+        initial = _initial_from_query(request)
+    except BadParameter as error:
+        return bad_parameter(request, error)
+    form = forms.VisitForm(request.POST or None, initial=initial)
     if request.method == "POST" and form.is_valid():
-        with transaction.atomic():
-            visit = form.save()
-            audit.record_created(visit, by=request.user, note="booked on the office pages")
+        visit = save_with_trail(
+            None, form.save, by=signed_in(request), note="booked on the office pages"
+        )
         messages.success(request, f"Visit {visit.reference} booked.")
         _warn_about_overlaps(request, visit)
         return redirect("fleet:visit", pk=visit.pk)
@@ -86,12 +88,15 @@ def visit_edit(request: HttpRequest, pk: int) -> HttpResponse:
             "its time, people and units can no longer change.",
         )
         return redirect("fleet:visit", pk=visit.pk)
-    before = audit.snapshot(visit)
     form = forms.VisitForm(request.POST or None, instance=visit)
     if request.method == "POST" and form.is_valid():
-        with transaction.atomic():
-            visit = form.save()
-            audit.record_changed(visit, before, by=request.user, note="changed on the office pages")
+        visit = save_with_trail(
+            visit,
+            form.save,
+            by=signed_in(request),
+            note="changed on the office pages",
+            changed=form.changed_data,
+        )
         messages.success(request, f"Visit {visit.reference} updated.")
         _warn_about_overlaps(request, visit)
         return redirect("fleet:visit", pk=visit.pk)

@@ -14,6 +14,11 @@ class Command(BaseCommand):
 
     def handle(self, *args: Any, **options: Any) -> None:
         result = refresh_flags()
-        self.stdout.write(
+        for unit in result.skipped:
+            self.stdout.write(self.style.WARNING(str(unit)))
+        summary = (
             f"Flags: {result.opened} opened, {result.updated} changed, {result.cleared} cleared."
         )
+        if result.skipped:
+            summary += f" {len(result.skipped)} unit(s) skipped, named above."
+        self.stdout.write(summary)

@@ -11,15 +11,10 @@ from drf_spectacular.utils import extend_schema_field
 from rest_framework import serializers
 
 from fleet.api.wire_units import REQUEST_UNITS, response_units
+from fleet.limits import SERVICE_ERA
 
 #: How far ahead of the server clock a reading may be stamped (phone clocks drift a little).
 FUTURE_SLACK = dt.timedelta(hours=1)
-#: The times a visit or a reading may carry: [start, end).
-SERVICE_ERA = (
-    dt.datetime(1970, 1, 1, tzinfo=dt.UTC),
-    dt.datetime(2200, 1, 1, tzinfo=dt.UTC),
-)
-
 _REQUEST_UNITS_SCHEMA = {
     "type": "object",
     "description": "Request: the units its measurements are in (a temperature difference is "
@@ -82,9 +77,9 @@ def measure_field(help_text: str, **kwargs: Any) -> serializers.FloatField:
 def check_in_service_era(value: dt.datetime) -> None:
     """Refuse times no service record can have. Before 1900 a zone's offset may be local
     mean time (Chicago's was -05:50:36), which an RFC 3339 date-time cannot even write."""
-    if not SERVICE_ERA[0] <= value < SERVICE_ERA[1]:
+    if value not in SERVICE_ERA:
         raise serializers.ValidationError(
-            f"must fall in the years {SERVICE_ERA[0].year} to {SERVICE_ERA[1].year - 1}"
+            f"must fall in the years {SERVICE_ERA.first.year} to {SERVICE_ERA.last.year}"
         )
 
 

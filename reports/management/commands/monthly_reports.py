@@ -16,16 +16,24 @@ from django.core.management.base import BaseCommand, CommandError, CommandParser
 from django.utils import timezone
 from tqdm import tqdm
 
+from fleet.limits import SERVICE_ERA
 from fleet.models import Site
+from fleet.validation import date_problem
 from reports.months import Month
 from reports.services import email_report, generate_monthly_report
 
 
 def _month(text: str) -> Month:
+    """The month asked for, within ``SERVICE_ERA`` (9999-12 has no month after it to end
+    on: refused here, not once per site)."""
     try:
-        return Month.parse(text)
+        month = Month.parse(text)
     except ValueError as exc:
         raise CommandError(f"--month: {exc}") from exc
+    problem = date_problem(month.first_day, SERVICE_ERA)
+    if problem:
+        raise CommandError(f"--month: {text} {problem}")
+    return month
 
 
 class Command(BaseCommand):

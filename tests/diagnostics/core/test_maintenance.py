@@ -10,6 +10,7 @@ from diagnostics.core.maintenance import (
     MaintenancePlan,
     MaintenanceRules,
     maintenance_status,
+    next_working_day,
     propose_visits,
 )
 
@@ -66,7 +67,8 @@ def test_a_non_positive_interval_is_refused() -> None:
 def test_proposals_gather_a_site_and_skip_booked_and_distant_units() -> None:
     """Site 10: unit 1 overdue and unit 2 due in 20 days go on one visit proposed today;
     unit 3 is booked, unit 4 due in 60 days (beyond the 30-day horizon). Site 20: unit 5 due
-    in 25 days is proposed on its due date. The overdue site comes first."""
+    in 25 days (a Sunday) is proposed on the working day after its due date. The overdue
+    site comes first."""
     plans = [
         MaintenancePlan(1, 10, 90, last_completed_on=ago(100)),
         MaintenancePlan(2, 10, 90, last_completed_on=ago(70)),
@@ -82,7 +84,8 @@ def test_proposals_gather_a_site_and_skip_booked_and_distant_units() -> None:
     assert first.earliest_due_on == ago(10)
     assert second.site_id == 20
     assert second.unit_ids == (5,)
-    assert second.proposed_on == TODAY + timedelta(days=25)
+    assert second.earliest_due_on == TODAY + timedelta(days=25)
+    assert second.proposed_on == TODAY + timedelta(days=26)
 
 
 def test_the_horizon_is_a_rule() -> None:
@@ -91,3 +94,19 @@ def test_the_horizon_is_a_rule() -> None:
     assert propose_visits(plans, TODAY) == ()
     (proposal,) = propose_visits(plans, TODAY, MaintenanceRules(proposal_horizon_days=70))
     assert proposal.unit_ids == (4,)
+
+
+def test_proposals_fall_on_working_days() -> None:
+    """Overdue on a Saturday: proposed for the Monday after, not for today; due on a
+    Sunday: the Monday after; due on a Friday: that Friday. Working days are a rule."""
+    saturday = date(2026, 12, 5)
+    overdue = MaintenancePlan(1, 10, 30, last_completed_on=saturday - timedelta(days=40))
+    (proposal,) = propose_visits([overdue], saturday)
+    assert proposal.proposed_on == date(2026, 12, 7)
+    assert next_working_day(date(2026, 12, 6)) == date(2026, 12, 7)
+    assert next_working_day(date(2026, 12, 4)) == date(2026, 12, 4)
+    six_days = MaintenanceRules(working_days=frozenset(range(6)))
+    (proposal,) = propose_visits([overdue], saturday, six_days)
+    assert proposal.proposed_on == saturday
+    with pytest.raises(ValueError, match="working day"):
+        next_working_day(saturday, MaintenanceRules(working_days=frozenset()))
