@@ -51,7 +51,7 @@ def rss_kb(pid: int) -> int:
 
 
 def latency(samples: int, interval: str) -> list[float]:
-    from _noop import noop
+    from _jobs.noop import noop
 
     proc = worker("--interval", interval)
     time.sleep(3)  # started and polling
@@ -75,7 +75,7 @@ def latency(samples: int, interval: str) -> list[float]:
 
 
 def throughput(jobs: int) -> tuple[float, int]:
-    from _noop import noop
+    from _jobs.noop import noop
 
     for _ in range(jobs):
         noop.enqueue()

@@ -1,4 +1,5 @@
-"""The no-op job bench/tasks.py times (imported by the worker with bench/ on its path)."""
+"""The no-op job bench/tasks.py times (imported by the worker with bench/ on its path;
+in a folder of its own so `make bench` does not run it as a benchmark)."""
 
 from __future__ import annotations
 
