@@ -23,7 +23,7 @@ from reports.models import MonthlyReport
 from tests.factories import SiteFactory, UserFactory
 
 pytestmark = [
-    pytest.mark.django_db(transaction=True),
+    pytest.mark.django_db(transaction=True, serialized_rollback=True),
     pytest.mark.skipif(
         connection.vendor != "postgresql",
         reason="a worker process needs the test database on a server (SQLite's test "
