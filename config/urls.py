@@ -4,6 +4,9 @@ from django.contrib import admin
 from django.urls import include, path
 from drf_spectacular.views import SpectacularAPIView, SpectacularRedocView
 
+#: A path that names nothing: JSON under /api/, the usual page elsewhere.
+handler404 = "config.errors.not_found"
+
 urlpatterns = [
     path("admin/", admin.site.urls),
     path("accounts/", include("django.contrib.auth.urls")),
