@@ -323,7 +323,9 @@ def _closed_port() -> int:
         return int(sock.getsockname()[1])
 
 
-@pytest.mark.django_db(transaction=True)
+# serialized_rollback: the flush after this test then leaves the content types to the next
+# serialized test (tests/api/test_concurrent_retries.py) instead of recreating them.
+@pytest.mark.django_db(transaction=True, serialized_rollback=True)
 @pytest.mark.skipif(
     connection.vendor != "postgresql",
     reason="a real refused connection needs a server to point away from; the SQLite runs "
