@@ -179,6 +179,28 @@ def test_ids_beyond_any_record_in_a_body_are_a_400_naming_the_field(world):
     assert Site.objects.filter(customer_id=customer).count() == 1
 
 
+def test_a_fraction_is_not_a_record_id(world):
+    """``1.5`` was read as record 1; an id is a whole number (``2.0`` is record 2)."""
+    client = world.client("office")
+    customer = world.own_site.customer_id
+    body = {"name": "Half", "time_zone": "UTC"}
+    half = client.post("/api/v1/sites/", {**body, "customer": customer + 0.5}, format="json")
+    assert half.status_code == 400
+    assert half.json() == {
+        "customer": [f"must be a record id, a whole number; got {customer + 0.5}"]
+    }
+    visit = client.post(
+        "/api/v1/visits/",
+        {"site": world.own_site.pk, "units": [world.own_unit.pk + 0.25]},
+        format="json",
+    )
+    assert visit.status_code == 400
+    assert "units" in visit.json()
+    whole = client.post("/api/v1/sites/", {**body, "customer": float(customer)}, format="json")
+    assert whole.status_code == 201, whole.json()
+    assert whole.json()["customer"] == customer
+
+
 @pytest.mark.parametrize("flag", [True, False])
 def test_a_boolean_is_not_a_temperature(world, flag):
     """``true`` would be stored as 1.0 degree: refused, naming the field."""

@@ -31,7 +31,7 @@ from fleet.api.wire_units import (
 )
 from fleet.display import Quantity, from_si, to_si
 
-from .fields import FreeTextField, LineField, NumberField, UnitsField
+from .fields import FreeTextField, LineField, NumberField, RecordIdField, UnitsField
 
 
 class RefusesUnknownFields(serializers.Serializer):
@@ -80,7 +80,8 @@ class ValidatedModelSerializer(RefusesUnknownFields, serializers.ModelSerializer
     """Runs the model's ``full_clean()`` on the would-be instance (NetBox's
     ``ValidatedModelSerializer``), reporting errors under the wire names. A model's float
     columns take numbers but not ``true``; its text columns refuse control characters
-    (free text keeps tabs and line breaks) and free text is capped in length."""
+    (free text keeps tabs and line breaks) and free text is capped in length; a related
+    record is named by a whole number."""
 
     serializer_field_mapping = {
         **serializers.ModelSerializer.serializer_field_mapping,
@@ -88,6 +89,7 @@ class ValidatedModelSerializer(RefusesUnknownFields, serializers.ModelSerializer
         models.CharField: LineField,
         models.TextField: FreeTextField,
     }
+    serializer_related_field = RecordIdField
 
     #: Columns full_clean skips: ones the view sets from trusted objects (foreign keys it
     #: already holds would cost a query each to re-check) and the retry key ``client_id``,

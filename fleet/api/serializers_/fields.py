@@ -123,6 +123,21 @@ class FreeTextField(LineField):
         super().__init__(**kwargs)
 
 
+class RecordIdField(serializers.PrimaryKeyRelatedField):
+    """A related record by its id, a whole number: ``1.5`` is refused rather than read as
+    record 1, ``true`` as DRF refuses it. Digits past 64 bits, which the JSON parser reads
+    as a float, are looked up as the whole number they are and found in no record."""
+
+    default_error_messages = {"not_whole": "must be a record id, a whole number; got {value}"}
+
+    def to_internal_value(self, data: Any) -> Any:
+        if isinstance(data, float):
+            if not data.is_integer():
+                self.fail("not_whole", value=data)
+            data = int(data)
+        return super().to_internal_value(data)
+
+
 def measure_field(help_text: str, **kwargs: Any) -> serializers.FloatField:
     return NumberField(required=False, allow_null=True, help_text=help_text, **kwargs)
 

@@ -12,17 +12,17 @@ from fleet import choices
 from fleet.models import AuditEntry, Unit, Visit, VisitUnit
 
 from .base import RefusesUnknownFields, ValidatedModelSerializer
-from .fields import FreeTextField, check_in_service_era
+from .fields import FreeTextField, RecordIdField, check_in_service_era
 
 
 class VisitSerializer(ValidatedModelSerializer):
-    technicians = serializers.PrimaryKeyRelatedField(
+    technicians = RecordIdField(
         many=True,
         required=False,
         queryset=User.objects.filter(groups__name=choices.Role.TECHNICIAN),
         help_text="User ids of the technicians assigned (role technician).",
     )
-    units = serializers.PrimaryKeyRelatedField(
+    units = RecordIdField(
         many=True,
         required=False,
         queryset=Unit.objects.all(),
