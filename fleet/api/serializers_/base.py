@@ -78,11 +78,12 @@ class RefusesUnknownFields(serializers.Serializer):
 
 class ValidatedModelSerializer(RefusesUnknownFields, serializers.ModelSerializer[Model]):
     """Runs the model's ``full_clean()`` on the would-be instance (NetBox's
-    ``ValidatedModelSerializer``), reporting errors under the wire names. A model's float
-    columns take numbers but not ``true``; its text columns refuse control characters
-    (free text keeps tabs and line breaks) and free text is capped in length; a related
-    record is named by a whole number."""
+    ``ValidatedModelSerializer``), reporting errors under the wire names."""
 
+    # (Said here rather than in the docstring, which the schema shows to integrators.) A
+    # model's float columns take numbers but not true; its text columns refuse control
+    # characters (free text keeps tabs and line breaks) and free text is capped in length;
+    # a related record is named by a whole number.
     serializer_field_mapping = {
         **serializers.ModelSerializer.serializer_field_mapping,
         models.FloatField: NumberField,
