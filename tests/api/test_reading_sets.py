@@ -381,6 +381,19 @@ def test_the_unique_constraint_settles_a_race(technician, visit_unit, monkeypatc
     assert ReadingSet.objects.count() == 1
 
 
+def test_a_race_lost_with_other_values_is_a_conflict(technician, visit_unit, monkeypatch):
+    """When the early look-up misses and the insert meets the stored set, a body with other
+    values is still a 409 naming them, not the other request's record with 200."""
+    client = token_client(technician)
+    body = _body(visit_unit)
+    assert client.post(_url(visit_unit), body, format="json").status_code == 201
+    monkeypatch.setattr(ReadingSetViewSet, "_repeat", lambda self, data: None)
+    again = client.post(_url(visit_unit), {**body, "suction_pressure": 58.0}, format="json")
+    assert again.status_code == 409
+    assert set(again.json()) == {"client_id", "stored", "suction_pressure"}
+    assert ReadingSet.objects.get().suction_kpa_gauge == pytest.approx(62.0 * KPA_PER_PSI)
+
+
 def test_a_client_id_from_another_visit_is_a_conflict(technician, visit_unit):
     """A client_id already used on another visit is 409 on client_id, not someone's record."""
     client = token_client(technician)
