@@ -33,18 +33,16 @@ urlpatterns = [
         name="refrigerant-saturation",
     ),
     path(
-        "units/<int:unit_pk>/diagnosis/",
+        "units/<id:unit_pk>/diagnosis/",
         diagnostics_views.UnitDiagnosisView.as_view(),
         name="unit-diagnosis",
     ),
     path(
-        "units/<int:unit_pk>/trends/",
+        "units/<id:unit_pk>/trends/",
         diagnostics_views.UnitTrendsView.as_view(),
         name="unit-trends",
     ),
-    path(
-        "units/<int:unit_pk>/flags/", diagnostics_views.UnitFlagsView.as_view(), name="unit-flags"
-    ),
+    path("units/<id:unit_pk>/flags/", diagnostics_views.UnitFlagsView.as_view(), name="unit-flags"),
     *report_urls.urlpatterns,
     *router.urls,
 ]

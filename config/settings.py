@@ -63,6 +63,8 @@ MIDDLEWARE = [
     "django.middleware.csrf.CsrfViewMiddleware",
     "django.contrib.auth.middleware.AuthenticationMiddleware",
     "django.contrib.messages.middleware.MessageMiddleware",
+    # A database that cannot be reached answers 503 with Retry-After (config/errors.py).
+    "config.errors.DatabaseOutageMiddleware",
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
 ]
 
@@ -159,7 +161,8 @@ REST_FRAMEWORK = {
     ],
     "DEFAULT_PERMISSION_CLASSES": ["rest_framework.permissions.IsAuthenticated"],
     "DEFAULT_RENDERER_CLASSES": ["rest_framework.renderers.JSONRenderer"],
-    "DEFAULT_PARSER_CLASSES": ["rest_framework.parsers.JSONParser"],
+    # JSON by orjson, with size and nesting limits (fleet/api/parsers.py).
+    "DEFAULT_PARSER_CLASSES": ["fleet.api.parsers.JSONParser"],
     "DEFAULT_FILTER_BACKENDS": ["django_filters.rest_framework.DjangoFilterBackend"],
     "DEFAULT_PAGINATION_CLASS": "rest_framework.pagination.PageNumberPagination",
     "PAGE_SIZE": 50,
@@ -183,6 +186,8 @@ SPECTACULAR_SETTINGS = {
     "SERVE_INCLUDE_SCHEMA": False,
     # /api/docs/ loads Redoc from our own static files (drf-spectacular-sidecar), never a CDN.
     "REDOC_DIST": "SIDECAR",
+    # <id:...> in paths is a record id (fleet/validation.py): an integer in the schema.
+    "PATH_CONVERTER_OVERRIDES": {"id": int},
 }
 
 EMAIL_BACKEND = os.environ.get("EMAIL_BACKEND", "django.core.mail.backends.console.EmailBackend")

@@ -7,6 +7,9 @@ from drf_spectacular.views import SpectacularAPIView, SpectacularRedocView
 
 from jobs.mail import QueuedPasswordResetForm
 
+#: A path that names nothing: JSON under /api/, the usual page elsewhere.
+handler404 = "config.errors.not_found"
+
 urlpatterns = [
     path("admin/", admin.site.urls),
     # The reset e-mail is sent by the background worker, not in the request.

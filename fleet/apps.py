@@ -24,4 +24,9 @@ class FleetConfig(AppConfig):
     verbose_name = "Fleet"
 
     def ready(self) -> None:
+        from django.urls import register_converter
+
+        from fleet.validation import RecordIdConverter
+
+        register_converter(RecordIdConverter, "id")
         post_migrate.connect(grant_office_permissions, dispatch_uid="rimewatch-office-permissions")

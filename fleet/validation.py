@@ -1,5 +1,6 @@
 """Turn the limits table into field validators and check constraints, and judge dates:
-the range a stored date must fall in, and the window a visit may have."""
+the range a stored date must fall in, and the window a visit may have; and the range of a
+record id in a URL."""
 
 from __future__ import annotations
 
@@ -103,3 +104,25 @@ def record_date_errors(record: models.Model, names: tuple[str, ...]) -> dict[str
         if problem:
             errors[name] = problem
     return errors
+
+
+#: The largest id a record can have: the top of a 64-bit signed integer, which PostgreSQL's
+#: bigint and SQLite's INTEGER both hold. A larger number names no record.
+MAX_RECORD_ID = 2**63 - 1
+
+
+class RecordIdConverter:
+    """``<id:pk>`` in a URL: a record id from 1 to ``MAX_RECORD_ID``. Anything larger does
+    not match, so it is a 404 like any id that names no record, instead of reaching the
+    database as a number it cannot hold (SQLite refuses it with an error)."""
+
+    regex = "[0-9]+"
+
+    def to_python(self, value: str) -> int:
+        number = int(value)  # a string of thousands of digits is a ValueError too
+        if not 1 <= number <= MAX_RECORD_ID:
+            raise ValueError(f"{value} is not a record id")
+        return number
+
+    def to_url(self, value: int) -> str:
+        return str(value)

@@ -17,6 +17,18 @@ MONTH_PATTERN = r"\d{4}-\d{2}"
 _MONTH_RE = re.compile(rf"^{MONTH_PATTERN}$")
 
 
+class MonthConverter:
+    """``<month:month>`` in a URL: ``YYYY-MM`` as text (the view says whether it is a month)."""
+
+    regex = MONTH_PATTERN
+
+    def to_python(self, value: str) -> str:
+        return value
+
+    def to_url(self, value: str) -> str:
+        return value
+
+
 @dataclass(frozen=True, order=True)
 class Month:
     year: int

@@ -1,23 +1,22 @@
 """Office pages for the stored reports (mounted at /reports/ by config/urls.py)."""
 
-from django.urls import path, re_path
+from django.urls import path
 
 from . import views
-from .months import MONTH_PATTERN
 
 app_name = "reports"
 
 urlpatterns = [
     path("", views.report_index, name="index"),
-    path("sites/<int:site_id>/", views.site_reports, name="site"),
-    path("sites/<int:site_id>/make/", views.request_report, name="request"),
-    re_path(
-        rf"^sites/(?P<site_id>\d+)/(?P<month>{MONTH_PATTERN})/$",
+    path("sites/<id:site_id>/", views.site_reports, name="site"),
+    path("sites/<id:site_id>/make/", views.request_report, name="request"),
+    path(
+        "sites/<id:site_id>/<month:month>/",
         views.report_page,
         name="report-page",
     ),
-    re_path(
-        rf"^sites/(?P<site_id>\d+)/(?P<month>{MONTH_PATTERN})\.pdf$",
+    path(
+        "sites/<id:site_id>/<month:month>.pdf",
         views.report_pdf,
         name="report-pdf",
     ),

@@ -1,12 +1,14 @@
 """Every error as a 4xx JSON body that names the field and the reason; never a 500 for a
-request the database or the model refused."""
+request the database or the model refused, and a 503 with ``Retry-After`` when the database
+cannot be reached."""
 
 from __future__ import annotations
 
 import logging
 
+from django.core.exceptions import RequestDataTooBig
 from django.core.exceptions import ValidationError as DjangoValidationError
-from django.db import IntegrityError
+from django.db import IntegrityError, InterfaceError, OperationalError
 from django.db.models import ProtectedError, RestrictedError
 from rest_framework import status
 from rest_framework.exceptions import ValidationError
@@ -14,9 +16,25 @@ from rest_framework.response import Response
 from rest_framework.views import exception_handler as drf_exception_handler
 
 from diagnostics.core.refrigerants import UnknownRefrigerant
+from fleet.api.parsers import body_too_large
 from fleet.services import IllegalTransition
 
 log = logging.getLogger(__name__)
+
+#: Seconds a client is asked to wait when the database cannot be reached: long enough for
+#: a restart or a fail-over, short enough that a phone's queued readings go soon after.
+DATABASE_RETRY_AFTER = 30
+#: The answer's words, shared with the office pages' 503.
+DATABASE_UNAVAILABLE = "the database cannot be reached just now; nothing was stored, try again"
+
+
+def database_unavailable() -> Response:
+    """503 JSON with ``Retry-After``: the request may be sent again unchanged."""
+    return Response(
+        {"detail": DATABASE_UNAVAILABLE},
+        status=status.HTTP_503_SERVICE_UNAVAILABLE,
+        headers={"Retry-After": str(DATABASE_RETRY_AFTER)},
+    )
 
 
 def django_errors(exc: DjangoValidationError, rename: dict[str, str] | None = None) -> dict:
@@ -34,6 +52,8 @@ def exception_handler(exc: Exception, context: dict) -> Response | None:
     """DRF's handler, plus the errors of the models, the database and the visit life cycle."""
     if isinstance(exc, DjangoValidationError):
         exc = ValidationError(django_errors(exc))
+    elif isinstance(exc, RequestDataTooBig):
+        exc = body_too_large()
     response = drf_exception_handler(exc, context)
     if response is not None:
         return response
@@ -47,6 +67,11 @@ def exception_handler(exc: Exception, context: dict) -> Response | None:
         )
     if isinstance(exc, UnknownRefrigerant):
         return Response({"refrigerant": [str(exc)]}, status=status.HTTP_404_NOT_FOUND)
+    if isinstance(exc, OperationalError | InterfaceError):
+        # Connection refused, server gone, a fail-over: the client may retry unchanged
+        # (a retried write under the same client_id is still stored once).
+        log.error("database unavailable, answered 503: %s", exc)
+        return database_unavailable()
     if isinstance(exc, IntegrityError):
         # The model validation runs first, so this is a race with another writer.
         log.warning("integrity error answered 409: %s", exc)

@@ -24,14 +24,13 @@ from fleet.models import (
     Unit,
     Visit,
 )
-
-#: The largest id a bigint column holds; larger numbers are refused (400), not sent to SQL.
-MAX_ID = 2**63 - 1
+from fleet.validation import MAX_RECORD_ID
 
 
 def id_filter(field_name: str, help_text: str) -> filters.NumberFilter:
+    """An id filter: larger numbers than any record's id are refused (400), not sent to SQL."""
     return filters.NumberFilter(
-        field_name=field_name, min_value=1, max_value=MAX_ID, help_text=help_text
+        field_name=field_name, min_value=1, max_value=MAX_RECORD_ID, help_text=help_text
     )
 
 

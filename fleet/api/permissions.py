@@ -23,9 +23,7 @@ from rest_framework.views import APIView
 
 from fleet.models import Visit, VisitUnit
 from fleet.reach import OFFICE, Roles, roles_of
-
-#: The largest id a 64-bit key holds; a larger one in a URL is simply not found.
-_MAX_ID = 2**63 - 1
+from fleet.validation import MAX_RECORD_ID
 
 
 def visit_in_reach(user: Any, pk: int) -> tuple[Visit, list[VisitUnit]] | None:
@@ -33,7 +31,7 @@ def visit_in_reach(user: Any, pk: int) -> tuple[Visit, list[VisitUnit]] | None:
     and refrigerant attached): every request on a visit's records reads it first, so it is
     one query, from the visit's units with their visit joined. Only a visit without units
     needs a second, for the visit alone. None when out of reach or not there."""
-    if pk > _MAX_ID:
+    if pk > MAX_RECORD_ID:  # a larger one in a URL is simply not found
         return None
     visit_units = list(
         VisitUnit.objects.visible_to(user)

@@ -42,6 +42,12 @@ FIELD_ERRORS = ResolvedComponent(
         "properties": {
             "non_field_errors": _REASONS,
             "detail": {"type": "string", "description": "The request as a whole was refused."},
+            "stored": {
+                "type": "string",
+                "format": "uri",
+                "description": "A 409 on a retry whose body differs from the record stored "
+                "under its client_id: that record's URL (the differing fields are named).",
+            },
         },
         "additionalProperties": {
             "description": "A field's reasons, or its nested fields' reasons.",

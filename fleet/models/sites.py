@@ -4,6 +4,7 @@ reading taken there."""
 from __future__ import annotations
 
 import zoneinfo
+from decimal import Decimal
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
@@ -60,7 +61,9 @@ class Site(models.Model):
         validators=limit_validators(SITE_LIMITS["design_ambient_c"]),
         help_text="Design-day dry-bulb temperature, degrees C (the hottest day to plan for).",
     )
-    tariff_per_kwh = models.DecimalField(max_digits=8, decimal_places=4, default=0.15)
+    # A Decimal default: a float one (0.15) reads back as 0.1499999999999999944... and
+    # fails the field's own four-decimal check when a record is validated before saving.
+    tariff_per_kwh = models.DecimalField(max_digits=8, decimal_places=4, default=Decimal("0.15"))
     currency = models.CharField(max_length=3, default="USD")
     managers = models.ManyToManyField(
         settings.AUTH_USER_MODEL,

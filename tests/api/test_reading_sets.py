@@ -303,16 +303,61 @@ def test_it_refuses_a_body_that_is_not_json(technician, visit_unit, raw):
 
 
 def test_a_retry_returns_the_stored_set_and_stores_nothing(technician, visit_unit):
-    """The same client_id twice: 201, then 200 with the same record; one row, one audit entry."""
+    """The same client_id and body twice: 201, then 200 with the same record; one row, one
+    audit entry."""
     client = token_client(technician)
     body = _body(visit_unit)
     first = client.post(_url(visit_unit), body, format="json")
-    second = client.post(_url(visit_unit), {**body, "box_temp": 99.0}, format="json")
+    second = client.post(_url(visit_unit), body, format="json")
     assert (first.status_code, second.status_code) == (201, 200)
     assert second.json()["id"] == first.json()["id"]
     assert second.json()["box_temp"] == pytest.approx(36.0, abs=1e-3)
     assert ReadingSet.objects.count() == 1
     assert AuditEntry.objects.filter(action="created", record_id=first.json()["id"]).count() == 1
+
+
+def test_a_retry_with_other_values_is_a_conflict_naming_them(technician, visit_unit):
+    """The same client_id with new readings is 409 naming each differing field and the
+    stored set's URL; nothing is stored or changed, so the phone can tell the technician."""
+    client = token_client(technician)
+    body = _body(visit_unit)
+    first = client.post(_url(visit_unit), body, format="json")
+    changed = {**body, "box_temp": 41.0, "compressor_amps": [8.1, 8.3], "notes": "fan noisy"}
+    response = client.post(_url(visit_unit), changed, format="json")
+    assert response.status_code == 409, response.json()
+    errors = response.json()
+    stored_url = f"http://testserver{_url(visit_unit, str(first.json()['id']) + '/')}"
+    assert errors["stored"] == stored_url
+    assert set(errors) == {"client_id", "stored", "box_temp", "compressor_amps", "notes"}
+    assert "box_temp, compressor_amps, notes" in errors["client_id"][0]
+    assert stored_url in errors["client_id"][0]
+    assert ReadingSet.objects.get().box_temp_c == pytest.approx((36.0 - 32) / 1.8)
+    assert ReadingSet.objects.get().notes == ""
+
+
+def test_a_retry_of_the_same_values_in_other_units_is_the_same_set(technician, visit_unit):
+    """Values are compared as stored (SI): 36 F and 62 psig sent again as 2.2222 C and
+    427.4749 kPa... within a float's last digits is the same set; a value left out of the
+    retry (taken_at defaults to now) is not compared."""
+    client = token_client(technician)
+    body = _body(visit_unit)
+    first = client.post(_url(visit_unit), body, format="json")
+    again = client.post(
+        _url(visit_unit),
+        {
+            **body,
+            "units": {"temperature": "C", "temperature_difference": "F", "pressure": "kPa"},
+            "box_temp": (36.0 - 32) * 5 / 9,
+            "entering_air_temp": (85.0 - 32) * 5 / 9,
+            "suction_line_temp": (35.0 - 32) * 5 / 9,
+            "liquid_line_temp": (95.0 - 32) * 5 / 9,
+            "suction_pressure": 62.0 * KPA_PER_PSI,
+            "head_pressure": 235.0 * KPA_PER_PSI,
+        },
+        format="json",
+    )
+    assert again.status_code == 200, again.json()
+    assert again.json()["id"] == first.json()["id"]
 
 
 def test_a_retry_after_submission_still_gets_its_record(technician, visit_unit):
@@ -334,6 +379,19 @@ def test_the_unique_constraint_settles_a_race(technician, visit_unit, monkeypatc
     again = client.post(_url(visit_unit), body, format="json")
     assert again.status_code == 200
     assert ReadingSet.objects.count() == 1
+
+
+def test_a_race_lost_with_other_values_is_a_conflict(technician, visit_unit, monkeypatch):
+    """When the early look-up misses and the insert meets the stored set, a body with other
+    values is still a 409 naming them, not the other request's record with 200."""
+    client = token_client(technician)
+    body = _body(visit_unit)
+    assert client.post(_url(visit_unit), body, format="json").status_code == 201
+    monkeypatch.setattr(ReadingSetViewSet, "_repeat", lambda self, data: None)
+    again = client.post(_url(visit_unit), {**body, "suction_pressure": 58.0}, format="json")
+    assert again.status_code == 409
+    assert set(again.json()) == {"client_id", "stored", "suction_pressure"}
+    assert ReadingSet.objects.get().suction_kpa_gauge == pytest.approx(62.0 * KPA_PER_PSI)
 
 
 def test_a_client_id_from_another_visit_is_a_conflict(technician, visit_unit):

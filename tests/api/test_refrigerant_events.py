@@ -150,3 +150,20 @@ def test_the_api_refuses_to_delete_a_kept_record(office_user):
     assert LeakRate.objects.filter(event=kept).exists()
     assert client.delete(f"{url}{old.pk}/").status_code == 204
     assert AuditEntry.objects.filter(action="deleted", record_id=old.pk).count() == 1
+
+
+def test_a_retried_event_with_another_amount_is_a_conflict(technician, visit_unit):
+    """The same client_id with another amount and kind is 409 naming both fields and the
+    stored event; the stored event keeps its amount."""
+    client = token_client(technician)
+    body = _added(visit_unit, 2.5)
+    first = client.post(_url(visit_unit), body, format="json")
+    assert first.status_code == 201
+    response = client.post(
+        _url(visit_unit), {**body, "kind": "recovered", "amount": 3.0}, format="json"
+    )
+    assert response.status_code == 409, response.json()
+    errors = response.json()
+    assert set(errors) == {"client_id", "stored", "kind", "amount"}
+    assert errors["stored"].endswith(f"{_url(visit_unit)}{first.json()['id']}/")
+    assert RefrigerantEvent.objects.get().amount_kg == pytest.approx(2.5 * KG_PER_LB)

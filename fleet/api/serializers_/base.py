@@ -16,6 +16,7 @@ from collections.abc import Mapping
 from typing import Any, ClassVar
 
 from django.core.exceptions import ValidationError as DjangoValidationError
+from django.db import models
 from django.db.models import Model
 from rest_framework import serializers
 
@@ -30,7 +31,7 @@ from fleet.api.wire_units import (
 )
 from fleet.display import Quantity, from_si, to_si
 
-from .fields import UnitsField
+from .fields import FreeTextField, LineField, NumberField, RecordIdField, UnitsField
 
 
 class RefusesUnknownFields(serializers.Serializer):
@@ -78,6 +79,18 @@ class RefusesUnknownFields(serializers.Serializer):
 class ValidatedModelSerializer(RefusesUnknownFields, serializers.ModelSerializer[Model]):
     """Runs the model's ``full_clean()`` on the would-be instance (NetBox's
     ``ValidatedModelSerializer``), reporting errors under the wire names."""
+
+    # (Said here rather than in the docstring, which the schema shows to integrators.) A
+    # model's float columns take numbers but not true; its text columns refuse control
+    # characters (free text keeps tabs and line breaks) and free text is capped in length;
+    # a related record is named by a whole number.
+    serializer_field_mapping = {
+        **serializers.ModelSerializer.serializer_field_mapping,
+        models.FloatField: NumberField,
+        models.CharField: LineField,
+        models.TextField: FreeTextField,
+    }
+    serializer_related_field = RecordIdField
 
     #: Columns full_clean skips: ones the view sets from trusted objects (foreign keys it
     #: already holds would cost a query each to re-check) and the retry key ``client_id``,

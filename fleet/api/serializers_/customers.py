@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from django.contrib.auth.models import User
-from rest_framework import serializers
 
 from fleet import choices
 from fleet.api.wire_units import Measure
@@ -11,7 +10,7 @@ from fleet.limits import SITE_LIMITS
 from fleet.models import Customer, Site
 
 from .base import MeasuredSerializer, ValidatedModelSerializer
-from .fields import measure_field
+from .fields import RecordIdField, measure_field
 
 
 class CustomerSerializer(ValidatedModelSerializer):
@@ -30,7 +29,7 @@ class SiteSerializer(MeasuredSerializer):
     design_ambient = measure_field(
         "Design-day dry-bulb temperature (units.temperature).", source="design_ambient_c"
     )
-    managers = serializers.PrimaryKeyRelatedField(
+    managers = RecordIdField(
         many=True,
         required=False,
         queryset=User.objects.filter(groups__name=choices.Role.MANAGER),

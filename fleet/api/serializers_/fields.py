@@ -1,9 +1,11 @@
 """Wire helpers shared by the resource serializers: the ``units`` object, measurement and
-per-leg fields, the times a record may carry, and choices a record may leave unknown."""
+per-leg fields, numbers that refuse ``true``, text without control characters and with a
+length cap, the times a record may carry, and choices a record may leave unknown."""
 
 from __future__ import annotations
 
 import datetime as dt
+import unicodedata
 from typing import Any
 
 from django.utils import timezone
@@ -70,8 +72,74 @@ class UnitsField(serializers.Field):
         return dict(data)
 
 
+#: The most characters a free-text field (notes, an address, a work summary) takes: about a
+#: page, far more than a technician types on a phone, and a bound on what one row holds.
+FREE_TEXT_MAX_LENGTH = 2000
+#: The control characters free text may carry: tab and line breaks.
+FREE_TEXT_CONTROLS = frozenset("\t\n\r")
+
+
+class NumberField(serializers.FloatField):
+    """A number; ``true`` and ``false`` are refused (Python counts them as 1 and 0, which
+    would store a temperature of 1.0 from a misplaced flag)."""
+
+    default_error_messages = {"boolean": "must be a number, not true or false"}
+
+    def to_internal_value(self, data: Any) -> float:
+        if isinstance(data, bool):
+            self.fail("boolean")
+        return super().to_internal_value(data)
+
+
+class LineField(serializers.CharField):
+    """One line of text (a name, a tag, a phone number): no control characters at all."""
+
+    allowed_controls: frozenset[str] = frozenset()
+    default_error_messages = {
+        "control": "contains the control character U+{code:04X}; {allowed}",
+    }
+
+    def to_internal_value(self, data: Any) -> str:
+        value = super().to_internal_value(data)
+        for char in value:
+            if unicodedata.category(char) == "Cc" and char not in self.allowed_controls:
+                allowed = (
+                    "only tabs and line breaks are allowed"
+                    if self.allowed_controls
+                    else "this field is one line of plain text"
+                )
+                self.fail("control", code=ord(char), allowed=allowed)
+        return value
+
+
+class FreeTextField(LineField):
+    """Free text over several lines (notes): tabs and line breaks, nothing else that is a
+    control character, and at most ``FREE_TEXT_MAX_LENGTH`` characters."""
+
+    allowed_controls = FREE_TEXT_CONTROLS
+
+    def __init__(self, **kwargs: Any) -> None:
+        kwargs.setdefault("max_length", FREE_TEXT_MAX_LENGTH)
+        super().__init__(**kwargs)
+
+
+class RecordIdField(serializers.PrimaryKeyRelatedField):
+    """A related record by its id, a whole number: ``1.5`` is refused rather than read as
+    record 1, ``true`` as DRF refuses it. Digits past 64 bits, which the JSON parser reads
+    as a float, are looked up as the whole number they are and found in no record."""
+
+    default_error_messages = {"not_whole": "must be a record id, a whole number; got {value}"}
+
+    def to_internal_value(self, data: Any) -> Any:
+        if isinstance(data, float):
+            if not data.is_integer():
+                self.fail("not_whole", value=data)
+            data = int(data)
+        return super().to_internal_value(data)
+
+
 def measure_field(help_text: str, **kwargs: Any) -> serializers.FloatField:
-    return serializers.FloatField(required=False, allow_null=True, help_text=help_text, **kwargs)
+    return NumberField(required=False, allow_null=True, help_text=help_text, **kwargs)
 
 
 def check_in_service_era(value: dt.datetime) -> None:
@@ -109,5 +177,5 @@ class UnknownAsNullChoiceField(serializers.ChoiceField):
 
 def legs_field(help_text: str) -> serializers.ListField:
     return serializers.ListField(
-        child=serializers.FloatField(), max_length=3, required=False, help_text=help_text
+        child=NumberField(), max_length=3, required=False, help_text=help_text
     )

@@ -12,7 +12,7 @@ from fleet.limits import UNIT_LIMITS
 from fleet.models import Component, Refrigerant, Unit
 
 from .base import MeasuredSerializer, ValidatedModelSerializer
-from .fields import UnknownAsNullChoiceField, measure_field
+from .fields import NumberField, UnknownAsNullChoiceField, measure_field
 
 
 class UnitSerializer(MeasuredSerializer):
@@ -50,10 +50,8 @@ class UnitSerializer(MeasuredSerializer):
     refrigerant = serializers.SlugRelatedField(
         slug_field="designation", queryset=Refrigerant.objects.all()
     )
-    full_charge = serializers.FloatField(
-        source="full_charge_kg", help_text="Full charge (units.mass)."
-    )
-    design_box_temp = serializers.FloatField(
+    full_charge = NumberField(source="full_charge_kg", help_text="Full charge (units.mass).")
+    design_box_temp = NumberField(
         source="design_box_temp_c", help_text="Design box temperature (units.temperature)."
     )
     design_evap_td = measure_field(

@@ -4,6 +4,7 @@ refrigerant events (with their leak rate)."""
 from __future__ import annotations
 
 import datetime as dt
+import math
 from collections.abc import Callable
 from typing import Any, ClassVar
 
@@ -48,6 +49,36 @@ class VisitRecordSerializer(MeasuredSerializer):
     #: concurrent request with the same client_id did, and this is that record).
     created: bool
 
+    #: Wire fields a retry is not compared on: the retry key itself, the units the values
+    #: are stated in (the values are compared once converted), and what is not stored.
+    not_compared: ClassVar[frozenset[str]] = frozenset({"client_id", "units", "confirm_amount"})
+    #: Wire fields stored in several columns (a list of per-leg values).
+    legs: ClassVar[dict[str, tuple[str, str]]] = {}
+
+    def differences(self, stored: Any) -> list[str]:
+        """The wire fields of this (validated) request whose values differ from ``stored``,
+        the record already kept under its client_id. Only fields the request sends are
+        compared (one it leaves out takes a default such as now), each as stored: in SI,
+        so 35.6 F and 2 C are the same box temperature."""
+        data = self.validated_data
+        differ = []
+        for wire in self.initial_data:
+            field = self.fields.get(wire)
+            if field is None or field.read_only or wire in self.not_compared:
+                continue
+            if wire in self.measures:
+                columns = [self.measures[wire].column]
+            elif wire in self.legs:
+                prefix = self.legs[wire][0]
+                columns = [f"{prefix}_{leg}" for leg in (1, 2, 3)]
+            elif wire == "unit":
+                columns = ["visit_unit"]
+            else:
+                columns = [str(field.source)]
+            if any(not _same(data.get(c), getattr(stored, c)) for c in columns):
+                differ.append(wire)
+        return differ
+
     def create(self, validated_data: dict[str, Any]) -> Any:
         result = self.store(self.record_model(**validated_data), by=self.context["request"].user)
         self.created = result.created
@@ -83,6 +114,14 @@ class VisitRecordSerializer(MeasuredSerializer):
 
     def elevation_of(self, instance: ReadingSet | RefrigerantEvent) -> float:
         return instance.visit_unit.unit.site.elevation_m
+
+
+def _same(sent: Any, stored: Any) -> bool:
+    """Whether a value of a retry is the one stored (floats to within their last digits,
+    which a database's round trip may change)."""
+    if isinstance(sent, float) and isinstance(stored, float):
+        return math.isclose(sent, stored, rel_tol=1e-9, abs_tol=1e-9)
+    return bool(sent == stored)
 
 
 class ReadingSetListSerializer(serializers.ListSerializer):
@@ -321,7 +360,9 @@ class RefrigerantEventSerializer(VisitRecordSerializer):
         return None if leak_rate is None else LeakRateSerializer(leak_rate).data
 
     def check_wire(self, attrs: dict[str, Any], errors: dict[str, list[str]]) -> None:
-        confirmed = attrs.pop("confirm_amount", False)
+        # A retry of a stored event needs no new confirmation: the amount is compared with
+        # the stored one instead (a different amount is a 409).
+        confirmed = attrs.pop("confirm_amount", False) or "repeat_of" in self.context
         visit_unit = self._visit_unit(attrs, errors)
         self.convert_measures(attrs, errors)
         amount_kg = attrs.get("amount_kg")

@@ -12,17 +12,17 @@ from fleet import choices
 from fleet.models import AuditEntry, Unit, Visit, VisitUnit
 
 from .base import RefusesUnknownFields, ValidatedModelSerializer
-from .fields import check_in_service_era
+from .fields import FreeTextField, RecordIdField, check_in_service_era
 
 
 class VisitSerializer(ValidatedModelSerializer):
-    technicians = serializers.PrimaryKeyRelatedField(
+    technicians = RecordIdField(
         many=True,
         required=False,
         queryset=User.objects.filter(groups__name=choices.Role.TECHNICIAN),
         help_text="User ids of the technicians assigned (role technician).",
     )
-    units = serializers.PrimaryKeyRelatedField(
+    units = RecordIdField(
         many=True,
         required=False,
         queryset=Unit.objects.all(),
@@ -113,7 +113,7 @@ class AuditEntrySerializer(serializers.ModelSerializer):
 class SubmitSerializer(RefusesUnknownFields, serializers.Serializer):
     noun = "submission"
 
-    work_summary = serializers.CharField(
+    work_summary = FreeTextField(
         required=False, allow_blank=True, help_text="What was done; replaces the stored summary."
     )
 
@@ -124,7 +124,7 @@ class ReviewSerializer(RefusesUnknownFields, serializers.Serializer):
     decision = serializers.ChoiceField(
         choices=[("accept", "Accept"), ("return", "Return to the technician")]
     )
-    note = serializers.CharField(
+    note = FreeTextField(
         required=False, allow_blank=True, help_text="Required when the visit is returned."
     )
 
@@ -139,4 +139,4 @@ class ReviewSerializer(RefusesUnknownFields, serializers.Serializer):
 class CancelSerializer(RefusesUnknownFields, serializers.Serializer):
     noun = "cancellation"
 
-    note = serializers.CharField(required=False, allow_blank=True, help_text="Why.")
+    note = FreeTextField(required=False, allow_blank=True, help_text="Why.")

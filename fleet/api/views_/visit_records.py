@@ -10,6 +10,7 @@ from typing import Any, cast
 
 from django.db.models import QuerySet
 from django.http import Http404
+from django.urls import reverse
 from django.utils.functional import cached_property
 from drf_spectacular.types import OpenApiTypes
 from drf_spectacular.utils import OpenApiParameter, extend_schema, extend_schema_view
@@ -42,6 +43,8 @@ WRITABLE = {
 }
 #: The answer to a client_id stored on another visit (409).
 ON_ANOTHER_VISIT = "already used for a record on another visit"
+#: The answer on each field of a retry whose value differs from the stored record's (409).
+DIFFERS = "differs from the record stored under this client_id"
 
 
 class VisitRecordViewSet(
@@ -156,9 +159,36 @@ class VisitRecordViewSet(
         if stored is not None and stored.visit_unit.visit_id != self.visit.pk:
             raise Conflict({"client_id": [ON_ANOTHER_VISIT]})
 
+    def _check_unchanged(self, serializer: VisitRecordSerializer, stored: Any) -> None:
+        """A retry must carry the body that was stored: one that differs is a 409 naming
+        each differing field and where the stored record is, so the phone can tell the
+        technician instead of dropping the new values without a word."""
+        differ = serializer.differences(stored)
+        if not differ:
+            return
+        url = self.request.build_absolute_uri(
+            reverse(f"{self.basename}-detail", kwargs={"visit_pk": self.visit.pk, "pk": stored.pk})
+        )
+        raise Conflict(
+            {
+                "client_id": [
+                    f"already used for the record at {url}, which holds other values for "
+                    f"{', '.join(differ)}; send a new client_id to store another record"
+                ],
+                **{wire: [DIFFERS] for wire in differ},
+                "stored": url,
+            }
+        )
+
     def create(self, request: Request, *args: Any, **kwargs: Any) -> Response:
         stored = self._repeat(request.data)
         if stored is not None:
+            context = {**self.get_serializer_context(), "repeat_of": stored}
+            retry = cast(
+                VisitRecordSerializer, self.get_serializer(data=request.data, context=context)
+            )
+            retry.is_valid(raise_exception=True)
+            self._check_unchanged(retry, stored)
             return Response(self.get_serializer(stored).data, status=status.HTTP_200_OK)
         self._check_writable()
         # serializer_class is a VisitRecordSerializer, which says whether it stored
@@ -166,6 +196,8 @@ class VisitRecordViewSet(
         serializer.is_valid(raise_exception=True)
         record = serializer.save(created_by=signed_in(request))
         self._check_same_visit(record)
+        if not serializer.created:  # a concurrent request with this client_id stored it
+            self._check_unchanged(serializer, record)
         code = status.HTTP_201_CREATED if serializer.created else status.HTTP_200_OK
         return Response(serializer.data, status=code)
 
