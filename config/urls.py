@@ -1,5 +1,7 @@
 """Top-level URLs: office pages, admin, the versioned API and its schema."""
 
+from csp.constants import SELF, UNSAFE_INLINE
+from csp.decorators import csp_update
 from django.contrib import admin
 from django.urls import include, path
 from drf_spectacular.views import SpectacularAPIView, SpectacularRedocView
@@ -9,7 +11,15 @@ urlpatterns = [
     path("accounts/", include("django.contrib.auth.urls")),
     path("api/v1/", include("config.api_urls")),
     path("api/schema/", SpectacularAPIView.as_view(), name="schema"),
-    path("api/docs/", SpectacularRedocView.as_view(url_name="schema"), name="api-docs"),
+    # The docs viewer styles itself inline and parses the schema in a worker it starts from
+    # a blob: its page allows those (its script comes from our own static files).
+    path(
+        "api/docs/",
+        csp_update({"style-src": [UNSAFE_INLINE], "worker-src": [SELF, "blob:"]})(
+            SpectacularRedocView.as_view(url_name="schema")
+        ),
+        name="api-docs",
+    ),
     path("reports/", include("reports.urls")),
     path("", include("fleet.urls")),
 ]

@@ -5,11 +5,20 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 from rest_framework.permissions import SAFE_METHODS
-from rest_framework.throttling import SimpleRateThrottle, UserRateThrottle
+from rest_framework.throttling import BaseThrottle, SimpleRateThrottle, UserRateThrottle
 
 if TYPE_CHECKING:  # rest_framework.views imports this module (its default throttles)
+    from django.http import HttpRequest
     from rest_framework.request import Request
     from rest_framework.views import APIView
+
+
+def client_address(request: HttpRequest | Request) -> str:
+    """The client's address as the throttles key on it, for the sign-in lockout too: the
+    connection's address, or with N trusted proxies (NUM_PROXIES, from
+    RIMEWATCH_TRUSTED_PROXY_COUNT) the address the outermost of them saw, the N-th from the
+    right of X-Forwarded-For. Whatever a client writes further left is never used."""
+    return str(BaseThrottle().get_ident(request))  # type: ignore[arg-type]
 
 
 class CellRate(SimpleRateThrottle):
