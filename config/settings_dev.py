@@ -8,10 +8,15 @@ from __future__ import annotations
 
 import os
 
-os.environ.setdefault("DEBUG", "1")
-os.environ.setdefault("SECRET_KEY", "dev-only-insecure-key-never-use-in-production")
-
-from .settings import *  # noqa: F403
+_DEVELOPMENT = {"DEBUG": "1", "SECRET_KEY": "dev-only-insecure-key-never-use-in-production"}
+_FILLED_IN = [name for name in _DEVELOPMENT if name not in os.environ]
+os.environ.update({name: _DEVELOPMENT[name] for name in _FILLED_IN})
+try:
+    from .settings import *  # noqa: F403
+finally:
+    # Only for reading the settings: processes this one starts get the environment it had.
+    for name in _FILLED_IN:
+        del os.environ[name]
 
 ALLOWED_HOSTS = [*ALLOWED_HOSTS, "testserver"]  # noqa: F405
 # Files as they are in static/, found by the finders: no collectstatic while developing.
