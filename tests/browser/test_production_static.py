@@ -15,7 +15,10 @@ from django.test.testcases import LiveServerThread
 
 from tests.factories import SiteFactory, UnitFactory, UserFactory
 
-pytestmark = [pytest.mark.browser, pytest.mark.django_db(transaction=True)]
+pytestmark = [
+    pytest.mark.browser,
+    pytest.mark.django_db(transaction=True, serialized_rollback=True),
+]
 
 PASSWORD = "test-pass-123"  # tests.factories.UserFactory's synthetic password
 
