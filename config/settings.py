@@ -114,6 +114,7 @@ INSTALLED_APPS = [
     "rest_framework.authtoken",
     "django_filters",
     "drf_spectacular",
+    "drf_spectacular_sidecar",  # Redoc's script for /api/docs/, served as our static file
     "fleet",
     "diagnostics",
     "reports",
@@ -147,6 +148,8 @@ TEMPLATES = [
                 "django.template.context_processors.request",
                 "django.contrib.auth.context_processors.auth",
                 "django.contrib.messages.context_processors.messages",
+                # the menu's roles and counts, for pages rendered without fleet's page()
+                "fleet.views.base.navigation",
                 "csp.context_processors.nonce",
             ],
         },
@@ -272,7 +275,8 @@ REST_FRAMEWORK = {
     "DEFAULT_FILTER_BACKENDS": ["django_filters.rest_framework.DjangoFilterBackend"],
     "DEFAULT_PAGINATION_CLASS": "rest_framework.pagination.PageNumberPagination",
     "PAGE_SIZE": 50,
-    "DEFAULT_SCHEMA_CLASS": "drf_spectacular.openapi.AutoSchema",
+    # drf-spectacular's, plus each operation's error answers (fleet/api/schema.py).
+    "DEFAULT_SCHEMA_CLASS": "fleet.api.schema.ErrorsAutoSchema",
     "EXCEPTION_HANDLER": "fleet.api.exceptions.exception_handler",
     # Writes are limited per user, token requests per client address. The counters live in
     # the default cache (per process unless a shared cache is configured).
@@ -291,6 +295,8 @@ SPECTACULAR_SETTINGS = {
     "field; read-only fields sent back from a response are ignored.",
     "VERSION": "1",
     "SERVE_INCLUDE_SCHEMA": False,
+    # /api/docs/ loads Redoc from our own static files (drf-spectacular-sidecar), never a CDN.
+    "REDOC_DIST": "SIDECAR",
 }
 
 # E-mail (reports, password resets) through an SMTP server once EMAIL_HOST is set; without

@@ -11,12 +11,13 @@ urlpatterns = [
     path("accounts/", include("django.contrib.auth.urls")),
     path("api/v1/", include("config.api_urls")),
     path("api/schema/", SpectacularAPIView.as_view(), name="schema"),
-    # The docs viewer styles itself inline and parses the schema in a worker it starts from
-    # a blob: its page allows those (its script comes from our own static files).
+    # Redoc from drf-spectacular-sidecar's static files (REDOC_DIST), no CDN. The viewer
+    # styles itself inline and parses the schema in a worker it starts from a blob: its
+    # page's Content-Security-Policy allows those; scripts stay our own files.
     path(
         "api/docs/",
         csp_update({"style-src": [UNSAFE_INLINE], "worker-src": [SELF, "blob:"]})(
-            SpectacularRedocView.as_view(url_name="schema")
+            SpectacularRedocView.as_view(url_name="schema", template_name="api_docs.html")
         ),
         name="api-docs",
     ),

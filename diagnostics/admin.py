@@ -1,22 +1,40 @@
-"""Read-mostly admin over stored results; flags can be acknowledged here too."""
+"""Stored results in the admin, to read only: each is computed from the records (a reading
+set's diagnosis, an addition's leak rate, a unit's flags), so it changes only when they do,
+through ``fleet.services``; a flag is acknowledged on the office pages."""
+
+from __future__ import annotations
 
 from django.contrib import admin
+from django.db.models import Model
+from django.http import HttpRequest
 
 from . import models
 
 
+class ComputedResultAdmin(admin.ModelAdmin):
+    """Viewing only: an edit would contradict the records it was computed from, and a
+    deletion would lose a result the reports and the leak-rate records rest on."""
+
+    def has_add_permission(self, request: HttpRequest) -> bool:
+        return False
+
+    def has_change_permission(self, request: HttpRequest, obj: Model | None = None) -> bool:
+        return False
+
+    def has_delete_permission(self, request: HttpRequest, obj: Model | None = None) -> bool:
+        return False
+
+
 @admin.register(models.Diagnosis)
-class DiagnosisAdmin(admin.ModelAdmin):
+class DiagnosisAdmin(ComputedResultAdmin):
     list_display = ("reading_set", "score", "algorithm_version", "computed_at")
     list_filter = ("algorithm_version",)
     search_fields = ("reading_set__visit_unit__unit__tag", "reading_set__client_id")
     list_select_related = ("reading_set",)
-    raw_id_fields = ("reading_set",)
-    readonly_fields = ("computed_at",)
 
 
 @admin.register(models.LeakRate)
-class LeakRateAdmin(admin.ModelAdmin):
+class LeakRateAdmin(ComputedResultAdmin):
     list_display = (
         "event",
         "annualizing_percent",
@@ -26,11 +44,10 @@ class LeakRateAdmin(admin.ModelAdmin):
     )
     list_filter = ("over_threshold", "in_scope", "method")
     list_select_related = ("event",)
-    raw_id_fields = ("event",)
 
 
 @admin.register(models.Flag)
-class FlagAdmin(admin.ModelAdmin):
+class FlagAdmin(ComputedResultAdmin):
     list_display = (
         "unit",
         "kind",
@@ -43,4 +60,3 @@ class FlagAdmin(admin.ModelAdmin):
     list_filter = ("kind", "severity", ("cleared_at", admin.EmptyFieldListFilter))
     search_fields = ("unit__tag", "summary")
     list_select_related = ("unit__site",)
-    raw_id_fields = ("unit", "acknowledged_by")

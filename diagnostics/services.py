@@ -322,11 +322,15 @@ def diagnose_reading_set(reading_set: ReadingSet, now: dt.datetime | None = None
     return diagnosis
 
 
+def configured_leak_rules() -> leaks.LeakRuleSet:
+    """The jurisdiction's rule set the deployment names (``RIMEWATCH_LEAK_RULE_SET``)."""
+    return leaks.RULE_SETS[settings.RIMEWATCH_LEAK_RULE_SET]
+
+
 def _leak_rules() -> tuple[leaks.LeakRuleSet, leaks.LeakRateMethod]:
     """The configured rule set and the facility-wide method (settings, so other
     jurisdictions can plug in their own rules)."""
-    rules = leaks.RULE_SETS[settings.RIMEWATCH_LEAK_RULE_SET]
-    return rules, leaks.LeakRateMethod(settings.RIMEWATCH_LEAK_RATE_METHOD)
+    return configured_leak_rules(), leaks.LeakRateMethod(settings.RIMEWATCH_LEAK_RATE_METHOD)
 
 
 @transaction.atomic

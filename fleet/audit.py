@@ -1,5 +1,6 @@
-"""The audit trail: who created, changed, moved or deleted a visit, a reading set or a
-refrigerant event, when, and what changed (stored SI values, ``[old, new]`` per field)."""
+"""The audit trail: who created, changed, moved or deleted a record (a visit, a reading set,
+a refrigerant event, a customer, site, unit or part), when, and what changed (stored SI
+values, ``[old, new]`` per field)."""
 
 from __future__ import annotations
 
@@ -22,10 +23,18 @@ Actor = User | AnonymousUser | None
 _SKIPPED = {"id", "created_at", "updated_at"}
 
 
+def _as_stored(value: Any) -> Any:
+    """A moment in UTC, as the database gives it back: the same instant entered with
+    another offset is no change."""
+    if isinstance(value, dt.datetime) and timezone.is_aware(value):
+        return value.astimezone(dt.UTC)
+    return value
+
+
 def snapshot(instance: models.Model) -> dict[str, Any]:
     """The record's stored values as JSON-ready data (foreign keys as ids)."""
     values = {
-        field.attname: field.value_from_object(instance)
+        field.attname: _as_stored(field.value_from_object(instance))
         for field in instance._meta.concrete_fields
         if field.attname not in _SKIPPED
     }

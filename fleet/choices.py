@@ -129,3 +129,9 @@ class Role(models.TextChoices):
     OFFICE = "office", "Office"
     TECHNICIAN = "technician", "Technician"
     MANAGER = "manager", "Manager"
+
+
+#: The group that makes an office user an office administrator, who manages people: adds,
+#: disables and re-roles technicians and managers and revokes a phone's token. Not a role
+#: of its own: it widens no reach, and means nothing without the office role.
+OFFICE_ADMIN_GROUP = "office admin"

@@ -14,7 +14,9 @@ book) is for the pages and the API to decide; what it may *see* is decided here 
   are the office's and the technicians' working records, so managers reach none.
 
 A user in several role groups reaches the union of their roles' reaches; a superuser is
-office; an inactive or anonymous user has no role.
+office; an inactive or anonymous user has no role. An office user in the office
+administrators' group (``OFFICE_ADMIN``, read in the same query) also manages people; that
+widens no reach.
 """
 
 from __future__ import annotations
@@ -27,11 +29,12 @@ from django.apps import apps
 from django.db import models
 from django.db.models import Q
 
-from .choices import Role
+from .choices import OFFICE_ADMIN_GROUP, Role
 
 OFFICE = Role.OFFICE.value
 TECHNICIAN = Role.TECHNICIAN.value
 MANAGER = Role.MANAGER.value
+OFFICE_ADMIN = OFFICE_ADMIN_GROUP
 #: The roles from the widest to the narrowest: a name to show for a user in several.
 ROLE_ORDER = (OFFICE, TECHNICIAN, MANAGER)
 
@@ -40,9 +43,11 @@ _CACHE = "_rimewatch_roles"
 
 @dataclass(frozen=True)
 class Roles:
-    """The role groups a user is in (office alone for a superuser)."""
+    """The role groups a user is in (office alone for a superuser), and whether they are in
+    the office administrators' group too (a superuser is)."""
 
     names: frozenset[str]
+    admin: bool = False
 
     def __bool__(self) -> bool:
         return bool(self.names)
@@ -67,6 +72,12 @@ class Roles:
         return MANAGER in self.names
 
     @property
+    def manages_people(self) -> bool:
+        """Whether they add, disable and re-role technicians and managers (an office
+        administrator: the office role and the administrators' group)."""
+        return self.office and self.admin
+
+    @property
     def sees_visits(self) -> bool:
         """Whether any visit is within reach (the office's and technicians' records)."""
         return self.office or self.technician
@@ -89,17 +100,18 @@ NO_ROLES = Roles(frozenset())
 
 
 def roles_of(user: Any) -> Roles:
-    """The user's roles: one query for their groups, remembered on the user object for the
-    rest of the request."""
+    """The user's roles (and whether they are an office administrator): one query for their
+    groups, remembered on the user object for the rest of the request."""
     if user is None or not user.is_authenticated or not user.is_active:
         return NO_ROLES
     cached = getattr(user, _CACHE, None)
     if cached is None:
         if user.is_superuser:
-            cached = Roles(frozenset({OFFICE}))
+            cached = Roles(frozenset({OFFICE}), admin=True)
         else:
-            groups = user.groups.filter(name__in=ROLE_ORDER)
-            cached = Roles(frozenset(groups.values_list("name", flat=True)))
+            groups = user.groups.filter(name__in=(*ROLE_ORDER, OFFICE_ADMIN))
+            names = frozenset(groups.values_list("name", flat=True))
+            cached = Roles(names - {OFFICE_ADMIN}, admin=OFFICE_ADMIN in names)
         setattr(user, _CACHE, cached)
     return cached
 

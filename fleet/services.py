@@ -1,9 +1,9 @@
 """Writes on fleet records that touch several rows or have side effects, each in one
 transaction and each leaving the audit trail (``fleet.audit``): book visits, move them along
 their life cycle, store reading sets and refrigerant events once (whatever the retries) with
-their diagnosis or leak rate, and delete records.
+their diagnosis or leak rate, and delete records (never one the refrigerant rules say to keep).
 
-The API and the office pages both call these; neither writes such rows by itself. They sit
+The API, the office pages and the admin all call these; none writes such rows by itself. They sit
 above the diagnostics layer (they ask it for diagnoses, leak rates and flags) and below the
 pages and the API (``.importlinter``): the records beneath them import neither.
 
@@ -19,7 +19,7 @@ from __future__ import annotations
 import datetime as dt
 import logging
 import uuid
-from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from collections.abc import Callable, Collection, Iterable, Iterator, Mapping, Sequence
 from contextlib import contextmanager, nullcontext
 from dataclasses import dataclass
 from typing import Any, Generic, TypeVar
@@ -30,21 +30,25 @@ from django.db import IntegrityError, models, transaction
 from django.utils import timezone
 
 from diagnostics.core.maintenance import VisitProposal
+from diagnostics.models import LeakRate
 from diagnostics.services import (
+    configured_leak_rules,
     diagnose_reading_set,
     diagnosis_of,
     record_leak_rate,
     record_leak_rates,
     refresh_flags,
+    rescore,
 )
 
 from . import audit
 from .choices import VISIT_TRANSITIONS, VisitKind, VisitStatus
-from .models import AuditAction, ReadingSet, RefrigerantEvent, Unit, Visit, VisitUnit
+from .models import AuditAction, Component, ReadingSet, RefrigerantEvent, Unit, Visit, VisitUnit
 
 log = logging.getLogger(__name__)
 
 R = TypeVar("R", ReadingSet, RefrigerantEvent)
+M = TypeVar("M", bound=models.Model)
 
 #: What a stored record is returned with, so it serialises without further queries.
 RECORD_RELATIONS = ("visit_unit__unit__site", "visit_unit__visit", "created_by")
@@ -182,11 +186,17 @@ def _change_status(
     return visit
 
 
+def _refresh_flags_of_units(unit_ids: list[int]) -> None:
+    """Raise, update and clear the flags of these units from their records as they now are."""
+    with _logged_failure("flag refresh failed for units %s", unit_ids):
+        refresh_flags(unit_ids=unit_ids)
+
+
 def _refresh_flags_of(visit: Visit) -> None:
     """Raise and clear the flags of the visit's units now that its readings are reviewed."""
-    unit_ids = list(VisitUnit.objects.filter(visit=visit).values_list("unit_id", flat=True))
-    with _logged_failure("flag refresh failed for the units of visit %s", visit.pk):
-        refresh_flags(unit_ids=unit_ids)
+    _refresh_flags_of_units(
+        list(VisitUnit.objects.filter(visit=visit).values_list("unit_id", flat=True))
+    )
 
 
 @transaction.atomic
@@ -216,6 +226,75 @@ def move_visit(
     if target == VisitStatus.REVIEWED:
         _refresh_flags_of(visit)
     return visit
+
+
+# --- edits to visits and to the fleet's records --------------------------------------------
+
+
+def _keep_stored(record: models.Model, stored: models.Model, changed: Collection[str]) -> None:
+    """Put back on ``record`` the stored value of every field a form did not change: a form
+    shows a moment to the second and would otherwise cut the stored microseconds."""
+    for field in record._meta.concrete_fields:
+        if field.name not in changed and not field.primary_key:
+            setattr(record, field.attname, getattr(stored, field.attname))
+
+
+def visit_state(visit: Visit) -> dict[str, Any]:
+    """A visit as the trail compares it: its stored values, its units and technicians."""
+    return {
+        **audit.snapshot(visit),
+        "units": sorted(u.pk for u in visit.units.all()),
+        "technicians": sorted(u.pk for u in visit.technicians.all()),
+    }
+
+
+def _state(record: models.Model) -> dict[str, Any]:
+    return visit_state(record) if isinstance(record, Visit) else audit.snapshot(record)
+
+
+def _compute_after_edit(record: models.Model) -> None:
+    """What rests on a unit's own data: its diagnoses (its design), its leak rates (its
+    full charge, appliance type, refrigerant) and its flags; on a part (a capacitor's
+    rating), its unit's flags."""
+    if isinstance(record, Unit):
+        with _logged_failure("rescore and leak rates failed for unit %s", record.pk):
+            rescore(ReadingSet.objects.filter(visit_unit__unit=record))
+            record_leak_rates(record)
+        _refresh_flags_of_units([record.pk])
+    elif isinstance(record, Component):
+        _refresh_flags_of_units([record.unit_id])
+
+
+@transaction.atomic
+def save_with_trail(
+    record: M | None,
+    save: Callable[[], M],
+    *,
+    by: User | None,
+    note: str = "",
+    changed: Collection[str] | None = None,
+) -> M:
+    """Store a new record, or an edit to ``record``, as ``save`` writes it (a form or a
+    serializer, with its relations: a visit's units and people), record it in the trail
+    (created, or each value changed since the stored one, read before ``save`` runs; a
+    form names the fields it ``changed``, the others keep their stored values), and compute
+    again what rests on it. For visits, customers, sites, units and parts; a visit's status
+    moves only by ``move_visit``, readings and refrigerant events go by ``save_record``."""
+    if record is None or record._state.adding:
+        created = save()
+        audit.record_created(created, by=by, note=note)
+        _compute_after_edit(created)
+        return created
+    stored = type(record)._default_manager.get(pk=record.pk)
+    if changed is not None:
+        _keep_stored(record, stored, changed)
+    before = _state(stored)
+    saved = save()
+    changes = audit.diff(before, _state(saved))
+    if changes:
+        audit.record(saved, AuditAction.CHANGED, by=by, changes=changes, note=note)
+    _compute_after_edit(saved)
+    return saved
 
 
 # --- reading sets and refrigerant events ----------------------------------------------------
@@ -277,6 +356,17 @@ def _compute_leak_rate(event: RefrigerantEvent) -> None:
             event.leak_rate = leak_rate
 
 
+def _recompute_leak_rates(event: RefrigerantEvent) -> None:
+    """After an edit: every addition of the unit again (a repair or a date moved changes the
+    later rates too), and no rate left on an event that is no longer an addition."""
+    with _logged_failure("leak rates failed for refrigerant event %s", event.pk):
+        rates = record_leak_rates(event.visit_unit.unit)
+        if event.pk in rates:
+            event.leak_rate = rates[event.pk]
+        else:
+            LeakRate.objects.filter(event=event).delete()
+
+
 def _record_once(record: R, compute: Callable[[R], None], *, by: User | None) -> Stored[R]:
     def compute_and_audit(inserted: R) -> None:
         compute(inserted)
@@ -285,12 +375,21 @@ def _record_once(record: R, compute: Callable[[R], None], *, by: User | None) ->
     return _insert_once(record, compute_and_audit)
 
 
+def _unit_ids_of(*visit_unit_ids: int) -> list[int]:
+    return list(
+        VisitUnit.objects.filter(pk__in=set(visit_unit_ids)).values_list("unit_id", flat=True)
+    )
+
+
 def _change(
     record: R, before: dict[str, Any], compute: Callable[[R], None], *, by: User | None
 ) -> R:
+    """Save an edit, compute again what is computed of it, record what changed, and refresh
+    the flags of its unit (of both units, if it was moved to another)."""
     record.save()
     compute(record)
     audit.record_changed(record, before, by=by)
+    _refresh_flags_of_units(_unit_ids_of(before["visit_unit_id"], record.visit_unit_id))
     return record
 
 
@@ -338,16 +437,87 @@ def record_refrigerant_event(
 def change_refrigerant_event(
     event: RefrigerantEvent, before: dict[str, Any], *, by: User | None
 ) -> RefrigerantEvent:
-    """After an office edit: compute the leak rate again and record what changed."""
-    return _change(event, before, _compute_leak_rate, by=by)
+    """After an office edit: compute the leak rates again and record what changed."""
+    return _change(event, before, _recompute_leak_rates, by=by)
+
+
+def save_record(
+    record: ReadingSet | RefrigerantEvent,
+    *,
+    by: User | None,
+    changed: Collection[str] | None = None,
+) -> None:
+    """Store a new reading set or refrigerant event, or an edit made to one in memory (the
+    admin's form, which ``changed`` those fields), by the same services as the API: the
+    stored values are read first for the trail."""
+    if isinstance(record, ReadingSet):
+        if record._state.adding:
+            record_reading_set(record, by=by)
+            return
+        stored_set = ReadingSet.objects.get(pk=record.pk)
+        if changed is not None:
+            _keep_stored(record, stored_set, changed)
+        change_reading_set(record, audit.snapshot(stored_set), by=by)
+    elif record._state.adding:
+        record_refrigerant_event(record, by=by)
+    else:
+        stored_event = RefrigerantEvent.objects.get(pk=record.pk)
+        if changed is not None:
+            _keep_stored(record, stored_event, changed)
+        change_refrigerant_event(record, audit.snapshot(stored_event), by=by)
+
+
+# --- deletion -------------------------------------------------------------------------------
+
+
+class KeptRecord(Exception):
+    """A record the refrigerant rules require to be kept was asked to be deleted."""
+
+
+def why_kept(record: models.Model, today: dt.date | None = None) -> str | None:
+    """Why ``record`` may not be deleted yet, or None: the one rule the admin, the pages and
+    the API ask.
+
+    Every refrigerant event (refrigerant added or recovered, a leak found or repaired, a
+    verification test) is part of the service records the leak-repair rules require, and
+    is kept for the configured rule set's record-keeping period from the day of the work:
+    3 years under the US rules (40 CFR 82.157(l); the rule set names its source). Its leak
+    rate goes with it, so it is kept as long. Local regulation may ask for longer.
+    """
+    if not isinstance(record, RefrigerantEvent):
+        return None
+    rules = configured_leak_rules()
+    kept_until = rules.kept_until(record.occurred_on)
+    if (today or timezone.localdate()) >= kept_until:
+        return None
+    return (
+        f"{record} is a refrigerant service record, kept until {kept_until:%Y-%m-%d} "
+        f"({rules.record_keeping_years.source}); it cannot be deleted before then"
+    )
 
 
 @transaction.atomic
 def delete_record(record: models.Model, *, by: User | None) -> None:
-    """Delete with its trail entry in the same transaction."""
+    """Delete with its trail entry in the same transaction, and compute again what rested
+    on the record; a record the rules keep (``why_kept``) raises KeptRecord instead."""
+    reason = why_kept(record)
+    if reason is not None:
+        raise KeptRecord(reason)
     audit.record_deleted(record, by=by)
     record.delete()
     if isinstance(record, RefrigerantEvent):
         # Later additions' leak rates depend on this one (rolling window, annualizing clock).
         with _logged_failure("leak rates failed for unit %s", record.visit_unit.unit_id):
             record_leak_rates(record.visit_unit.unit)
+    if isinstance(record, ReadingSet | RefrigerantEvent):
+        _refresh_flags_of_units([record.visit_unit.unit_id])
+
+
+@transaction.atomic
+def delete_records(records: Iterable[models.Model], *, by: User | None) -> int:
+    """Delete several records as ``delete_record`` does each, all or none; how many."""
+    count = 0
+    for record in records:
+        delete_record(record, by=by)
+        count += 1
+    return count

@@ -7,6 +7,7 @@ from .views import (
     base,
     flags,
     maintenance,
+    people,
     review,
     schedule,
     sites,
@@ -35,4 +36,8 @@ urlpatterns = [
     path("sites/<int:pk>/", sites.site_detail, name="site"),
     path("sites/<int:pk>/reports/<str:month>/", sites.site_report, name="site-report"),
     path("attention/", attention.attention, name="attention"),
+    path("people/", people.people_list, name="people"),
+    path("people/new/", people.person_create, name="person-create"),
+    path("people/<int:pk>/", people.person_edit, name="person"),
+    path("people/<int:pk>/revoke-token/", people.person_revoke_token, name="person-revoke-token"),
 ]

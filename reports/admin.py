@@ -1,4 +1,5 @@
-"""Stored reports in the admin: read-only, since a stored version never changes."""
+"""Stored reports in the admin: read-only and never deleted, since a stored version never
+changes and is what the customer was sent."""
 
 from __future__ import annotations
 
@@ -13,7 +14,7 @@ from .models import MonthlyReport
 class MonthlyReportAdmin(admin.ModelAdmin):
     list_display = ("site", "month", "version", "generated_at", "page_count", "algorithm_version")
     list_filter = ("month",)
-    list_select_related = ("site",)
+    list_select_related = ("site__customer",)
     search_fields = ("site__name", "site__customer__name", "checksum_sha256")
     date_hierarchy = "month"
     exclude = ("html",)
@@ -38,4 +39,8 @@ class MonthlyReportAdmin(admin.ModelAdmin):
         return False
 
     def has_change_permission(self, request: HttpRequest, obj: MonthlyReport | None = None) -> bool:
+        return False
+
+    def has_delete_permission(self, request: HttpRequest, obj: MonthlyReport | None = None) -> bool:
+        """A stored version is what the customer was sent; it is kept."""
         return False

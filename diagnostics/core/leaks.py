@@ -139,6 +139,15 @@ class LeakRuleSet:
                 return scope
         return None
 
+    def kept_until(self, happened_on: date) -> date:
+        """The first day a record of refrigerant work done on ``happened_on`` may be let go:
+        ``record_keeping_years`` later (29 February moves to 1 March)."""
+        year = happened_on.year + self.record_keeping_years.value
+        try:
+            return happened_on.replace(year=year)
+        except ValueError:  # 29 February into a common year
+            return date(year, 3, 1)
+
 
 @lru_cache(maxsize=256)
 def _refrigerant_facts(refrigerant: str) -> tuple[str, float]:

@@ -17,8 +17,9 @@ class AuditAction(models.TextChoices):
 
 
 class AuditEntry(models.Model):
-    """Who created, changed, moved or deleted a visit, reading set or refrigerant event, and
-    what changed, so an office edit after submission can always be told from the original.
+    """Who created, changed, moved or deleted a record (a visit, reading set or refrigerant
+    event; a customer, site, unit or part, whose entries have no visit), and what changed, so
+    an office edit after submission can always be told from the original.
 
     ``changes`` maps each field to ``[old, new]`` (SI, as stored); a creation lists the stored
     values as ``[null, new]``. The record is named by content type and id rather than by a

@@ -1,6 +1,6 @@
 """The office pages, one module per area: ``schedule``, ``visits`` (booking and changing),
 ``visit_page`` and ``review`` (a visit's page and the review queue), ``maintenance``,
-``units``, ``flags``, ``sites`` and ``attention``; what they share is in ``base``
+``units``, ``flags``, ``sites``, ``attention`` and ``people``; what they share is in ``base``
 (reach, rendering) and ``stored`` (stored results as the pages show them).
 
 Each view parses the request, reads through query sets scoped to the user's reach

@@ -20,6 +20,7 @@ from django.core.exceptions import PermissionDenied
 from django.http import Http404, HttpRequest, HttpResponse
 from django.http.response import HttpResponseBase
 from django.shortcuts import redirect, render
+from django.utils.functional import SimpleLazyObject
 from django.utils.http import url_has_allowed_host_and_scheme
 
 from diagnostics.models import Flag
@@ -52,19 +53,49 @@ def within_reach(*allowed: str) -> Callable[[View], View]:
     return decorate
 
 
+def office_admin(view: View) -> View:
+    """An office administrator's page (``Roles.manages_people``): 404 for anyone else, as
+    ``within_reach`` answers."""
+
+    @wraps(view)
+    def wrapped(request: HttpRequest, *args: Any, **kwargs: Any) -> HttpResponseBase:
+        if not roles_of(request.user).manages_people:
+            raise Http404("not within your reach")
+        return view(request, *args, **kwargs)
+
+    return within_reach(Role.OFFICE)(wrapped)
+
+
+def _queue_count(user: Any) -> int:
+    return Visit.objects.visible_to(user).filter(status=VisitStatus.SUBMITTED).count()
+
+
+def _flag_count(user: Any) -> int:
+    return Flag.objects.visible_to(user).filter(cleared_at__isnull=True).count()
+
+
+def navigation(request: HttpRequest) -> dict[str, Any]:
+    """Template context processor: what the menu of ``base.html`` needs, on every page
+    that extends it (the reports' pages and the htmx fragments too, which render without
+    ``page``). Each value is read lazily, so a page that shows no menu (the admin, the
+    sign-in page) asks nothing; a value the view passes itself takes precedence."""
+    user = request.user
+    return {
+        "roles": SimpleLazyObject(lambda: roles_of(user)),
+        "nav_queue_count": SimpleLazyObject(lambda: _queue_count(user)),
+        "nav_flag_count": SimpleLazyObject(lambda: _flag_count(user)),
+    }
+
+
 def page(request: HttpRequest, template: str, context: dict, status: int = 200) -> HttpResponse:
     """Render a page with the user's roles and what the navigation shows for them (two
     counts for the office; a page that has counted one already passes it in)."""
     context = {"roles": roles_of(request.user), **context}
     if context["roles"].office:
         if "nav_queue_count" not in context:
-            context["nav_queue_count"] = (
-                Visit.objects.visible_to(request.user).filter(status=VisitStatus.SUBMITTED).count()
-            )
+            context["nav_queue_count"] = _queue_count(request.user)
         if "nav_flag_count" not in context:
-            context["nav_flag_count"] = (
-                Flag.objects.visible_to(request.user).filter(cleared_at__isnull=True).count()
-            )
+            context["nav_flag_count"] = _flag_count(request.user)
     return render(request, template, context, status=status)
 
 

@@ -37,7 +37,13 @@ def flag_acknowledge(request: HttpRequest, pk: int) -> HttpResponse:
         return render(
             request,
             "fleet/_flag.html",
-            {"flag": flag, "can_acknowledge": True, "ack_form": form, "show_unit": False},
+            {
+                "flag": flag,
+                "can_acknowledge": True,
+                "ack_form": form,
+                # the card comes back as it was sent: with its unit and site on a list
+                "show_unit": bool(request.POST.get("show_unit")),
+            },
         )
     if form.errors:
         # An ErrorList item is its message (Django unpacks the ValidationError on indexing);

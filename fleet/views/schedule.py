@@ -122,6 +122,14 @@ def schedule(request: HttpRequest) -> HttpResponse:
     if office:
         people = list(forms.technician_users())
         rows = [ScheduleRow(p.get_full_name() or p.get_username(), p.pk) for p in people]
+        # Someone disabled or re-roled keeps the visits still assigned to them: a row of
+        # their own, so no visit within reach drops off the week.
+        listed = {p.pk for p in people}
+        former = {t.pk: t for s in visits for t in s.visit.technicians.all() if t.pk not in listed}
+        rows.extend(
+            ScheduleRow(f"{p.get_full_name() or p.get_username()} (not a technician now)", p.pk)
+            for p in sorted(former.values(), key=lambda p: (p.get_full_name(), p.username))
+        )
         rows.append(ScheduleRow("Not assigned yet", None))
     else:
         rows = [ScheduleRow("My visits", request.user.pk)]

@@ -4,9 +4,19 @@ units the client states, validation from the models, and refusals that are never
 from __future__ import annotations
 
 import pytest
+from django.utils import timezone
 
-from fleet.models import Unit
-from tests.factories import SiteFactory, UnitFactory, refrigerant
+from diagnostics.models import LeakRate
+from fleet import services
+from fleet.models import AuditEntry, Unit
+from tests.factories import (
+    RefrigerantEventFactory,
+    SiteFactory,
+    UnitFactory,
+    VisitFactory,
+    VisitUnitFactory,
+    refrigerant,
+)
 
 from .conftest import token_client
 
@@ -111,3 +121,27 @@ def test_refrigerants_list_composition_gwp_and_glide(technician):
     missing = client.get("/api/v1/refrigerants/R-999/")
     assert missing.status_code == 404
     assert "unknown refrigerant" in missing.json()["designation"][0]
+
+
+def test_the_api_records_a_unit_edit_and_computes_its_leak_rate_again(office_user):
+    """A unit's full charge corrected from 200 lb to 60 lb on the API: its addition of 20 lb
+    is now a 33 % leak rate (40 CFR 82.152), and the trail holds the new charge."""
+    unit = UnitFactory(full_charge_kg=200 * KG_PER_LB)
+    visit_unit = VisitUnitFactory(visit=VisitFactory(site=unit.site), unit=unit)
+    event = RefrigerantEventFactory(
+        visit_unit=visit_unit, amount_kg=20 * KG_PER_LB, occurred_on=timezone.localdate()
+    )
+    services.record_leak_rates(unit)
+
+    response = token_client(office_user).patch(
+        f"/api/v1/units/{unit.pk}/",
+        {"full_charge": 60.0, "units": {"mass": "lb"}},
+        format="json",
+    )
+
+    assert response.status_code == 200, response.json()
+    rate = LeakRate.objects.get(event=event)
+    assert rate.rolling_average_percent == pytest.approx(100 * 20 / 60, abs=0.01)
+    entry = AuditEntry.objects.get(action="changed", record_type__model="unit")
+    assert entry.actor == office_user
+    assert entry.changes["full_charge_kg"][1] == pytest.approx(60 * KG_PER_LB)

@@ -7,8 +7,11 @@ import uuid
 
 import pytest
 import time_machine
+from django.utils import timezone
 
-from fleet.models import RefrigerantEvent
+from diagnostics.models import LeakRate
+from fleet import services
+from fleet.models import AuditEntry, RefrigerantEvent
 from tests.factories import (
     RefrigerantEventFactory,
     SiteFactory,
@@ -124,3 +127,26 @@ def test_a_retried_event_is_stored_once(technician, visit_unit):
     assert client.post(_url(visit_unit), body, format="json").status_code == 201
     assert client.post(_url(visit_unit), body, format="json").status_code == 200
     assert RefrigerantEvent.objects.count() == 1
+
+
+def test_the_api_refuses_to_delete_a_kept_record(office_user):
+    """DELETE answers 409 naming the rule; the event and its leak rate stay. One past the
+    period is deleted (204) with its trail entry."""
+    visit = VisitFactory(status="submitted")
+    visit_unit = VisitUnitFactory(visit=visit)
+    today = timezone.localdate()
+    kept = RefrigerantEventFactory(visit_unit=visit_unit, occurred_on=today - dt.timedelta(days=30))
+    old = RefrigerantEventFactory(
+        visit_unit=visit_unit, occurred_on=today - dt.timedelta(days=4 * 366)
+    )
+    services.record_leak_rates(visit_unit.unit)
+    client = token_client(office_user)
+    url = f"/api/v1/visits/{visit.pk}/refrigerant-events/"
+
+    response = client.delete(f"{url}{kept.pk}/")
+
+    assert response.status_code == 409
+    assert "40 CFR 82.157(l)" in response.json()["non_field_errors"][0]
+    assert LeakRate.objects.filter(event=kept).exists()
+    assert client.delete(f"{url}{old.pk}/").status_code == 204
+    assert AuditEntry.objects.filter(action="deleted", record_id=old.pk).count() == 1

@@ -263,3 +263,36 @@ def test_the_unit_page_charts_the_reports_trend_panels():
     charts = unit_charts(unit, timezone.localdate())
     assert "<svg" in charts["svg"]
     assert charts["described"] == ["Superheat: evaporator superheat against its ok range"]
+
+
+def test_an_acknowledged_card_on_the_attention_list_keeps_its_unit_and_site(
+    office, world, django_assert_max_num_queries
+):
+    """Acknowledged in place on the attention list, the card still names its unit (linked)
+    and its site, as it did before; the answer costs five queries (session, user, roles,
+    the flag with its unit and site, the update)."""
+    before = office.get(reverse("fleet:attention")).content.decode()
+    assert 'name="show_unit"' in before
+    with django_assert_max_num_queries(5):
+        response = office.post(
+            reverse("fleet:flag-acknowledge", args=[world.flag.pk]),
+            {"acknowledgement_note": "Coil clean booked", "show_unit": "1"},
+            HTTP_HX_REQUEST="true",
+        )
+    fragment = response.content.decode()
+    assert "Coil clean booked" in fragment
+    assert reverse("fleet:unit", args=[world.unit.pk]) in fragment
+    assert world.unit.tag in fragment
+    assert world.site.name in fragment
+
+
+def test_an_acknowledged_card_on_the_unit_page_names_no_unit(office, world):
+    """On the unit's own page the card leaves the unit out, before and after."""
+    response = office.post(
+        reverse("fleet:flag-acknowledge", args=[world.flag.pk]),
+        {"acknowledgement_note": "Coil clean booked"},
+        HTTP_HX_REQUEST="true",
+    )
+    fragment = response.content.decode()
+    assert "Coil clean booked" in fragment
+    assert world.site.name not in fragment

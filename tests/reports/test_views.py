@@ -83,3 +83,27 @@ def test_an_earlier_version_stays_readable(client, office_user, report):
     assert "Stored v1" in client.get(f"{base}?version={report.version}").content.decode()
     assert client.get(f"{base}?version=99").status_code == 404
     assert client.get(f"{base}?version=x").status_code == 404
+
+
+@pytest.mark.parametrize("url", ["/reports/", "/reports/sites/{site}/"], ids=["index", "site"])
+def test_the_report_pages_use_the_site_layout(client, manager, report, url):
+    """The reports' own pages carry the site's layout: its style sheet, the menu with the
+    reports marked as the current page, the user's name and role."""
+    client.force_login(manager)
+    html = client.get(url.format(site=report.site_id)).content.decode()
+    assert "rimewatch/site.css" in html
+    assert 'class="mainnav"' in html
+    assert '<a href="/reports/" aria-current="page">Reports</a>' in html
+    assert "(manager)" in html
+
+
+@pytest.mark.parametrize(
+    ("role", "linked"),
+    [("office", True), ("manager", True), ("technician", False)],
+)
+def test_the_menu_links_the_reports_for_roles_that_read_them(client, role, linked):
+    """The menu links /reports/ for the office and managers, not for technicians (who read
+    no report)."""
+    client.force_login(UserFactory(username=f"menu-{role}", role=role))
+    html = client.get("/sites/").content.decode()
+    assert ('href="/reports/"' in html) is linked

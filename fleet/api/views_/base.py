@@ -6,17 +6,18 @@ from __future__ import annotations
 from typing import Any
 
 from django.contrib.auth.models import User
-from django.db import transaction
-from drf_spectacular.openapi import AutoSchema
 from drf_spectacular.types import OpenApiTypes
 from drf_spectacular.utils import OpenApiParameter
 from rest_framework import mixins, status, viewsets
 from rest_framework.exceptions import APIException, NotAuthenticated, ValidationError
 from rest_framework.pagination import PageNumberPagination
 from rest_framework.request import Request
+from rest_framework.serializers import BaseSerializer
 from rest_framework.views import APIView
 
+from fleet import services
 from fleet.api.permissions import HasRole
+from fleet.api.schema import ErrorsAutoSchema
 from fleet.display import SYSTEMS
 from fleet.reach import OFFICE
 
@@ -46,7 +47,7 @@ class Conflict(APIException):
     default_code = "conflict"
 
 
-class UnitsAutoSchema(AutoSchema):
+class UnitsAutoSchema(ErrorsAutoSchema):
     """Documents ``?units=`` on every endpoint whose records carry measurements."""
 
     def get_override_parameters(self) -> list:
@@ -101,10 +102,16 @@ class RecordViewSet(
     mixins.DestroyModelMixin,
     RimewatchViewSet,
 ):
-    """A fleet record: office writes, every role reads what is within its reach."""
+    """A fleet record: office writes, every role reads what is within its reach. Writes go
+    through ``fleet.services``, which records them and computes again what rests on them."""
 
     http_method_names = ["get", "post", "put", "patch", "delete", "head", "options"]
 
+    def perform_create(self, serializer: BaseSerializer[Any]) -> None:
+        services.save_with_trail(None, serializer.save, by=signed_in(self.request))
+
+    def perform_update(self, serializer: BaseSerializer[Any]) -> None:
+        services.save_with_trail(serializer.instance, serializer.save, by=signed_in(self.request))
+
     def perform_destroy(self, instance: Any) -> None:
-        with transaction.atomic():
-            instance.delete()
+        services.delete_record(instance, by=signed_in(self.request))

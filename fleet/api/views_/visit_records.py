@@ -175,7 +175,10 @@ class VisitRecordViewSet(
 
     def perform_destroy(self, instance: Any) -> None:
         self._check_writable()
-        services.delete_record(instance, by=signed_in(self.request))
+        try:
+            services.delete_record(instance, by=signed_in(self.request))
+        except services.KeptRecord as kept:
+            raise Conflict({"non_field_errors": [str(kept)]}) from kept
 
 
 def visit_record_schema(serializer: type, create_description: str) -> Callable:

@@ -2,17 +2,13 @@
 
 from __future__ import annotations
 
-from typing import Any
-
-from django.db import transaction
 from django.db.models import QuerySet
 from drf_spectacular.utils import extend_schema, extend_schema_view
 from rest_framework.decorators import action
 from rest_framework.request import Request
 from rest_framework.response import Response
-from rest_framework.serializers import BaseSerializer
 
-from fleet import audit, services
+from fleet import services
 from fleet.api import filtersets
 from fleet.api.serializers import (
     AuditEntrySerializer,
@@ -22,19 +18,10 @@ from fleet.api.serializers import (
     VisitSerializer,
 )
 from fleet.choices import VisitStatus
-from fleet.models import AuditAction, AuditEntry, Visit
+from fleet.models import AuditEntry, Visit
 from fleet.reach import OFFICE, TECHNICIAN
 
 from .base import Conflict, RecordViewSet, signed_in
-
-
-def _audited(visit: Visit) -> dict[str, Any]:
-    """A visit as the trail compares it: its stored values, its units and technicians."""
-    return {
-        **audit.snapshot(visit),
-        "units": sorted(u.pk for u in visit.units.all()),
-        "technicians": sorted(u.pk for u in visit.technicians.all()),
-    }
 
 
 @extend_schema_view(
@@ -62,26 +49,6 @@ class VisitViewSet(RecordViewSet):
     def get_queryset(self) -> QuerySet[Visit]:
         qs = Visit.objects.visible_to(self.request.user).select_related("site")
         return qs.prefetch_related("technicians", "units").order_by("-window_start", "id")
-
-    def perform_create(self, serializer: BaseSerializer[Visit]) -> None:
-        with transaction.atomic():
-            visit = serializer.save()
-            audit.record_created(visit, by=signed_in(self.request))
-
-    def perform_update(self, serializer: BaseSerializer[Visit]) -> None:
-        if serializer.instance is None:  # DRF's update() passes the visit it changes
-            raise TypeError("a visit's update needs the visit")
-        before = _audited(serializer.instance)
-        with transaction.atomic():
-            visit = serializer.save()
-            changes = audit.diff(before, _audited(visit))
-            if changes:
-                audit.record(
-                    visit, AuditAction.CHANGED, by=signed_in(self.request), changes=changes
-                )
-
-    def perform_destroy(self, instance: Visit) -> None:
-        services.delete_record(instance, by=signed_in(self.request))
 
     def _moved(self, visit: Visit) -> Response:
         return Response(self.get_serializer(visit).data)
