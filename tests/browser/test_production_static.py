@@ -1,7 +1,7 @@
 """The pages as production serves them: collectstatic's hashed files served by WhiteNoise
 (not the development server's finders) under the Content-Security-Policy, in a real browser:
-styled, htmx loaded and swapping, the admin's scripts working, and nothing refused by the
-policy."""
+styled, htmx loaded and swapping, the admin's scripts and the API reference page working,
+and nothing refused by the policy."""
 
 from __future__ import annotations
 
@@ -90,3 +90,10 @@ def test_pages_are_styled_and_scripted_from_hashed_files_under_the_policy(
     page.goto(f"{production_server}/admin/fleet/site/{site.pk}/change/")
     assert page.locator("#site_form").is_visible()
     assert refused == []
+
+    # The API reference page: Redoc from our static files, styling itself inline and
+    # parsing the schema in a worker, as its page's policy allows. Only what Redoc would
+    # fetch from another host (its maker's logo) is refused.
+    page.goto(f"{production_server}/api/docs/")
+    page.get_by_role("heading", name=re.compile("Rimewatch API")).first.wait_for()
+    assert [text for text in refused if "'https://" not in text] == []
