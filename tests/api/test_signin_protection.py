@@ -10,6 +10,7 @@ import pytest
 from axes.models import AccessAttempt
 from django.conf import settings as django_settings
 from django.core.management import call_command
+from django.http import HttpRequest
 from django.test import Client
 from rest_framework.test import APIClient
 
@@ -155,6 +156,15 @@ def test_through_one_trusted_proxy_the_address_it_saw_is_used(settings, technici
     assert _token("tech1", PASSWORD, {**proxy, "HTTP_X_FORWARDED_FOR": "198.51.100.7"}) == 200
 
 
+def test_an_entry_that_is_no_address_gives_way_to_the_connection(settings, technician, unthrottled):
+    """A proxy count higher than the proxies there are lets a client's own entry through:
+    one that is no address is not stored (PostgreSQL would refuse it), the connection's is."""
+    _proxies(settings, 1)
+    forged = {"REMOTE_ADDR": "198.51.100.9", "HTTP_X_FORWARDED_FOR": "not-an-address"}
+    assert _token("tech1", "guess", forged) == 400
+    assert list(AccessAttempt.objects.values_list("ip_address", flat=True)) == ["198.51.100.9"]
+
+
 def test_through_one_trusted_proxy_the_token_throttle_counts_per_client(settings, technician):
     _proxies(settings, 1)
     rate = int(django_settings.REST_FRAMEWORK["DEFAULT_THROTTLE_RATES"]["auth"].split("/")[0])
@@ -175,3 +185,4 @@ def test_the_client_address_rule(rf, settings):
     _proxies(settings, 2)
     assert client_address(request) == "192.0.2.1"
     assert client_address(rf.get("/", REMOTE_ADDR="10.0.0.2")) == "10.0.0.2"
+    assert client_address(HttpRequest()) is None  # a request made in code, no connection
