@@ -15,6 +15,8 @@ $(STAMP): pyproject.toml
 
 install: $(STAMP)
 
+# Development settings (DEBUG on, a dev-only key); production uses config.settings.
+run: export DJANGO_SETTINGS_MODULE = config.settings_dev
 run: install
 	mkdir -p var
 	$(PY) manage.py migrate --no-input
@@ -31,6 +33,11 @@ lint: install
 	$(VENV)/bin/mypy
 	DJANGO_SETTINGS_MODULE=config.settings_test $(PY) manage.py makemigrations --check --dry-run
 	DJANGO_SETTINGS_MODULE=config.settings_test $(PY) manage.py spectacular --validate --fail-on-warn --file /dev/null
+	# Django's deployment checklist on the production settings (a throwaway key, no database).
+	env -u DATABASE_URL DJANGO_SETTINGS_MODULE=config.settings DEBUG=0 \
+		SECRET_KEY="$$($(PY) -c 'import secrets; print(secrets.token_urlsafe(50))')" \
+		ALLOWED_HOSTS=rimewatch.example.com EMAIL_HOST=smtp.example.com \
+		RIMEWATCH_VAR_DIR="$$(mktemp -d)" $(PY) manage.py check --deploy --fail-level WARNING
 
 # Debian's chromium for tests/browser (installed when missing and root; never a download).
 ensure-browser:

@@ -7,6 +7,7 @@ the rest come from the command line or ``GUNICORN_CMD_ARGS``.
 from __future__ import annotations
 
 import gc
+import os
 
 
 def post_worker_init(worker: object) -> None:
@@ -20,3 +21,14 @@ def post_worker_init(worker: object) -> None:
     get_resolver().url_patterns  # noqa: B018 -- imports the URL configuration's views
     gc.collect()
     gc.freeze()
+
+
+def when_ready(server: object) -> None:
+    """Run Django's system checks once as the server starts, as `runserver` does: a
+    warning (e-mail that would go to the log, say) is printed, an error stops the start."""
+    os.environ.setdefault("DJANGO_SETTINGS_MODULE", "config.settings")
+    import django
+    from django.core.management import call_command
+
+    django.setup()
+    call_command("check")

@@ -1,11 +1,12 @@
-"""Test settings: fast hashing, in-memory email, the database from DATABASE_URL if set."""
+"""Test settings: the development settings with fast hashing, in-memory email and cache,
+the database from DATABASE_URL if set."""
 
 from __future__ import annotations
 
 import tempfile
 from pathlib import Path
 
-from .settings import *  # noqa: F403
+from .settings_dev import *  # noqa: F403
 
 PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]
 EMAIL_BACKEND = "django.core.mail.backends.locmem.EmailBackend"

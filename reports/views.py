@@ -7,6 +7,7 @@ to them; anything else is 404. A report page serves the HTML exactly as stored w
 
 from __future__ import annotations
 
+from csp.constants import UNSAFE_INLINE
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.db.models import Count, Max
@@ -129,9 +130,16 @@ def report_page(request: HttpRequest, site_id: int, month: str) -> HttpResponse:
 
 
 def stored_html(report: MonthlyReport) -> HttpResponse:
-    """A stored report's HTML exactly as stored (read on its own: lists leave it out)."""
+    """A stored report's HTML exactly as stored (read on its own: lists leave it out).
+
+    A report is one self-contained file (also the PDF's source and the e-mail's body) with
+    its styles inline, so its page's Content-Security-Policy allows inline styles; scripts
+    stay refused."""
     html = MonthlyReport.objects.values_list("html", flat=True).get(pk=report.pk)
-    return HttpResponse(html, content_type="text/html; charset=utf-8")
+    response = HttpResponse(html, content_type="text/html; charset=utf-8")
+    # What django-csp's csp_update decorator sets (typed for views taking only a request).
+    setattr(response, "_csp_update", {"style-src": [UNSAFE_INLINE]})  # noqa: B010
+    return response
 
 
 @require_GET

@@ -2,14 +2,30 @@
 
 from __future__ import annotations
 
+from ipaddress import ip_address
 from typing import TYPE_CHECKING
 
 from rest_framework.permissions import SAFE_METHODS
-from rest_framework.throttling import SimpleRateThrottle, UserRateThrottle
+from rest_framework.throttling import BaseThrottle, SimpleRateThrottle, UserRateThrottle
 
 if TYPE_CHECKING:  # rest_framework.views imports this module (its default throttles)
+    from django.http import HttpRequest
     from rest_framework.request import Request
     from rest_framework.views import APIView
+
+
+def client_address(request: HttpRequest | Request) -> str | None:
+    """The client's address as the throttles key on it, for the sign-in lockout too: the
+    connection's address, or with N trusted proxies (NUM_PROXIES, from
+    RIMEWATCH_TRUSTED_PROXY_COUNT) the address the outermost of them saw, the N-th from the
+    right of X-Forwarded-For. Whatever a client writes further left is never used, and an
+    entry that is no address (a proxy count set higher than the proxies there are) gives
+    way to the connection's address. None for a request that came through no connection."""
+    ident = BaseThrottle().get_ident(request)  # type: ignore[arg-type]
+    try:
+        return str(ip_address(ident))
+    except ValueError:
+        return request.META.get("REMOTE_ADDR") or None
 
 
 class CellRate(SimpleRateThrottle):

@@ -2,11 +2,12 @@
 
 from __future__ import annotations
 
+from axes.handlers.proxy import AxesProxyHandler
 from django.contrib.auth import authenticate
 from drf_spectacular.utils import extend_schema
 from rest_framework import status
 from rest_framework.authtoken.models import Token
-from rest_framework.exceptions import PermissionDenied, ValidationError
+from rest_framework.exceptions import PermissionDenied, Throttled, ValidationError
 from rest_framework.permissions import AllowAny, IsAuthenticated
 from rest_framework.request import Request
 from rest_framework.response import Response
@@ -21,8 +22,9 @@ from .base import signed_in
 
 class TokenView(APIView):
     """A phone signs in once for a token (``Authorization: Token <key>``), and may revoke
-    it. Attempts are rate-limited per address. The office can also issue and revoke tokens
-    with ``manage.py api_token``."""
+    it. Attempts are rate-limited per address, and a username that failed too often from an
+    address is locked out there as on the sign-in pages (django-axes). The office can also
+    issue and revoke tokens with ``manage.py api_token``."""
 
     throttle_classes = [AuthRateThrottle]
 
@@ -33,11 +35,16 @@ class TokenView(APIView):
     def post(self, request: Request) -> Response:
         body = TokenRequestSerializer(data=request.data)
         body.is_valid(raise_exception=True)
-        user = authenticate(
-            request,
-            username=body.validated_data["username"],
-            password=body.validated_data["password"],
-        )
+        credentials = {
+            "username": body.validated_data["username"],
+            "password": body.validated_data["password"],
+        }
+        if not AxesProxyHandler.is_allowed(request, credentials):
+            raise Throttled(
+                detail="too many failed sign-ins for this username from this address; "
+                "try again later or ask the office to unlock it"
+            )
+        user = authenticate(request, **credentials)
         if user is None:
             raise ValidationError({"password": ["the username or the password is wrong"]})
         role = roles_of(user).widest
