@@ -25,3 +25,9 @@ STORAGES = {
     "staticfiles": {"BACKEND": "django.contrib.staticfiles.storage.StaticFilesStorage"},
 }
 STATIC_ROOT.mkdir(parents=True, exist_ok=True)  # noqa: F405 -- WhiteNoise expects it
+# Mail (monthly reports with their PDFs, alerts, password resets) goes to files under
+# var/mail while developing, one file a message, rather than filling the terminal; an
+# EMAIL_HOST or EMAIL_BACKEND in the environment still wins.
+if not EMAIL_HOST and "EMAIL_BACKEND" not in os.environ:  # noqa: F405
+    EMAIL_BACKEND = "django.core.mail.backends.filebased.EmailBackend"
+    EMAIL_FILE_PATH = VAR_DIR / "mail"  # noqa: F405

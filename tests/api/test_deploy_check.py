@@ -102,6 +102,15 @@ def test_the_development_settings_set_debug_and_a_key_of_their_own(tmp_path):
     assert result.stdout.strip() == "True True", result.stderr
 
 
+def test_the_development_settings_write_mail_to_files_unless_a_server_is_given(tmp_path):
+    """``make run`` mails the demo's reports (PDFs attached) to var/mail, not the terminal."""
+    env = _env(tmp_path, DJANGO_SETTINGS_MODULE="config.settings_dev")
+    result = _settings(env, "s.EMAIL_BACKEND.rsplit('.', 2)[-2], s.EMAIL_FILE_PATH.name")
+    assert result.stdout.strip() == "filebased mail", result.stderr
+    served = _settings({**env, "EMAIL_HOST": "smtp.example.com"}, "s.EMAIL_BACKEND")
+    assert served.stdout.strip() == "django.core.mail.backends.smtp.EmailBackend", served.stderr
+
+
 @pytest.mark.parametrize(
     ("name", "value", "message"),
     [

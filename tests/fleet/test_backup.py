@@ -9,6 +9,7 @@ import json
 from io import StringIO
 
 import pytest
+from axes.models import AccessAttempt
 from django.apps import apps
 from django.contrib.auth.models import User
 from django.core.files.storage import default_storage
@@ -59,6 +60,9 @@ def test_the_demo_fleet_round_trips_with_nothing_lost(tmp_path, media):
     audit.record_created(reading, by=office, note="entered on the phone")
     report = MonthlyReportFactory(site=models.Site.objects.order_by("pk").first())
     Token.objects.create(user=office)
+    AccessAttempt.objects.create(
+        username=office.username, ip_address="192.0.2.7", user_agent="", failures_since_start=3
+    )
     Flag.objects.filter(pk=Flag.objects.order_by("pk").first().pk).update(
         acknowledged_by=office, acknowledged_at=dt.datetime(2026, 11, 3, 9, 30, 0, 123456, dt.UTC)
     )
@@ -94,6 +98,7 @@ def test_the_demo_fleet_round_trips_with_nothing_lost(tmp_path, media):
     # Sign-ins survive, tokens do not (phones sign in again); the stored PDF is back.
     assert dict(User.objects.values_list("username", "password")) == hashes
     assert not Token.objects.exists()
+    assert not AccessAttempt.objects.exists()  # lockouts are not carried over
     with default_storage.open(MonthlyReport.objects.get().pdf.name, "rb") as pdf:
         assert pdf.read() == FAKE_PDF
     assert Flag.objects.get(acknowledged_by=office).acknowledged_at.microsecond == 123456
