@@ -4,6 +4,8 @@ PYTHON ?= python3
 VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
+# The development server's port: `make run PORT=8001` when 8000 is taken.
+PORT ?= 8000
 
 .PHONY: run test install lint ensure-browser pytest-sqlite pytest-postgres bench clean
 
@@ -22,8 +24,8 @@ run: install
 	$(PY) manage.py migrate --no-input
 	$(PY) manage.py demo_fleet
 	$(PY) manage.py rescore
-	@echo "Rimewatch on http://127.0.0.1:8000/ (admin at /admin/, API at /api/v1/, docs at /api/docs/)"
-	bash scripts/with-worker.sh $(PY) manage.py runserver 127.0.0.1:8000
+	@echo "Rimewatch on http://127.0.0.1:$(PORT)/ (admin at /admin/, API at /api/v1/, docs at /api/docs/)"
+	bash scripts/with-worker.sh $(PY) manage.py runserver 127.0.0.1:$(PORT)
 
 lint: install
 	$(VENV)/bin/ruff check .

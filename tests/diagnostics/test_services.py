@@ -3,8 +3,10 @@
 from __future__ import annotations
 
 import datetime as dt
+from io import StringIO
 
 import pytest
+from django.core.management import call_command
 from django.utils import timezone
 
 from diagnostics import services
@@ -300,3 +302,21 @@ def test_a_drift_is_judged_from_the_split_the_diagnosis_targets():
     assert drift_from == pytest.approx(judged, abs=1e-4)
     assert drift_from[own.id] == 9.0
     assert drift_from[defaulted.id] == pytest.approx(14.0, abs=1e-4)
+
+
+def test_the_rescore_command_says_what_it_did_and_why_nothing_is_left():
+    """A fresh load has nothing stale (sets are diagnosed as they are stored): the command
+    says so rather than a bare "Rescored 0", and counts the sets when there is work."""
+    vu = VisitUnitFactory()
+    _r404a_reading(vu)
+    services.rescore()
+    out = StringIO()
+    call_command("rescore", stdout=out, verbosity=0)
+    assert out.getvalue().strip() == (
+        "Nothing to rescore: every reading set already has a diagnosis made with "
+        f"algorithm {ALGORITHM_VERSION}."
+    )
+    Diagnosis.objects.update(algorithm_version="old")
+    out = StringIO()
+    call_command("rescore", stdout=out, verbosity=0)
+    assert out.getvalue().strip() == f"Rescored 1 reading sets with algorithm {ALGORITHM_VERSION}."

@@ -38,4 +38,12 @@ class Command(BaseCommand):
             total=total, desc="rescore", unit="set", disable=options["verbosity"] == 0
         ) as bar:
             done = rescore(queryset, batch_size=options["batch_size"], progress=bar.update)
-        self.stdout.write(f"Rescored {done} reading sets with algorithm {ALGORITHM_VERSION}.")
+        if done:
+            self.stdout.write(f"Rescored {done} reading sets with algorithm {ALGORITHM_VERSION}.")
+        else:
+            # On a fresh demo load this is the expected answer, not a failure: sets are
+            # diagnosed as they are stored, so only an upgrade or --all leaves work here.
+            self.stdout.write(
+                f"Nothing to rescore: every reading set already has a diagnosis made with "
+                f"algorithm {ALGORITHM_VERSION}."
+            )
