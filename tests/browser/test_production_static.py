@@ -89,6 +89,14 @@ def test_pages_are_styled_and_scripted_from_hashed_files_under_the_policy(
     assert page.locator("input.action-select").first.is_checked()
     page.goto(f"{production_server}/admin/fleet/site/{site.pk}/change/")
     assert page.locator("#site_form").is_visible()
+
+    # The reports' pages: the site's layout and its hashed stylesheet, in the menu.
+    for path in ("/reports/", f"/reports/sites/{site.pk}/"):
+        page.goto(f"{production_server}{path}")
+        stylesheet = page.locator("link[rel=stylesheet]").get_attribute("href") or ""
+        assert re.fullmatch(r"/static/rimewatch/site\.[0-9a-f]{12}\.css", stylesheet), path
+        assert page.locator(".topbar").evaluate("e => getComputedStyle(e).display") == "flex"
+        assert page.get_by_role("link", name="Reports").first.is_visible()
     assert refused == []
 
     # The API reference page: Redoc from our static files, styling itself inline and
