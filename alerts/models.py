@@ -70,12 +70,23 @@ class AlertDelivery(models.Model):
     )
     day = models.DateField(help_text="The day it was decided (TIME_ZONE).")
     sent_at = models.DateTimeField(null=True, blank=True)
+    #: "unit:kind" on an immediate delivery, empty (NULL) on a digest one: the database lets
+    #: a person have one immediate e-mail a day per unit and kind, so two workers delivering
+    #: two events of one unit at the same instant cannot both send at once.
+    flood_key = models.CharField(max_length=60, null=True, blank=True, editable=False)
 
     class Meta:
         verbose_name_plural = "alert deliveries"
         constraints = [
-            models.UniqueConstraint(fields=["event", "user"], name="alertdelivery_once_per_user")
+            models.UniqueConstraint(fields=["event", "user"], name="alertdelivery_once_per_user"),
+            models.UniqueConstraint(
+                fields=["user", "day", "flood_key"], name="alertdelivery_one_immediate_a_day"
+            ),
         ]
 
     def __str__(self) -> str:
         return f"{self.event} to {self.user} ({self.way})"
+
+    @staticmethod
+    def flood_key_of(event: AlertEvent) -> str:
+        return f"{event.unit_id}:{event.kind}"

@@ -140,17 +140,6 @@ def choice_of(user: User) -> AlertChoice:
         return AlertChoice(user=user)
 
 
-def _way_today(event: AlertEvent, user: User, wanted: str, today: dt.date) -> str:
-    """Immediate unless this person already had an immediate e-mail today about this
-    unit and kind: then the digest."""
-    if wanted != Way.IMMEDIATE:
-        return wanted
-    already = AlertDelivery.objects.filter(
-        user=user, way=Way.IMMEDIATE, day=today, event__unit=event.unit, event__kind=event.kind
-    ).exists()
-    return Way.DIGEST if already else Way.IMMEDIATE
-
-
 def _mail(event: AlertEvent) -> EmailMessage:
     site = event.unit.site
     body = (
@@ -159,6 +148,24 @@ def _mail(event: AlertEvent) -> EmailMessage:
         "Any work on it is for qualified, certified technicians following local codes.\n"
     )
     return EmailMessage(f"Rimewatch alert: {event.title}", body)
+
+
+def _decide(event: AlertEvent, user: User, wanted: str, today: dt.date) -> None:
+    """Record how ``user`` hears of ``event``: at once, unless they already had an
+    immediate e-mail today about this unit and kind (the database's unique key decides,
+    also between two workers at the same instant), then in the digest. Nothing when an
+    earlier attempt of this job decided it already."""
+    ways = [Way.IMMEDIATE, Way.DIGEST] if wanted == Way.IMMEDIATE else [Way.DIGEST]
+    for way in ways:
+        flood_key = AlertDelivery.flood_key_of(event) if way == Way.IMMEDIATE else None
+        try:
+            with transaction.atomic():
+                AlertDelivery.objects.create(
+                    event=event, user=user, way=way, day=today, flood_key=flood_key
+                )
+            return
+        except IntegrityError:
+            continue  # immediate taken today: the digest; or decided on an earlier attempt
 
 
 def deliver(event_id: int, now: dt.datetime | None = None) -> int:
@@ -170,13 +177,7 @@ def deliver(event_id: int, now: dt.datetime | None = None) -> int:
         wanted = choice_of(user).way(event.kind)
         if wanted == Way.OFF:
             continue
-        try:
-            with transaction.atomic():
-                AlertDelivery.objects.create(
-                    event=event, user=user, way=_way_today(event, user, wanted, today), day=today
-                )
-        except IntegrityError:
-            continue  # decided on an earlier attempt
+        _decide(event, user, wanted, today)
     sent = 0
     pending = AlertDelivery.objects.filter(
         event=event, way=Way.IMMEDIATE, sent_at__isnull=True

@@ -16,14 +16,15 @@ import pytest
 import time_machine
 from django.core import mail
 from django.core.mail.backends import locmem
+from django.db import IntegrityError, transaction
 from django.urls import reverse
 from django.utils import timezone
 from django_tasks import TaskResultStatus
 from django_tasks_db.models import DBTaskResult
 
 from alerts import webhook
-from alerts.models import AlertChoice, AlertEvent
-from alerts.services import send_digests
+from alerts.models import AlertChoice, AlertDelivery, AlertEvent
+from alerts.services import deliver, send_digests
 from alerts.tasks import detect_events
 from diagnostics.models import Diagnosis, Flag, LeakRate
 from tests.factories import (
@@ -138,6 +139,31 @@ def test_one_immediate_mail_per_unit_and_kind_a_day_the_rest_in_the_digest(run_j
     detect_events()
     run_jobs()
     assert len(mail.outbox) == 1  # a new day: at once again
+
+
+def test_two_workers_at_one_instant_still_send_one_immediate_mail():
+    """Two events of one unit and kind delivered at the same instant by two workers: each
+    worker's "already mailed today?" would see nothing yet, so the database's unique key
+    decides. The first worker's immediate row is stored (not yet sent) as the second
+    decides: the second goes to the digest, and no third immediate row can be stored."""
+    person = office("office-race")
+    unit = UnitFactory(tag="RC-1")
+    for hours in (3, 2, 1):
+        fault_on(unit, at=NOW - dt.timedelta(hours=hours))
+    detect_events()
+    first, second, third = AlertEvent.objects.order_by("pk")
+    flood_key = AlertDelivery.flood_key_of(first)
+    AlertDelivery.objects.create(
+        event=first, user=person, way="immediate", day=NOW.date(), flood_key=flood_key
+    )
+
+    deliver(second.pk)
+    assert AlertDelivery.objects.get(event=second, user=person).way == "digest"
+    assert mail.outbox == []
+    with pytest.raises(IntegrityError), transaction.atomic():
+        AlertDelivery.objects.create(
+            event=third, user=person, way="immediate", day=NOW.date(), flood_key=flood_key
+        )
 
 
 def test_an_opened_flag_is_alerted_in_the_digest_by_default(run_jobs):
