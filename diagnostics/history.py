@@ -285,10 +285,7 @@ def _unworkable(
 
 #: ``SERVICE_ERA`` in POSIX seconds, [first, end): reading times outside it are set aside
 #: before any is put on a site's calendar (year 9999 in Tokyo is past the last date).
-_ERA_SECONDS = (
-    dt.datetime.combine(SERVICE_ERA.first, dt.time.min, dt.UTC).timestamp(),
-    dt.datetime.combine(SERVICE_ERA.last + dt.timedelta(days=1), dt.time.min, dt.UTC).timestamp(),
-)
+_ERA_SECONDS = tuple(moment.timestamp() for moment in SERVICE_ERA.instants())
 
 
 def _set_aside_out_of_era(rows: list[tuple]) -> tuple[list[tuple], dict[int, dt.datetime]]:

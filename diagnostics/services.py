@@ -226,7 +226,10 @@ def stale_reading_sets(
     if unit_id is not None:
         qs = qs.filter(visit_unit__unit_id=unit_id)
     if since is not None:
-        qs = qs.filter(taken_at__date__gte=since)
+        # On the stored time itself: a per-row date cast fails on a time written straight
+        # into the database in year 1 (SQLite), and cannot use the index.
+        start = dt.datetime.combine(since, dt.time.min, timezone.get_current_timezone())
+        qs = qs.filter(taken_at__gte=start)
     return qs
 
 

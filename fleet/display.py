@@ -8,13 +8,17 @@ voltages and microfarads are shown as stored.
 
 from __future__ import annotations
 
+import datetime as dt
 from dataclasses import dataclass
 from typing import Literal, overload
 
 from django.conf import settings
+from django.template import defaultfilters
+from django.utils import timezone
 
 from diagnostics.core import units as core_units
 from diagnostics.core import wording
+from fleet.limits import SERVICE_ERA
 
 Quantity = Literal["temperature", "temperature_difference", "pressure", "mass"]
 
@@ -131,3 +135,20 @@ def display_for(system: str | None = None) -> Display:
     """The display for ``system``, else the contractor's setting (US customary by default)."""
     chosen = system or getattr(settings, "RIMEWATCH_DISPLAY_UNITS", "us")
     return Display(chosen if chosen in SYSTEMS else "us")
+
+
+def stored_moment(moment: dt.datetime) -> str:
+    """A stored time as written, in UTC: how a page shows a time no wall clock can show."""
+    return moment.astimezone(dt.UTC).isoformat(" ", "minutes").replace("+00:00", " UTC")
+
+
+def shown_moment(value: dt.date | dt.datetime | None, date_format: str | None = None) -> str:
+    """Django's ``date`` filter for pages and reports, but a stored time outside
+    ``SERVICE_ERA`` (written straight into the database: year 1, or 9999-12-31 23:00 UTC,
+    which is past the last day on a Tokyo clock) is shown as stored and marked, where the
+    built-in filter's zone conversion would fail the whole page."""
+    if isinstance(value, dt.datetime) and value not in SERVICE_ERA:
+        return f"{stored_moment(value)} (date out of range)"
+    if isinstance(value, dt.datetime):
+        value = timezone.localtime(value)
+    return str(defaultfilters.date(value, date_format))

@@ -115,6 +115,12 @@ class DateRange:
             day = day.date()
         return isinstance(day, dt.date) and self.first <= day <= self.last
 
+    def instants(self) -> tuple[dt.datetime, dt.datetime]:
+        """The range as UTC instants, [start of ``first``, start of the day after ``last``):
+        bounds a query puts on a stored time, so no row outside reaches a zone conversion."""
+        start = dt.datetime.combine(self.first, dt.time.min, dt.UTC)
+        return start, dt.datetime.combine(self.last + dt.timedelta(days=1), dt.time.min, dt.UTC)
+
 
 #: The times a visit or a reading may carry, and the days a page may be asked for
 #: (``?week=``, ``?day=``). Before 1900 a zone's offset may be local mean time (Chicago's
@@ -123,6 +129,14 @@ class DateRange:
 SERVICE_ERA = DateRange(
     dt.date(1970, 1, 1), dt.date(2199, 12, 31), "outside the years this service records"
 )
+
+
+def day_on_clock(moment: dt.datetime, zone: dt.tzinfo) -> dt.date:
+    """The day of a stored time on ``zone``'s clock. A time outside ``SERVICE_ERA``
+    (written straight into the database) keeps its UTC day instead: converting year 1 or
+    9999 to a zone can overflow, and the row must still sort and show, not fail the page."""
+    return moment.astimezone(zone).date() if moment in SERVICE_ERA else moment.date()
+
 
 #: The days a unit or a part may be installed or retired on: equipment older than our
 #: records is real (a 1960s walk-in), so the range starts earlier than ``SERVICE_ERA``. A

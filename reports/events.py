@@ -23,6 +23,7 @@ from django.db.models import Q
 
 from diagnostics.models import Flag, FlagKind, FlagSeverity
 from fleet import choices
+from fleet.limits import day_on_clock
 from fleet.models import RefrigerantEvent, Visit, VisitUnit
 
 from . import summary, words
@@ -218,7 +219,7 @@ def flags_open_at(
                 summary=_customer_text(r["summary"], provenance),
                 evidence=_evidence_rows(r["evidence"], provenance),
                 projected_on=r["projected_on"],
-                opened_on=r["opened_at"].astimezone(tz).date(),
+                opened_on=day_on_clock(r["opened_at"], tz),
                 forecast=tuple(
                     (str(n), float(v), str(u)) for n, v, u in r["forecast"].get("quantities", ())
                 ),

@@ -21,14 +21,16 @@ from __future__ import annotations
 import math
 from collections import defaultdict
 from collections.abc import Mapping
-from datetime import date, datetime, tzinfo
+from datetime import date, datetime, time, tzinfo
 from typing import Any
 
 from django.db.models import Q
+from django.utils import timezone
 
 from diagnostics.core import start_history
 from diagnostics.models import Diagnosis
 from fleet import choices
+from fleet.limits import SERVICE_ERA
 from fleet.models import Component, ReadingSet, Site, Unit
 
 from .data import CapacitorRating, HistoryPoint, SiteInfo, UnitInfo
@@ -292,12 +294,17 @@ def unit_trend_history(unit_id: int, since: date, tz: tzinfo) -> tuple[HistoryPo
     """Every diagnosed as-found reading of a unit taken on or after ``since`` (a date in the
     current time zone), as trend points dated in ``tz``, in one query: the office unit
     page's charts, drawn by ``figures.trend_panels`` as the report draws its own."""
+    # Bounds on the stored time itself (no per-row date cast), kept within SERVICE_ERA: a
+    # time written straight into the database in year 1 or 9999 is left off the chart.
+    era_start, era_end = SERVICE_ERA.instants()
+    start = datetime.combine(since, time.min, timezone.get_current_timezone())
     rows = (
         ReadingSet.objects.filter(
             visit_unit__unit_id=unit_id,
             stage=choices.Stage.AS_FOUND,
             diagnosis__isnull=False,
-            taken_at__date__gte=since,
+            taken_at__gte=max(start, era_start),
+            taken_at__lt=era_end,
         )
         .order_by("taken_at", "id")
         .values(*_READING_COLUMNS)

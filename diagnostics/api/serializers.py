@@ -14,6 +14,7 @@ from rest_framework import serializers
 
 from diagnostics.core import wording
 from diagnostics.models import Diagnosis, Flag, LeakRate
+from fleet.api.serializers_.fields import RecordSerializer, StoredTimeField
 from fleet.api.wire_units import pressure_difference_from_kpa, response_units
 from fleet.display import from_si
 
@@ -135,7 +136,7 @@ class ResponseUnitsSerializer(serializers.Serializer):
     mass = serializers.ChoiceField(choices=["lb", "kg"])
 
 
-class DiagnosisSerializer(serializers.ModelSerializer):
+class DiagnosisSerializer(RecordSerializer):
     """The stored judgement on one reading set, converted to the response's units."""
 
     score = serializers.FloatField(
@@ -180,7 +181,7 @@ class DiagnosisSerializer(serializers.ModelSerializer):
             "score": _rounded(instance.score),
             "score_note": NOT_JUDGED if instance.score is None else "",
             "algorithm_version": instance.algorithm_version,
-            "computed_at": serializers.DateTimeField().to_representation(instance.computed_at),
+            "computed_at": StoredTimeField().to_representation(instance.computed_at),
             "targets": [
                 {
                     "name": t["name"],
@@ -230,7 +231,7 @@ class DiagnosisSerializer(serializers.ModelSerializer):
         }
 
 
-class LeakRateSerializer(serializers.ModelSerializer):
+class LeakRateSerializer(RecordSerializer):
     """The leak rate an addition showed under the configured rule set."""
 
     class Meta:
@@ -252,7 +253,7 @@ class LeakRateSerializer(serializers.ModelSerializer):
 
 
 class TrendPointSerializer(serializers.Serializer):
-    taken_at = serializers.DateTimeField()
+    taken_at = StoredTimeField()
     value = serializers.FloatField()
 
 
@@ -279,7 +280,7 @@ class ForecastQuantitySerializer(serializers.Serializer):
     unit = serializers.CharField()
 
 
-class FlagSerializer(serializers.ModelSerializer):
+class FlagSerializer(RecordSerializer):
     """An open flag; its summary, evidence and forecast numbers in the response's units."""
 
     summary = serializers.SerializerMethodField()

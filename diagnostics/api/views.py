@@ -29,6 +29,7 @@ from diagnostics.api.serializers import (
 from diagnostics.core.refrigerants import UnknownRefrigerant
 from diagnostics.models import Diagnosis, Flag
 from fleet.api.permissions import HasRole
+from fleet.api.serializers_.fields import StoredTimeField
 from fleet.api.views_.base import UnitSystemMixin
 from fleet.api.wire_units import response_units
 from fleet.choices import Stage
@@ -55,7 +56,7 @@ class UnitDiagnosisSerializer(serializers.Serializer):
     unit = serializers.IntegerField()
     reading_set = serializers.IntegerField()
     visit = serializers.IntegerField()
-    taken_at = serializers.DateTimeField()
+    taken_at = StoredTimeField()
     diagnosis = DiagnosisSerializer()
 
 
@@ -92,7 +93,7 @@ class UnitDiagnosisView(_UnitView):
                 "unit": unit.pk,
                 "reading_set": reading_set.pk,
                 "visit": reading_set.visit_unit.visit_id,
-                "taken_at": serializers.DateTimeField().to_representation(reading_set.taken_at),
+                "taken_at": StoredTimeField().to_representation(reading_set.taken_at),
                 "diagnosis": DiagnosisSerializer(diagnosis, context=context).data,
             }
         )
@@ -113,7 +114,7 @@ class UnitTrendsView(_UnitView):
             .values_list("reading_set__taken_at", *columns)
         )
         units = response_units(self.unit_context())
-        when = serializers.DateTimeField()
+        when = StoredTimeField()
         series: list[dict[str, Any]] = []
         for index, (name, _column, quantity, label) in enumerate(TREND_SERIES, start=1):
             unit_label = units[quantity] if quantity else label

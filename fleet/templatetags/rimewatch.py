@@ -20,6 +20,7 @@ from django.utils.html import format_html
 from django.utils.safestring import SafeString
 
 from diagnostics.models import Diagnosis
+from fleet import display
 from fleet.display import display_for
 from fleet.models import Visit
 from reports import data, summary, words
@@ -311,7 +312,6 @@ def window_end(start: dt.datetime, end: dt.datetime, time_format: str = "H:i") -
     return f"{shown} (next day)" if (end.date() - start.date()).days == 1 else shown
 
 
-@register.simple_tag
-def stored_moment(moment: dt.datetime) -> str:
-    """A stored time as written in UTC, for a time no wall clock can show (out of range)."""
-    return moment.astimezone(dt.UTC).isoformat(" ", "minutes").replace("+00:00", " UTC")
+register.simple_tag(display.stored_moment, name="stored_moment")
+#: Every date and time on a page goes through this, never the built-in ``date`` filter.
+register.filter("moment", display.shown_moment)

@@ -16,6 +16,7 @@ from diagnostics.deadlines import open_leak_deadlines
 from diagnostics.models import Diagnosis, Flag, LeakRate
 from fleet import forms
 from fleet.choices import Application, Role, Stage
+from fleet.limits import day_on_clock
 from fleet.models import ReadingSet, Unit
 
 from .base import page, within_reach
@@ -89,7 +90,7 @@ def _warm_boxes(user: Any) -> list[AttentionItem]:
             rs = d.reading_set
             items.append(
                 AttentionItem(
-                    timezone.localdate(rs.taken_at),
+                    day_on_clock(rs.taken_at, timezone.get_current_timezone()),
                     "warm_box",
                     rs.visit_unit.unit,
                     diagnosis=d,
@@ -111,7 +112,12 @@ def attention(request: HttpRequest) -> HttpResponse:
         .select_related("unit__site__customer", "acknowledged_by")
     )
     items = [
-        AttentionItem(f.projected_on or timezone.localdate(f.opened_at), "flag", f.unit, flag=f)
+        AttentionItem(
+            f.projected_on or day_on_clock(f.opened_at, timezone.get_current_timezone()),
+            "flag",
+            f.unit,
+            flag=f,
+        )
         for f in flags
     ]
     items.extend(_open_leak_deadlines(request.user))

@@ -6,6 +6,7 @@ from django.urls import reverse
 from drf_spectacular.utils import extend_schema_field
 from rest_framework import serializers
 
+from fleet.api.serializers_.fields import RecordSerializer
 from reports.models import MonthlyReport
 
 
@@ -15,7 +16,7 @@ class ReportLinksSerializer(serializers.Serializer):
     html = serializers.URLField(help_text="This version on the office pages (sign-in needed).")
 
 
-class MonthlyReportSerializer(serializers.ModelSerializer):
+class MonthlyReportSerializer(RecordSerializer):
     month = serializers.SerializerMethodField(help_text="The month reported on, YYYY-MM.")
     links = serializers.SerializerMethodField()
 

@@ -12,11 +12,13 @@ from typing import Any, SupportsFloat
 from django import template
 
 from diagnostics.core import wording
-from fleet.display import Display
+from fleet.display import Display, shown_moment
 from reports import words as vocabulary
 from reports.data import MetricRow
 
 register = template.Library()
+#: Every date and time in a report goes through this, never the built-in ``date`` filter.
+register.filter("moment", shown_moment)
 
 DASH = "\u2013"  # an en dash: "no value"
 

@@ -31,7 +31,14 @@ from fleet.api.wire_units import (
 )
 from fleet.display import Quantity, from_si, to_si
 
-from .fields import FreeTextField, LineField, NumberField, RecordIdField, UnitsField
+from .fields import (
+    FreeTextField,
+    LineField,
+    NumberField,
+    RecordIdField,
+    RecordSerializer,
+    UnitsField,
+)
 
 
 class RefusesUnknownFields(serializers.Serializer):
@@ -76,7 +83,7 @@ class RefusesUnknownFields(serializers.Serializer):
         return value
 
 
-class ValidatedModelSerializer(RefusesUnknownFields, serializers.ModelSerializer[Model]):
+class ValidatedModelSerializer(RefusesUnknownFields, RecordSerializer):
     """Runs the model's ``full_clean()`` on the would-be instance (NetBox's
     ``ValidatedModelSerializer``), reporting errors under the wire names."""
 
@@ -85,7 +92,7 @@ class ValidatedModelSerializer(RefusesUnknownFields, serializers.ModelSerializer
     # characters (free text keeps tabs and line breaks) and free text is capped in length;
     # a related record is named by a whole number.
     serializer_field_mapping = {
-        **serializers.ModelSerializer.serializer_field_mapping,
+        **RecordSerializer.serializer_field_mapping,
         models.FloatField: NumberField,
         models.CharField: LineField,
         models.TextField: FreeTextField,

@@ -8,6 +8,7 @@ import datetime as dt
 import unicodedata
 from typing import Any
 
+from django.db import models
 from django.utils import timezone
 from drf_spectacular.utils import extend_schema_field
 from rest_framework import serializers
@@ -179,3 +180,25 @@ def legs_field(help_text: str) -> serializers.ListField:
     return serializers.ListField(
         child=NumberField(), max_length=3, required=False, help_text=help_text
     )
+
+
+class StoredTimeField(serializers.DateTimeField):
+    """A date-time as DRF writes it, on the server's clock; but a stored time outside
+    ``SERVICE_ERA`` (written straight into the database) is written as stored, in UTC,
+    where DRF would answer the whole request 400 "Datetime value out of range" for a time
+    the caller never sent (year 9999 has no last hour on a Tokyo clock)."""
+
+    def to_representation(self, value: dt.datetime) -> str:
+        if isinstance(value, dt.datetime) and value not in SERVICE_ERA:
+            return value.astimezone(dt.UTC).isoformat().replace("+00:00", "Z")
+        return super().to_representation(value)
+
+
+class RecordSerializer(serializers.ModelSerializer):
+    """The base of every model serializer on the wire: stored times go through
+    ``StoredTimeField``."""
+
+    serializer_field_mapping = {
+        **serializers.ModelSerializer.serializer_field_mapping,
+        models.DateTimeField: StoredTimeField,
+    }

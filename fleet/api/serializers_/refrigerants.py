@@ -9,10 +9,10 @@ from fleet.api.wire_units import response_units
 from fleet.display import from_si
 from fleet.models import Refrigerant
 
-from .fields import UnitsField
+from .fields import RecordSerializer, UnitsField
 
 
-class RefrigerantSerializer(serializers.ModelSerializer):
+class RefrigerantSerializer(RecordSerializer):
     composition = serializers.JSONField(
         read_only=True, help_text="Mass fractions: [[constituent, fraction], ...]."
     )

@@ -24,7 +24,7 @@ from fleet.limits import CONFIRM_AMOUNT_ABOVE_FULL_CHARGE, EVENT_LIMITS, READING
 from fleet.models import ReadingSet, RefrigerantEvent
 
 from .base import MeasuredSerializer
-from .fields import check_not_future, legs_field, measure_field
+from .fields import StoredTimeField, check_not_future, legs_field, measure_field
 
 
 class VisitRecordSerializer(MeasuredSerializer):
@@ -174,7 +174,7 @@ class ReadingSetSerializer(VisitRecordSerializer):
     client_id = serializers.UUIDField(
         required=False, help_text="Chosen by the phone; a repeat returns the stored set (200)."
     )
-    taken_at = serializers.DateTimeField(
+    taken_at = StoredTimeField(
         required=False, validators=[check_not_future], help_text="Default: now."
     )
     box_temp = measure_field("Box (air) temperature.", source="box_temp_c")

@@ -12,7 +12,7 @@ from fleet import choices
 from fleet.models import AuditEntry, Unit, Visit, VisitUnit
 
 from .base import RefusesUnknownFields, ValidatedModelSerializer
-from .fields import FreeTextField, RecordIdField, check_in_service_era
+from .fields import FreeTextField, RecordIdField, RecordSerializer, check_in_service_era
 
 
 class VisitSerializer(ValidatedModelSerializer):
@@ -96,7 +96,7 @@ class VisitSerializer(ValidatedModelSerializer):
         return super().validate(attrs)
 
 
-class AuditEntrySerializer(serializers.ModelSerializer):
+class AuditEntrySerializer(RecordSerializer):
     """One entry of a visit's trail; ``changes`` are the stored (SI) values."""
 
     actor: serializers.SlugRelatedField[User] = serializers.SlugRelatedField(
