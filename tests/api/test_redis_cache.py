@@ -18,6 +18,8 @@ import pytest
 from django.core.cache import cache
 from rest_framework.test import APIClient
 
+from tests.processes import production_env
+
 ROOT = Path(__file__).resolve().parents[2]
 REDIS_URL = os.environ.get("REDIS_URL", "")
 
@@ -32,17 +34,7 @@ REDIS_CACHE = {
 
 def _production_process(code: str) -> str:
     """Run ``code`` in a fresh process on the production settings with REDIS_URL set."""
-    env = {
-        key: value
-        for key, value in os.environ.items()
-        if key not in {"DJANGO_SETTINGS_MODULE", "DEBUG", "DATABASE_URL"}
-    }
-    env.update(
-        DJANGO_SETTINGS_MODULE="config.settings",
-        SECRET_KEY="throwaway-key-for-the-redis-cache-test-" + "x" * 30,
-        REDIS_URL=REDIS_URL,
-        EMAIL_HOST="smtp.example.com",
-    )
+    env = production_env(REDIS_URL=REDIS_URL)
     setup = "import django; django.setup(); from django.core.cache import cache; "
     result = subprocess.run(
         [sys.executable, "-c", setup + code],
