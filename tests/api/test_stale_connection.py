@@ -25,7 +25,7 @@ from tests.factories import SiteFactory, UserFactory
 from tests.processes import production_env
 
 pytestmark = [
-    pytest.mark.django_db(transaction=True),
+    pytest.mark.django_db(transaction=True, serialized_rollback=True),
     pytest.mark.skipif(
         connection.vendor != "postgresql",
         reason="a second process needs the test database on a server, and only PostgreSQL "
