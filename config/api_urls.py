@@ -33,6 +33,11 @@ urlpatterns = [
         name="refrigerant-saturation",
     ),
     path(
+        "refrigerants/<str:designation>/saturation-table/",
+        diagnostics_views.SaturationTableView.as_view(),
+        name="refrigerant-saturation-table",
+    ),
+    path(
         "units/<id:unit_pk>/diagnosis/",
         diagnostics_views.UnitDiagnosisView.as_view(),
         name="unit-diagnosis",

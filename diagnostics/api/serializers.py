@@ -389,3 +389,43 @@ class SaturationSerializer(serializers.Serializer):
     bubble_pressure = serializers.FloatField(required=False, help_text="Gauge, at elevation_m.")
     glide = serializers.FloatField(help_text="Dew minus bubble temperature, a difference.")
     units = ResponseUnitsSerializer()
+
+
+class TableGridSerializer(serializers.Serializer):
+    """One grid: ``values`` at nodes spaced evenly from ``first`` to ``last`` inclusive."""
+
+    first = serializers.FloatField(help_text="The first node's input (C, or ln of kPa absolute).")
+    last = serializers.FloatField(help_text="The last node's input, in the same unit.")
+    values = serializers.ListField(
+        child=serializers.FloatField(),
+        help_text="The output at each node (ln of kPa absolute, or C), first to last.",
+    )
+
+
+class TableCurveSerializer(serializers.Serializer):
+    ln_p_of_temp = TableGridSerializer(
+        help_text="ln of the pressure (kPa absolute) against the temperature (C)."
+    )
+    temp_of_ln_p = TableGridSerializer(
+        help_text="The temperature (C) against ln of the pressure (kPa absolute)."
+    )
+
+
+class TableCurvesSerializer(serializers.Serializer):
+    bubble = TableCurveSerializer()
+    dew = TableCurveSerializer()
+
+
+class SaturationTableSerializer(serializers.Serializer):
+    """A refrigerant's saturation table, node for node as the server reads it (SI)."""
+
+    refrigerant = serializers.CharField()
+    kind = serializers.ChoiceField(choices=["pure", "azeotrope", "zeotrope"])
+    version = serializers.CharField(
+        help_text="Names the content: the same version holds the same nodes (also the ETag)."
+    )
+    min_temp_c = serializers.FloatField()
+    max_temp_c = serializers.FloatField()
+    critical_temp_c = serializers.FloatField()
+    critical_pressure_kpa_abs = serializers.FloatField()
+    curves = TableCurvesSerializer()

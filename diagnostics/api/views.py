@@ -1,4 +1,5 @@
-"""Diagnostic endpoints: saturation points, a unit's latest diagnosis, trends and flags.
+"""Diagnostic endpoints: saturation points and tables, a unit's latest diagnosis, trends
+and flags.
 
 Views read stored results; the only computation reached from here is the saturation
 lookup, which the core does.
@@ -12,7 +13,7 @@ from django.db.models import QuerySet
 from django.shortcuts import get_object_or_404
 from drf_spectacular.types import OpenApiTypes
 from drf_spectacular.utils import OpenApiParameter, extend_schema
-from rest_framework import serializers
+from rest_framework import serializers, status
 from rest_framework.exceptions import NotFound, ValidationError
 from rest_framework.request import Request
 from rest_framework.response import Response
@@ -24,9 +25,10 @@ from diagnostics.api.serializers import (
     FlagSerializer,
     SaturationQuerySerializer,
     SaturationSerializer,
+    SaturationTableSerializer,
     TrendsSerializer,
 )
-from diagnostics.core.refrigerants import UnknownRefrigerant
+from diagnostics.core.refrigerants import UnknownRefrigerant, normalise_designation
 from diagnostics.models import Diagnosis, Flag
 from fleet.api.permissions import HasRole
 from fleet.api.serializers_.fields import StoredTimeField
@@ -199,6 +201,32 @@ class SaturationView(UnitSystemMixin, APIView):
             raise ValidationError({exc.field: [str(exc)]}) from exc
         data["units"] = units
         return Response(data)
+
+
+class SaturationTableView(APIView):
+    """The refrigerant's saturation table, node for node, so a phone reads offline exactly
+    what the server reads. The answer only changes with the table's ``version``, which is
+    its ETag: a phone that sends it back in ``If-None-Match`` is answered 304."""
+
+    permission_classes = [HasRole]
+    #: How long a phone may use its copy without asking again (it revalidates after).
+    max_age_s = 86_400
+
+    @extend_schema(
+        parameters=[OpenApiParameter("designation", OpenApiTypes.STR, OpenApiParameter.PATH)],
+        responses={200: SaturationTableSerializer, 304: None},
+    )
+    def get(self, request: Request, designation: str) -> Response:
+        try:
+            data = sat.saturation_table(normalise_designation(designation))
+        except UnknownRefrigerant as exc:
+            raise NotFound({"designation": [str(exc)]}) from exc
+        etag = f'"{data["version"]}"'
+        headers = {"ETag": etag, "Cache-Control": f"private, max-age={self.max_age_s}"}
+        asked = request.headers.get("If-None-Match", "")
+        if etag in (tag.strip() for tag in asked.split(",")) or asked.strip() == "*":
+            return Response(status=status.HTTP_304_NOT_MODIFIED, headers=headers)
+        return Response(data, headers=headers)
 
 
 def _shown(value: float, quantity: Quantity, units: dict[str, str]) -> float:
