@@ -43,6 +43,11 @@ urlpatterns = [
         name="unit-diagnosis",
     ),
     path(
+        "units/<id:unit_pk>/targets/",
+        diagnostics_views.UnitTargetsView.as_view(),
+        name="unit-targets",
+    ),
+    path(
         "units/<id:unit_pk>/trends/",
         diagnostics_views.UnitTrendsView.as_view(),
         name="unit-trends",

@@ -1,5 +1,5 @@
-"""Diagnostic endpoints: saturation points and tables, a unit's latest diagnosis, trends
-and flags.
+"""Diagnostic endpoints: saturation points and tables, a unit's latest diagnosis, resolved
+targets, trends and flags.
 
 Views read stored results; the only computation reached from here is the saturation
 lookup, which the core does.
@@ -20,6 +20,7 @@ from rest_framework.response import Response
 from rest_framework.views import APIView
 
 from diagnostics import lookups as sat
+from diagnostics import services
 from diagnostics.api.serializers import (
     DiagnosisSerializer,
     FlagSerializer,
@@ -27,6 +28,7 @@ from diagnostics.api.serializers import (
     SaturationSerializer,
     SaturationTableSerializer,
     TrendsSerializer,
+    UnitTargetsSerializer,
 )
 from diagnostics.core.refrigerants import UnknownRefrigerant, normalise_designation
 from diagnostics.models import Diagnosis, Flag
@@ -99,6 +101,21 @@ class UnitDiagnosisView(_UnitView):
                 "diagnosis": DiagnosisSerializer(diagnosis, context=context).data,
             }
         )
+
+
+class UnitTargetsView(_UnitView):
+    """What the core resolved for the unit (targets with their ranges and origins, limits,
+    nameplate, how each metric is judged), in SI, for a phone that judges readings as
+    they are typed. The same reach as the unit's diagnosis."""
+
+    @extend_schema(parameters=[UNIT_PK], responses={200: UnitTargetsSerializer})
+    def get(self, request: Request, unit_pk: int) -> Response:
+        qs: QuerySet[Unit] = Unit.objects.visible_to(self.request.user).select_related(
+            "site", "refrigerant"
+        )
+        data = services.unit_targets(get_object_or_404(qs, pk=unit_pk))
+        data["refrigerant"]["glide_k"] = sat.atmospheric_glide_k(data["refrigerant"]["designation"])
+        return Response(data)
 
 
 class UnitTrendsView(_UnitView):
