@@ -31,7 +31,12 @@ from diagnostics.services import unit_design
 from tests.api.conftest import token_client
 from tests.factories import SiteFactory, UnitFactory, UserFactory, refrigerant
 
-pytestmark = [pytest.mark.browser, pytest.mark.django_db]
+# Transactional, as the other browser tests: ORM calls made while Playwright's loop runs
+# may use a connection outside a test transaction, so the tables are emptied afterwards.
+pytestmark = [
+    pytest.mark.browser,
+    pytest.mark.django_db(transaction=True, serialized_rollback=True),
+]
 
 LIVE_JS = Path(__file__).resolve().parents[2] / "field" / "static" / "field" / "live.js"
 ORIGIN = "https://field.test"
