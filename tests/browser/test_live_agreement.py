@@ -373,6 +373,9 @@ def test_the_units_and_the_electrical_helpers(browser_context):
     assert _call(page, "toDisplay", 5.0, "temperature_difference", "F_psig") == pytest.approx(9.0)
     assert _call(page, "fromDisplay", 9.0, "temperature_difference", "F_psig") == pytest.approx(5.0)
     assert _call(page, "toDisplay", None, "temperature", "C_kPa") is None
+    # "us" and "si" as the API's ?units= names them
+    assert _call(page, "toDisplay", 100.0, "pressure", "us") == pytest.approx(14.50377, abs=1e-5)
+    assert _call(page, "toDisplay", 5.0, "temperature_difference", "si") == pytest.approx(5.0)
     assert _call(page, "toDisplay", 1.0, "mass", "F_psig") == pytest.approx(2.204623, abs=1e-6)
     # C = A / (2 pi f V): 5 A at 370 V, 60 Hz is 35.85 uF; the trade's 2652 x A / V (common
     # practice) gives 35.84
@@ -387,6 +390,12 @@ def test_the_units_and_the_electrical_helpers(browser_context):
         unbalance_pct([228, 231, 222])
     )
     assert _call(page, "voltageUnbalancePercent", [230, 231]) is None
+    caution = page.evaluate(
+        'async () => (await import("/static/field/live.js")).ELECTRICAL_CAUTION'
+    )
+    assert "lock out" in caution
+    assert "discharge a capacitor" in caution
+    assert "Local codes and licensed practice come first" in caution
     amps = _call(page, "ampsAgainstRating", [9.0, 11.5, 10.2], 10.0, 60.0)
     assert amps == {
         "highest_a": 11.5,
