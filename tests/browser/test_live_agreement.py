@@ -63,9 +63,35 @@ class Case:
     unit: dict = field(default_factory=dict)
     running: bool | None = True
     stopped_gauges: bool = False
+    #: More of the reading (a defrost).
+    extra: dict = field(default_factory=dict)
 
 
 CASES = [
+    Case(
+        "R-404A with a water-cooled condenser: no split, no condensing target",
+        "R-404A",
+        0.0,
+        -3.5,
+        35.0,
+        2.0,
+        25.0,
+        5.0,
+        2.0,
+        unit={"condenser_type": "water"},
+    ),
+    Case(
+        "R-448A in defrost: neither the box nor the cycle is judged",
+        "R-448A",
+        1600.0,
+        -2.0,
+        33.0,
+        9.0,
+        20.0,
+        6.0,
+        2.0,
+        extra={"in_defrost": True},
+    ),
     Case("R-404A cooler, sea level, on target", "R-404A", 0.0, -3.5, 36.0, 2.0, 25.0, 4.5, 1.5),
     Case(
         "R-404A freezer at 1,600 m, superheat high",
@@ -214,6 +240,7 @@ def _reading(case: Case, basis: str) -> dict[str, float | bool | None]:
         "head_kpa_gauge": head,
         "liquid_line_temp_c": bubble - case.subcooling_k,
         "compressor_running": case.running,
+        **case.extra,
     }
 
 
