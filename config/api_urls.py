@@ -33,9 +33,19 @@ urlpatterns = [
         name="refrigerant-saturation",
     ),
     path(
+        "refrigerants/<str:designation>/saturation-table/",
+        diagnostics_views.SaturationTableView.as_view(),
+        name="refrigerant-saturation-table",
+    ),
+    path(
         "units/<id:unit_pk>/diagnosis/",
         diagnostics_views.UnitDiagnosisView.as_view(),
         name="unit-diagnosis",
+    ),
+    path(
+        "units/<id:unit_pk>/targets/",
+        diagnostics_views.UnitTargetsView.as_view(),
+        name="unit-targets",
     ),
     path(
         "units/<id:unit_pk>/trends/",

@@ -102,3 +102,43 @@ def atmospheric_glide_k(designation: str) -> float | None:
         # A table that cannot be built must not take the refrigerant list down with it.
         log.exception("no saturation table for %s", designation)
         return None
+
+
+#: The layout of ``saturation_table``'s answer; bumped when it changes, so a phone's kept
+#: copy is fetched again.
+TABLE_WIRE_FORMAT = 1
+#: The two grids of each curve: their wire name, and what their nodes are spaced in.
+_GRIDS: tuple[tuple[str, saturation.Quantity], ...] = (
+    ("ln_p_of_temp", "temperature"),
+    ("temp_of_ln_p", "pressure"),
+)
+
+
+@functools.lru_cache(maxsize=64)
+def saturation_table(designation: str) -> dict[str, object]:
+    """A refrigerant's saturation table as the server reads it, node for node, for a client
+    that must read the same values offline (docs/api.md says how to interpolate it).
+
+    ``version`` names the content (``saturation.table_version`` and ``TABLE_WIRE_FORMAT``):
+    it changes only when the nodes or the layout do. Remembered per process (tables are
+    fixed), so it must not be changed by a caller. Raises UnknownRefrigerant.
+    """
+    refrigerant = refrigerants.get(designation)
+    table = saturation.table(refrigerant.designation)
+    curves: dict[str, dict[str, dict[str, object]]] = {}
+    for curve in saturation.CURVES:
+        grids: dict[str, dict[str, object]] = {}
+        for key, given in _GRIDS:
+            first, last, values = table.grid(curve, given)
+            grids[key] = {"first": first, "last": last, "values": values}
+        curves[curve] = grids
+    return {
+        "refrigerant": refrigerant.designation,
+        "kind": refrigerant.kind.value,
+        "version": f"{saturation.table_version(refrigerant)}.wire-{TABLE_WIRE_FORMAT}",
+        "min_temp_c": table.min_temp_c,
+        "max_temp_c": table.max_temp_c,
+        "critical_temp_c": table.critical_temp_c,
+        "critical_pressure_kpa_abs": table.critical_pressure_kpa_abs,
+        "curves": curves,
+    }

@@ -18,8 +18,11 @@ from django.db import connection, transaction
 from django.db.models import QuerySet
 from django.utils import timezone
 
-from diagnostics.core import appliance_leaks, flags, leaks, plausibility, start_history
+from diagnostics.core import appliance_leaks, flags, leaks, plausibility, scoring, start_history
+from diagnostics.core import batch as core_batch
+from diagnostics.core import design as core_design
 from diagnostics.core import diagnose as core_diagnose
+from diagnostics.core import targets as core_targets
 from diagnostics.core.types import (
     APPLICATIONS,
     CONDENSER_TYPES,
@@ -510,3 +513,131 @@ def refresh_flags(
         cleared=len(to_clear),
         skipped=tuple(skipped),
     )
+
+
+# --- what the core resolved for one unit, for a client judging readings itself ----------
+
+
+def _number(x: float) -> float | None:
+    """A finite value as a float; NaN (missing) as None."""
+    return float(x) if np.isfinite(x) else None
+
+
+def _edge(offset: float | None) -> float | str | None:
+    """A scoring rule's edge on the wire: a number, ``"range"`` where the target brings
+    the edge itself, or None for a side that is never judged (an infinite one)."""
+    if offset is None:
+        return "range"
+    return None if np.isinf(offset) else float(offset)
+
+
+def _judgement() -> dict[str, Any]:
+    """How a metric's status is judged (``scoring.SCORING_TABLE`` and the instruments'
+    margin), as data."""
+    rules = {
+        name: {
+            "ok_low": _edge(rule.ok_low),
+            "ok_high": _edge(rule.ok_high),
+            "fault_low": None if np.isinf(rule.fault_low) else rule.fault_low,
+            "fault_high": None if np.isinf(rule.fault_high) else rule.fault_high,
+            "relative": rule.relative,
+            "margin_from": rule.margin_from,
+            "watch_points": rule.watch_points,
+            "fault_points": rule.fault_points,
+            "source": rule.source,
+        }
+        for name, rule in scoring.SCORING_TABLE.items()
+    }
+    return {
+        "instruments": {
+            "thermometer_k": scoring.THERMOMETER_K,
+            "gauge_kpa": scoring.GAUGE_KPA,
+            "slope_step_kpa": core_batch.SLOPE_STEP_KPA,
+        },
+        "metrics": rules,
+    }
+
+
+def unit_targets(unit: Unit) -> dict[str, Any]:
+    """What the core resolved for ``unit`` (its site and refrigerant at hand), in SI: every
+    design quantity with its ok range and origin, the limits and nameplate it is judged
+    against, and how a metric's status is judged. Enough for a client to work out the
+    targets and statuses of a reading as the stored diagnosis will. Reads the unit's
+    components (one query) for the capacitors fitted now."""
+    design_ = unit_design(unit)
+    columns, resolved = core_design.columns_and_targets((design_,))
+    by_name = resolved.unit(0)
+    targets = {name: dataclasses.asdict(target) for name, target in by_name.items()}
+    control = HEAD_PRESSURE_CONTROLS[int(columns.control_code[0])]
+    metering = METERING_DEVICES[int(columns.metering_code[0])]
+    receiver = _number(resolved.has_receiver[0])
+    refrigerant = unit.refrigerant
+    site = unit.site
+
+    def rating(rated: float, low: float, high: float) -> dict[str, float | None] | None:
+        if not np.isfinite(low):
+            return None
+        return {"rated_uf": _number(rated), "low_uf": _number(low), "high_uf": _number(high)}
+
+    return {
+        "unit": unit.pk,
+        "tag": unit.tag,
+        "application": design_.application,
+        "algorithm_version": core_diagnose.ALGORITHM_VERSION,
+        "refrigerant": {
+            "designation": refrigerant.designation,
+            "kind": refrigerant.kind,
+            "safety_class": refrigerant.safety_class,
+            "flammable": refrigerant.flammable,
+        },
+        "site": {
+            "id": site.pk,
+            "name": site.name,
+            "elevation_m": site.elevation_m,
+            "time_zone": site.time_zone,
+        },
+        "design_temperature_basis": design_.temperature_basis,
+        "metering_device": {
+            "value": metering,
+            "origin": "design" if design_.metering_device is not None else "application_default",
+        },
+        "condenser_type": design_.condenser_type,
+        "has_receiver": {
+            "value": None if receiver is None else bool(receiver),
+            "origin": by_name["subcooling_k"].origin,
+        },
+        "head_pressure_control": {
+            "value": control,
+            "origin": "design"
+            if design_.head_pressure_control is not None
+            else "application_default",
+            "held_low_c": by_name["head_setpoint_c"].low,
+            "held_high_c": by_name["head_setpoint_c"].high,
+        },
+        "targets": targets,
+        "limits": {
+            "high_pressure_cutout_kpa_gauge": _number(resolved.cutout_kpa_gauge[0]),
+            "compression_ratio_max": _number(resolved.cr_limit[0]),
+            "compression_ratio_typical_low": _number(resolved.cr_typical_low[0]),
+            "discharge_line_max_c": core_targets.DISCHARGE_LINE_MAX_C.value,
+            "gas_cooler_approach_k": core_targets.GAS_COOLER_APPROACH_K.value,
+        },
+        "electrical": {
+            "nameplate_volts": unit.nameplate_volts,
+            "nameplate_volts_max": unit.nameplate_volts_max,
+            "volts_low": _number(resolved.volts_low[0]),
+            "volts_high": _number(resolved.volts_high[0]),
+            "volts_nominal": _number(resolved.volts_nominal[0]),
+            "phase": unit.phase,
+            "hertz": unit.hertz,
+            "rla_a": unit.rla_a,
+            "lra_a": unit.lra_a,
+            "run_capacitor": rating(
+                resolved.run_cap_uf[0], resolved.run_cap_low[0], resolved.run_cap_high[0]
+            ),
+            "start_capacitor": rating(
+                resolved.start_cap_uf[0], resolved.start_cap_low[0], resolved.start_cap_high[0]
+            ),
+        },
+        "judgement": _judgement(),
+    }

@@ -389,3 +389,174 @@ class SaturationSerializer(serializers.Serializer):
     bubble_pressure = serializers.FloatField(required=False, help_text="Gauge, at elevation_m.")
     glide = serializers.FloatField(help_text="Dew minus bubble temperature, a difference.")
     units = ResponseUnitsSerializer()
+
+
+class TableGridSerializer(serializers.Serializer):
+    """One grid: ``values`` at nodes spaced evenly from ``first`` to ``last`` inclusive."""
+
+    first = serializers.FloatField(help_text="The first node's input (C, or ln of kPa absolute).")
+    last = serializers.FloatField(help_text="The last node's input, in the same unit.")
+    values = serializers.ListField(
+        child=serializers.FloatField(),
+        help_text="The output at each node (ln of kPa absolute, or C), first to last.",
+    )
+
+
+class TableCurveSerializer(serializers.Serializer):
+    ln_p_of_temp = TableGridSerializer(
+        help_text="ln of the pressure (kPa absolute) against the temperature (C)."
+    )
+    temp_of_ln_p = TableGridSerializer(
+        help_text="The temperature (C) against ln of the pressure (kPa absolute)."
+    )
+
+
+class TableCurvesSerializer(serializers.Serializer):
+    bubble = TableCurveSerializer()
+    dew = TableCurveSerializer()
+
+
+class SaturationTableSerializer(serializers.Serializer):
+    """A refrigerant's saturation table, node for node as the server reads it (SI)."""
+
+    refrigerant = serializers.CharField()
+    kind = serializers.ChoiceField(choices=["pure", "azeotrope", "zeotrope"])
+    version = serializers.CharField(
+        help_text="Names the content: the same version holds the same nodes (also the ETag)."
+    )
+    min_temp_c = serializers.FloatField()
+    max_temp_c = serializers.FloatField()
+    critical_temp_c = serializers.FloatField()
+    critical_pressure_kpa_abs = serializers.FloatField()
+    curves = TableCurvesSerializer()
+
+
+class ResolvedTargetSerializer(serializers.Serializer):
+    value = serializers.FloatField(allow_null=True)
+    low = serializers.FloatField(allow_null=True, help_text="The ok range's lower end.")
+    high = serializers.FloatField(allow_null=True, help_text="The ok range's upper end.")
+    origin = serializers.ChoiceField(choices=["design", "application_default", "missing"])
+
+
+class ResolvedTargetsSerializer(serializers.Serializer):
+    box_temp_c = ResolvedTargetSerializer()
+    evap_td_k = ResolvedTargetSerializer()
+    condenser_split_k = ResolvedTargetSerializer()
+    superheat_k = ResolvedTargetSerializer()
+    subcooling_k = ResolvedTargetSerializer()
+    head_setpoint_c = ResolvedTargetSerializer(
+        help_text="The head-pressure control's set point; low and high: the condensing "
+        "temperatures a held head is found between."
+    )
+    run_capacitor_tolerance_pct = ResolvedTargetSerializer()
+
+
+class ChosenSerializer(serializers.Serializer):
+    value = serializers.CharField(allow_null=True)
+    origin = serializers.ChoiceField(choices=["design", "application_default", "missing"])
+
+
+class HeadControlSerializer(ChosenSerializer):
+    held_low_c = serializers.FloatField(allow_null=True)
+    held_high_c = serializers.FloatField(allow_null=True)
+
+
+class ReceiverSerializer(serializers.Serializer):
+    value = serializers.BooleanField(allow_null=True)
+    origin = serializers.ChoiceField(choices=["design", "application_default", "missing"])
+
+
+class TargetsRefrigerantSerializer(serializers.Serializer):
+    designation = serializers.CharField()
+    kind = serializers.CharField()
+    safety_class = serializers.CharField()
+    flammable = serializers.BooleanField()
+    glide_k = serializers.FloatField(
+        allow_null=True, help_text="Dew minus bubble at 101.325 kPa absolute, K."
+    )
+
+
+class TargetsSiteSerializer(serializers.Serializer):
+    id = serializers.IntegerField()
+    name = serializers.CharField()
+    elevation_m = serializers.FloatField()
+    time_zone = serializers.CharField()
+
+
+class CapacitorBandSerializer(serializers.Serializer):
+    rated_uf = serializers.FloatField(allow_null=True)
+    low_uf = serializers.FloatField(allow_null=True)
+    high_uf = serializers.FloatField(allow_null=True)
+
+
+class TargetsElectricalSerializer(serializers.Serializer):
+    nameplate_volts = serializers.FloatField(allow_null=True)
+    nameplate_volts_max = serializers.FloatField(allow_null=True)
+    volts_low = serializers.FloatField(allow_null=True)
+    volts_high = serializers.FloatField(allow_null=True)
+    volts_nominal = serializers.FloatField(allow_null=True)
+    phase = serializers.IntegerField(allow_null=True)
+    hertz = serializers.IntegerField(allow_null=True)
+    rla_a = serializers.FloatField(allow_null=True)
+    lra_a = serializers.FloatField(allow_null=True)
+    run_capacitor = CapacitorBandSerializer(allow_null=True)
+    start_capacitor = CapacitorBandSerializer(allow_null=True)
+
+
+class TargetsLimitsSerializer(serializers.Serializer):
+    high_pressure_cutout_kpa_gauge = serializers.FloatField(allow_null=True)
+    compression_ratio_max = serializers.FloatField(allow_null=True)
+    compression_ratio_typical_low = serializers.FloatField(allow_null=True)
+    discharge_line_max_c = serializers.FloatField()
+    gas_cooler_approach_k = serializers.FloatField()
+
+
+class ScoreRuleSerializer(serializers.Serializer):
+    ok_low = serializers.JSONField(
+        help_text='Offset from the target (a number), "range" (the target\'s own low), or '
+        "null (that side is never judged)."
+    )
+    ok_high = serializers.JSONField(help_text="As ok_low, for the upper edge.")
+    fault_low = serializers.FloatField(
+        allow_null=True, help_text="How far below the ok band turns watch into fault; null: never."
+    )
+    fault_high = serializers.FloatField(allow_null=True)
+    relative = serializers.BooleanField(
+        help_text="Offsets and fault margins are fractions of the target."
+    )
+    margin_from = serializers.ChoiceField(choices=["suction", "head"], allow_null=True)
+    watch_points = serializers.FloatField()
+    fault_points = serializers.FloatField()
+    # named as Field's own ``source``, as TargetSerializer's (DRF's metaclass takes it)
+    source = serializers.CharField()  # type: ignore[assignment]
+
+
+class InstrumentsSerializer(serializers.Serializer):
+    thermometer_k = serializers.FloatField()
+    gauge_kpa = serializers.FloatField()
+    slope_step_kpa = serializers.FloatField()
+
+
+class JudgementSerializer(serializers.Serializer):
+    instruments = InstrumentsSerializer()
+    metrics = serializers.DictField(child=ScoreRuleSerializer())
+
+
+class UnitTargetsSerializer(serializers.Serializer):
+    """What the core resolved for a unit, SI (temperatures C, differences K, kPa gauge)."""
+
+    unit = serializers.IntegerField()
+    tag = serializers.CharField()
+    application = serializers.CharField()
+    algorithm_version = serializers.CharField()
+    refrigerant = TargetsRefrigerantSerializer()
+    site = TargetsSiteSerializer()
+    design_temperature_basis = serializers.ChoiceField(choices=["dew", "mid_point"])
+    metering_device = ChosenSerializer()
+    condenser_type = serializers.CharField()
+    has_receiver = ReceiverSerializer()
+    head_pressure_control = HeadControlSerializer()
+    targets = ResolvedTargetsSerializer()
+    limits = TargetsLimitsSerializer()
+    electrical = TargetsElectricalSerializer()
+    judgement = JudgementSerializer()

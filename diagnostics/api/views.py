@@ -1,4 +1,5 @@
-"""Diagnostic endpoints: saturation points, a unit's latest diagnosis, trends and flags.
+"""Diagnostic endpoints: saturation points and tables, a unit's latest diagnosis, resolved
+targets, trends and flags.
 
 Views read stored results; the only computation reached from here is the saturation
 lookup, which the core does.
@@ -12,21 +13,24 @@ from django.db.models import QuerySet
 from django.shortcuts import get_object_or_404
 from drf_spectacular.types import OpenApiTypes
 from drf_spectacular.utils import OpenApiParameter, extend_schema
-from rest_framework import serializers
+from rest_framework import serializers, status
 from rest_framework.exceptions import NotFound, ValidationError
 from rest_framework.request import Request
 from rest_framework.response import Response
 from rest_framework.views import APIView
 
 from diagnostics import lookups as sat
+from diagnostics import services
 from diagnostics.api.serializers import (
     DiagnosisSerializer,
     FlagSerializer,
     SaturationQuerySerializer,
     SaturationSerializer,
+    SaturationTableSerializer,
     TrendsSerializer,
+    UnitTargetsSerializer,
 )
-from diagnostics.core.refrigerants import UnknownRefrigerant
+from diagnostics.core.refrigerants import UnknownRefrigerant, normalise_designation
 from diagnostics.models import Diagnosis, Flag
 from fleet.api.permissions import HasRole
 from fleet.api.serializers_.fields import StoredTimeField
@@ -97,6 +101,21 @@ class UnitDiagnosisView(_UnitView):
                 "diagnosis": DiagnosisSerializer(diagnosis, context=context).data,
             }
         )
+
+
+class UnitTargetsView(_UnitView):
+    """What the core resolved for the unit (targets with their ranges and origins, limits,
+    nameplate, how each metric is judged), in SI, for a phone that judges readings as
+    they are typed. The same reach as the unit's diagnosis."""
+
+    @extend_schema(parameters=[UNIT_PK], responses={200: UnitTargetsSerializer})
+    def get(self, request: Request, unit_pk: int) -> Response:
+        qs: QuerySet[Unit] = Unit.objects.visible_to(self.request.user).select_related(
+            "site", "refrigerant"
+        )
+        data = services.unit_targets(get_object_or_404(qs, pk=unit_pk))
+        data["refrigerant"]["glide_k"] = sat.atmospheric_glide_k(data["refrigerant"]["designation"])
+        return Response(data)
 
 
 class UnitTrendsView(_UnitView):
@@ -199,6 +218,32 @@ class SaturationView(UnitSystemMixin, APIView):
             raise ValidationError({exc.field: [str(exc)]}) from exc
         data["units"] = units
         return Response(data)
+
+
+class SaturationTableView(APIView):
+    """The refrigerant's saturation table, node for node, so a phone reads offline exactly
+    what the server reads. The answer only changes with the table's ``version``, which is
+    its ETag: a phone that sends it back in ``If-None-Match`` is answered 304."""
+
+    permission_classes = [HasRole]
+    #: How long a phone may use its copy without asking again (it revalidates after).
+    max_age_s = 86_400
+
+    @extend_schema(
+        parameters=[OpenApiParameter("designation", OpenApiTypes.STR, OpenApiParameter.PATH)],
+        responses={200: SaturationTableSerializer, 304: None},
+    )
+    def get(self, request: Request, designation: str) -> Response:
+        try:
+            data = sat.saturation_table(normalise_designation(designation))
+        except UnknownRefrigerant as exc:
+            raise NotFound({"designation": [str(exc)]}) from exc
+        etag = f'"{data["version"]}"'
+        headers = {"ETag": etag, "Cache-Control": f"private, max-age={self.max_age_s}"}
+        asked = request.headers.get("If-None-Match", "")
+        if etag in (tag.strip() for tag in asked.split(",")) or asked.strip() == "*":
+            return Response(status=status.HTTP_304_NOT_MODIFIED, headers=headers)
+        return Response(data, headers=headers)
 
 
 def _shown(value: float, quantity: Quantity, units: dict[str, str]) -> float:

@@ -107,7 +107,7 @@ def _atmosphere_kpa(elevation_m: ArrayLike, n: int) -> FloatArray:
 
 
 #: Pressure step for the slope of a saturation curve at a reading, kPa.
-_SLOPE_STEP_KPA = 1.0
+SLOPE_STEP_KPA = 1.0
 
 #: Up to this many designs, a batch's unit columns and targets are kept for the next call.
 _FEW_UNITS = 4
@@ -170,12 +170,12 @@ def _saturation(
         evap_bub[sel] = tg.bubble_temp_c(curve, p_s[sel])
         cond_dew[sel] = tg.dew_temp_c(curve, p_h[sel])
         cond_bub[sel] = tg.bubble_temp_c(curve, p_h[sel])
-        slope_s[sel] = (tg.dew_temp_c(curve, p_s[sel] + _SLOPE_STEP_KPA) - evap_dew[sel]) / (
-            _SLOPE_STEP_KPA
+        slope_s[sel] = (tg.dew_temp_c(curve, p_s[sel] + SLOPE_STEP_KPA) - evap_dew[sel]) / (
+            SLOPE_STEP_KPA
         )
         slope_h[sel] = (
-            tg.bubble_temp_c(curve, p_h[sel] + _SLOPE_STEP_KPA) - cond_bub[sel]
-        ) / _SLOPE_STEP_KPA
+            tg.bubble_temp_c(curve, p_h[sel] + SLOPE_STEP_KPA) - cond_bub[sel]
+        ) / SLOPE_STEP_KPA
         p_crit[sel] = float(curve.critical_pressure_kpa_abs)
         # target and both band edges in one lookup per side, on each unit's basis
         p_evap[:, sel] = tg.basis_pressure_kpa_abs(curve, t_evap[:, sel], t.basis_mid[sel])

@@ -131,6 +131,12 @@ CASES = [
         READ_FLEET,
     ),
     Case(
+        "unit targets",
+        "get",
+        lambda w, s: f"{V1}/units/{_side(w, s, 'unit').pk}/targets/",
+        READ_FLEET,
+    ),
+    Case(
         "unit flags", "get", lambda w, s: f"{V1}/units/{_side(w, s, 'unit').pk}/flags/", READ_FLEET
     ),
     Case("list components", "get", lambda w, s: f"{V1}/components/", READ_ALL),
@@ -159,6 +165,12 @@ CASES = [
         "saturation",
         "get",
         lambda w, s: f"{V1}/refrigerants/R-134a/saturation/?pressure=100&pressure_unit=kPa_abs",
+        READ_ALL,
+    ),
+    Case(
+        "saturation table",
+        "get",
+        lambda w, s: f"{V1}/refrigerants/R-448A/saturation-table/",
         READ_ALL,
     ),
     Case(

@@ -74,6 +74,7 @@ __all__ = [
     "coolprop_temp_c",
     "default_cache_dir",
     "table",
+    "table_version",
 ]
 
 logger = logging.getLogger(__name__)
@@ -91,12 +92,19 @@ def default_cache_dir() -> Path:
         return Path("var") / "cache"
 
 
-def cache_path(refrigerant: Refrigerant, cache_dir: str | os.PathLike[str] | None = None) -> Path:
-    """Where the table of ``refrigerant`` is kept on disk."""
+def table_version(refrigerant: Refrigerant) -> str:
+    """What a table's content depends on, as one name: the refrigerant, the CoolProp version,
+    ``TABLE_FORMAT`` and a digest of how the refrigerant is modelled. Two tables with the
+    same version hold the same nodes (the disk cache and the phones' copies key on it)."""
     spec = table_spec(refrigerant)
     digest = hashlib.sha256(json.dumps(spec, sort_keys=True).encode()).hexdigest()[:12]
     slug = "".join(ch for ch in refrigerant.designation if ch.isalnum() or ch == "-")
-    name = f"{slug}.coolprop-{CoolProp.__version__}.format-{TABLE_FORMAT}.{digest}.npz"
+    return f"{slug}.coolprop-{CoolProp.__version__}.format-{TABLE_FORMAT}.{digest}"
+
+
+def cache_path(refrigerant: Refrigerant, cache_dir: str | os.PathLike[str] | None = None) -> Path:
+    """Where the table of ``refrigerant`` is kept on disk."""
+    name = f"{table_version(refrigerant)}.npz"
     return Path(cache_dir if cache_dir is not None else default_cache_dir()) / "saturation" / name
 
 

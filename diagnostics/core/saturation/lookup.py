@@ -247,6 +247,15 @@ class SaturationTable:
         """Memory held by the table's arrays."""
         return sum(c.nbytes for c in (*self._lnp_of_t.values(), *self._t_of_lnp.values()))
 
+    def grid(self, curve: Curve, given: Quantity) -> tuple[float, float, list[float]]:
+        """One curve's grid exactly as lookups read it: the first and last input node (a
+        temperature in C, or ln of kPa absolute for ``given == "pressure"``) and the output
+        at every node, evenly spaced between them (ln kPa absolute, or C). A client that
+        interpolates these linearly, finding its interval as ``_Uniform.at`` does, reads
+        the same values as the server."""
+        uniform = self._t_of_lnp[curve] if given == "pressure" else self._lnp_of_t[curve]
+        return uniform.x_first, uniform.x_last, list(uniform.y_list)
+
     def nodes(self, curve: Curve) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray]:
         """The grids as stored: (temps_c, ln p at them, ln p nodes, temps_c at them)."""
         lnp_of_t, t_of_lnp = self._lnp_of_t[curve], self._t_of_lnp[curve]
