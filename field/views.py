@@ -25,6 +25,8 @@ MODULES = (
     "api.js",
     "data.js",
     "dom.js",
+    "live.js",
+    "live_panel.js",
     "outbox.js",
     "screens.js",
     "store.js",

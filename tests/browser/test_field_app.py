@@ -63,7 +63,7 @@ def sign_in(page, base: str) -> None:
     page.get_by_role("heading", name="Your visits").wait_for()
 
 
-def enter_readings(page, suction: str, head: str, stage: str = "as_found") -> None:
+def enter_readings(page, suction: str, head: str, stage: str = "as_found", look=None) -> None:
     form = page.locator("form.reading-form")
     form.get_by_label("Stage").select_option(stage)
     form.get_by_label(re.compile("^Box air")).fill("38")
@@ -74,6 +74,8 @@ def enter_readings(page, suction: str, head: str, stage: str = "as_found") -> No
     form.get_by_label(re.compile("^Liquid line")).fill("101")
     form.get_by_label("Leg 1").fill("9.1")
     form.get_by_label("Pair 1").fill("231")
+    if look:
+        look(form)
     form.get_by_role("button", name="Save the readings").click()
     page.get_by_text(re.compile("Readings saved on the phone")).wait_for()
 
@@ -99,7 +101,17 @@ def test_a_visit_run_from_the_phone_online_and_off(live_server, browser_context,
     page.get_by_role("heading", name="Before climbing").wait_for()
     page.get_by_role("group", name="Evaporator fans running?").get_by_label("Yes", exact=True).check()
     page.get_by_role("group", name="Ice on the evaporator coil?").get_by_label("No", exact=True).check()
-    enter_readings(page, "52", "265")
+    def live_numbers_shown(form) -> None:
+        live = form.get_by_role("region", name="Live numbers")
+        live.locator("[data-metric=superheat]").wait_for()
+        text = live.inner_text()
+        assert "Suction saturation: dew" in text  # R-404A glides: dew and bubble
+        assert re.search(r"Superheat: \d+\.\d °F", text)
+        assert re.search(r"Evaporating target: .* gauge \d+\.\d psig", text)
+        assert "TXV: superheat" in text
+        shot(page, "field-live")
+
+    enter_readings(page, "52", "265", look=live_numbers_shown)
     wait_until(lambda: ReadingSet.objects.filter(visit_unit__visit=visit).count() == 1)
     page.locator("#history").get_by_text(re.compile("Score")).wait_for()
     first = ReadingSet.objects.get(visit_unit__visit=visit)

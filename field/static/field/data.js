@@ -46,8 +46,26 @@ export async function visit(id) {
     Promise.all(record.units.map((u) => get(`units/${u}/?${query()}`).catch(() => ({ id: u, tag: `unit ${u}` })))),
   ]);
   const refrigerants = await refrigerantsOf(units);
-  await kvSet(`visit:${id}`, { status: record.status });
+  keepForLater(units);
   return { record, site, units, refrigerants };
+}
+
+/* Ask once, with signal, for everything the unit screens read, so the service worker
+   holds it for a roof with none. */
+function keepForLater(units) {
+  if (!navigator.onLine) return;
+  for (const unit of units) {
+    unitDetails(unit.id);
+    liveInputs(unit).catch(() => null);
+  }
+}
+
+/* What live.js needs for a unit: its resolved targets and its refrigerant's table. */
+export async function liveInputs(unit) {
+  const targets = await get(`units/${unit.id}/targets/`);
+  const designation = targets.refrigerant.designation;
+  const table = await get(`refrigerants/${encodeURIComponent(designation)}/saturation-table/`);
+  return { targets, tables: { [designation]: table } };
 }
 
 async function refrigerantsOf(units) {

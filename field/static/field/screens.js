@@ -130,12 +130,12 @@ export async function outboxScreen() {
 }
 
 export async function settingsScreen(user) {
-  const choices = Object.entries(SYSTEMS).map(([name, s]) =>
+  const choices = Object.entries(SYSTEMS).map(([name, text]) =>
     h(
       "label",
       { class: "choice" },
       h("input", { type: "radio", name: "units", value: name, checked: system() === name, onchange: () => setSystem(name) }),
-      ` ${s.label}`,
+      ` ${text}`,
     ),
   );
   const unsent = (await pending()).length;

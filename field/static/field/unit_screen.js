@@ -1,9 +1,10 @@
 /* At the unit: what it is, how it was last judged, the checks before climbing, and the
    forms that record what was measured and done (each saved to the outbox first). */
 import { ApiError } from "./api.js";
-import { checklist, keepChecklist, readingSets, unitDetails, visit as loadVisit } from "./data.js";
+import { checklist, keepChecklist, liveInputs, readingSets, unitDetails, visit as loadVisit } from "./data.js";
 import { badge, caution, field, fmt, h, show, whenSent } from "./dom.js";
 import { discard, enqueue, newClientId, pending } from "./outbox.js";
+import { capacitorCheck, electricalLines, livePanel, readingsSi } from "./live_panel.js";
 import { kvGet, kvSet } from "./store.js";
 import { label, shown, wireUnits } from "./units.js";
 
@@ -58,7 +59,7 @@ function nameplate(unit, refrigerant, components) {
       ["Design box", quantity(unit.design_box_temp, u.temperature)],
       ["Evaporator TD", `${quantity(unit.design_evap_td, dt)} (on the ${word(unit.design_temperature_basis)})`],
       ["Condenser split", `${quantity(unit.design_condenser_split, dt)} (on the ${word(unit.design_temperature_basis)})`],
-      ["Superheat band", unit.superheat_min === null && unit.superheat_max === null ? "Application default" : `${fmt(unit.superheat_min)}–${fmt(unit.superheat_max)} ${dt}`],
+      ["Superheat band", unit.superheat_min === null && unit.superheat_max === null ? "Application default" : `${quantity(unit.superheat_min, dt)} to ${quantity(unit.superheat_max, dt)}`],
       ["Electrical", `${unit.nameplate_volts ?? "?"}${unit.nameplate_volts_max ? `–${unit.nameplate_volts_max}` : ""} V, ${unit.phase ?? "?"} phase, ${unit.hertz ?? "?"} Hz`],
       ["RLA / LRA", `${unit.rla_a ?? "—"} A / ${unit.lra_a ?? "—"} A`],
       ...caps.map(capacitorText),
@@ -171,7 +172,7 @@ function num(input) {
   return text === "" ? null : Number(text);
 }
 
-function readingForm(visitId, unit, answers, prior, saved) {
+function readingForm(visitId, unit, answers, prior, saved, live) {
   const body = prior ? prior.body : {};
   const inputs = {};
   const stage = h(
@@ -197,11 +198,22 @@ function readingForm(visitId, unit, answers, prior, saved) {
   const notes = h("textarea", { name: "notes", rows: 3, maxlength: 2000 }, (body.notes || "").replace(ADJUSTING_NOTE, "").trim());
   const message = h("p", { class: "problem", role: "alert" });
 
-  async function save(event) {
-    event.preventDefault();
+  const legs = (list) => list.map(num).filter((v) => v !== null);
+  const collect = () => {
     const values = {};
     for (const [name, input] of Object.entries(inputs)) values[name] = num(input);
-    const legs = (list) => list.map(num).filter((v) => v !== null);
+    return values;
+  };
+  const panel = live ? livePanel(live, unit.metering_device === "txv") : null;
+  const electrical = h("ul", { class: "metrics", "aria-live": "polite" });
+  const recompute = () => {
+    if (panel) panel.update(readingsSi(collect(), compressorRunning, defrost));
+    electrical.replaceChildren(...electricalLines(live && live.targets, legs(amps), legs(volts)));
+  };
+
+  async function save(event) {
+    event.preventDefault();
+    const values = collect();
     const typed = Object.values(values).some((v) => v !== null) || legs(amps).length || legs(volts).length;
     if (!typed) {
       message.textContent = "✕ Type at least one measurement.";
@@ -240,14 +252,16 @@ function readingForm(visitId, unit, answers, prior, saved) {
     saved(record);
   }
 
-  return h(
+  const form = h(
     "form",
-    { class: "card reading-form", onsubmit: save },
+    { class: "card reading-form", onsubmit: save, oninput: recompute, onchange: recompute },
     h("h2", {}, prior ? "Correct the readings" : "Gauges and thermometers"),
     field("Stage", stage),
     h("div", { class: "grid" }, measured),
+    panel ? panel.panel : h("p", { class: "hint" }, "Live numbers need the unit's targets, which the phone fetches with signal."),
     h("fieldset", { class: "legs" }, h("legend", {}, "Compressor amps, one per leg (A)"), amps.map((a, i) => field(`Leg ${i + 1}`, a))),
     h("fieldset", { class: "legs" }, h("legend", {}, "Supply volts, line to line (V)"), volts.map((v, i) => field(`Pair ${i + 1}`, v))),
+    electrical,
     h("div", { class: "grid" }, field("Run capacitor measured (µF)", inputs.run_capacitor_uf), field("Start capacitor measured (µF)", inputs.start_capacitor_uf)),
     compressor,
     defrostSet,
@@ -256,6 +270,8 @@ function readingForm(visitId, unit, answers, prior, saved) {
     message,
     h("button", { class: "button button--primary", type: "submit" }, "Save the readings"),
   );
+  recompute();
+  return form;
 }
 
 function readingHistory(sets) {
@@ -271,7 +287,7 @@ function readingHistory(sets) {
         "li",
         { class: "card" },
         h("p", {}, badge(s.state === "sent" ? "sent" : s.state), ` ${stage} · ${new Date(s.taken_at).toLocaleTimeString(undefined, { hour: "2-digit", minute: "2-digit" })}`),
-        s.diagnosis ? h("p", {}, `Score ${s.diagnosis.score ?? "not scored"}`, superheat && superheat.measured !== null ? ` · superheat ${fmt(superheat.measured)} ${superheat.unit}` : "") : h("p", { class: "muted" }, "The diagnosis appears when the office's server has the readings."),
+        s.diagnosis ? h("p", {}, `Score ${s.diagnosis.score ?? "not scored"}`, superheat && superheat.measured !== null ? ` · superheat ${fmt(shown(superheat.measured, superheat.unit).value)} ${shown(superheat.measured, superheat.unit).unit}` : "") : h("p", { class: "muted" }, "The diagnosis appears when the office's server has the readings."),
       );
     }),
   );
@@ -375,7 +391,12 @@ export async function unitScreen(visitId, unitId, correcting) {
   const unit = loaded.units.find((u) => u.id === unitId);
   if (!unit) return show(h("p", { class: "problem" }, "This unit is not on the visit."), h("a", { class: "button", href: `#/visit/${visitId}` }, "Back to the visit"));
   const refrigerant = loaded.refrigerants.get(unit.refrigerant);
-  const [details, answers, sets] = await Promise.all([unitDetails(unitId), checklist(visitId, unitId), readingSets(visitId)]);
+  const [details, answers, sets, live] = await Promise.all([
+    unitDetails(unitId),
+    checklist(visitId, unitId),
+    readingSets(visitId),
+    liveInputs(unit).catch(() => null),
+  ]);
   const prior = correcting ? (await pending()).find((e) => e.client_id === correcting) : null;
   const open = loaded.record.status === "in_progress" || (await pending()).some((e) => e.visit === visitId && e.kind === "start");
   const history = h("div", { id: "history" }, readingHistory(sets.filter((s) => s.unit === unitId)));
@@ -392,9 +413,9 @@ export async function unitScreen(visitId, unitId, correcting) {
   };
   const readingSaved = () => {
     afterSave("Readings");
-    form.replaceWith((form = readingForm(visitId, unit, answers, null, readingSaved)));
+    form.replaceWith((form = readingForm(visitId, unit, answers, null, readingSaved, live)));
   };
-  let form = readingForm(visitId, unit, answers, prior && prior.kind === "reading_set" ? prior : null, readingSaved);
+  let form = readingForm(visitId, unit, answers, prior && prior.kind === "reading_set" ? prior : null, readingSaved, live);
   const refrigerantCard = async (from) => {
     const card = await refrigerantForm(visitId, unit, from, async () => {
       afterSave("Refrigerant record");
@@ -411,7 +432,7 @@ export async function unitScreen(visitId, unitId, correcting) {
     lastDiagnosis(details.diagnosis),
     openFlags(details.flags),
     preClimb(visitId, unitId, answers),
-    open ? [h("h2", { id: "readings" }, "Readings on this visit"), history, confirm, electricalCaution(), form, txvHelp(unit), await refrigerantCard(prior && prior.kind === "refrigerant_event" ? prior : null)] : h("p", { class: "hint" }, "Start the visit to record readings."),
+    open ? [h("h2", { id: "readings" }, "Readings on this visit"), history, confirm, electricalCaution(), form, txvHelp(unit), capacitorCheck(live && live.targets), await refrigerantCard(prior && prior.kind === "refrigerant_event" ? prior : null)] : h("p", { class: "hint" }, "Start the visit to record readings."),
   );
   whenSent(redrawHistory);
   return undefined;
