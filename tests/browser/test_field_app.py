@@ -10,6 +10,7 @@ from __future__ import annotations
 import re
 import time
 
+import httpx
 import pytest
 from django.utils import timezone
 
@@ -99,8 +100,13 @@ def test_a_visit_run_from_the_phone_online_and_off(live_server, browser_context,
 
     page.get_by_role("link", name=re.compile("HD-WIC-1")).click()
     page.get_by_role("heading", name="Before climbing").wait_for()
-    page.get_by_role("group", name="Evaporator fans running?").get_by_label("Yes", exact=True).check()
-    page.get_by_role("group", name="Ice on the evaporator coil?").get_by_label("No", exact=True).check()
+    page.get_by_role("group", name="Evaporator fans running?").get_by_label(
+        "Yes", exact=True
+    ).check()
+    page.get_by_role("group", name="Ice on the evaporator coil?").get_by_label(
+        "No", exact=True
+    ).check()
+
     def live_numbers_shown(form) -> None:
         live = form.get_by_role("region", name="Live numbers")
         live.locator("[data-metric=superheat]").wait_for()
@@ -168,3 +174,82 @@ def test_a_visit_run_from_the_phone_online_and_off(live_server, browser_context,
     office.get_by_role("button", name="Sign in").click()
     office.goto(f"{base}/review/")
     assert office.locator("tr", has_text=visit.reference).is_visible()
+
+
+def test_an_answer_lost_on_the_way_back_is_sent_again_and_stored_once(live_server, browser_context):
+    """A post reached the server but its answer never reached the phone (here the first
+    attempt is made from outside the page, with the very body the phone holds): the phone
+    still holds the record, sends it again with the same client_id, the server answers 200
+    with the stored record, the phone lets it go, and the server has one set."""
+    visit, _unit = _visit_today()
+    base = live_server.url
+    page = browser_context.new_page()
+    page.set_viewport_size(PHONE)
+    sign_in(page, base)
+    page.get_by_role("link", name=re.compile("Harbour Deli")).click()
+    page.get_by_role("button", name="Start the visit").click()
+    page.get_by_text("In progress").wait_for()
+    page.get_by_role("link", name=re.compile("HD-WIC-1")).click()
+    page.get_by_role("heading", name="Gauges and thermometers").wait_for()
+
+    browser_context.set_offline(True)
+    enter_readings(page, "52", "265")
+    held = page.evaluate(
+        """async () => {
+            const store = await import("/static/field/store.js");
+            const token = await store.kvGet("token");
+            return {token, entries: await store.outboxAll()};
+        }"""
+    )
+    [entry] = held["entries"]
+    with httpx.Client(base_url=f"{base}/api/v1/", timeout=30) as api:
+        first = api.post(
+            entry["path"], json=entry["body"], headers={"Authorization": f"Token {held['token']}"}
+        )
+    assert first.status_code == 201, first.text
+
+    browser_context.set_offline(False)
+    page.locator("#history").get_by_text(re.compile("Score")).wait_for()
+    assert page.locator("#outbox-status").inner_text() == ""
+    stored = ReadingSet.objects.get(visit_unit__visit=visit)
+    assert str(stored.client_id) == entry["client_id"]
+    # The phone let the record go on the server's answer to its retry: the stored record.
+    heard = page.evaluate(
+        f"""async () => (await (await import("/static/field/outbox.js")).sentFor({visit.pk}))"""
+    )
+    assert [(h["client_id"], h["answer"]["id"]) for h in heard if h["kind"] == "reading_set"] == [
+        (entry["client_id"], stored.pk)
+    ]
+
+
+def test_it_fits_a_tablet_and_a_narrow_phone(live_server, browser_context, shot):
+    """Nothing runs off the side at 360 px or on a tablet, every control is at least 48 px
+    tall, and the chosen units are remembered."""
+    visit, unit = _visit_today()
+    base = live_server.url
+    page = browser_context.new_page()
+    page.set_viewport_size({"width": 360, "height": 740})
+    sign_in(page, base)
+    page.get_by_role("link", name=re.compile("Harbour Deli")).click()
+    page.get_by_role("button", name="Start the visit").click()
+    page.get_by_text("In progress").wait_for()
+    for name, size in (("narrow", {"width": 360, "height": 740}), ("tablet", TABLET)):
+        page.set_viewport_size(size)
+        page.goto(f"{base}/field/#/visit/{visit.pk}/unit/{unit.pk}")
+        page.get_by_role("heading", name="Gauges and thermometers").wait_for()
+        overflow = page.evaluate("document.documentElement.scrollWidth - window.innerWidth")
+        assert overflow <= 0, f"{name}: the page is {overflow} px wider than the screen"
+        small = page.evaluate(
+            """[...document.querySelectorAll(
+                'main button, main select, main input:not([type=radio]), main .choice, '
+                + 'main a.button')].filter((el) => el.getBoundingClientRect().height < 48)
+                 .map((el) => el.outerHTML.slice(0, 80))"""
+        )
+        assert small == [], small
+        shot(page, f"field-unit-{name}")
+
+    page.goto(f"{base}/field/#/settings")
+    page.get_by_label("°C and bar").check()
+    page.reload()
+    page.goto(f"{base}/field/#/visit/{visit.pk}/unit/{unit.pk}")
+    page.get_by_label("Suction pressure (bar)").wait_for()
