@@ -88,6 +88,7 @@ def test_a_visit_run_from_the_phone_online_and_off(live_server, browser_context,
     page.set_viewport_size(PHONE)
     sign_in(page, base)
     page.wait_for_function("navigator.serviceWorker.controller !== null")
+    page.get_by_role("link", name=re.compile("Harbour Deli")).wait_for()
     shot(page, "field-day")
 
     page.get_by_role("link", name=re.compile("Harbour Deli")).click()
@@ -253,3 +254,47 @@ def test_it_fits_a_tablet_and_a_narrow_phone(live_server, browser_context, shot)
     page.reload()
     page.goto(f"{base}/field/#/visit/{visit.pk}/unit/{unit.pk}")
     page.get_by_label("Suction pressure (bar)").wait_for()
+
+
+def test_a_refused_record_is_shown_for_correcting_and_holds_back_the_submit(
+    live_server, browser_context, shot
+):
+    """A reading no gauge can give (suction below a perfect vacuum), saved offline, is refused by
+    the server when the signal returns: the phone says why, names the fields, keeps the
+    visit's submit back, and the corrected readings go under a new client_id."""
+    visit, _unit = _visit_today()
+    base = live_server.url
+    page = browser_context.new_page()
+    page.set_viewport_size(PHONE)
+    sign_in(page, base)
+    page.get_by_role("link", name=re.compile("Harbour Deli")).click()
+    page.get_by_role("button", name="Start the visit").click()
+    page.get_by_text("In progress").wait_for()
+    wait_until(lambda: Visit.objects.get(pk=visit.pk).status == "in_progress")
+    page.get_by_role("link", name=re.compile("HD-WIC-1")).click()
+    page.get_by_role("heading", name="Gauges and thermometers").wait_for()
+
+    browser_context.set_offline(True)
+    enter_readings(page, "-20", "265")
+    page.get_by_role("link", name="← The visit").click()
+    page.get_by_role("link", name="Finish and submit").click()
+    page.get_by_label(re.compile("^Work summary")).fill("Checked the box.")
+    page.get_by_role("button", name="Submit the visit").click()
+    page.get_by_text(re.compile("2 waiting to send")).wait_for()
+    browser_context.set_offline(False)
+
+    page.get_by_role("link", name=re.compile("1 need correcting")).click()
+    problem = page.locator("main .problem").first
+    problem.wait_for()
+    assert "suction pressure: below the lowest gauge reading possible" in problem.inner_text()
+    shot(page, "field-outbox-refused")
+    assert Visit.objects.get(pk=visit.pk).status == "in_progress"  # the submit waits
+
+    page.get_by_role("link", name="Correct it").first.click()
+    form = page.locator("form.reading-form")
+    assert form.get_by_label(re.compile("^Suction pressure")).input_value() == "-20"
+    form.get_by_label(re.compile("^Suction pressure")).fill("52")
+    form.get_by_role("button", name="Save the readings").click()
+    wait_until(lambda: Visit.objects.get(pk=visit.pk).status == "submitted")
+    [stored] = ReadingSet.objects.filter(visit_unit__visit=visit)
+    assert round(stored.suction_kpa_gauge) == round(52 * 6.894757)

@@ -52,7 +52,7 @@ function showOutbox(entries) {
     h(
       "a",
       { href: "#/outbox", class: rejected ? "outbox-status__link outbox-status--rejected" : "outbox-status__link" },
-      waiting ? `⏳ ${waiting} waiting to send` : "",
+      waiting ? `↑ ${waiting} waiting to send` : "",
       waiting && rejected ? " · " : "",
       rejected ? `✕ ${rejected} need correcting` : "",
     ),

@@ -40,7 +40,7 @@ const STATUS = {
   watch: ["!", "Watch"],
   fault: ["✕", "Fault"],
   not_scored: ["–", "Not judged"],
-  queued: ["⏳", "Waiting for signal"],
+  queued: ["↑", "Waiting for signal"],
   sent: ["✓", "Sent"],
   rejected: ["✕", "Needs correcting"],
 };

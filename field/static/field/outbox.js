@@ -32,9 +32,17 @@ export function newClientId() {
   return crypto.randomUUID();
 }
 
-/* Keep a record to send: {client_id, kind, visit, unit, path, body, label[, method]}. */
-export async function enqueue(entry) {
-  await outboxPut({ ...entry, made: Date.now(), state: "queued", problem: null });
+/* Keep a record to send: {client_id, kind, visit, unit, path, body, label[, method]}.
+   A correction of a refused record takes its place (`replaces`): the same turn in the
+   order, so it still goes before the visit's submit. */
+export async function enqueue({ replaces, ...entry }) {
+  let made = Date.now();
+  if (replaces) {
+    const old = (await outboxAll()).find((e) => e.client_id === replaces);
+    if (old) made = old.made;
+    await outboxDelete(replaces);
+  }
+  await outboxPut({ ...entry, made, state: "queued", problem: null });
   await notify();
   flush();
 }

@@ -45,6 +45,8 @@ function when(visit) {
 export const VISIT_STATUS = {
   scheduled: "Not started",
   in_progress: "In progress",
+  start_waiting: "In progress (the start waits for signal)",
+  submit_waiting: "Submitted on the phone (waits for signal)",
   submitted: "Submitted",
   reviewed: "Reviewed",
   cancelled: "Cancelled",

@@ -3,7 +3,7 @@
 import { ApiError } from "./api.js";
 import { checklist, keepChecklist, liveInputs, readingSets, unitDetails, visit as loadVisit } from "./data.js";
 import { badge, caution, field, fmt, h, show, whenSent } from "./dom.js";
-import { discard, enqueue, newClientId, pending } from "./outbox.js";
+import { enqueue, newClientId, pending } from "./outbox.js";
 import { capacitorCheck, electricalLines, livePanel, readingsSi } from "./live_panel.js";
 import { kvGet, kvSet } from "./store.js";
 import { label, shown, wireUnits } from "./units.js";
@@ -248,6 +248,7 @@ function readingForm(visitId, unit, answers, prior, saved, live) {
       path: `visits/${visitId}/reading-sets/`,
       body: record,
       label: `${STAGES[stage.value].split(" (")[0]} readings on ${unit.tag}`,
+      replaces: prior ? prior.client_id : undefined,
     });
     saved(record);
   }
@@ -302,7 +303,7 @@ function txvHelp(unit) {
   let ticking = null;
   const tick = () => {
     const left = Math.max(0, Math.round((until - Date.now()) / 1000));
-    timer.textContent = left ? `⏳ Wait ${Math.floor(left / 60)}:${String(left % 60).padStart(2, "0")} before the next reading.` : "✓ Settled: take the next reading (stage “while adjusting”, or “as left” when done).";
+    timer.textContent = left ? `Wait ${Math.floor(left / 60)}:${String(left % 60).padStart(2, "0")} before the next reading.` : "✓ Settled: take the next reading (stage “while adjusting”, or “as left” when done).";
     if (!left) clearInterval(ticking);
   };
   const adjusted = () => {
@@ -363,7 +364,7 @@ async function refrigerantForm(visitId, unit, prior, saved) {
     if (weighed) record.amount = num(amount);
     if (cylinder.value.trim()) record.cylinder = cylinder.value.trim();
     if (certification.value.trim()) record.certification_number = certification.value.trim();
-    await enqueue({ client_id: record.client_id, kind: "refrigerant_event", visit: visitId, unit: unit.id, path: `visits/${visitId}/refrigerant-events/`, body: record, label: `${EVENT_KINDS[kind.value]} on ${unit.tag}` });
+    await enqueue({ client_id: record.client_id, kind: "refrigerant_event", visit: visitId, unit: unit.id, path: `visits/${visitId}/refrigerant-events/`, body: record, label: `${EVENT_KINDS[kind.value]} on ${unit.tag}`, replaces: prior ? prior.client_id : undefined });
     saved();
   }
   return h(
@@ -404,7 +405,6 @@ export async function unitScreen(visitId, unitId, correcting) {
   const confirm = h("p", { class: "saved", role: "status", "aria-live": "polite" });
   const afterSave = async (what) => {
     if (prior) {
-      await discard(prior.client_id);
       location.hash = `#/visit/${visitId}/unit/${unitId}`;
       return;
     }

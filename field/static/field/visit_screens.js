@@ -8,8 +8,8 @@ import { VISIT_STATUS } from "./screens.js";
 /* The visit's status as the phone sees it: a start or submit waiting to send counts. */
 async function statusOf(record) {
   const waiting = (await pending()).filter((e) => e.visit === record.id);
-  if (waiting.some((e) => e.kind === "submit")) return "submitted";
-  if (record.status === "scheduled" && waiting.some((e) => e.kind === "start")) return "in_progress";
+  if (waiting.some((e) => e.kind === "submit")) return "submit_waiting";
+  if (record.status === "scheduled" && waiting.some((e) => e.kind === "start")) return "start_waiting";
   return record.status;
 }
 
@@ -69,7 +69,7 @@ export async function visitScreen(id) {
     status === "scheduled" ? h("button", { class: "button button--primary", type: "button", onclick: start }, "Start the visit") : null,
     h("h2", {}, "Units"),
     h("ul", { class: "cards" }, unitRows),
-    status === "in_progress" ? h("a", { class: "button button--primary", href: `#/visit/${id}/submit` }, "Finish and submit") : null,
+    status === "in_progress" || status === "start_waiting" ? h("a", { class: "button button--primary", href: `#/visit/${id}/submit` }, "Finish and submit") : null,
   );
   whenSent(() => {
     if (location.hash === `#/visit/${id}`) visitScreen(id);
