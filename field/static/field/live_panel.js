@@ -91,7 +91,7 @@ export function livePanel(inputs, txv) {
       return;
     }
     const metrics = numbers.metrics.filter((m) => m.measured !== null);
-    body.replaceChildren(
+    const parts = [
       saturation(numbers.suction, "Suction saturation"),
       saturation(numbers.head, "Head saturation"),
       aim(numbers.evaporating, "Evaporating"),
@@ -108,7 +108,8 @@ export function livePanel(inputs, txv) {
           )
         : h("p", { class: "hint" }, "Type the pressures and temperatures to see superheat, subcooling and their status."),
       txv ? txvAdvice(numbers) : null,
-    );
+    ];
+    body.replaceChildren(...parts.filter(Boolean));
   };
   return { panel, update };
 }
