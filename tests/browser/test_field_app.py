@@ -15,6 +15,7 @@ import pytest
 from django.utils import timezone
 
 from fleet.models import ReadingSet, RefrigerantEvent, Visit
+from tests.browser.test_production_static import production_server  # noqa: F401 (a fixture)
 from tests.factories import SiteFactory, UnitFactory, UserFactory, VisitFactory, VisitUnitFactory
 
 pytestmark = [
@@ -298,3 +299,35 @@ def test_a_refused_record_is_shown_for_correcting_and_holds_back_the_submit(
     wait_until(lambda: Visit.objects.get(pk=visit.pk).status == "submitted")
     [stored] = ReadingSet.objects.filter(visit_unit__visit=visit)
     assert round(stored.suction_kpa_gauge) == round(52 * 6.894757)
+
+
+def test_the_app_runs_from_production_static_files_under_the_policy(
+    production_server,  # noqa: F811 (the fixture imported above)
+    browser_context,
+):
+    """Under collectstatic's hashed files served by WhiteNoise: app.js (hashed) finds its
+    modules, the service worker keeps them, the live numbers work, and the browser refuses
+    nothing under the Content-Security-Policy."""
+    visit, unit = _visit_today()
+    Visit.objects.filter(pk=visit.pk).update(status="in_progress")
+    page = browser_context.new_page()
+    page.set_viewport_size(PHONE)
+    refused: list[str] = []
+    page.on("console", lambda m: refused.append(m.text) if "Content Security" in m.text else None)
+    missing: list[str] = []
+    page.on(
+        "response",
+        lambda r: missing.append(r.url) if r.status >= 400 and "/api/" not in r.url else None,
+    )
+    sign_in(page, production_server)
+    script = page.locator("script[type=module]").get_attribute("src") or ""
+    assert re.fullmatch(r"/static/field/app\.[0-9a-f]{12}\.js", script)
+    page.wait_for_function("navigator.serviceWorker.controller !== null")
+    page.goto(f"{production_server}/field/#/visit/{visit.pk}/unit/{unit.pk}")
+    form = page.locator("form.reading-form")
+    form.get_by_label(re.compile("^Suction pressure")).fill("52")
+    form.get_by_label(re.compile("^Suction line")).fill("40")
+    live = form.get_by_role("region", name="Live numbers")
+    live.locator("[data-metric=superheat]").wait_for()
+    assert refused == []
+    assert missing == []
