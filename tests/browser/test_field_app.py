@@ -331,3 +331,42 @@ def test_the_app_runs_from_production_static_files_under_the_policy(
     live.locator("[data-metric=superheat]").wait_for()
     assert refused == []
     assert missing == []
+
+
+def test_a_revoked_token_or_signing_out_clears_the_phone(live_server, browser_context):
+    """A 401 (the office revoked the phone's token) and signing out both leave nothing on
+    the phone: no token, no choices, no unsent records, no kept API answers."""
+    from rest_framework.authtoken.models import Token
+
+    _visit_today()
+    base = live_server.url
+    page = browser_context.new_page()
+    page.set_viewport_size(PHONE)
+    held = """async () => {
+        const store = await import("/static/field/store.js");
+        const kept = await caches.has("rimewatch-field-api")
+            ? (await (await caches.open("rimewatch-field-api")).keys()).length : 0;
+        return {token: await store.kvGet("token"), outbox: (await store.outboxAll()).length,
+                kept};
+    }"""
+
+    sign_in(page, base)
+    page.wait_for_function("navigator.serviceWorker.controller !== null")
+    page.get_by_role("link", name=re.compile("Harbour Deli")).click()
+    page.get_by_role("button", name="Start the visit").click()
+    page.get_by_text("In progress").wait_for()
+    before = page.evaluate(held)
+    assert before["token"]
+    assert before["kept"] > 0  # the service worker kept the API's answers
+    Token.objects.filter(user__username="marco").delete()
+    page.goto(f"{base}/field/#/")
+    page.get_by_role("heading", name="Sign in").wait_for()
+    assert page.evaluate(held) == {"token": None, "outbox": 0, "kept": 0}
+
+    sign_in(page, base)
+    page.get_by_role("link", name=re.compile("Harbour Deli")).wait_for()
+    page.get_by_role("link", name="Units and sign out").click()
+    page.get_by_role("button", name="Sign out").click()
+    page.get_by_role("heading", name="Sign in").wait_for()
+    assert page.evaluate(held) == {"token": None, "outbox": 0, "kept": 0}
+    assert not Token.objects.filter(user__username="marco").exists()
