@@ -132,6 +132,11 @@ def test_a_visit_run_from_the_phone_online_and_off(live_server, browser_context,
     page.get_by_text("No signal").wait_for()
     enter_readings(page, "48", "270", stage="adjusting")
     enter_readings(page, "55", "262", stage="as_left")
+    # A third set typed by mistake is withdrawn before it was ever sent.
+    enter_readings(page, "99", "299")
+    page.get_by_text(re.compile("3 waiting to send")).wait_for()
+    page.locator("#history li").last.get_by_role("button", name="Withdraw (not sent)").click()
+    page.get_by_text(re.compile("2 waiting to send")).wait_for()
     form = page.locator("form", has=page.get_by_role("heading", name="Refrigerant"))
     form.get_by_label("What was done").select_option("added")
     form.get_by_label(re.compile("^Amount")).fill("1.5")

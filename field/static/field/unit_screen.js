@@ -3,7 +3,7 @@
 import { ApiError } from "./api.js";
 import { checklist, keepChecklist, liveInputs, readingSets, unitDetails, visit as loadVisit } from "./data.js";
 import { badge, caution, field, fmt, h, show, whenSent } from "./dom.js";
-import { enqueue, newClientId, pending } from "./outbox.js";
+import { discard, enqueue, newClientId, pending } from "./outbox.js";
 import { capacitorCheck, electricalLines, livePanel, readingsSi } from "./live_panel.js";
 import { kvGet, kvSet } from "./store.js";
 import { label, shown, wireUnits } from "./units.js";
@@ -275,7 +275,9 @@ function readingForm(visitId, unit, answers, prior, saved, live) {
   return form;
 }
 
-function readingHistory(sets) {
+/* A set not yet sent can be withdrawn on the phone while there is no signal (with signal
+   it may be on its way already). */
+function readingHistory(sets, withdraw) {
   if (!sets.length) return h("p", {}, "No readings on this unit yet on this visit.");
   return h(
     "ol",
@@ -289,6 +291,9 @@ function readingHistory(sets) {
         { class: "card" },
         h("p", {}, badge(s.state === "sent" ? "sent" : s.state), ` ${stage} · ${new Date(s.taken_at).toLocaleTimeString(undefined, { hour: "2-digit", minute: "2-digit" })}`),
         s.diagnosis ? h("p", {}, `Score ${s.diagnosis.score ?? "not scored"}`, superheat && superheat.measured !== null ? ` · superheat ${fmt(shown(superheat.measured, superheat.unit).value)} ${shown(superheat.measured, superheat.unit).unit}` : "") : h("p", { class: "muted" }, "The diagnosis appears when the office's server has the readings."),
+        (s.state === "queued" && !navigator.onLine) || s.state === "rejected"
+          ? h("button", { class: "button", type: "button", onclick: () => withdraw(s.client_id) }, "Withdraw (not sent)")
+          : null,
       );
     }),
   );
@@ -400,8 +405,12 @@ export async function unitScreen(visitId, unitId, correcting) {
   ]);
   const prior = correcting ? (await pending()).find((e) => e.client_id === correcting) : null;
   const open = loaded.record.status === "in_progress" || (await pending()).some((e) => e.visit === visitId && e.kind === "start");
-  const history = h("div", { id: "history" }, readingHistory(sets.filter((s) => s.unit === unitId)));
-  const redrawHistory = async () => history.replaceChildren(readingHistory((await readingSets(visitId)).filter((s) => s.unit === unitId)));
+  const withdraw = async (clientId) => {
+    await discard(clientId);
+    redrawHistory();
+  };
+  const history = h("div", { id: "history" }, readingHistory(sets.filter((s) => s.unit === unitId), withdraw));
+  const redrawHistory = async () => history.replaceChildren(readingHistory((await readingSets(visitId)).filter((s) => s.unit === unitId), withdraw));
   const confirm = h("p", { class: "saved", role: "status", "aria-live": "polite" });
   const afterSave = async (what) => {
     if (prior) {
