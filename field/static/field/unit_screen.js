@@ -130,7 +130,7 @@ function preClimb(visitId, unitId, answers) {
   return h(
     "section",
     { class: "card" },
-    h("h2", {}, "Before climbing"),
+    h("h2", { id: "checks" }, "Before climbing"),
     h("p", { class: "hint" }, "Answers go with every reading set of this unit."),
     CHECKS.map(([name, question]) =>
       h(
@@ -375,7 +375,7 @@ async function refrigerantForm(visitId, unit, prior, saved) {
   return h(
     "form",
     { class: "card", onsubmit: save },
-    h("h2", {}, "Refrigerant"),
+    h("h2", { id: "refrigerant" }, "Refrigerant"),
     field("What was done", kind),
     field(`Amount (${label("mass")})`, amount, "For refrigerant added or recovered."),
     field("Cylinder", cylinder, "The cylinder's number or label."),
@@ -432,9 +432,11 @@ export async function unitScreen(visitId, unitId, correcting) {
     });
     return card;
   };
+  const jump = (target, text) => h("button", { class: "button", type: "button", onclick: () => document.getElementById(target).scrollIntoView() }, text);
   show(
     h("p", {}, h("a", { href: `#/visit/${visitId}` }, "← The visit")),
     h("h1", {}, unit.tag),
+    open ? h("nav", { class: "actions", "aria-label": "On this screen" }, jump("checks", "Checks"), jump("readings", "Readings"), jump("refrigerant", "Refrigerant")) : null,
     unit.description ? h("p", { class: "lead" }, unit.description) : null,
     flammableCaution(refrigerant),
     nameplate(unit, refrigerant, details.components),
