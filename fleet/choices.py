@@ -105,6 +105,15 @@ class SightGlass(models.TextChoices):
     NONE = "none", "No sight glass"
 
 
+class NotReadReason(models.TextChoices):
+    """Why a unit on a visit has no readings when the visit is submitted."""
+
+    NOT_ACCESSIBLE = "not_accessible", "Not accessible"
+    OFF_BY_DESIGN = "off_by_design", "Off by design (not in use)"
+    NOT_RUNNING = "not_running", "Not running"
+    OTHER = "other", "Other (see the note)"
+
+
 class RefrigerantEventKind(models.TextChoices):
     ADDED = "added", "Refrigerant added"
     RECOVERED = "recovered", "Refrigerant recovered"

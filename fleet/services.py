@@ -208,14 +208,16 @@ def move_visit(
     note: str = "",
     work_summary: str | None = None,
     now: dt.datetime | None = None,
+    also_changed: Mapping[str, list] | None = None,
 ) -> Visit:
     """Move a visit along its life cycle and record it; the one way a visit changes status.
 
     A visit moved to ``reviewed`` has its units' flags refreshed in the same transaction.
+    ``also_changed``: what else the move changed, for its audit entry.
     """
     now = now or timezone.now()
     before_status = visit.status
-    changes: dict[str, list] = {}
+    changes: dict[str, list] = dict(also_changed or {})
     if work_summary is not None and work_summary != visit.work_summary:
         changes["work_summary"] = [visit.work_summary, work_summary]
         visit.work_summary = work_summary
@@ -226,6 +228,107 @@ def move_visit(
     if target == VisitStatus.REVIEWED:
         _refresh_flags_of(visit)
     return visit
+
+
+@dataclass(frozen=True)
+class NotRead:
+    """A unit of a visit left without readings, and why (``choices.NotReadReason``)."""
+
+    unit_id: int
+    reason: str
+    note: str = ""
+
+
+class IncompleteSubmission(Exception):
+    """A submission without what the office reviews: each field at fault with its reasons."""
+
+    def __init__(self, errors: dict[str, list[str]]) -> None:
+        super().__init__("; ".join(f"{k}: {' '.join(v)}" for k, v in errors.items()))
+        self.errors = errors
+
+
+def _not_read_state(visit_units: Iterable[VisitUnit]) -> list[dict[str, Any]]:
+    return [
+        {"unit": vu.unit_id, "reason": vu.not_read_reason, "note": vu.not_read_note}
+        for vu in visit_units
+        if vu.not_read_reason
+    ]
+
+
+@transaction.atomic
+def submit_visit(
+    visit: Visit,
+    *,
+    by: User | None,
+    work_summary: str | None = None,
+    units_not_read: Sequence[NotRead] = (),
+    now: dt.datetime | None = None,
+) -> Visit:
+    """Hand a visit in progress to the office: the one rule for what a submission needs.
+
+    A summary of the work (the one sent, else the one stored) that is not blank, and every
+    unit on the visit with at least one reading set or a reason in ``units_not_read`` (kept
+    on the unit's row of the visit, in the move's audit entry). Raises IncompleteSubmission
+    naming each field and unit at fault, or IllegalTransition for a visit not in progress.
+    """
+    if VisitStatus.SUBMITTED not in VISIT_TRANSITIONS.get(visit.status, ()):
+        raise IllegalTransition(visit, visit.status, VisitStatus.SUBMITTED)
+    errors: dict[str, list[str]] = {}
+    summary = visit.work_summary if work_summary is None else work_summary
+    if not summary.strip():
+        errors["work_summary"] = ["say what was done: a visit is submitted with a summary"]
+    visit_units = list(
+        VisitUnit.objects.filter(visit=visit)
+        .select_related("unit")
+        .annotate(
+            has_readings=models.Exists(ReadingSet.objects.filter(visit_unit=models.OuterRef("pk")))
+        )
+        .order_by("id")
+    )
+    on_visit = {vu.unit_id: vu for vu in visit_units}
+    reasons: dict[int, NotRead] = {}
+    problems: list[str] = []
+    for entry in units_not_read:
+        vu = on_visit.get(entry.unit_id)
+        if vu is None:
+            problems.append(f"unit {entry.unit_id} is not on visit {visit.reference}")
+        elif entry.unit_id in reasons:
+            problems.append(f"unit {vu.unit.tag} (id {vu.unit_id}) is listed more than once")
+        elif vu.has_readings:
+            problems.append(
+                f"unit {vu.unit.tag} (id {vu.unit_id}) has readings on this visit; "
+                "leave it out of units_not_read"
+            )
+        else:
+            reasons[entry.unit_id] = entry
+    listed = {entry.unit_id for entry in units_not_read}
+    for vu in visit_units:
+        if not vu.has_readings and vu.unit_id not in listed:
+            problems.append(
+                f"unit {vu.unit.tag} (id {vu.unit_id}) has no readings on this visit: record "
+                "a reading set, or give the reason in units_not_read (not_accessible, "
+                "off_by_design, not_running or other)"
+            )
+    if problems:
+        errors["units_not_read"] = problems
+    if errors:
+        raise IncompleteSubmission(errors)
+    before = _not_read_state(visit_units)
+    for vu in visit_units:
+        given = reasons.get(vu.unit_id)
+        reason, note = (given.reason, given.note) if given else ("", "")
+        if (vu.not_read_reason, vu.not_read_note) != (reason, note):
+            vu.not_read_reason, vu.not_read_note = reason, note
+            VisitUnit.objects.filter(pk=vu.pk).update(not_read_reason=reason, not_read_note=note)
+    after = _not_read_state(visit_units)
+    return move_visit(
+        visit,
+        VisitStatus.SUBMITTED,
+        by=by,
+        work_summary=work_summary,
+        now=now,
+        also_changed={"units_not_read": [before, after]} if before != after else None,
+    )
 
 
 # --- edits to visits and to the fleet's records --------------------------------------------
@@ -421,7 +524,8 @@ def record_reading_set(reading_set: ReadingSet, *, by: User | None) -> Stored[Re
 def change_reading_set(
     reading_set: ReadingSet, before: dict[str, Any], *, by: User | None
 ) -> ReadingSet:
-    """After an office edit: diagnose again and record what changed."""
+    """After an edit (the office's, or a technician's of their own set): diagnose again and
+    record what changed."""
     return _change(reading_set, before, _diagnose, by=by)
 
 

@@ -69,7 +69,9 @@ class _UnitView(UnitSystemMixin, APIView):
     states_units = True
 
     def unit(self, unit_pk: int) -> Unit:
-        qs: QuerySet[Unit] = Unit.objects.visible_to(self.request.user).select_related("site")
+        qs: QuerySet[Unit] = Unit.objects.visible_to(self.request.user).select_related(
+            "site", "refrigerant"
+        )
         return get_object_or_404(qs, pk=unit_pk)
 
 
@@ -110,10 +112,7 @@ class UnitTargetsView(_UnitView):
 
     @extend_schema(parameters=[UNIT_PK], responses={200: UnitTargetsSerializer})
     def get(self, request: Request, unit_pk: int) -> Response:
-        qs: QuerySet[Unit] = Unit.objects.visible_to(self.request.user).select_related(
-            "site", "refrigerant"
-        )
-        data = services.unit_targets(get_object_or_404(qs, pk=unit_pk))
+        data = services.unit_targets(self.unit(unit_pk))
         data["refrigerant"]["glide_k"] = sat.atmospheric_glide_k(data["refrigerant"]["designation"])
         return Response(data)
 

@@ -7,7 +7,8 @@ then decides what the user's roles may *do* with what they see (403).
 
 - office: everything.
 - technician: reads what is within reach; posts readings and refrigerant events on their
-  visits while in progress, starts and submits them.
+  visits while in progress, corrects or withdraws the reading sets they recorded then
+  (``ReadingSetViewSet``), starts and submits them.
 - manager: reads what is within reach.
 
 A user in several role groups may do what any of their roles may.

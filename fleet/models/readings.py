@@ -131,6 +131,10 @@ class RefrigerantEvent(models.Model):
     passed = models.BooleanField(
         null=True, blank=True, help_text="Verification tests: did the repair hold?"
     )
+    #: The cylinder the refrigerant came from or went to (its label or serial number).
+    cylinder = models.CharField(max_length=100, blank=True, default="")
+    #: The certification number of the technician who handled the refrigerant.
+    certification_number = models.CharField(max_length=60, blank=True, default="")
     notes = models.TextField(blank=True)
     created_by = models.ForeignKey(
         settings.AUTH_USER_MODEL, null=True, blank=True, on_delete=models.PROTECT, related_name="+"

@@ -83,6 +83,11 @@ class VisitUnit(models.Model):
 
     visit = models.ForeignKey(Visit, on_delete=models.CASCADE, related_name="visit_units")
     unit = models.ForeignKey(Unit, on_delete=models.PROTECT, related_name="visit_units")
+    #: Why the unit has no readings, said when the visit was submitted without any.
+    not_read_reason = models.CharField(
+        max_length=20, choices=choices.NotReadReason.choices, blank=True, default=""
+    )
+    not_read_note = models.TextField(blank=True, default="")
 
     #: Who may see it: whoever sees its visit.
     reach = scope.Through(scope.visits, "visit__")

@@ -90,11 +90,14 @@ def test_a_technician_does_a_whole_visit_and_the_office_reviews_it(office_user, 
             "kind": "added",
             "amount": 2.0,
             "units": {"mass": "lb"},
+            "cylinder": "CYL-0417",  # synthetic
+            "certification_number": "TEST-CERT-0001",
         },
         format="json",
     )
     assert added.status_code == 201, added.json()
     assert added.json()["leak_rate"] is not None
+    assert added.json()["cylinder"] == "CYL-0417"
 
     left = phone.post(
         readings,

@@ -266,6 +266,8 @@ def _event(client, visit_unit, amount: float, unit: str = "lb", **fields):
             "kind": "added",
             "amount": amount,
             "units": {"mass": unit},
+            "cylinder": "CYL-0417",  # what a technician must give (synthetic values)
+            "certification_number": "TEST-CERT-0001",
             **fields,
         },
         format="json",

@@ -51,6 +51,9 @@ def _added(visit_unit, pounds: float, **fields) -> dict:
         "kind": "added",
         "amount": pounds,
         "units": {"mass": "lb"},
+        # a technician says which cylinder and under which certification (synthetic values)
+        "cylinder": "CYL-0417",
+        "certification_number": "TEST-CERT-0001",
         **fields,
     }
 

@@ -31,7 +31,12 @@ from diagnostics.services import unit_design
 from tests.api.conftest import token_client
 from tests.factories import SiteFactory, UnitFactory, UserFactory, refrigerant
 
-pytestmark = [pytest.mark.browser, pytest.mark.django_db]
+# Transactional, as the other browser tests: ORM calls made while Playwright's loop runs
+# may use a connection outside a test transaction, so the tables are emptied afterwards.
+pytestmark = [
+    pytest.mark.browser,
+    pytest.mark.django_db(transaction=True, serialized_rollback=True),
+]
 
 LIVE_JS = Path(__file__).resolve().parents[2] / "field" / "static" / "field" / "live.js"
 ORIGIN = "https://field.test"
@@ -58,9 +63,35 @@ class Case:
     unit: dict = field(default_factory=dict)
     running: bool | None = True
     stopped_gauges: bool = False
+    #: More of the reading (a defrost).
+    extra: dict = field(default_factory=dict)
 
 
 CASES = [
+    Case(
+        "R-404A with a water-cooled condenser: no split, no condensing target",
+        "R-404A",
+        0.0,
+        -3.5,
+        35.0,
+        2.0,
+        25.0,
+        5.0,
+        2.0,
+        unit={"condenser_type": "water"},
+    ),
+    Case(
+        "R-448A in defrost: neither the box nor the cycle is judged",
+        "R-448A",
+        1600.0,
+        -2.0,
+        33.0,
+        9.0,
+        20.0,
+        6.0,
+        2.0,
+        extra={"in_defrost": True},
+    ),
     Case("R-404A cooler, sea level, on target", "R-404A", 0.0, -3.5, 36.0, 2.0, 25.0, 4.5, 1.5),
     Case(
         "R-404A freezer at 1,600 m, superheat high",
@@ -209,6 +240,7 @@ def _reading(case: Case, basis: str) -> dict[str, float | bool | None]:
         "head_kpa_gauge": head,
         "liquid_line_temp_c": bubble - case.subcooling_k,
         "compressor_running": case.running,
+        **case.extra,
     }
 
 
@@ -368,6 +400,9 @@ def test_the_units_and_the_electrical_helpers(browser_context):
     assert _call(page, "toDisplay", 5.0, "temperature_difference", "F_psig") == pytest.approx(9.0)
     assert _call(page, "fromDisplay", 9.0, "temperature_difference", "F_psig") == pytest.approx(5.0)
     assert _call(page, "toDisplay", None, "temperature", "C_kPa") is None
+    # "us" and "si" as the API's ?units= names them
+    assert _call(page, "toDisplay", 100.0, "pressure", "us") == pytest.approx(14.50377, abs=1e-5)
+    assert _call(page, "toDisplay", 5.0, "temperature_difference", "si") == pytest.approx(5.0)
     assert _call(page, "toDisplay", 1.0, "mass", "F_psig") == pytest.approx(2.204623, abs=1e-6)
     # C = A / (2 pi f V): 5 A at 370 V, 60 Hz is 35.85 uF; the trade's 2652 x A / V (common
     # practice) gives 35.84
@@ -382,6 +417,12 @@ def test_the_units_and_the_electrical_helpers(browser_context):
         unbalance_pct([228, 231, 222])
     )
     assert _call(page, "voltageUnbalancePercent", [230, 231]) is None
+    caution = page.evaluate(
+        'async () => (await import("/static/field/live.js")).ELECTRICAL_CAUTION'
+    )
+    assert "lock out" in caution
+    assert "discharge a capacitor" in caution
+    assert "Local codes and licensed practice come first" in caution
     amps = _call(page, "ampsAgainstRating", [9.0, 11.5, 10.2], 10.0, 60.0)
     assert amps == {
         "highest_a": 11.5,

@@ -211,6 +211,7 @@ KINDS: dict[str, tuple[Callable[[User], set[int]], dict[str, Probe]]] = {
             "API: detail": lambda m: _api_found(m, "/api/v1/units/{pk}/", _all(Unit)),
             "API: diagnosis": lambda m: _api_found(m, "/api/v1/units/{pk}/diagnosis/", _all(Unit)),
             "API: trends": lambda m: _api_found(m, "/api/v1/units/{pk}/trends/", _all(Unit)),
+            "API: targets": lambda m: _api_found(m, "/api/v1/units/{pk}/targets/", _all(Unit)),
             "API: flags": lambda m: _api_found(m, "/api/v1/units/{pk}/flags/", _all(Unit)),
         },
     ),

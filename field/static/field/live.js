@@ -10,6 +10,11 @@
 // below follows diagnostics/core: saturation/lookup.py, targets.py, batch.py, grading.py
 // and scoring.py, in the same order of operations, so the results agree to rounding).
 // tests/browser/test_live_agreement.py runs it in chromium against the server's diagnosis.
+//
+// Exports: liveNumbers (the numbers above), saturationTempC, saturationPressureKpaAbs,
+// basisPressureKpaAbs and atmosphereKpa (the pieces it is made of), SYSTEMS, toDisplay and
+// fromDisplay (F/psig, C/kPa, C/bar), and the electrical helpers capacitorMicrofarads,
+// voltageUnbalancePercent and ampsAgainstRating with ELECTRICAL_CAUTION.
 
 // --- the standard atmosphere (diagnostics/core/atmosphere.py) ---------------------------
 
@@ -286,11 +291,17 @@ export function liveNumbers({ tables, targets, elevationM, readings }) {
 const KG_PER_LB = 0.45359237;
 const KPA_PER_PSI = (KG_PER_LB * 9.80665) / 0.0254 ** 2 / 1000.0;
 
-/** The unit systems a technician picks from, and the unit each quantity is shown in. */
+const US = { temperature: "F", temperature_difference: "F", pressure: "psig", mass: "lb" };
+const SI = { temperature: "C", temperature_difference: "K", pressure: "kPa", mass: "kg" };
+
+/** The unit systems a technician picks from, and the unit each quantity is shown in; "us"
+ * and "si" name the first two as the API's ``?units=`` does. */
 export const SYSTEMS = {
-  F_psig: { temperature: "F", temperature_difference: "F", pressure: "psig", mass: "lb" },
-  C_kPa: { temperature: "C", temperature_difference: "K", pressure: "kPa", mass: "kg" },
+  F_psig: US,
+  C_kPa: SI,
   C_bar: { temperature: "C", temperature_difference: "K", pressure: "bar", mass: "kg" },
+  us: US,
+  si: SI,
 };
 
 const TO_DISPLAY = {
@@ -325,9 +336,13 @@ export function fromDisplay(value, quantity, system) {
 }
 
 // --- electrical helpers -----------------------------------------------------------------
-// Checks on live circuits: lock out and tag out before touching terminals, discharge a
-// capacitor through a resistor before handling it, and follow local codes and licensed
-// practice. These helpers only do the arithmetic.
+// These helpers only do the arithmetic; the app shows ELECTRICAL_CAUTION beside them.
+
+/** The cautions to show with every electrical helper. */
+export const ELECTRICAL_CAUTION =
+  "Live circuits can kill. Measure with meters rated for the circuit, lock out and tag out " +
+  "before touching terminals, and discharge a capacitor through a resistor before handling " +
+  "it. Local codes and licensed practice come first.";
 
 /**
  * The capacitance (uF) a running capacitor shows from the current through it and the

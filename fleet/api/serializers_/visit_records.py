@@ -22,6 +22,7 @@ from fleet import audit, choices, services
 from fleet.api.wire_units import Measure, in_units, limit_error
 from fleet.limits import CONFIRM_AMOUNT_ABOVE_FULL_CHARGE, EVENT_LIMITS, READING_LIMITS
 from fleet.models import ReadingSet, RefrigerantEvent
+from fleet.reach import roles_of
 
 from .base import MeasuredSerializer
 from .fields import StoredTimeField, check_not_future, legs_field, measure_field
@@ -341,13 +342,25 @@ class RefrigerantEventSerializer(VisitRecordSerializer):
             "occurred_on",
             "leak_rate_exemption",
             "passed",
+            "cylinder",
+            "certification_number",
             "notes",
             "leak_rate",
             "created_by",
             "created_at",
         ]
         read_only_fields = ["created_at"]
-        extra_kwargs = {"passed": {"required": False, "allow_null": True}}
+        extra_kwargs = {
+            "passed": {"required": False, "allow_null": True},
+            "cylinder": {
+                "help_text": "The cylinder the refrigerant came from or went into (its label "
+                "or serial); required for added and recovered when a technician posts."
+            },
+            "certification_number": {
+                "help_text": "The certification number of the technician handling the "
+                "refrigerant; required for added and recovered when a technician posts."
+            },
+        }
 
     @extend_schema_field(LeakRateSerializer(allow_null=True))
     def get_leak_rate(self, obj: RefrigerantEvent) -> dict[str, Any] | None:
@@ -367,6 +380,7 @@ class RefrigerantEventSerializer(VisitRecordSerializer):
         self.convert_measures(attrs, errors)
         amount_kg = attrs.get("amount_kg")
         kind = attrs.get("kind") or (self.instance.kind if self.instance else None)
+        self._check_handling(attrs, kind, errors)
         if (
             confirmed
             or visit_unit is None
@@ -384,6 +398,26 @@ class RefrigerantEventSerializer(VisitRecordSerializer):
                 f"({full}); if the amount is right, send it again with "
                 '"confirm_amount": true'
             ]
+
+    def _check_handling(
+        self, attrs: dict[str, Any], kind: str | None, errors: dict[str, list[str]]
+    ) -> None:
+        """A technician who puts refrigerant in or takes it out says from or into which
+        cylinder, and under which certification (the office, entering a paper record
+        afterwards, may not know them)."""
+        if self.instance is not None or kind not in {
+            choices.RefrigerantEventKind.ADDED,
+            choices.RefrigerantEventKind.RECOVERED,
+        }:
+            return
+        if roles_of(self.context["request"].user).office:
+            return
+        for field in ("cylinder", "certification_number"):
+            if not str(attrs.get(field, "")).strip():
+                errors[field] = [
+                    f"required when a technician records refrigerant {kind}: "
+                    + ("which cylinder" if field == "cylinder" else "your certification number")
+                ]
 
     def validate_occurred_on(self, value: dt.date) -> dt.date:
         if value > timezone.localdate() + dt.timedelta(days=1):

@@ -10,6 +10,7 @@ from rest_framework import serializers
 
 from fleet import choices
 from fleet.models import AuditEntry, Unit, Visit, VisitUnit
+from fleet.validation import MAX_RECORD_ID
 
 from .base import RefusesUnknownFields, ValidatedModelSerializer
 from .fields import FreeTextField, RecordIdField, RecordSerializer, check_in_service_era
@@ -110,11 +111,30 @@ class AuditEntrySerializer(RecordSerializer):
         read_only_fields = fields
 
 
+class NotReadSerializer(RefusesUnknownFields, serializers.Serializer):
+    noun = "unit not read"
+
+    unit = serializers.IntegerField(
+        min_value=1, max_value=MAX_RECORD_ID, help_text="The id of a unit on the visit."
+    )
+    reason = serializers.ChoiceField(choices=choices.NotReadReason.choices)
+    note = FreeTextField(required=False, allow_blank=True, default="")
+
+
 class SubmitSerializer(RefusesUnknownFields, serializers.Serializer):
     noun = "submission"
 
     work_summary = FreeTextField(
-        required=False, allow_blank=True, help_text="What was done; replaces the stored summary."
+        required=False,
+        allow_blank=True,
+        help_text="What was done; replaces the stored summary. The visit is submitted only "
+        "with a summary, sent now or stored before, that is not blank.",
+    )
+    units_not_read = NotReadSerializer(
+        many=True,
+        required=False,
+        help_text="Each unit on the visit without a reading set, and why. Every unit needs "
+        "readings or an entry here.",
     )
 
 

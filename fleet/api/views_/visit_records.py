@@ -15,6 +15,8 @@ from django.utils.functional import cached_property
 from drf_spectacular.types import OpenApiTypes
 from drf_spectacular.utils import OpenApiParameter, extend_schema, extend_schema_view
 from rest_framework import mixins, status
+from rest_framework.exceptions import PermissionDenied
+from rest_framework.permissions import SAFE_METHODS
 from rest_framework.request import Request
 from rest_framework.response import Response
 
@@ -235,7 +237,9 @@ def visit_record_schema(serializer: type, create_description: str) -> Callable:
     "returns the stored set with 200 and stores nothing.",
 )
 class ReadingSetViewSet(VisitRecordViewSet):
-    """Reading sets of a visit, each with its diagnosis."""
+    """Reading sets of a visit, each with its diagnosis. A technician corrects (PATCH) or
+    withdraws (DELETE) the sets they recorded while the visit is in progress; the office
+    any set, as for every visit record."""
 
     serializer_class = ReadingSetSerializer
     filterset_class = filtersets.ReadingSetFilterSet
@@ -243,6 +247,23 @@ class ReadingSetViewSet(VisitRecordViewSet):
     model = ReadingSet
     relation = "diagnosis"
     record_noun = "readings"
+    action_roles = {
+        **VisitRecordViewSet.action_roles,
+        "partial_update": (OFFICE, TECHNICIAN),
+        "destroy": (OFFICE, TECHNICIAN),
+    }
+
+    def check_object_permissions(self, request: Request, obj: Any) -> None:
+        """Beyond the role: without the office's, only one's own set may be changed."""
+        super().check_object_permissions(request, obj)
+        if request.method in SAFE_METHODS or roles_of(request.user).office:
+            return
+        if obj.created_by_id != request.user.pk:
+            by = obj.created_by.username if obj.created_by else "the office"
+            raise PermissionDenied(
+                f"a technician changes or withdraws only the reading sets they recorded; "
+                f"this one was recorded by {by}"
+            )
 
 
 @visit_record_schema(

@@ -5,6 +5,7 @@ from __future__ import annotations
 from django.db.models import QuerySet
 from drf_spectacular.utils import extend_schema, extend_schema_view
 from rest_framework.decorators import action
+from rest_framework.exceptions import ValidationError
 from rest_framework.request import Request
 from rest_framework.response import Response
 
@@ -73,16 +74,23 @@ class VisitViewSet(RecordViewSet):
 
     @action(detail=True, methods=["post"])
     def submit(self, request: Request, pk: str | None = None) -> Response:
-        """Hand the visit to the office for review; nothing more can be posted to it."""
+        """Hand the visit to the office for review, with a summary of the work and, for
+        each unit without readings, why; nothing more can be posted to it."""
         visit = self.get_object()
         body = SubmitSerializer(data=request.data)
         body.is_valid(raise_exception=True)
-        moved = services.move_visit(
-            visit,
-            VisitStatus.SUBMITTED,
-            by=signed_in(request),
-            work_summary=body.validated_data.get("work_summary"),
-        )
+        try:
+            moved = services.submit_visit(
+                visit,
+                by=signed_in(request),
+                work_summary=body.validated_data.get("work_summary"),
+                units_not_read=[
+                    services.NotRead(entry["unit"], entry["reason"], entry.get("note", ""))
+                    for entry in body.validated_data.get("units_not_read", [])
+                ],
+            )
+        except services.IncompleteSubmission as exc:
+            raise ValidationError(exc.errors) from exc
         return self._moved(moved)
 
     @action(detail=True, methods=["post"])
