@@ -19,14 +19,26 @@ export function h(tag, attrs = {}, ...children) {
 
 let refresher = null;
 
-/* The current screen's way to redraw what changed when the outbox sends something. */
-export const whenSent = (redraw) => {
-  refresher = redraw;
-};
+/* Redraw what changed on the current screen when the outbox sends something. */
 export const refresh = () => (refresher ? refresher() : undefined);
 
+let drawn = 0;
+
+/* A screen's way to draw itself: only the screen asked for last may draw, so one that was
+   still loading when the technician moved on cannot cover the screen they moved to. */
+export function screen() {
+  drawn += 1;
+  const mine = drawn;
+  const draw = (...children) => (mine === drawn ? show(...children) : undefined);
+  /* Redraw on the outbox's news only while this screen is the one shown. */
+  draw.whenSent = (redraw) => {
+    if (mine === drawn) refresher = redraw;
+  };
+  return draw;
+}
+
 /* Replace the main area's content and move focus there (a screen change is announced). */
-export function show(...children) {
+function show(...children) {
   refresher = null;
   const main = document.getElementById("main");
   main.replaceChildren(...children.flat(Infinity).filter(Boolean));

@@ -1,11 +1,12 @@
 /* Signing in, the day's visits, the outbox and the technician's settings. */
 import { ApiError, NoSignal, signIn, signOut } from "./api.js";
 import { week } from "./data.js";
-import { badge, field, h, show } from "./dom.js";
+import { badge, field, h, screen } from "./dom.js";
 import { discard, flush, pending } from "./outbox.js";
 import { SYSTEMS, setSystem, system } from "./units.js";
 
 export function signInScreen(done) {
+  const show = screen();
   const username = h("input", { name: "username", autocomplete: "username", required: true, autocapitalize: "none", spellcheck: "false" });
   const password = h("input", { name: "password", type: "password", autocomplete: "current-password", required: true });
   const message = h("p", { class: "problem", role: "alert" });
@@ -74,6 +75,7 @@ function visitCard(visit) {
 }
 
 export async function dayScreen(user) {
+  const show = screen();
   show(h("h1", {}, "Your visits"), h("p", { class: "loading" }, "Loading the week…"));
   let visits;
   try {
@@ -103,6 +105,7 @@ function problemText(problem) {
 }
 
 export async function outboxScreen() {
+  const show = screen();
   const entries = await pending();
   const rows = entries.map((entry) =>
     h(
@@ -114,7 +117,7 @@ export async function outboxScreen() {
         ? h(
             "div",
             { class: "actions" },
-            entry.unit && entry.kind !== "withdraw"
+            entry.kind === "reading_set" || entry.kind === "refrigerant_event"
               ? h("a", { class: "button", href: `#/visit/${entry.visit}/unit/${entry.unit}?correct=${entry.client_id}` }, "Correct it")
               : entry.kind === "submit"
                 ? h("a", { class: "button", href: `#/visit/${entry.visit}/submit` }, "Correct it")
@@ -132,6 +135,7 @@ export async function outboxScreen() {
 }
 
 export async function settingsScreen(user) {
+  const show = screen();
   const choices = Object.entries(SYSTEMS).map(([name, text]) =>
     h(
       "label",

@@ -2,11 +2,11 @@
    forms that record what was measured and done (each saved to the outbox first). */
 import { ApiError } from "./api.js";
 import { checklist, keepChecklist, liveInputs, readingSets, unitDetails, visit as loadVisit } from "./data.js";
-import { badge, caution, field, fmt, h, show, whenSent } from "./dom.js";
+import { badge, caution, field, fmt, h, screen } from "./dom.js";
 import { discard, enqueue, newClientId, pending } from "./outbox.js";
 import { capacitorCheck, electricalLines, livePanel, readingsSi } from "./live_panel.js";
 import { kvGet, kvSet } from "./store.js";
-import { label, shown, wireUnits } from "./units.js";
+import { label, shown, siShown, wireUnits } from "./units.js";
 
 const WORDS = {
   txv: "Thermostatic expansion valve (TXV)",
@@ -162,6 +162,8 @@ export const STAGES = {
   as_left: "As left",
 };
 const ADJUSTING_NOTE = "Taken while adjusting.";
+/* The condenser check has no field of its own in a reading set: it goes into the notes. */
+const CONDENSER_NOTES = ["Condenser coil clear.", "Condenser coil blocked or dirty."];
 
 function numberInput(name, value) {
   return h("input", { name, type: "number", inputmode: "decimal", step: "any", value: value ?? "" });
@@ -195,7 +197,7 @@ function readingForm(visitId, unit, answers, prior, saved, live) {
   let defrost = body.in_defrost ?? null;
   const defrostSet = h("fieldset", { class: "tri" }, h("legend", {}, "In defrost?"), triState("in_defrost", defrost, (v) => { defrost = v; }));
   const sight = h("select", { name: "sight_glass" }, [["", "Not looked at"], ["clear", "Clear"], ["bubbles", "Bubbles"], ["none", "No sight glass"]].map(([v, t]) => h("option", { value: v, selected: (body.sight_glass || "") === v }, t)));
-  const notes = h("textarea", { name: "notes", rows: 3, maxlength: 2000 }, (body.notes || "").replace(ADJUSTING_NOTE, "").trim());
+  const notes = h("textarea", { name: "notes", rows: 3, maxlength: 2000 }, CONDENSER_NOTES.reduce((text, n) => text.replace(n, ""), (body.notes || "").replace(ADJUSTING_NOTE, "")).trim());
   const message = h("p", { class: "problem", role: "alert" });
 
   const legs = (list) => list.map(num).filter((v) => v !== null);
@@ -219,7 +221,7 @@ function readingForm(visitId, unit, answers, prior, saved, live) {
       message.textContent = "✕ Type at least one measurement.";
       return;
     }
-    const condenser = answers.condenser_clear === true ? "Condenser coil clear." : answers.condenser_clear === false ? "Condenser coil blocked or dirty." : "";
+    const condenser = answers.condenser_clear === true ? CONDENSER_NOTES[0] : answers.condenser_clear === false ? CONDENSER_NOTES[1] : "";
     const adjusting = stage.value === "adjusting";
     const text = [adjusting ? ADJUSTING_NOTE : "", notes.value.trim(), condenser].filter(Boolean).join(" ");
     const record = {
@@ -240,6 +242,21 @@ function readingForm(visitId, unit, answers, prior, saved, live) {
       condenser_fan_running: answers.condenser_fan_running ?? null,
       notes: text,
     };
+    if (prior && prior.stored) {
+      const { client_id: _unused, ...changes } = record;
+      await enqueue({
+        client_id: newClientId(),
+        kind: "correct",
+        method: "PATCH",
+        visit: visitId,
+        unit: unit.id,
+        path: `visits/${visitId}/reading-sets/${prior.stored.id}/`,
+        body: changes,
+        label: `Correction of readings on ${unit.tag}`,
+      });
+      saved(record);
+      return;
+    }
     await enqueue({
       client_id: record.client_id,
       kind: "reading_set",
@@ -277,7 +294,7 @@ function readingForm(visitId, unit, answers, prior, saved, live) {
 
 /* A set not yet sent can be withdrawn on the phone while there is no signal (with signal
    it may be on its way already). */
-function readingHistory(sets, withdraw) {
+function readingHistory(sets, withdraw, correctHref) {
   if (!sets.length) return h("p", {}, "No readings on this unit yet on this visit.");
   return h(
     "ol",
@@ -292,7 +309,15 @@ function readingHistory(sets, withdraw) {
         h("p", {}, badge(s.state === "sent" ? "sent" : s.state), ` ${stage} · ${new Date(s.taken_at).toLocaleTimeString(undefined, { hour: "2-digit", minute: "2-digit" })}`),
         s.diagnosis ? h("p", {}, `Score ${s.diagnosis.score ?? "not scored"}`, superheat && superheat.measured !== null ? ` · superheat ${fmt(shown(superheat.measured, superheat.unit).value)} ${shown(superheat.measured, superheat.unit).unit}` : "") : h("p", { class: "muted" }, "The diagnosis appears when the office's server has the readings."),
         (s.state === "queued" && !navigator.onLine) || s.state === "rejected"
-          ? h("button", { class: "button", type: "button", onclick: () => withdraw(s.client_id) }, "Withdraw (not sent)")
+          ? h("button", { class: "button", type: "button", onclick: () => withdraw(s) }, "Withdraw (not sent)")
+          : null,
+        s.state === "sent" && s.id && correctHref
+          ? h(
+              "div",
+              { class: "actions" },
+              h("a", { class: "button", href: correctHref(s) }, "Correct"),
+              h("button", { class: "button", type: "button", onclick: () => withdraw(s) }, "Withdraw"),
+            )
           : null,
       );
     }),
@@ -386,7 +411,23 @@ async function refrigerantForm(visitId, unit, prior, saved) {
   );
 }
 
+/* What a correction starts from: a record still in the outbox (its body as typed), or a
+   stored reading set (its SI values shown in the technician's units). */
+async function priorRecord(clientId, sets) {
+  const waiting = (await pending()).find((e) => e.client_id === clientId);
+  if (waiting) return waiting;
+  const stored = sets.find((s) => s.client_id === clientId && s.state === "sent" && s.id);
+  if (!stored) return null;
+  const body = { ...stored };
+  for (const [name, , quantity] of MEASURED) {
+    const value = siShown(stored[name], quantity);
+    body[name] = value === null ? null : Math.round(value * 100) / 100;
+  }
+  return { client_id: clientId, kind: "reading_set", stored, body };
+}
+
 export async function unitScreen(visitId, unitId, correcting) {
+  const show = screen();
   let loaded;
   try {
     loaded = await loadVisit(visitId);
@@ -403,14 +444,31 @@ export async function unitScreen(visitId, unitId, correcting) {
     readingSets(visitId),
     liveInputs(unit).catch(() => null),
   ]);
-  const prior = correcting ? (await pending()).find((e) => e.client_id === correcting) : null;
-  const open = loaded.record.status === "in_progress" || (await pending()).some((e) => e.visit === visitId && e.kind === "start");
-  const withdraw = async (clientId) => {
-    await discard(clientId);
+  const prior = correcting ? await priorRecord(correcting, sets) : null;
+  const waiting = (await pending()).filter((e) => e.visit === visitId);
+  const open =
+    (loaded.record.status === "in_progress" || waiting.some((e) => e.kind === "start")) && !waiting.some((e) => e.kind === "submit");
+  /* A set not sent leaves the outbox; a stored one is withdrawn on the server (DELETE,
+     kept in the visit's history there), through the outbox like any other change. */
+  const withdraw = async (set) => {
+    if (set.state !== "sent") await discard(set.client_id);
+    else
+      await enqueue({
+        client_id: newClientId(),
+        kind: "withdraw",
+        method: "DELETE",
+        visit: visitId,
+        unit: unitId,
+        path: `visits/${visitId}/reading-sets/${set.id}/`,
+        withdrawn: set.client_id,
+        label: `Withdrawal of readings on ${unit.tag}`,
+      });
     redrawHistory();
   };
-  const history = h("div", { id: "history" }, readingHistory(sets.filter((s) => s.unit === unitId), withdraw));
-  const redrawHistory = async () => history.replaceChildren(readingHistory((await readingSets(visitId)).filter((s) => s.unit === unitId), withdraw));
+  const correctHref = open ? (set) => `#/visit/${visitId}/unit/${unitId}?correct=${set.client_id}` : null;
+  const listed = (all) => readingHistory(all.filter((s) => s.unit === unitId), withdraw, correctHref);
+  const history = h("div", { id: "history" }, listed(sets));
+  const redrawHistory = async () => history.replaceChildren(listed(await readingSets(visitId)));
   const confirm = h("p", { class: "saved", role: "status", "aria-live": "polite" });
   const afterSave = async (what) => {
     if (prior) {
@@ -443,8 +501,8 @@ export async function unitScreen(visitId, unitId, correcting) {
     lastDiagnosis(details.diagnosis),
     openFlags(details.flags),
     preClimb(visitId, unitId, answers),
-    open ? [h("h2", { id: "readings" }, "Readings on this visit"), history, confirm, electricalCaution(), form, txvHelp(unit), capacitorCheck(live && live.targets), await refrigerantCard(prior && prior.kind === "refrigerant_event" ? prior : null)] : h("p", { class: "hint" }, "Start the visit to record readings."),
+    open || prior ? [h("h2", { id: "readings" }, "Readings on this visit"), history, confirm, electricalCaution(), form, txvHelp(unit), capacitorCheck(live && live.targets), await refrigerantCard(prior && prior.kind === "refrigerant_event" ? prior : null)] : h("p", { class: "hint" }, waiting.some((e) => e.kind === "submit") ? "The visit is submitted on the phone: nothing more can be recorded." : "Start the visit to record readings."),
   );
-  whenSent(redrawHistory);
+  show.whenSent(redrawHistory);
   return undefined;
 }

@@ -1,7 +1,7 @@
 /* A visit: its site, its units and what the office asked; starting it; submitting it. */
 import { ApiError } from "./api.js";
 import { readingSets, visit as loadVisit } from "./data.js";
-import { badge, field, h, show, whenSent } from "./dom.js";
+import { badge, field, h, screen } from "./dom.js";
 import { enqueue, newClientId, pending } from "./outbox.js";
 import { VISIT_STATUS } from "./screens.js";
 
@@ -13,7 +13,7 @@ async function statusOf(record) {
   return record.status;
 }
 
-function loadFailed(error) {
+function loadFailed(show, error) {
   if (error instanceof ApiError && error.status === 401) return;
   show(h("h1", {}, "Visit"), h("p", { class: "problem" }, "This visit could not be loaded. Open it once with signal so the phone keeps it."), h("a", { class: "button", href: "#/" }, "Back to the day"));
 }
@@ -26,11 +26,12 @@ export const REASONS = {
 };
 
 export async function visitScreen(id) {
+  const show = screen();
   let loaded;
   try {
     loaded = await loadVisit(id);
   } catch (error) {
-    return loadFailed(error);
+    return loadFailed(show, error);
   }
   const { record, site, units, refrigerants } = loaded;
   const sets = await readingSets(id);
@@ -71,18 +72,19 @@ export async function visitScreen(id) {
     h("ul", { class: "cards" }, unitRows),
     status === "in_progress" || status === "start_waiting" ? h("a", { class: "button button--primary", href: `#/visit/${id}/submit` }, "Finish and submit") : null,
   );
-  whenSent(() => {
+  show.whenSent(() => {
     if (location.hash === `#/visit/${id}`) visitScreen(id);
   });
   return undefined;
 }
 
 export async function submitScreen(id) {
+  const show = screen();
   let loaded;
   try {
     loaded = await loadVisit(id);
   } catch (error) {
-    return loadFailed(error);
+    return loadFailed(show, error);
   }
   const { record, units } = loaded;
   const sets = await readingSets(id);
