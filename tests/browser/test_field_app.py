@@ -375,3 +375,57 @@ def test_a_revoked_token_or_signing_out_clears_the_phone(live_server, browser_co
     page.get_by_role("heading", name="Sign in").wait_for()
     assert page.evaluate(held) == {"token": None, "outbox": 0, "kept": 0}
     assert not Token.objects.filter(user__username="marco").exists()
+
+
+def test_correcting_withdrawing_and_a_unit_not_read(live_server, browser_context, shot):
+    """A stored reading set is corrected (PATCH) and another withdrawn (DELETE) from the
+    unit's list; the submit asks why the unit with no readings has none, and sends it."""
+    visit, unit = _visit_today()
+    other = UnitFactory(site=visit.site, tag="HD-RI-1", description="Reach-in")
+    VisitUnitFactory(visit=visit, unit=other)
+    base = live_server.url
+    page = browser_context.new_page()
+    page.set_viewport_size(PHONE)
+    sign_in(page, base)
+    page.get_by_role("link", name=re.compile("Harbour Deli")).click()
+    page.get_by_role("button", name="Start the visit").click()
+    page.get_by_text("In progress").wait_for()
+    page.get_by_role("link", name=re.compile("HD-WIC-1")).click()
+    enter_readings(page, "52", "265")
+    enter_readings(page, "48", "270")
+    on_visit = ReadingSet.objects.filter(visit_unit__visit=visit)
+    wait_until(lambda: on_visit.count() == 2)
+    history = page.locator("#history li")
+    history.nth(1).get_by_role("button", name="Withdraw").wait_for()
+
+    history.first.get_by_role("link", name="Correct").click()
+    form = page.locator("form.reading-form")
+    form.get_by_role("heading", name="Correct the readings").wait_for()
+    assert form.get_by_label(re.compile("^Suction pressure")).input_value() == "52"
+    form.get_by_label(re.compile("^Suction pressure")).fill("53")
+    form.get_by_role("button", name="Save the readings").click()
+    first = on_visit.order_by("taken_at").first()
+    wait_until(lambda: round(ReadingSet.objects.get(pk=first.pk).suction_kpa_gauge, 1) == 365.4)
+
+    page.get_by_role("heading", name="Gauges and thermometers").wait_for()
+    page.locator("#history li").nth(1).get_by_role("button", name="Withdraw").click()
+    wait_until(lambda: on_visit.count() == 1)
+    page.locator("#history li").nth(1).wait_for(state="detached")
+    assert list(on_visit.values_list("pk", flat=True)) == [first.pk]
+
+    page.get_by_role("link", name="← The visit").click()
+    page.get_by_role("link", name="Finish and submit").click()
+    page.get_by_label(re.compile("^Work summary")).fill("Readings on the walk-in.")
+    page.get_by_role("button", name="Submit the visit").click()
+    page.get_by_text("Say why HD-RI-1 has no readings.").wait_for()
+    reason = page.get_by_role("group", name=re.compile("HD-RI-1"))
+    reason.get_by_label("Reason").select_option("off_by_design")
+    reason.get_by_label("Note (optional)").fill("Emptied for the winter.")
+    shot(page, "field-submit-not-read")
+    page.get_by_role("button", name="Submit the visit").click()
+    wait_until(lambda: Visit.objects.get(pk=visit.pk).status == "submitted")
+    kept = visit.visit_units.get(unit=other)
+    assert (kept.not_read_reason, kept.not_read_note) == (
+        "off_by_design",
+        "Emptied for the winter.",
+    )
