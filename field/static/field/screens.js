@@ -35,12 +35,14 @@ export function signInScreen(done) {
   username.focus();
 }
 
-function when(visit) {
+/* A visit's window in its site's time zone (where the technician will be), named. */
+export function when(visit, timeZone) {
+  const zone = timeZone ? { timeZone } : {};
   const start = new Date(visit.window_start);
   const end = new Date(visit.window_end);
-  const day = start.toLocaleDateString(undefined, { weekday: "short", day: "numeric", month: "short" });
-  const time = (d) => d.toLocaleTimeString(undefined, { hour: "2-digit", minute: "2-digit" });
-  return `${day}, ${time(start)}–${time(end)}`;
+  const day = start.toLocaleDateString(undefined, { weekday: "short", day: "numeric", month: "short", ...zone });
+  const time = (d, named) => d.toLocaleTimeString(undefined, { hour: "2-digit", minute: "2-digit", ...(named ? { timeZoneName: "short" } : {}), ...zone });
+  return `${day}, ${time(start, false)}–${time(end, true)}`;
 }
 
 export const VISIT_STATUS = {
@@ -61,7 +63,7 @@ function visitCard(visit) {
     h(
       "a",
       { class: "visit-card", href: `#/visit/${visit.id}` },
-      h("span", { class: "visit-card__when" }, when(visit)),
+      h("span", { class: "visit-card__when" }, when(visit, site && site.time_zone)),
       h("span", { class: "visit-card__site" }, site ? site.name : `Site ${visit.site}`),
       site && site.address ? h("span", { class: "visit-card__address" }, site.address) : null,
       h(

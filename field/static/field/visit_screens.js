@@ -3,7 +3,7 @@ import { ApiError } from "./api.js";
 import { readingSets, visit as loadVisit } from "./data.js";
 import { badge, field, h, screen } from "./dom.js";
 import { enqueue, newClientId, pending } from "./outbox.js";
-import { VISIT_STATUS } from "./screens.js";
+import { VISIT_STATUS, when } from "./screens.js";
 
 /* The visit's status as the phone sees it: a start or submit waiting to send counts. */
 async function statusOf(record) {
@@ -59,6 +59,7 @@ export async function visitScreen(id) {
     h("p", {}, h("a", { href: "#/" }, "← The day")),
     h("h1", {}, `${site ? site.name : "Visit"}`),
     h("p", { class: "status-line" }, `${record.reference} · `, h("strong", {}, VISIT_STATUS[status] || status)),
+    h("p", {}, when(record, site && site.time_zone)),
     h(
       "section",
       { class: "card" },
