@@ -94,6 +94,8 @@ def test_two_concurrent_refrigerant_events_store_one(monkeypatch, visit_unit):
         "kind": "added",
         "amount": 1.5,
         "units": {"mass": "lb"},
+        "cylinder": "CYL-0417",  # what a technician must give (synthetic values)
+        "certification_number": "TEST-CERT-0001",
     }
     url = f"/api/v1/visits/{vu.visit_id}/refrigerant-events/"
     assert _race(monkeypatch, RefrigerantEventViewSet, url, body, technician) == [200, 201]
