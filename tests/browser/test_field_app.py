@@ -429,3 +429,20 @@ def test_correcting_withdrawing_and_a_unit_not_read(live_server, browser_context
         "off_by_design",
         "Emptied for the winter.",
     )
+
+
+def test_a_flammable_refrigerant_brings_its_caution(live_server, browser_context):
+    """A unit on an A3 refrigerant (R-290) shows the flammable-refrigerant caution."""
+    from tests.factories import refrigerant
+
+    visit, unit = _visit_today()
+    unit.refrigerant = refrigerant("R-290")
+    unit.save()
+    Visit.objects.filter(pk=visit.pk).update(status="in_progress")
+    page = browser_context.new_page()
+    page.set_viewport_size(PHONE)
+    sign_in(page, live_server.url)
+    page.goto(f"{live_server.url}/field/#/visit/{visit.pk}/unit/{unit.pk}")
+    warning = page.locator(".caution", has_text="Flammable refrigerant (R-290, safety class A3)")
+    warning.wait_for()
+    assert "No open flames" in warning.inner_text()

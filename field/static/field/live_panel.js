@@ -3,7 +3,7 @@
    saturation temperatures, superheat and subcooling, where the gauges should read, each
    metric's status, which way a TXV wants turning, and the electrical checks. */
 import { badge, caution, field, fmt, h } from "./dom.js";
-import { ampsAgainstRating, capacitorMicrofarads, liveNumbers, voltageUnbalancePercent } from "./live.js";
+import { ELECTRICAL_CAUTION, ampsAgainstRating, capacitorMicrofarads, liveNumbers, voltageUnbalancePercent } from "./live.js";
 import { label, siShown, typedSi } from "./units.js";
 
 const T = "temperature";
@@ -114,6 +114,9 @@ export function livePanel(inputs, txv) {
   return { panel, update };
 }
 
+/* The cautions shown with the electrical fields and helpers (live.js words them once). */
+export const electricalCaution = () => caution("Electrical work", ELECTRICAL_CAUTION);
+
 /* Amps against the nameplate and the supply's unbalance, from the form's legs. */
 export function electricalLines(targets, amps, volts) {
   const e = (targets && targets.electrical) || {};
@@ -153,11 +156,7 @@ export function capacitorCheck(targets) {
     "section",
     { class: "card" },
     h("h2", {}, "Capacitor check"),
-    caution(
-      "Live circuit",
-      "Measure with the unit running only with a meter and leads rated for the circuit; lock out and tag out before touching terminals.",
-      "Discharge the capacitor through a suitable resistor before handling it. Follow local codes and licensed practice.",
-    ),
+    electricalCaution(),
     h("p", { class: "hint" }, `µF = ${e.hertz === 50 ? "3183" : "2652"} × amps through the capacitor ÷ volts across it (at ${e.hertz || 60} Hz).`),
     h("div", { class: "grid" }, field("Amps through the capacitor (A)", amps), field("Volts across the capacitor (V)", volts)),
     result,

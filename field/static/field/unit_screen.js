@@ -4,7 +4,7 @@ import { ApiError } from "./api.js";
 import { checklist, keepChecklist, liveInputs, readingSets, unitDetails, visit as loadVisit } from "./data.js";
 import { badge, caution, field, fmt, h, screen } from "./dom.js";
 import { discard, enqueue, newClientId, pending } from "./outbox.js";
-import { capacitorCheck, electricalLines, livePanel, readingsSi } from "./live_panel.js";
+import { capacitorCheck, electricalCaution, electricalLines, livePanel, readingsSi } from "./live_panel.js";
 import { kvGet, kvSet } from "./store.js";
 import { label, shown, siShown, wireUnits } from "./units.js";
 
@@ -350,15 +350,6 @@ function txvHelp(unit) {
     h("p", {}, "Which way the stem turns to open depends on the valve: check its maker's instructions. Change one thing at a time: common practice is a quarter turn, then wait several minutes for the system to settle before the next reading."),
     h("button", { class: "button", type: "button", onclick: adjusted }, `I turned it: start a ${WAIT_MINUTES}-minute wait`),
     timer,
-  );
-}
-
-function electricalCaution() {
-  return caution(
-    "Electrical work",
-    "Lock out and tag out before touching wiring or components; test that the circuit is dead.",
-    "Discharge capacitors through a suitable resistor before touching or measuring them out of circuit.",
-    "Follow local codes and licensed practice; these helpers do not replace your meter's and the maker's instructions.",
   );
 }
 
