@@ -147,6 +147,12 @@ def test_a_visit_run_from_the_phone_online_and_off(live_server, browser_context,
     page.get_by_text(re.compile("3 waiting to send")).wait_for()
     shot(page, "field-offline-unit")
 
+    # The app opens again with no signal: the shell from the service worker, the records
+    # still waiting on the phone.
+    page.reload()
+    page.get_by_text(re.compile("3 waiting to send")).wait_for()
+    page.get_by_role("heading", name="Before climbing").wait_for()
+
     page.get_by_role("link", name="← The visit").click()
     page.get_by_role("link", name="Finish and submit").click()
     page.get_by_role("button", name="Submit the visit").click()

@@ -63,6 +63,14 @@ def test_the_service_worker_is_scoped_to_the_app_and_keeps_every_file_it_loads()
     assert "/field/manifest.webmanifest" in files
 
 
+@pytest.mark.parametrize("path", ["/field/", "/field/manifest.webmanifest", "/field/sw.js"])
+def test_the_views_read_no_records(path, django_assert_num_queries):
+    """The app reads everything through the API: its own views ask the database nothing."""
+    client = Client()
+    with django_assert_num_queries(0):
+        assert client.get(path).status_code == 200
+
+
 def test_the_views_take_no_writes():
     for path in ("/field/", "/field/manifest.webmanifest", "/field/sw.js"):
         assert Client().post(path).status_code == 405
