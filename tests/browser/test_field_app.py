@@ -12,6 +12,7 @@ import time
 
 import httpx
 import pytest
+from django.db import OperationalError
 from django.utils import timezone
 
 from fleet.models import ReadingSet, RefrigerantEvent, Visit
@@ -29,9 +30,16 @@ TABLET = {"width": 820, "height": 1180}
 
 
 def wait_until(check, timeout: float = 20.0) -> None:
-    """Poll the database until ``check()`` holds (the phone sends in the background)."""
+    """Poll the database until ``check()`` holds (the phone sends in the background). The
+    test database is SQLite in memory, shared with the server's thread: a read that meets
+    the server's write in progress is refused at once ("table is locked") and tried again."""
     deadline = time.monotonic() + timeout
-    while not check():
+    while True:
+        try:
+            if check():
+                return
+        except OperationalError:
+            pass
         if time.monotonic() > deadline:
             raise AssertionError("the phone's records did not arrive in time")
         time.sleep(0.2)
@@ -80,6 +88,10 @@ def enter_readings(page, suction: str, head: str, stage: str = "as_found", look=
         look(form)
     form.get_by_role("button", name="Save the readings").click()
     page.get_by_text(re.compile("Readings saved on the phone")).wait_for()
+    # The saved form gives way to an empty one for the next readings.
+    page.wait_for_function(
+        "() => document.querySelector('form.reading-form [name=suction_pressure]').value === ''"
+    )
 
 
 def test_a_visit_run_from_the_phone_online_and_off(live_server, browser_context, shot):
@@ -135,7 +147,8 @@ def test_a_visit_run_from_the_phone_online_and_off(live_server, browser_context,
     # A third set typed by mistake is withdrawn before it was ever sent.
     enter_readings(page, "99", "299")
     page.get_by_text(re.compile("3 waiting to send")).wait_for()
-    page.locator("#history li").last.get_by_role("button", name="Withdraw (not sent)").click()
+    mistaken = page.locator("#history li", has_text="Suction 99 psig")
+    mistaken.get_by_role("button", name="Withdraw (not sent)").click()
     page.get_by_text(re.compile("2 waiting to send")).wait_for()
     form = page.locator("form", has=page.get_by_role("heading", name="Refrigerant"))
     form.get_by_label("What was done").select_option("added")
@@ -401,10 +414,10 @@ def test_correcting_withdrawing_and_a_unit_not_read(live_server, browser_context
     enter_readings(page, "48", "270")
     on_visit = ReadingSet.objects.filter(visit_unit__visit=visit)
     wait_until(lambda: on_visit.count() == 2)
-    history = page.locator("#history li")
-    history.nth(1).get_by_role("button", name="Withdraw").wait_for()
+    listed = page.locator("#history li")
+    listed.filter(has_text="Suction 48.0 psig").get_by_role("button", name="Withdraw").wait_for()
 
-    history.first.get_by_role("link", name="Correct").click()
+    listed.filter(has_text="Suction 52.0 psig").get_by_role("link", name="Correct").click()
     form = page.locator("form.reading-form")
     form.get_by_role("heading", name="Correct the readings").wait_for()
     assert form.get_by_label(re.compile("^Suction pressure")).input_value() == "52"
@@ -414,9 +427,10 @@ def test_correcting_withdrawing_and_a_unit_not_read(live_server, browser_context
     wait_until(lambda: round(ReadingSet.objects.get(pk=first.pk).suction_kpa_gauge, 1) == 365.4)
 
     page.get_by_role("heading", name="Gauges and thermometers").wait_for()
-    page.locator("#history li").nth(1).get_by_role("button", name="Withdraw").click()
+    listed.filter(has_text="Suction 53.0 psig").wait_for()
+    listed.filter(has_text="Suction 48.0 psig").get_by_role("button", name="Withdraw").click()
     wait_until(lambda: on_visit.count() == 1)
-    page.locator("#history li").nth(1).wait_for(state="detached")
+    listed.filter(has_text="Suction 48.0 psig").wait_for(state="detached")
     assert list(on_visit.values_list("pk", flat=True)) == [first.pk]
 
     page.get_by_role("link", name="← The visit").click()

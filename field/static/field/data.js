@@ -98,7 +98,7 @@ export async function readingSets(visitId) {
     if (entry.kind === "reading_set") rows.set(entry.client_id, { ...entry.body, state: entry.state, entry });
     if (entry.kind === "withdraw") rows.delete(entry.withdrawn);
   }
-  return [...rows.values()].sort((a, b) => String(a.taken_at).localeCompare(String(b.taken_at)));
+  return [...rows.values()].sort((a, b) => Date.parse(a.taken_at) - Date.parse(b.taken_at));
 }
 
 /* The technician's answers before climbing, per visit and unit, copied into each set. */

@@ -292,6 +292,13 @@ function readingForm(visitId, unit, answers, prior, saved, live) {
   return form;
 }
 
+/* A pressure of a listed set: a stored one in SI (as asked for), one waiting as typed. */
+function gauge(set, value) {
+  if (value === null || value === undefined) return "—";
+  if (set.state === "sent") return `${fmt(siShown(value, "pressure"))} ${label("pressure")}`;
+  return `${value} ${set.units.pressure}`;
+}
+
 /* A set not yet sent can be withdrawn on the phone while there is no signal (with signal
    it may be on its way already). */
 function readingHistory(sets, withdraw, correctHref) {
@@ -307,6 +314,7 @@ function readingHistory(sets, withdraw, correctHref) {
         "li",
         { class: "card" },
         h("p", {}, badge(s.state === "sent" ? "sent" : s.state), ` ${stage} · ${new Date(s.taken_at).toLocaleTimeString(undefined, { hour: "2-digit", minute: "2-digit" })}`),
+        h("p", {}, `Suction ${gauge(s, s.suction_pressure)} · head ${gauge(s, s.head_pressure)}`),
         s.diagnosis ? h("p", {}, `Score ${s.diagnosis.score ?? "not scored"}`, superheat && superheat.measured !== null ? ` · superheat ${fmt(shown(superheat.measured, superheat.unit).value)} ${shown(superheat.measured, superheat.unit).unit}` : "") : h("p", { class: "muted" }, "The diagnosis appears when the office's server has the readings."),
         (s.state === "queued" && !navigator.onLine) || s.state === "rejected"
           ? h("button", { class: "button", type: "button", onclick: () => withdraw(s) }, "Withdraw (not sent)")
@@ -485,8 +493,8 @@ export async function unitScreen(visitId, unitId, correcting) {
   show(
     h("p", {}, h("a", { href: `#/visit/${visitId}` }, "← The visit")),
     h("h1", {}, unit.tag),
-    open ? h("nav", { class: "actions", "aria-label": "On this screen" }, jump("checks", "Checks"), jump("readings", "Readings"), jump("refrigerant", "Refrigerant")) : null,
     unit.description ? h("p", { class: "lead" }, unit.description) : null,
+    open ? h("nav", { class: "actions jump", "aria-label": "On this screen" }, jump("checks", "Checks"), jump("readings", "Readings"), jump("refrigerant", "Refrigerant")) : null,
     flammableCaution(refrigerant),
     nameplate(unit, refrigerant, details.components),
     lastDiagnosis(details.diagnosis),
