@@ -276,6 +276,7 @@ def test_it_fits_a_tablet_and_a_narrow_phone(live_server, browser_context, shot)
 
     page.goto(f"{base}/field/#/settings")
     page.get_by_label("°C and bar").check()
+    page.get_by_text("Kept on this phone: °C and bar.").wait_for()
     page.reload()
     page.goto(f"{base}/field/#/visit/{visit.pk}/unit/{unit.pk}")
     page.get_by_label("Suction pressure (bar)").wait_for()

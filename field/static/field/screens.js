@@ -138,18 +138,28 @@ export async function outboxScreen() {
 
 export async function settingsScreen(user) {
   const show = screen();
+  const kept = h("p", { class: "saved", role: "status", "aria-live": "polite" });
   const choices = Object.entries(SYSTEMS).map(([name, text]) =>
     h(
       "label",
       { class: "choice" },
-      h("input", { type: "radio", name: "units", value: name, checked: system() === name, onchange: () => setSystem(name) }),
+      h("input", {
+        type: "radio",
+        name: "units",
+        value: name,
+        checked: system() === name,
+        onchange: async () => {
+          await setSystem(name);
+          kept.textContent = `✓ Kept on this phone: ${text}.`;
+        },
+      }),
       ` ${text}`,
     ),
   );
   const unsent = (await pending()).length;
   show(
     h("h1", {}, "Settings"),
-    h("fieldset", { class: "card" }, h("legend", {}, "Units for readings"), choices),
+    h("fieldset", { class: "card" }, h("legend", {}, "Units for readings"), choices, kept),
     h(
       "section",
       { class: "card" },
