@@ -118,6 +118,8 @@ INSTALLED_APPS = [
     "fleet",
     "diagnostics",
     "reports",
+    # The technician's installable app at /field/ (a shell page, its manifest, its worker).
+    "field",
 ]
 
 MIDDLEWARE = [

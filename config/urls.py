@@ -36,5 +36,6 @@ urlpatterns = [
     path("reports/", include("reports.urls")),
     path("jobs/", include("jobs.urls")),
     path("alerts/", include("alerts.urls")),
+    path("field/", include("field.urls")),
     path("", include("fleet.urls")),
 ]
