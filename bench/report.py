@@ -46,6 +46,13 @@ def _children_cpu() -> float:
     return t.children_user + t.children_system
 
 
+def _variant(text: str) -> tuple[str, int, int]:
+    """ "jpeg150-1" -> ("jpeg", 150, 1): chart format, dots per inch, chart processes."""
+    name, _, workers = text.partition("-")
+    fmt = name.rstrip("0123456789")
+    return fmt, int(name[len(fmt) :] or 150), int(workers or 1)
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--sizes", default="10,50,200")
@@ -57,7 +64,7 @@ def main() -> None:
     )
     args = parser.parse_args()
     sizes = [int(s) for s in args.sizes.split(",")]
-    variants = [(v.split("-")[0], int(v.split("-")[1])) for v in args.variants.split(",")]
+    variants = [_variant(v) for v in args.variants.split(",")]
 
     with tempfile.TemporaryDirectory(prefix="rimewatch-bench-") as tmp:
         _setup(Path(tmp))
@@ -85,8 +92,8 @@ def main() -> None:
         print(header)
         print("-" * len(header))
         totals: dict[tuple[str, int], dict[int, float]] = {}
-        for fmt, workers in variants:
-            key = (fmt, workers)
+        for fmt, dpi, workers in variants:
+            key = (fmt, dpi, workers)
             totals[key] = {}
             for n in sizes:
                 cpu0 = time.process_time() + _children_cpu()
@@ -97,33 +104,34 @@ def main() -> None:
                     display=display,
                     workers=workers,
                     chart_format=fmt,
+                    chart_dpi=dpi,
                 )
                 cpu = time.process_time() + _children_cpu() - cpu0
                 tm = built.timings
                 total = sum(tm.values())
                 totals[key][n] = total
                 print(
-                    f"{fmt}-{workers:<4} {n:>5} {built.page_count:>5} {tm['gather']:>6.2f}s "
+                    f"{fmt}{dpi}-{workers:<2} {n:>5} {built.page_count:>5} {tm['gather']:>6.2f}s "
                     f"{tm['charts']:>6.2f}s {tm['html']:>5.2f}s {tm['pdf']:>6.2f}s "
                     f"{total:>6.2f}s {cpu:>6.2f}s {len(built.pdf) / 1e6:>6.2f}"
                 )
                 if args.keep:
                     args.keep.mkdir(parents=True, exist_ok=True)
-                    (args.keep / f"report-{n}-{fmt}-{workers}.pdf").write_bytes(built.pdf)
+                    (args.keep / f"report-{n}-{fmt}{dpi}-{workers}.pdf").write_bytes(built.pdf)
 
         print()
         small, large = min(sizes), max(sizes)
         for key, by_size in totals.items():
             ratio = by_size[large] / by_size[small]
             print(
-                f"{key[0]}-{key[1]}: {large} vs {small} units took {ratio:.1f}x the time "
+                f"{key[0]}{key[1]}-{key[2]}: {large} vs {small} units took {ratio:.1f}x the time "
                 f"for {large / small:.0f}x the units"
                 + (f"; 50 units: {by_size[50]:.1f} s (goal < 10 s)" if 50 in by_size else "")
             )
         base = variants[0]
         for key in variants[1:]:
             side = ", ".join(f"{n} units {totals[key][n] / totals[base][n]:.2f}x" for n in sizes)
-            print(f"{key[0]}-{key[1]} against {base[0]}-{base[1]}: {side}")
+            print(f"{key[0]}{key[1]}-{key[2]} against {base[0]}{base[1]}-{base[2]}: {side}")
 
 
 if __name__ == "__main__":

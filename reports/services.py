@@ -26,6 +26,7 @@ from django.utils import timezone
 
 from fleet.display import Display, display_for
 from fleet.models import Site
+from fleet.replica import replica_reads
 
 from . import charts
 from .data import SiteMonth
@@ -100,7 +101,8 @@ def build_report(
     configured: int = getattr(settings, "RIMEWATCH_REPORT_CHART_WORKERS", DEFAULT_CHART_WORKERS)
     chart_workers = workers or configured
     marks = [(time.perf_counter(), time.process_time())]
-    sm = gather_site_month(site_id, month, now=now)
+    with replica_reads():  # report reads: a replica a moment behind the primary will do
+        sm = gather_site_month(site_id, month, now=now)
     marks.append((time.perf_counter(), time.process_time()))
     figures = [unit_figure(u, display) for u in sm.units]
     images = draw_unit_charts(
