@@ -45,7 +45,8 @@ from .render import LAYOUT_VERSION, UnitChart, render_html, render_pdf, unit_cha
 DEFAULT_CHART_FORMAT = "jpeg"
 #: Processes drawing the charts (1: in the calling process) where the settings name none;
 #: they name one per core, up to four. On the two-core development machine two workers
-#: took a 50-unit report from 12.8 s to 9.6 s (bench/report.py, png-1 against png-2).
+#: took a 50-unit report of 300-dpi PNGs from 12.8 s to 9.6 s (bench/report.py's
+#: ``--variants png300-1,png300-2``). A worker's report job draws in its own process.
 DEFAULT_CHART_WORKERS = 1
 
 
