@@ -256,14 +256,14 @@ def on_workers(args: argparse.Namespace, tmp: str) -> None:
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--sizes", default="20,60")
+    parser.add_argument("--sizes", default="20,60", help='site sizes to time ("": none)')
     parser.add_argument(
         "--variants",
         default="png300-1,jpeg150-1,png150-1",
         help="chart format, dpi and chart processes to compare (the first is the baseline)",
     )
     parser.add_argument("--repeats", type=int, default=2, help="reports per variant and size")
-    parser.add_argument("--sites", type=int, default=8, help="sites run on the workers")
+    parser.add_argument("--sites", type=int, default=8, help="sites run on the workers (0: none)")
     parser.add_argument("--site-units", type=int, default=20, help="units of each such site")
     parser.add_argument("--workers", default="1,2", help="worker counts to run them on")
     parser.add_argument("--keep", type=Path, help="write the PDFs into this folder")
@@ -275,7 +275,8 @@ def main() -> None:
 
         load = ", ".join(f"{x:.1f}" for x in os.getloadavg())
         print(f"database: {connection.vendor}; {os.cpu_count()} cores, load average {load}")
-        stages(args)
+        if args.sizes:
+            stages(args)
         if args.sites:
             on_workers(args, tmp)
 
