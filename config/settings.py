@@ -304,6 +304,8 @@ SPECTACULAR_SETTINGS = {
     "REDOC_DIST": "SIDECAR",
     # <id:...> in paths is a record id (fleet/validation.py): an integer in the schema.
     "PATH_CONVERTER_OVERRIDES": {"id": int},
+    # A part's kind is one list wherever a part is written (components, parts fitted).
+    "ENUM_NAME_OVERRIDES": {"ComponentKindEnum": "fleet.choices.ComponentKind"},
 }
 
 # E-mail (reports, password resets) through an SMTP server once EMAIL_HOST is set; without

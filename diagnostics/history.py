@@ -33,7 +33,14 @@ from diagnostics.core import (
     start_history,
 )
 from diagnostics.core.types import APPLICATIONS, UnitDesign, choice
-from fleet.choices import ComponentKind, RefrigerantEventKind, Stage, VisitKind, VisitStatus
+from fleet.choices import (
+    STANDING_STAGES,
+    ComponentKind,
+    RefrigerantEventKind,
+    Stage,
+    VisitKind,
+    VisitStatus,
+)
 from fleet.limits import SERVICE_ERA
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit, VisitUnit
 from fleet.validation import stored_date_problem
@@ -371,7 +378,7 @@ def history_queries(today: dt.date, unit_ids: Iterable[int] | None = None) -> Hi
             "nameplate_volts_max",
             "design_temperature_basis",
         ),
-        readings=ReadingSet.objects.filter(visit_unit__unit_id__in=ids)
+        readings=ReadingSet.objects.filter(visit_unit__unit_id__in=ids, stage__in=STANDING_STAGES)
         .order_by("taken_at")
         .values_list(*_READING_FIELDS),
         parts=Component.objects.filter(unit_id__in=ids).values(

@@ -95,8 +95,17 @@ VISIT_TRANSITIONS: dict[str, frozenset[str]] = {
 
 
 class Stage(models.TextChoices):
+    """When in a visit a reading set was taken. Sets taken while adjusting (a TXV turned a
+    step at a time) are kept as the visit's record but stand for neither the unit as found
+    nor as left, so trends and reports leave them out."""
+
     AS_FOUND = "as_found", "As found"
+    ADJUSTING = "adjusting", "While adjusting"
     AS_LEFT = "as_left", "As left"
+
+
+#: The stages whose reading sets stand for the unit's state in trends, flags and reports.
+STANDING_STAGES = (Stage.AS_FOUND, Stage.AS_LEFT)
 
 
 class SightGlass(models.TextChoices):

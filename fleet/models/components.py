@@ -85,6 +85,9 @@ class Component(models.Model):
         Visit, null=True, blank=True, on_delete=models.SET_NULL, related_name="components_changed"
     )
     reason = models.CharField(max_length=200, blank=True)
+    #: Chosen by the phone when a technician records a part fitted on a visit, so a retried
+    #: post stores nothing new; blank for parts the office enters.
+    client_id = models.UUIDField(null=True, blank=True, unique=True, editable=False)
 
     #: Who may see it: whoever sees its unit.
     reach = scope.Through(scope.units, "unit__")
