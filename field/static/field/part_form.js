@@ -33,10 +33,12 @@ export function partForm(visitId, unit, components, saved) {
   const message = h("p", { class: "problem", role: "alert" });
   const rating = h(
     "fieldset",
-    { class: "legs" },
+    {},
     h("legend", {}, "Rating as printed on the new part"),
     h("p", { class: "hint" }, "A run capacitor: its µF and ± %. A start capacitor: its range, lowest to highest µF."),
-    h("div", { class: "grid" }, field("Rated (µF)", rated), field("Tolerance (± %)", tolerance), field("Range from (µF)", low), field("Range to (µF)", high), field("Volts", volts)),
+    h("div", { class: "pair" }, field("Rated (µF)", rated), field("Tolerance (± %)", tolerance)),
+    h("div", { class: "pair" }, field("Range from (µF)", low), field("Range to (µF)", high)),
+    field("Volts", volts),
   );
   const chosen = () => {
     const kept = fittedOfKind(components, kind.value);
