@@ -166,12 +166,7 @@ class ComponentInline(admin.TabularInline):
     fk_name = "unit"
     extra = 0
     fields = (
-        "kind",
-        "rated_uf",
-        "tolerance_pct",
-        "rating_uf_min",
-        "rating_uf_max",
-        "rating_volts",
+        *models.PART_FIELDS,
         "installed_on",
         "removed_on",
         "reason",

@@ -13,13 +13,14 @@ first migration.
 from __future__ import annotations
 
 from .audit import AuditAction, AuditEntry
-from .components import Component
+from .components import PART_FIELDS, Component
 from .readings import ReadingSet, RefrigerantEvent
 from .sites import Customer, Site, validate_time_zone
 from .units import Refrigerant, Unit
 from .visits import Visit, VisitUnit
 
 __all__ = [
+    "PART_FIELDS",
     "AuditAction",
     "AuditEntry",
     "Component",

@@ -39,6 +39,17 @@ def _band_of_rating() -> Q:
     )
 
 
+#: What a part is and its rating as printed: the fields of every form that writes a part.
+PART_FIELDS = (
+    "kind",
+    "rated_uf",
+    "tolerance_pct",
+    "rating_uf_min",
+    "rating_uf_max",
+    "rating_volts",
+)
+
+
 class Component(models.Model):
     """A replaceable part of a unit, with its rating and its history.
 

@@ -11,7 +11,7 @@ from django.utils import timezone
 from rest_framework import serializers
 
 from fleet import services
-from fleet.models import Component, Unit, Visit
+from fleet.models import PART_FIELDS, Component, Unit, Visit
 
 from .base import ValidatedModelSerializer
 from .units import ComponentSerializer
@@ -58,12 +58,7 @@ class PartFittedSerializer(ComponentSerializer):
             "client_id",
             "visit",
             "unit",
-            "kind",
-            "rated_uf",
-            "tolerance_pct",
-            "rating_uf_min",
-            "rating_uf_max",
-            "rating_volts",
+            *PART_FIELDS,
             "installed_on",
             "replaces",
             "reason",
