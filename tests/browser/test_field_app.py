@@ -105,6 +105,20 @@ def sign_in(page, base: str) -> None:
     page.get_by_role("heading", name="Your visits").wait_for()
 
 
+def at_the_unit(browser_context, base: str, visit):
+    """A phone signed in, the visit started (and the server told), the walk-in's screen open."""
+    page = browser_context.new_page()
+    page.set_viewport_size(PHONE)
+    sign_in(page, base)
+    page.get_by_role("link", name=re.compile("Harbour Deli")).click()
+    page.get_by_role("button", name="Start the visit").click()
+    page.get_by_text("In progress").wait_for()
+    wait_until(lambda: Visit.objects.get(pk=visit.pk).status == "in_progress")
+    page.get_by_role("link", name=re.compile("HD-WIC-1")).click()
+    page.get_by_role("heading", name="Gauges and thermometers").wait_for()
+    return page
+
+
 def enter_readings(page, suction: str, head: str, stage: str = "as_found", look=None) -> None:
     form = page.locator("form.reading-form")
     form.get_by_label("Stage").select_option(stage)
@@ -260,14 +274,7 @@ def test_an_answer_lost_on_the_way_back_is_sent_again_and_stored_once(live_serve
     with the stored record, the phone lets it go, and the server has one set."""
     visit, _unit = _visit_today()
     base = live_server.url
-    page = browser_context.new_page()
-    page.set_viewport_size(PHONE)
-    sign_in(page, base)
-    page.get_by_role("link", name=re.compile("Harbour Deli")).click()
-    page.get_by_role("button", name="Start the visit").click()
-    page.get_by_text("In progress").wait_for()
-    page.get_by_role("link", name=re.compile("HD-WIC-1")).click()
-    page.get_by_role("heading", name="Gauges and thermometers").wait_for()
+    page = at_the_unit(browser_context, base, visit)
 
     browser_context.set_offline(True)
     enter_readings(page, "52", "265")
@@ -341,15 +348,7 @@ def test_a_refused_record_is_shown_for_correcting_and_holds_back_the_submit(
     visit's submit back, and the corrected readings go under a new client_id."""
     visit, _unit = _visit_today()
     base = live_server.url
-    page = browser_context.new_page()
-    page.set_viewport_size(PHONE)
-    sign_in(page, base)
-    page.get_by_role("link", name=re.compile("Harbour Deli")).click()
-    page.get_by_role("button", name="Start the visit").click()
-    page.get_by_text("In progress").wait_for()
-    wait_until(lambda: Visit.objects.get(pk=visit.pk).status == "in_progress")
-    page.get_by_role("link", name=re.compile("HD-WIC-1")).click()
-    page.get_by_role("heading", name="Gauges and thermometers").wait_for()
+    page = at_the_unit(browser_context, base, visit)
 
     browser_context.set_offline(True)
     enter_readings(page, "-20", "265")
@@ -455,13 +454,7 @@ def test_correcting_withdrawing_and_a_unit_not_read(live_server, browser_context
     other = UnitFactory(site=visit.site, tag="HD-RI-1", description="Reach-in")
     VisitUnitFactory(visit=visit, unit=other)
     base = live_server.url
-    page = browser_context.new_page()
-    page.set_viewport_size(PHONE)
-    sign_in(page, base)
-    page.get_by_role("link", name=re.compile("Harbour Deli")).click()
-    page.get_by_role("button", name="Start the visit").click()
-    page.get_by_text("In progress").wait_for()
-    page.get_by_role("link", name=re.compile("HD-WIC-1")).click()
+    page = at_the_unit(browser_context, base, visit)
     enter_readings(page, "52", "265")
     enter_readings(page, "48", "270")
     on_visit = ReadingSet.objects.filter(visit_unit__visit=visit)
