@@ -97,10 +97,10 @@ def nothing_waiting(page) -> None:
     expect(page.locator("#outbox-status")).to_have_text("")
 
 
-def sign_in(page, base: str) -> None:
+def sign_in(page, base: str, username: str = "marco", password: str = PASSWORD) -> None:
     page.goto(f"{base}/field/")
-    page.get_by_label("Username").fill("marco")
-    page.get_by_label("Password").fill(PASSWORD)
+    page.get_by_label("Username").fill(username)
+    page.get_by_label("Password").fill(password)
     page.get_by_role("button", name="Sign in").click()
     page.get_by_role("heading", name="Your visits").wait_for()
 
