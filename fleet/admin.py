@@ -167,6 +167,9 @@ class ComponentInline(admin.TabularInline):
     extra = 0
     fields = (
         *models.PART_FIELDS,
+        "make",
+        "model_number",
+        "serial_number",
         "installed_on",
         "removed_on",
         "reason",
@@ -191,7 +194,15 @@ class UnitAdmin(SavedWithTrail):
         "condenser_type",
         "site__customer",
     )
-    search_fields = ("tag", "description", "site__name", "site__customer__name")
+    search_fields = (
+        "tag",
+        "description",
+        "serial_number",
+        "model_number",
+        "compressor_serial",
+        "site__name",
+        "site__customer__name",
+    )
     list_select_related = ("site__customer", "refrigerant")
     ordering = ("site__customer__name", "site__name", "tag")
     autocomplete_fields = ("site",)
@@ -213,11 +224,25 @@ class UnitAdmin(SavedWithTrail):
             },
         ),
         (
+            "Equipment",
+            {
+                "fields": (
+                    "make",
+                    "model_number",
+                    "serial_number",
+                    "compressor_model",
+                    "compressor_serial",
+                    "warranty_ends_on",
+                )
+            },
+        ),
+        (
             "Refrigerant circuit",
             {
                 "fields": (
                     "refrigerant",
                     "full_charge_kg",
+                    "full_charge_basis",
                     "metering_device",
                     "condenser_type",
                     "has_receiver",

@@ -11,6 +11,16 @@ class Application(models.TextChoices):
     OTHER = "other", "Other"
 
 
+class ChargeBasis(models.TextChoices):
+    """How an appliance's full charge was determined: the ways 40 CFR 82.152 ("full
+    charge") and 84.103 allow, alone or combined."""
+
+    NAMEPLATE = "nameplate", "Manufacturer's nameplate"
+    CALCULATED = "calculated", "Calculated from component sizes and line lengths"
+    ESTABLISHED_RANGE = "established_range", "Established range of best estimates"
+    COMBINED = "combined", "A combination of these"
+
+
 class ApplianceType(models.TextChoices):
     """Appliance types of the leak-repair rules (40 CFR 82.152 / 84.102)."""
 

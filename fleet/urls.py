@@ -5,6 +5,7 @@ from django.urls import path
 from .views import (
     attention,
     base,
+    equipment,
     flags,
     maintenance,
     people,
@@ -35,6 +36,8 @@ urlpatterns = [
     path("sites/", sites.site_list, name="sites"),
     path("sites/<id:pk>/", sites.site_detail, name="site"),
     path("sites/<id:pk>/reports/<str:month>/", sites.site_report, name="site-report"),
+    path("sites/<id:pk>/tags.pdf", equipment.site_tags, name="site-tags"),
+    path("search/", equipment.plate_search, name="plate-search"),
     path("attention/", attention.attention, name="attention"),
     path("people/", people.people_list, name="people"),
     path("people/new/", people.person_create, name="person-create"),

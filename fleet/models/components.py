@@ -17,6 +17,7 @@ from .. import choices
 from .. import reach as scope
 from ..limits import COMPONENT_LIMITS
 from ..validation import limit_constraints, limit_validators, record_date_errors
+from .equipment import Nameplate
 from .units import Unit
 from .visits import Visit
 
@@ -50,7 +51,7 @@ PART_FIELDS = (
 )
 
 
-class Component(models.Model):
+class Component(Nameplate):
     """A replaceable part of a unit, with its rating and its history.
 
     A capacitor's rating is given the way it is printed on the can: a run capacitor as

@@ -118,6 +118,13 @@ class UnitSerializer(MeasuredSerializer):
             "pm_interval_days",
             "installed_on",
             "retired_on",
+            "make",
+            "model_number",
+            "serial_number",
+            "compressor_model",
+            "compressor_serial",
+            "warranty_ends_on",
+            "full_charge_basis",
             "units",
         ]
         extra_kwargs = {
@@ -154,6 +161,9 @@ class ComponentSerializer(ValidatedModelSerializer):
             "id",
             "unit",
             *PART_FIELDS,
+            "make",
+            "model_number",
+            "serial_number",
             "installed_on",
             "removed_on",
             "changed_on_visit",
