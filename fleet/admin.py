@@ -419,3 +419,29 @@ class AuditEntryAdmin(admin.ModelAdmin):
         self, request: HttpRequest, obj: models.AuditEntry | None = None
     ) -> bool:
         return False
+
+
+@admin.register(models.UnitDocument)
+class UnitDocumentAdmin(admin.ModelAdmin):
+    """Files kept with units, listed for finding; they are added on the unit's page and
+    kept with its history, so none is deleted here."""
+
+    list_display = ("unit", "kind", "title", "original_name", "size_bytes", "uploaded_at")
+    list_filter = ("kind",)
+    search_fields = ("unit__tag", "title", "original_name")
+    list_select_related = ("unit__site",)
+    readonly_fields = (
+        "unit",
+        "file",
+        "original_name",
+        "content_type",
+        "size_bytes",
+        "uploaded_by",
+        "uploaded_at",
+    )
+
+    def has_add_permission(self, request: Any) -> bool:
+        return False
+
+    def has_delete_permission(self, request: Any, obj: Any = None) -> bool:
+        return False

@@ -11,6 +11,14 @@ class Application(models.TextChoices):
     OTHER = "other", "Other"
 
 
+class DocumentKind(models.TextChoices):
+    NAMEPLATE_PHOTO = "nameplate_photo", "Nameplate photo"
+    WIRING_DIAGRAM = "wiring_diagram", "Wiring diagram"
+    COMMISSIONING_SHEET = "commissioning_sheet", "Commissioning sheet"
+    PHOTO = "photo", "Photo"
+    OTHER = "other", "Other document"
+
+
 class ChargeBasis(models.TextChoices):
     """How an appliance's full charge was determined: the ways 40 CFR 82.152 ("full
     charge") and 84.103 allow, alone or combined."""

@@ -14,17 +14,19 @@ from zoneinfo import ZoneInfo
 from django import forms
 from django.contrib.auth.models import User
 from django.core.exceptions import ValidationError
+from django.core.files.uploadedfile import UploadedFile
 from django.db import transaction
 from django.db.models import QuerySet
 from django.utils import timezone
 
 from diagnostics.models import Flag
 
+from . import choices
 from .choices import Role, VisitStatus
 from .limits import SERVICE_ERA
 from .models import Site, Unit, Visit, VisitUnit
 from .services import save_new_visit
-from .validation import booking_problems
+from .validation import booking_problems, document_type
 
 #: Statuses in which the office may still change a visit's time, people or units.
 EDITABLE_STATUSES = frozenset({VisitStatus.SCHEDULED, VisitStatus.IN_PROGRESS})
@@ -312,3 +314,21 @@ class CancelVisitForm(forms.Form):
         label="Yes, cancel this visit",
         error_messages={"required": "Tick the box to confirm the cancellation."},
     )
+
+
+class DocumentForm(forms.Form):
+    """A file to keep with a unit: what it is, a title, the file (a photo or a PDF)."""
+
+    kind = forms.ChoiceField(choices=choices.DocumentKind.choices, label="What it is")
+    title = forms.CharField(max_length=200, required=False, label="Title (optional)")
+    file = forms.FileField(label="File", help_text="A photo (JPEG or PNG) or a PDF, up to 20 MB.")
+
+    def clean_file(self) -> UploadedFile:
+        upload: UploadedFile = self.cleaned_data["file"]
+        head = upload.read(16)
+        upload.seek(0)
+        content_type, problem = document_type(head, upload.size or 0)
+        if problem:
+            raise forms.ValidationError(problem)
+        upload.content_type = content_type
+        return upload

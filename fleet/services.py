@@ -26,6 +26,7 @@ from typing import Any, Generic, TypeVar
 from zoneinfo import ZoneInfo
 
 from django.contrib.auth.models import User
+from django.core.files.uploadedfile import UploadedFile
 from django.db import IntegrityError, models, transaction
 from django.utils import timezone
 
@@ -43,7 +44,16 @@ from diagnostics.services import (
 
 from . import audit
 from .choices import VISIT_TRANSITIONS, VisitKind, VisitStatus
-from .models import AuditAction, Component, ReadingSet, RefrigerantEvent, Unit, Visit, VisitUnit
+from .models import (
+    AuditAction,
+    Component,
+    ReadingSet,
+    RefrigerantEvent,
+    Unit,
+    UnitDocument,
+    Visit,
+    VisitUnit,
+)
 
 log = logging.getLogger(__name__)
 
@@ -658,3 +668,31 @@ def delete_records(records: Iterable[models.Model], *, by: User | None) -> int:
         delete_record(record, by=by)
         count += 1
     return count
+
+
+def attach_document(
+    unit: Unit, upload: UploadedFile, *, kind: str, title: str, by: User | None
+) -> UnitDocument:
+    """Keep a checked file (``forms.DocumentForm``) with the unit: written through the
+    default storage, recorded in the trail. A file written for a record that then fails to
+    save is removed again, so the storage holds no file without its record."""
+    document = UnitDocument(
+        unit=unit,
+        kind=kind,
+        title=title,
+        original_name=(upload.name or "file")[-200:],
+        content_type=upload.content_type or "application/octet-stream",
+        size_bytes=upload.size or 0,
+        uploaded_by=by,
+    )
+    document.file.save(upload.name or "file", upload, save=False)
+    try:
+        return save_with_trail(None, lambda: _saved(document), by=by)
+    except Exception:
+        document.file.delete(save=False)
+        raise
+
+
+def _saved(record: M) -> M:
+    record.save()
+    return record

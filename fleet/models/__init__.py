@@ -14,6 +14,7 @@ from __future__ import annotations
 
 from .audit import AuditAction, AuditEntry
 from .components import PART_FIELDS, Component
+from .documents import UnitDocument
 from .readings import ReadingSet, RefrigerantEvent
 from .sites import Customer, Site, validate_time_zone
 from .units import Refrigerant, Unit
@@ -30,6 +31,7 @@ __all__ = [
     "RefrigerantEvent",
     "Site",
     "Unit",
+    "UnitDocument",
     "Visit",
     "VisitUnit",
     "validate_time_zone",

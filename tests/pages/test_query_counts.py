@@ -19,7 +19,7 @@ BOUNDS = {
     "maintenance": 8,
     "sites": 4,
     "site": 9,
-    "unit": 13,
+    "unit": 14,  # with its documents (one query for all of them)
     "visit": 11,
 }
 
