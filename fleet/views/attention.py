@@ -7,10 +7,14 @@ import datetime as dt
 from dataclasses import dataclass
 from typing import Any
 
-from django.db.models import OuterRef, Q, Subquery
+from django.contrib import messages
+from django.db.models import OuterRef, Q, QuerySet, Subquery
 from django.http import HttpRequest, HttpResponse
+from django.shortcuts import redirect
+from django.template.defaultfilters import pluralize
+from django.urls import reverse
 from django.utils import timezone
-from django.views.decorators.http import require_GET
+from django.views.decorators.http import require_GET, require_POST
 
 from diagnostics.deadlines import open_leak_deadlines
 from diagnostics.models import Diagnosis, Flag, LeakRate
@@ -18,8 +22,10 @@ from fleet import forms
 from fleet.choices import Application, Role, Stage
 from fleet.limits import day_on_clock
 from fleet.models import ReadingSet, Unit
+from fleet.services import acknowledge_flags
 
-from .base import page, within_reach
+from .base import BadParameter, bad_parameter, page, signed_in, within_reach
+from .lists import UnitPlaceFilter, choice_only, filtered, kept_query, page_of
 
 
 @dataclass(frozen=True)
@@ -40,12 +46,13 @@ class AttentionItem:
         return self.kind in ("repair", "verification")
 
 
-def _open_leak_deadlines(user: Any) -> list[AttentionItem]:
+def _open_leak_deadlines(user: Any, units: QuerySet[Unit]) -> list[AttentionItem]:
     """Repair and initial-verification deadlines not yet met, from the stored leak rates
-    within reach (the rule of ``diagnostics.deadlines``)."""
+    of ``units`` within reach (the rule of ``diagnostics.deadlines``)."""
     rates = list(
         LeakRate.objects.visible_to(user)
         .filter(Q(repair_due_on__isnull=False) | Q(verification_due_on__isnull=False))
+        .filter(event__visit_unit__unit__in=units)
         .select_related("event__visit_unit__unit__site__customer", "event__visit_unit__visit")
     )
     return [
@@ -54,8 +61,8 @@ def _open_leak_deadlines(user: Any) -> list[AttentionItem]:
     ]
 
 
-def _warm_boxes(user: Any) -> list[AttentionItem]:
-    """Units in service whose latest as-found check found the box far off its design
+def _warm_boxes(units: QuerySet[Unit]) -> list[AttentionItem]:
+    """Of ``units``, those in service whose latest as-found check found the box far off its design
     temperature (the stored box-temperature metric at ``fault``): the stock may be at risk.
 
     One query: the latest diagnosed as-found reading of every unit in service, with its
@@ -68,10 +75,8 @@ def _warm_boxes(user: Any) -> list[AttentionItem]:
         .order_by("-taken_at", "-id")
         .values("id")[:1]
     )
-    in_service = (
-        Unit.objects.visible_to(user)
-        .filter(retired_on__isnull=True)
-        .exclude(application=Application.ICE_MACHINE)
+    in_service = units.filter(retired_on__isnull=True).exclude(
+        application=Application.ICE_MACHINE
     )
     diagnoses = list(
         Diagnosis.objects.filter(
@@ -100,41 +105,104 @@ def _warm_boxes(user: Any) -> list[AttentionItem]:
     return items
 
 
+#: Items on one page of the list.
+PAGE_SIZE = 50
+
+#: What the list may be narrowed to besides a customer or site.
+SHOW = [
+    ("flags", "Open flags"),
+    ("deadlines", "Leak deadlines"),
+    ("overdue", "Overdue leak deadlines"),
+    ("warm_boxes", "Boxes far off design"),
+]
+
+
+class AttentionFilter(UnitPlaceFilter):
+    show = choice_only(SHOW, "Everything")
+
+
+def _items(user: Any, units: QuerySet[Unit], show: str, today: dt.date) -> list[AttentionItem]:
+    """What needs the office among ``units``, soonest first: only the sources ``show``
+    asks for are read."""
+    items: list[AttentionItem] = []
+    if show in ("", "flags"):
+        flags = (
+            Flag.objects.visible_to(user)
+            .filter(cleared_at__isnull=True, unit__in=units)
+            .select_related("unit__site__customer", "acknowledged_by")
+        )
+        zone = timezone.get_current_timezone()
+        items.extend(
+            AttentionItem(f.projected_on or day_on_clock(f.opened_at, zone), "flag", f.unit, flag=f)
+            for f in flags
+        )
+    if show in ("", "deadlines", "overdue"):
+        deadlines = _open_leak_deadlines(user, units)
+        if show == "overdue":
+            deadlines = [d for d in deadlines if d.due_on < today]
+        items.extend(deadlines)
+    if show in ("", "warm_boxes"):
+        items.extend(_warm_boxes(units))
+    items.sort(key=lambda i: (i.due_on, i.unit.tag, i.kind))
+    return items
+
+
+def attention_page(
+    request: HttpRequest, ack_form: forms.AcknowledgeFlagsForm | None = None, status: int = 200
+) -> HttpResponse:
+    """The list as the query string narrows it, one page of it at a time, with the one
+    acknowledgement form (the one sent back beside its errors, or a fresh one)."""
+    today = timezone.localdate()
+    try:
+        narrowed = filtered(AttentionFilter, request, Unit.objects.visible_to(request.user))
+        items = _items(request.user, narrowed.qs, narrowed.choice("show"), today)
+        shown = page_of(request, items, PAGE_SIZE)
+    except BadParameter as error:
+        return bad_parameter(request, error)
+    flag_count = sum(1 for i in items if i.kind == "flag")
+    context = {
+        "page": shown,
+        "filter": narrowed,
+        "query": kept_query(request),
+        "today": today,
+        "overdue": sum(1 for i in items if i.is_deadline and i.due_on < today),
+        "flag_count": flag_count,
+        "deadline_count": sum(1 for i in items if i.is_deadline),
+        "warm_box_count": sum(1 for i in items if i.kind == "warm_box"),
+        "to_acknowledge": any(
+            i.flag is not None and i.flag.acknowledged_at is None for i in shown.object_list
+        ),
+        "ack_form": ack_form or forms.AcknowledgeFlagsForm(user=request.user),
+        "ticked": ack_form.ticked() if ack_form else set(),
+    }
+    if not any(narrowed.form.cleaned_data.values()):
+        context["nav_flag_count"] = flag_count  # every open flag within reach: counted
+    return page(request, "fleet/attention.html", context, status=status)
+
+
 @within_reach(Role.OFFICE)
 @require_GET
 def attention(request: HttpRequest) -> HttpResponse:
     """Every open flag, every open leak deadline and every box found far off its design
-    temperature across the fleet, soonest first."""
-    today = timezone.localdate()
-    flags = list(
-        Flag.objects.visible_to(request.user)
-        .filter(cleared_at__isnull=True)
-        .select_related("unit__site__customer", "acknowledged_by")
+    temperature within reach (or a customer's or site's), soonest first, a page at a
+    time."""
+    return attention_page(request)
+
+
+@within_reach(Role.OFFICE)
+@require_POST
+def attention_acknowledge(request: HttpRequest) -> HttpResponse:
+    """Acknowledge the flags ticked on the list with one note; a flag outside the user's
+    reach is refused (400, naming ``flags``) and nothing is acknowledged."""
+    form = forms.AcknowledgeFlagsForm(request.POST, user=request.user)
+    if not form.is_valid():
+        return attention_page(request, form, status=400)
+    done = acknowledge_flags(
+        form.cleaned_data["flags"], form.cleaned_data["note"].strip(), by=signed_in(request)
     )
-    items = [
-        AttentionItem(
-            f.projected_on or day_on_clock(f.opened_at, timezone.get_current_timezone()),
-            "flag",
-            f.unit,
-            flag=f,
-        )
-        for f in flags
-    ]
-    items.extend(_open_leak_deadlines(request.user))
-    items.extend(_warm_boxes(request.user))
-    items.sort(key=lambda i: (i.due_on, i.unit.tag, i.kind))
-    return page(
-        request,
-        "fleet/attention.html",
-        {
-            "items": items,
-            "today": today,
-            "overdue": sum(1 for i in items if i.is_deadline and i.due_on < today),
-            "flag_count": len(flags),
-            "deadline_count": sum(1 for i in items if i.is_deadline),
-            "warm_box_count": sum(1 for i in items if i.kind == "warm_box"),
-            "nav_flag_count": len(flags),
-            "can_acknowledge": True,
-            "ack_form": forms.AcknowledgeFlagForm(),
-        },
-    )
+    if done:
+        messages.success(request, f"{done} flag{pluralize(done)} acknowledged.")
+    else:
+        messages.info(request, "Those flags were acknowledged already.")
+    back = reverse("fleet:attention")
+    return redirect(f"{back}?{request.GET.urlencode()}" if request.GET else back)
