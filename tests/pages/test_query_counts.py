@@ -16,7 +16,7 @@ BOUNDS = {
     "schedule": 8,
     "review-queue": 11,
     "attention": 9,  # the filter's customers included
-    "maintenance": 8,
+    "maintenance": 11,  # the filter's customers, the page's units, those left out
     "sites": 4,
     "site": 9,
     "unit": 13,
