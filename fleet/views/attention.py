@@ -62,11 +62,13 @@ def _open_leak_deadlines(user: Any, units: QuerySet[Unit]) -> list[AttentionItem
 
 
 def _warm_boxes(units: QuerySet[Unit]) -> list[AttentionItem]:
-    """Of ``units``, those in service whose latest as-found check found the box far off its design
-    temperature (the stored box-temperature metric at ``fault``): the stock may be at risk.
+    """Of ``units``, those in service whose latest as-found check found the box far off its
+    design temperature (the stored box-temperature metric at ``fault``): the stock may be
+    at risk.
 
     One query: the latest diagnosed as-found reading of every unit in service, with its
-    diagnosis; their details are expanded in one pass. Ice machines hold no box.
+    diagnosis, when its box was judged a fault (only those rows are built); their details
+    are expanded in one pass. Ice machines hold no box.
     """
     latest = (
         ReadingSet.objects.filter(
@@ -75,13 +77,13 @@ def _warm_boxes(units: QuerySet[Unit]) -> list[AttentionItem]:
         .order_by("-taken_at", "-id")
         .values("id")[:1]
     )
-    in_service = units.filter(retired_on__isnull=True).exclude(
-        application=Application.ICE_MACHINE
-    )
+    in_service = units.filter(retired_on__isnull=True).exclude(application=Application.ICE_MACHINE)
     diagnoses = list(
         Diagnosis.objects.filter(
             reading_set_id__in=in_service.annotate(latest=Subquery(latest)).values("latest")
-        ).select_related(
+        )
+        .with_metric_status("box_temp", "fault")
+        .select_related(
             "reading_set__visit_unit__unit__site__customer", "reading_set__visit_unit__visit"
         )
     )

@@ -26,8 +26,9 @@ from fleet.services import book_proposed_visits
 from .base import BadParameter, bad_parameter, page, signed_in, within_reach
 from .lists import UnitPlaceFilter, choice_only, filtered, kept_query, page_of
 
-#: Sites (each with all its units due) on one page.
-SITES_PER_PAGE = 20
+#: Units on one page, grouped by site: a site with more units due than the page holds goes
+#: on to the next page, so a page's size does not depend on how large a site is.
+PAGE_SIZE = 100
 
 STATES = [
     ("overdue", "Overdue, not booked"),
@@ -42,11 +43,12 @@ class MaintenanceFilter(UnitPlaceFilter):
 
 @dataclass(frozen=True)
 class MaintenanceRow:
-    """A unit due, as the page shows it: read as values (tag, description, interval), not
-    built as a model with its site and customer."""
+    """A unit due, as the page shows it: its status, and (on the page shown) the unit read
+    as values (tag, description, interval), not built as a model with site and customer."""
 
     status: maintenance.MaintenanceStatus
     last_done_on: dt.date | None
+    tag: str
     unit: dict[str, Any] = field(default_factory=dict)
 
     @property
@@ -63,16 +65,14 @@ class MaintenanceRow:
 
 @dataclass
 class SiteGroup:
-    """One site's units due and the visit proposed there (None: every unit is booked)."""
+    """One site's units due on the page and the visit proposed there (None: every unit is
+    booked); ``continued`` when the site's first units are on the page before."""
 
     site_id: int
     rows: list[MaintenanceRow]
     proposal: maintenance.VisitProposal | None
-    site: dict[str, Any] = field(default_factory=dict)
-
-    @property
-    def urgency(self) -> tuple[bool, dt.date]:
-        return min(r.urgency for r in self.rows)
+    continued: bool
+    site: dict[str, Any]
 
 
 @dataclass(frozen=True)
@@ -86,91 +86,100 @@ class LeftOut:
 
 def _plans(
     today: dt.date, units: QuerySet[Unit]
-) -> tuple[list[maintenance.MaintenancePlan], list[SkippedUnit]]:
-    """The maintenance plans the flag refresh decides on, for ``units``, and those of
-    ``units`` left out of them."""
+) -> tuple[list[maintenance.MaintenancePlan], list[SkippedUnit], dict[int, str]]:
+    """The maintenance plans the flag refresh decides on, for ``units``, those of ``units``
+    left out of them, and the tag of each of ``units`` (to sort by)."""
     skipped: list[SkippedUnit] = []
     plans = maintenance_plans(today, skipped=skipped)
-    ids = set(units.values_list("pk", flat=True))
-    return [p for p in plans if p.unit_id in ids], [s for s in skipped if s.unit_id in ids]
+    tags = dict(units.values_list("pk", "tag"))
+    return (
+        [p for p in plans if p.unit_id in tags],
+        [s for s in skipped if s.unit_id in tags],
+        tags,
+    )
 
 
-def _groups(
+def _rows(
     plans: list[maintenance.MaintenancePlan],
+    tags: dict[int, str],
     today: dt.date,
     rules: maintenance.MaintenanceRules,
     state: str,
-) -> list[SiteGroup]:
-    """The sites with a unit due within the horizon (in ``state`` when one is asked for),
-    most urgent first, each with its rows and proposal."""
+) -> list[MaintenanceRow]:
+    """The units due within the horizon (in ``state`` when one is asked for), site by site,
+    the site with the most urgent unit first, and the most urgent first within a site."""
     horizon = today + dt.timedelta(days=rules.proposal_horizon_days)
     by_site: dict[int, list[MaintenanceRow]] = defaultdict(list)
     for plan in plans:
         status = maintenance.maintenance_status(plan, today)
         if status.due_on <= horizon:
-            row = MaintenanceRow(status, plan.last_completed_on)
+            row = MaintenanceRow(status, plan.last_completed_on, tags[plan.unit_id])
             if not state or row.state == state:
                 by_site[plan.site_id].append(row)
-    proposals = {p.site_id: p for p in maintenance.propose_visits(plans, today, rules)}
-    groups = [SiteGroup(site_id, rows, proposals.get(site_id)) for site_id, rows in by_site.items()]
-    groups.sort(key=lambda g: (g.urgency, g.site_id))
-    return groups
+    sites = sorted(by_site.items(), key=lambda s: (min(r.urgency for r in s[1]), s[0]))
+    return [
+        row for _, rows in sites for row in sorted(rows, key=lambda r: (r.urgency, r.tag))
+    ]
 
 
-def _fill(groups: list[SiteGroup]) -> None:
-    """The names the page's groups show: one query for the page's units with their sites,
-    whatever the fleet's size."""
-    unit_ids = [r.status.unit_id for g in groups for r in g.rows]
+def _groups(
+    rows: list[MaintenanceRow],
+    proposals: dict[int, maintenance.VisitProposal],
+    before: MaintenanceRow | None,
+) -> list[SiteGroup]:
+    """A page's rows by site, each with what it shows: one query for the page's units with
+    their sites, whatever the fleet's size. ``before``: the row ending the page before."""
     units = {
         u["id"]: u
-        for u in Unit.objects.filter(pk__in=unit_ids).values(
+        for u in Unit.objects.filter(pk__in=[r.status.unit_id for r in rows]).values(
             "id", "tag", "description", "pm_interval_days", "site__name", "site__customer__name"
         )
     }
-    for group in groups:
-        group.rows = sorted(
-            (
-                MaintenanceRow(r.status, r.last_done_on, units[r.status.unit_id])
-                for r in group.rows
-            ),
-            key=lambda r: (r.urgency, r.unit["tag"]),
-        )
-        first = group.rows[0].unit
-        group.site = {"name": first["site__name"], "customer": first["site__customer__name"]}
+    groups: list[SiteGroup] = []
+    for row in rows:
+        unit = units[row.status.unit_id]
+        site_id = row.status.site_id
+        if not groups or groups[-1].site_id != site_id:
+            continued = not groups and before is not None and before.status.site_id == site_id
+            site = {"name": unit["site__name"], "customer": unit["site__customer__name"]}
+            groups.append(SiteGroup(site_id, [], proposals.get(site_id), continued, site))
+        groups[-1].rows.append(MaintenanceRow(row.status, row.last_done_on, row.tag, unit))
+    return groups
 
 
 @within_reach(Role.OFFICE)
 @require_GET
 def maintenance_due(request: HttpRequest) -> HttpResponse:
     """Units due or overdue for planned maintenance grouped by site, most urgent first, with
-    the visit the core proposes for each site; by customer, site or state as the query
-    string asks."""
+    the visit the core proposes for each site, a page at a time; by customer, site or state
+    as the query string asks."""
     today = timezone.localdate()
     rules = maintenance.DEFAULT_MAINTENANCE_RULES
     try:
         narrowed = filtered(MaintenanceFilter, request, Unit.objects.visible_to(request.user))
-        plans, skipped = _plans(today, narrowed.qs)
-        groups = _groups(plans, today, rules, narrowed.choice("state"))
-        shown = page_of(request, groups, SITES_PER_PAGE)
+        plans, skipped, tags = _plans(today, narrowed.qs)
+        rows = _rows(plans, tags, today, rules, narrowed.choice("state"))
+        shown = page_of(request, rows, PAGE_SIZE)
     except BadParameter as error:
         return bad_parameter(request, error)
-    _fill(list(shown.object_list))
+    proposals = {p.site_id: p for p in maintenance.propose_visits(plans, today, rules)}
+    before = rows[shown.start_index() - 2] if shown.start_index() > 1 else None
     problems = {s.unit_id: s.problems for s in skipped}
     left_out = [
         LeftOut(u, problems[u["id"]])
         for u in Unit.objects.filter(pk__in=list(problems)).values("id", "tag", "site__name")
     ]
-    proposed = [g.proposal for g in groups if g.proposal is not None]
     return page(
         request,
         "fleet/maintenance.html",
         {
             "page": shown,
+            "groups": _groups(list(shown.object_list), proposals, before),
             "filter": narrowed,
             "query": kept_query(request),
-            "proposed_count": len(proposed),
-            "overdue_count": sum(1 for g in groups for r in g.rows if r.state == "overdue"),
-            "unit_count": sum(len(g.rows) for g in groups),
+            "proposed_count": len(proposals),
+            "overdue_count": sum(1 for r in rows if r.state == "overdue"),
+            "site_count": len({r.status.site_id for r in rows}),
             "left_out": left_out,
             "today": today,
             "horizon_days": rules.proposal_horizon_days,
@@ -183,7 +192,7 @@ def maintenance_due(request: HttpRequest) -> HttpResponse:
 def maintenance_propose(request: HttpRequest) -> HttpResponse:
     """Book the proposed planned visits (unassigned; the coordinator assigns them after)."""
     today = timezone.localdate()
-    plans, _ = _plans(today, Unit.objects.visible_to(request.user))
+    plans, _, _ = _plans(today, Unit.objects.visible_to(request.user))
     proposals = maintenance.propose_visits(plans, today)
     units = Unit.objects.filter(pk__in=[pk for p in proposals for pk in p.unit_ids])
     by_id = {u.pk: u for u in units.select_related("site__customer")}

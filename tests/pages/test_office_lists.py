@@ -79,7 +79,7 @@ def _get(client, name: str, query: str = "") -> tuple[int, str]:
 
 #: What marks one row of each list in its HTML.
 ROW = {
-    "maintenance": re.compile(r'<section class="site-due"'),
+    "maintenance": re.compile(r'<th scope="row"><a href="/units/'),
     "review-queue": re.compile(r'<th scope="row"><a href="/visits/'),
     "attention": re.compile(r'<li class="attention__item'),
 }
@@ -92,7 +92,7 @@ def test_a_list_costs_the_same_queries_and_size_at_3_and_12_sites(
     """With two rows to a page, a fleet of 12 sites costs the same queries as one of 3 and
     its page holds the same rows and about the same HTML (only the totals' digits and the
     pager differ); the first page is the same whatever is behind it."""
-    monkeypatch.setattr(maintenance, "SITES_PER_PAGE", 2)
+    monkeypatch.setattr(maintenance, "PAGE_SIZE", 2)
     monkeypatch.setattr(review, "PAGE_SIZE", 2)
     monkeypatch.setattr(attention, "PAGE_SIZE", 2)
     client = signed_in(office_user)
@@ -131,10 +131,11 @@ def test_the_review_queue_is_narrowed_by_technician_and_site_and_paged(
 
 
 def test_maintenance_groups_units_by_site_most_urgent_first_and_narrows_by_state(
-    office_user, technician
+    office_user, technician, monkeypatch
 ):
     """Each site heads its own units and proposed visit; the site whose unit is most overdue
-    comes first; state=booked leaves out the units not booked."""
+    comes first; a site cut by the page's end goes on on the next page, said so;
+    state=booked leaves out the units not booked."""
     client = signed_in(office_user)
     add_sites(2, technician)
     late = SiteFactory(name="Depot late")
@@ -152,6 +153,13 @@ def test_maintenance_groups_units_by_site_most_urgent_first_and_narrows_by_state
     group = page[page.index("Depot 00") : page.index("Depot 01")]
     assert "D00-1" in group and "D00-2" in group and "To book: a visit on" in group
     assert "Book these 3 visits" in page
+    monkeypatch.setattr(maintenance, "PAGE_SIZE", 2)
+    _, first = _get(client, "maintenance")
+    _, second = _get(client, "maintenance", "?page=2")
+    assert "LATE-1" in first and "D00-1" in first and "D00-2" not in first
+    assert "D00-2" in second and "Depot 00" in second
+    assert "continued from the page before" in second
+    assert "continued" not in first
     _, booked = _get(client, "maintenance", "?state=booked")
     assert "D00-1" not in booked
     assert "No unit is due within" in booked
