@@ -315,7 +315,8 @@ class FlagsField(forms.ModelMultipleChoiceField):
         for pk in value:
             if not str(pk).isdigit() or not 1 <= int(pk) <= MAX_RECORD_ID:
                 raise ValidationError(
-                    self.error_messages["invalid_pk_value"], code="invalid_pk_value",
+                    self.error_messages["invalid_pk_value"],
+                    code="invalid_pk_value",
                     params={"pk": pk},
                 )
         return super()._check_values(value)

@@ -36,9 +36,7 @@ urlpatterns = [
     path("sites/<id:pk>/", sites.site_detail, name="site"),
     path("sites/<id:pk>/reports/<str:month>/", sites.site_report, name="site-report"),
     path("attention/", attention.attention, name="attention"),
-    path(
-        "attention/acknowledge/", attention.attention_acknowledge, name="attention-acknowledge"
-    ),
+    path("attention/acknowledge/", attention.attention_acknowledge, name="attention-acknowledge"),
     path("people/", people.people_list, name="people"),
     path("people/new/", people.person_create, name="person-create"),
     path("people/<id:pk>/", people.person_edit, name="person"),

@@ -4,7 +4,8 @@ every box found far off its design temperature within reach, soonest first."""
 from __future__ import annotations
 
 import datetime as dt
-from dataclasses import dataclass
+from collections.abc import Sequence
+from dataclasses import dataclass, replace
 from typing import Any
 
 from django.contrib import messages
@@ -35,7 +36,10 @@ class AttentionItem:
 
     due_on: dt.date
     kind: str  # "flag", "repair", "verification" or "warm_box"
-    unit: Unit
+    #: The unit's tag, to sort by; a flag's unit is read with the flag on its page only.
+    tag: str
+    unit: Unit | None = None
+    flag_id: int | None = None
     flag: Flag | None = None
     leak_rate: LeakRate | None = None
     diagnosis: Diagnosis | None = None
@@ -55,10 +59,13 @@ def _open_leak_deadlines(user: Any, units: QuerySet[Unit]) -> list[AttentionItem
         .filter(event__visit_unit__unit__in=units)
         .select_related("event__visit_unit__unit__site__customer", "event__visit_unit__visit")
     )
-    return [
-        AttentionItem(d.due_on, d.kind, d.rate.event.visit_unit.unit, leak_rate=d.rate)
-        for d in open_leak_deadlines(rates)
-    ]
+    items = []
+    for deadline in open_leak_deadlines(rates):
+        unit = deadline.rate.event.visit_unit.unit
+        items.append(
+            AttentionItem(deadline.due_on, deadline.kind, unit.tag, unit, leak_rate=deadline.rate)
+        )
+    return items
 
 
 def _warm_boxes(units: QuerySet[Unit]) -> list[AttentionItem]:
@@ -99,6 +106,7 @@ def _warm_boxes(units: QuerySet[Unit]) -> list[AttentionItem]:
                 AttentionItem(
                     day_on_clock(rs.taken_at, timezone.get_current_timezone()),
                     "warm_box",
+                    rs.visit_unit.unit.tag,
                     rs.visit_unit.unit,
                     diagnosis=d,
                     metric=box,
@@ -128,15 +136,13 @@ def _items(user: Any, units: QuerySet[Unit], show: str, today: dt.date) -> list[
     asks for are read."""
     items: list[AttentionItem] = []
     if show in ("", "flags"):
-        flags = (
-            Flag.objects.visible_to(user)
-            .filter(cleared_at__isnull=True, unit__in=units)
-            .select_related("unit__site__customer", "acknowledged_by")
-        )
+        flags = Flag.objects.visible_to(user).filter(cleared_at__isnull=True, unit__in=units)
         zone = timezone.get_current_timezone()
         items.extend(
-            AttentionItem(f.projected_on or day_on_clock(f.opened_at, zone), "flag", f.unit, flag=f)
-            for f in flags
+            AttentionItem(projected_on or day_on_clock(opened_at, zone), "flag", tag, flag_id=pk)
+            for pk, projected_on, opened_at, tag in flags.values_list(
+                "pk", "projected_on", "opened_at", "unit__tag"
+            )
         )
     if show in ("", "deadlines", "overdue"):
         deadlines = _open_leak_deadlines(user, units)
@@ -145,8 +151,21 @@ def _items(user: Any, units: QuerySet[Unit], show: str, today: dt.date) -> list[
         items.extend(deadlines)
     if show in ("", "warm_boxes"):
         items.extend(_warm_boxes(units))
-    items.sort(key=lambda i: (i.due_on, i.unit.tag, i.kind))
+    items.sort(key=lambda i: (i.due_on, i.tag, i.kind))
     return items
+
+
+def _with_flags(items: Sequence[AttentionItem]) -> list[AttentionItem]:
+    """A page's items with their flags read in full (unit, site, who acknowledged): one
+    query for the page, not one for every open flag of the fleet."""
+    flags = Flag.objects.filter(pk__in=[i.flag_id for i in items if i.flag_id]).select_related(
+        "unit__site__customer", "acknowledged_by"
+    )
+    by_id = {f.pk: f for f in flags}
+    return [
+        replace(i, flag=by_id[i.flag_id], unit=by_id[i.flag_id].unit) if i.flag_id else i
+        for i in items
+    ]
 
 
 def attention_page(
@@ -162,8 +181,10 @@ def attention_page(
     except BadParameter as error:
         return bad_parameter(request, error)
     flag_count = sum(1 for i in items if i.kind == "flag")
+    listed = _with_flags(shown.object_list)
     context = {
         "page": shown,
+        "items": listed,
         "filter": narrowed,
         "query": kept_query(request),
         "today": today,
@@ -172,7 +193,7 @@ def attention_page(
         "deadline_count": sum(1 for i in items if i.is_deadline),
         "warm_box_count": sum(1 for i in items if i.kind == "warm_box"),
         "to_acknowledge": any(
-            i.flag is not None and i.flag.acknowledged_at is None for i in shown.object_list
+            i.flag is not None and i.flag.acknowledged_at is None for i in listed
         ),
         "ack_form": ack_form or forms.AcknowledgeFlagsForm(user=request.user),
         "ticked": ack_form.ticked() if ack_form else set(),

@@ -117,9 +117,7 @@ def _rows(
             if not state or row.state == state:
                 by_site[plan.site_id].append(row)
     sites = sorted(by_site.items(), key=lambda s: (min(r.urgency for r in s[1]), s[0]))
-    return [
-        row for _, rows in sites for row in sorted(rows, key=lambda r: (r.urgency, r.tag))
-    ]
+    return [row for _, rows in sites for row in sorted(rows, key=lambda r: (r.urgency, r.tag))]
 
 
 def _groups(

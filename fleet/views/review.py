@@ -91,8 +91,10 @@ def _judged(visit_ids: list[int]) -> dict[int, dict[str, Any]]:
     their documents read in one pass."""
     rows = list(
         Diagnosis.objects.filter(reading_set__visit_unit__visit__in=visit_ids).values_list(
-            "reading_set__visit_unit__visit", "reading_set__visit_unit__unit__application",
-            "score", "document",
+            "reading_set__visit_unit__visit",
+            "reading_set__visit_unit__unit__application",
+            "score",
+            "document",
         )
     )
     judged: dict[int, dict[str, Any]] = {}

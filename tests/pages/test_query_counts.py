@@ -15,7 +15,7 @@ pytestmark = pytest.mark.django_db
 BOUNDS = {
     "schedule": 8,
     "review-queue": 11,
-    "attention": 9,  # the filter's customers included
+    "attention": 10,  # the filter's customers, the page's flags read in full
     "maintenance": 11,  # the filter's customers, the page's units, those left out
     "sites": 4,
     "site": 9,
