@@ -311,15 +311,15 @@ class FlagsField(forms.ModelMultipleChoiceField):
     """Flags by id; an id no record could have is refused like one that is not offered,
     before it reaches SQL."""
 
-    def _check_values(self, value: Any) -> QuerySet[Any]:
-        for pk in value:
+    def clean(self, value: Any) -> Any:
+        for pk in value or ():
             if not str(pk).isdigit() or not 1 <= int(pk) <= MAX_RECORD_ID:
                 raise ValidationError(
                     self.error_messages["invalid_pk_value"],
                     code="invalid_pk_value",
                     params={"pk": pk},
                 )
-        return super()._check_values(value)
+        return super().clean(value)
 
 
 class AcknowledgeFlagsForm(forms.Form):
@@ -347,7 +347,7 @@ class AcknowledgeFlagsForm(forms.Form):
 
     def ticked(self) -> set[int]:
         """The flags the form was sent with, to tick them again beside an error."""
-        return {int(v) for v in self.data.getlist("flags") if v.isdigit()} if self.data else set()
+        return {int(v) for v in self["flags"].value() or () if str(v).isdigit()}
 
 
 class CancelVisitForm(forms.Form):

@@ -181,7 +181,7 @@ def attention_page(
     except BadParameter as error:
         return bad_parameter(request, error)
     flag_count = sum(1 for i in items if i.kind == "flag")
-    listed = _with_flags(shown.object_list)
+    listed = _with_flags(list(shown.object_list))
     context = {
         "page": shown,
         "items": listed,
@@ -195,7 +195,7 @@ def attention_page(
         "to_acknowledge": any(
             i.flag is not None and i.flag.acknowledged_at is None for i in listed
         ),
-        "ack_form": ack_form or forms.AcknowledgeFlagsForm(user=request.user),
+        "ack_form": ack_form or forms.AcknowledgeFlagsForm(user=signed_in(request)),
         "ticked": ack_form.ticked() if ack_form else set(),
     }
     if not any(narrowed.form.cleaned_data.values()):
@@ -217,7 +217,7 @@ def attention(request: HttpRequest) -> HttpResponse:
 def attention_acknowledge(request: HttpRequest) -> HttpResponse:
     """Acknowledge the flags ticked on the list with one note; a flag outside the user's
     reach is refused (400, naming ``flags``) and nothing is acknowledged."""
-    form = forms.AcknowledgeFlagsForm(request.POST, user=request.user)
+    form = forms.AcknowledgeFlagsForm(request.POST, user=signed_in(request))
     if not form.is_valid():
         return attention_page(request, form, status=400)
     done = acknowledge_flags(

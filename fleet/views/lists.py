@@ -92,7 +92,7 @@ def choice_only(choices: list[tuple[str, str]], empty_label: str) -> filters.Cho
 def filtered(filterset: type[F], request: HttpRequest, queryset: QuerySet[Any]) -> F:
     """The list's filter, bound to the query string; the first filter it cannot use is a
     ``BadParameter`` naming it."""
-    bound = filterset(request.GET, queryset=queryset, request=request)
+    bound: F = filterset(request.GET, queryset=queryset, request=request)
     if not bound.is_valid():
         name, errors = next(iter(bound.errors.items()))
         raise BadParameter(name, request.GET.get(name, ""), "; ".join(errors))

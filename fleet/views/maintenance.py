@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import datetime as dt
 from collections import defaultdict
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -49,7 +50,7 @@ class MaintenanceRow:
     status: maintenance.MaintenanceStatus
     last_done_on: dt.date | None
     tag: str
-    unit: dict[str, Any] = field(default_factory=dict)
+    unit: Mapping[str, Any] = field(default_factory=dict)
 
     @property
     def state(self) -> str:
@@ -80,7 +81,7 @@ class LeftOut:
     """A unit within reach that no plan can be made for, and why (a stored date no
     arithmetic can use): shown, so that someone corrects its record."""
 
-    unit: dict[str, Any]
+    unit: Mapping[str, Any]
     problems: tuple[str, ...]
 
 
