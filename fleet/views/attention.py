@@ -128,7 +128,7 @@ SHOW = [
 
 
 class AttentionFilter(UnitPlaceFilter):
-    show = choice_only(SHOW, "Everything")
+    show = choice_only("Show", SHOW, "Everything")
 
 
 def _items(user: Any, units: QuerySet[Unit], show: str, today: dt.date) -> list[AttentionItem]:

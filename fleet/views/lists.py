@@ -25,9 +25,11 @@ from .base import BadParameter
 F = TypeVar("F", bound=filters.FilterSet)
 
 
-def id_filter(field_name: str) -> filters.NumberFilter:
+def id_filter(field_name: str, label: str) -> filters.NumberFilter:
     """A record's id: numbers no record can have are refused, not sent to SQL."""
-    return filters.NumberFilter(field_name=field_name, min_value=1, max_value=MAX_RECORD_ID)
+    return filters.NumberFilter(
+        field_name=field_name, label=label, min_value=1, max_value=MAX_RECORD_ID
+    )
 
 
 def _customers(request: HttpRequest | None) -> QuerySet[Customer]:
@@ -37,12 +39,14 @@ def _customers(request: HttpRequest | None) -> QuerySet[Customer]:
 
 
 def _technicians(request: HttpRequest | None) -> QuerySet[Any]:
+    """The technicians a list may be narrowed to: the schedule's, in its order."""
     return technician_users()
 
 
 def customer_filter(field_name: str) -> filters.ModelChoiceFilter:
+    """A customer chosen from a list of those within reach (any other is refused)."""
     return filters.ModelChoiceFilter(
-        field_name=field_name, queryset=_customers, empty_label="Every customer"
+        field_name=field_name, label="Customer", queryset=_customers, empty_label="Every customer"
     )
 
 
@@ -62,7 +66,7 @@ class UnitPlaceFilter(ListFilter):
     units with it, and every record they show follows its unit."""
 
     customer = customer_filter("site__customer")
-    site = id_filter("site_id")
+    site = id_filter("site_id", "Site")
 
     class Meta:
         model = Unit
@@ -73,9 +77,12 @@ class VisitPlaceFilter(ListFilter):
     """Visits by customer, site or technician (the review queue)."""
 
     customer = customer_filter("site__customer")
-    site = id_filter("site_id")
+    site = id_filter("site_id", "Site")
     technician = filters.ModelChoiceFilter(
-        field_name="technicians", queryset=_technicians, empty_label="Every technician"
+        field_name="technicians",
+        label="Technician",
+        queryset=_technicians,
+        empty_label="Every technician",
     )
 
     class Meta:
@@ -83,10 +90,14 @@ class VisitPlaceFilter(ListFilter):
         fields = ["customer", "site", "technician"]
 
 
-def choice_only(choices: list[tuple[str, str]], empty_label: str) -> filters.ChoiceFilter:
+def choice_only(
+    label: str, choices: list[tuple[str, str]], empty_label: str
+) -> filters.ChoiceFilter:
     """A choice the list applies itself after reading its rows (an urgency, a kind of
     item), checked by the filter like any other: the query set is left as it is."""
-    return filters.ChoiceFilter(choices=choices, empty_label=empty_label, method="chosen")
+    return filters.ChoiceFilter(
+        label=label, choices=choices, empty_label=empty_label, method="chosen"
+    )
 
 
 def filtered(filterset: type[F], request: HttpRequest, queryset: QuerySet[Any]) -> F:

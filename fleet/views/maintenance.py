@@ -39,7 +39,7 @@ STATES = [
 
 
 class MaintenanceFilter(UnitPlaceFilter):
-    state = choice_only(STATES, "Every state")
+    state = choice_only("State", STATES, "Every state")
 
 
 @dataclass(frozen=True)
