@@ -34,22 +34,15 @@ PAGES = ("maintenance", "review-queue", "attention")
 
 
 def add_sites(count: int, technician, customer=None, first: int = 0) -> list:
-    """``count`` sites, each with two units overdue for planned maintenance (30-day units
-    last seen 45 days ago), a visit handed in with a diagnosed reading and a leak rate over
-    its limit on each unit, and an open flag on each unit."""
+    """``count`` sites, each with two 30-day units due for planned maintenance within the
+    horizon (last seen on the visit handed in yesterday), that visit with a diagnosed
+    reading and a leak rate over its limit on each unit, and an open flag on each unit."""
     customer = customer or CustomerFactory()
     now = timezone.now()
     sites = []
     for i in range(first, first + count):
         site = SiteFactory(customer=customer, name=f"Depot {i:02d}")
         units = [UnitFactory(site=site, tag=f"D{i:02d}-{n}", pm_interval_days=30) for n in (1, 2)]
-        seen = VisitFactory(
-            site=site,
-            status="reviewed",
-            window_start=now - dt.timedelta(days=45),
-            reviewed_by=UserFactory(),
-            reviewed_at=now - dt.timedelta(days=44),
-        )
         handed_in = VisitFactory(
             site=site,
             status="submitted",
@@ -58,7 +51,6 @@ def add_sites(count: int, technician, customer=None, first: int = 0) -> list:
             technicians=[technician],
         )
         for unit in units:
-            VisitUnitFactory(visit=seen, unit=unit)
             covered = VisitUnitFactory(visit=handed_in, unit=unit)
             store_diagnosis(ReadingSetFactory(visit_unit=covered))
             over_limit_addition(covered, timezone.localdate() - dt.timedelta(days=i))
