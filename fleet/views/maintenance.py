@@ -11,7 +11,6 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from django.contrib import messages
-from django.db.models import QuerySet
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect
 from django.urls import reverse
@@ -86,14 +85,19 @@ class LeftOut:
 
 
 def _plans(
-    today: dt.date, units: QuerySet[Unit]
-) -> tuple[list[maintenance.MaintenancePlan], list[SkippedUnit], dict[int, str]]:
-    """The maintenance plans the flag refresh decides on, for ``units``, those of ``units``
-    left out of them, and the tag of each of ``units`` (to sort by)."""
+    request: HttpRequest, today: dt.date
+) -> tuple[MaintenanceFilter, list[maintenance.MaintenancePlan], list[SkippedUnit], dict[int, str]]:
+    """The list's filter, the maintenance plans the flag refresh decides on for the units
+    it leaves (a customer's or a site's: only theirs are planned), those of the units left
+    out of them, and the tag of each unit (to sort by)."""
+    narrowed = filtered(MaintenanceFilter, request, Unit.objects.visible_to(request.user))
+    tags = dict(narrowed.qs.values_list("pk", "tag"))
+    place = narrowed.form.cleaned_data
+    only = list(tags) if place["customer"] or place["site"] else None
     skipped: list[SkippedUnit] = []
-    plans = maintenance_plans(today, skipped=skipped)
-    tags = dict(units.values_list("pk", "tag"))
+    plans = maintenance_plans(today, only, skipped=skipped)
     return (
+        narrowed,
         [p for p in plans if p.unit_id in tags],
         [s for s in skipped if s.unit_id in tags],
         tags,
@@ -155,8 +159,7 @@ def maintenance_due(request: HttpRequest) -> HttpResponse:
     today = timezone.localdate()
     rules = maintenance.DEFAULT_MAINTENANCE_RULES
     try:
-        narrowed = filtered(MaintenanceFilter, request, Unit.objects.visible_to(request.user))
-        plans, skipped, tags = _plans(today, narrowed.qs)
+        narrowed, plans, skipped, tags = _plans(request, today)
         rows = _rows(plans, tags, today, rules, narrowed.choice("state"))
         shown = page_of(request, rows, PAGE_SIZE)
     except BadParameter as error:
@@ -189,9 +192,13 @@ def maintenance_due(request: HttpRequest) -> HttpResponse:
 @within_reach(Role.OFFICE)
 @require_POST
 def maintenance_propose(request: HttpRequest) -> HttpResponse:
-    """Book the proposed planned visits (unassigned; the coordinator assigns them after)."""
+    """Book the proposed planned visits (unassigned; the coordinator assigns them after):
+    those the list shows, for the customer or site its query string names."""
     today = timezone.localdate()
-    plans, _, _ = _plans(today, Unit.objects.visible_to(request.user))
+    try:
+        _, plans, _, _ = _plans(request, today)
+    except BadParameter as error:
+        return bad_parameter(request, error)
     proposals = maintenance.propose_visits(plans, today)
     units = Unit.objects.filter(pk__in=[pk for p in proposals for pk in p.unit_ids])
     by_id = {u.pk: u for u in units.select_related("site__customer")}
@@ -205,4 +212,5 @@ def maintenance_propose(request: HttpRequest) -> HttpResponse:
         first = min(v.window_start for v in booked)
         return redirect(f"{reverse('fleet:schedule')}?week={timezone.localdate(first)}")
     messages.info(request, "Nothing to book: every unit due soon already has a visit.")
-    return redirect("fleet:maintenance")
+    back = reverse("fleet:maintenance")
+    return redirect(f"{back}?{request.GET.urlencode()}" if request.GET else back)

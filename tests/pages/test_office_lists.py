@@ -15,6 +15,7 @@ from django.urls import reverse
 from django.utils import timezone
 
 from diagnostics.models import Flag
+from fleet.models import Visit
 from fleet.views import attention, maintenance, review
 from tests.factories import (
     CustomerFactory,
@@ -125,7 +126,8 @@ def test_maintenance_groups_units_by_site_most_urgent_first_and_narrows_by_state
 ):
     """Each site heads its own units and proposed visit; the site whose unit is most overdue
     comes first; a site cut by the page's end goes on on the next page, said so;
-    state=booked leaves out the units not booked."""
+    state=booked leaves out the units not booked; by customer, only that customer's units
+    are listed, and only their visit is booked."""
     client = signed_in(office_user)
     add_sites(2, technician)
     late = SiteFactory(name="Depot late")
@@ -158,6 +160,16 @@ def test_maintenance_groups_units_by_site_most_urgent_first_and_narrows_by_state
     _, booked = _get(client, "maintenance", "?state=booked")
     assert "D00-1" not in booked
     assert "No unit is due within" in booked
+    query = f"?customer={late.customer_id}"
+    _, theirs = _get(client, "maintenance", query)
+    assert "LATE-1" in theirs
+    assert "Depot 00" not in theirs
+    assert "Book this visit" in theirs
+    assert f'action="{reverse("fleet:maintenance-propose")}{query}"' in theirs
+    client.post(f"{reverse('fleet:maintenance-propose')}{query}")
+    assert list(Visit.objects.filter(status="scheduled").values_list("site", flat=True)) == [
+        late.pk
+    ]
 
 
 def test_the_attention_list_narrows_to_deadlines_and_pages(office_user, technician, monkeypatch):
