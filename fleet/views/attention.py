@@ -226,6 +226,8 @@ def attention_acknowledge(request: HttpRequest) -> HttpResponse:
     if done:
         messages.success(request, f"{done} flag{pluralize(done)} acknowledged.")
     else:
-        messages.info(request, "Those flags were acknowledged already.")
+        messages.info(
+            request, "Nothing changed: those flags were acknowledged already or have cleared."
+        )
     back = reverse("fleet:attention")
     return redirect(f"{back}?{request.GET.urlencode()}" if request.GET else back)
