@@ -8,7 +8,7 @@ validation lives once, in the models.
 from __future__ import annotations
 
 import datetime as dt
-from typing import Any
+from typing import Any, cast
 from zoneinfo import ZoneInfo
 
 from django import forms
@@ -26,7 +26,7 @@ from .choices import Role, VisitStatus
 from .limits import SERVICE_ERA
 from .models import Site, Unit, Visit, VisitUnit
 from .services import save_new_visit
-from .validation import booking_problems, document_type
+from .validation import MAX_RECORD_ID, booking_problems, document_type
 
 #: Statuses in which the office may still change a visit's time, people or units.
 EDITABLE_STATUSES = frozenset({VisitStatus.SCHEDULED, VisitStatus.IN_PROGRESS})
@@ -307,6 +307,49 @@ class AcknowledgeFlagForm(forms.ModelForm):
         field = self.fields["acknowledgement_note"]
         field.required = True
         field.error_messages["required"] = "Say what is being done (a visit booked, parts ordered)."
+
+
+class FlagsField(forms.ModelMultipleChoiceField):
+    """Flags by id; an id no record could have is refused like one that is not offered,
+    before it reaches SQL."""
+
+    def clean(self, value: Any) -> Any:
+        for pk in value or ():
+            if not str(pk).isdigit() or not 1 <= int(pk) <= MAX_RECORD_ID:
+                raise ValidationError(
+                    self.error_messages["invalid_pk_value"],
+                    code="invalid_pk_value",
+                    params={"pk": pk},
+                )
+        return super().clean(value)
+
+
+class AcknowledgeFlagsForm(forms.Form):
+    """The attention list's one acknowledgement: the flags ticked, and what is being done
+    about them. Only flags within the user's reach are offered; any other is refused by
+    name (``flags``)."""
+
+    flags = FlagsField(
+        queryset=Flag.objects.none(),
+        error_messages={
+            "required": "Tick at least one flag to acknowledge.",
+            "invalid_choice": "Flag %(value)s is not one you can acknowledge.",
+            "invalid_pk_value": "“%(pk)s” is not a flag's number.",
+        },
+    )
+    note = forms.CharField(
+        label="What is being done",
+        widget=forms.Textarea(attrs={"rows": 2}),
+        error_messages={"required": "Say what is being done (a visit booked, parts ordered)."},
+    )
+
+    def __init__(self, *args: Any, user: User, **kwargs: Any) -> None:
+        super().__init__(*args, **kwargs)
+        cast(FlagsField, self.fields["flags"]).queryset = Flag.objects.visible_to(user)
+
+    def ticked(self) -> set[int]:
+        """The flags the form was sent with, to tick them again beside an error."""
+        return {int(v) for v in self["flags"].value() or () if str(v).isdigit()}
 
 
 class CancelVisitForm(forms.Form):

@@ -31,7 +31,7 @@ from django.db import IntegrityError, models, transaction
 from django.utils import timezone
 
 from diagnostics.core.maintenance import VisitProposal
-from diagnostics.models import LeakRate
+from diagnostics.models import Flag, LeakRate
 from diagnostics.services import (
     configured_leak_rules,
     diagnose_reading_set,
@@ -696,3 +696,13 @@ def attach_document(
 def _saved(record: M) -> M:
     record.save()
     return record
+
+
+def acknowledge_flags(flags: models.QuerySet[Flag], note: str, *, by: User) -> int:
+    """The office has seen these flags and says what it is doing: every one still open and
+    not yet acknowledged records the note, who and when, in one update (a form sent twice
+    changes nothing the first did). The flags stay open until the diagnostics clear them.
+    How many were acknowledged."""
+    return flags.filter(cleared_at__isnull=True, acknowledged_at__isnull=True).update(
+        acknowledgement_note=note, acknowledged_by=by, acknowledged_at=timezone.now()
+    )

@@ -41,6 +41,7 @@ urlpatterns = [
     path("sites/<id:pk>/tags.pdf", equipment.site_tags, name="site-tags"),
     path("search/", equipment.plate_search, name="plate-search"),
     path("attention/", attention.attention, name="attention"),
+    path("attention/acknowledge/", attention.attention_acknowledge, name="attention-acknowledge"),
     path("people/", people.people_list, name="people"),
     path("people/new/", people.person_create, name="person-create"),
     path("people/<id:pk>/", people.person_edit, name="person"),
