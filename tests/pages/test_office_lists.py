@@ -284,3 +284,53 @@ def test_acknowledging_wants_a_note_and_the_office(office_user, technician):
     assert "note" in response.context["ack_form"].errors
     assert signed_in(technician).post(url, {"flags": [flag.pk], "note": "x"}).status_code == 404
     assert not Flag.objects.filter(acknowledged_at__isnull=False).exists()
+
+
+# --- the week's schedule at a large office -----------------------------------------------
+
+
+def _crowded_day(technician, other_technician, count: int):
+    """``count`` overlapping visits today for one technician, one for another."""
+    from tests.factories import SiteFactory, VisitFactory
+
+    start = timezone.localtime().replace(hour=10, minute=0, second=0, microsecond=0)
+    crowded = [
+        VisitFactory(
+            site=SiteFactory(),
+            window_start=start,
+            window_end=start + dt.timedelta(hours=2),
+            technicians=[technician],
+        )
+        for _ in range(count)
+    ]
+    VisitFactory(
+        site=SiteFactory(),
+        window_start=start,
+        window_end=start + dt.timedelta(hours=1),
+        technicians=[other_technician],
+    )
+    return crowded
+
+
+def test_the_schedule_narrows_to_one_technician(office, technician, other_technician):
+    _crowded_day(technician, other_technician, 2)
+    everyone = office.get("/schedule/").context
+    one = office.get("/schedule/", {"technician": other_technician.pk}).context
+    assert len(everyone["rows"]) >= 3  # two technicians and the unassigned row
+    assert [row.person_id for row in one["rows"]] == [other_technician.pk]
+    assert one["visit_count"] == 1
+    assert f"technician={other_technician.pk}" in one["filters_query"]
+
+
+def test_double_bookings_are_summed_up_past_twenty(office, technician, other_technician):
+    _crowded_day(technician, other_technician, 8)  # 8 visits at once: 28 pairs
+    page = office.get("/schedule/").content.decode()
+    assert page.count("</li>") >= 20
+    assert "… and 8 more" in page
+    assert "and 4 more</span>" in page  # each card names three of the seven it overlaps
+
+
+def test_an_unknown_technician_is_400_naming_it(office):
+    response = office.get("/schedule/", {"technician": "999999"})
+    assert response.status_code == 400
+    assert "technician=999999" in response.content.decode()
