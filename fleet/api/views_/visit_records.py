@@ -33,7 +33,7 @@ from fleet.choices import VisitStatus
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Visit, VisitUnit
 from fleet.reach import OFFICE, TECHNICIAN, roles_of
 
-from .base import Conflict, RimewatchViewSet, signed_in
+from .base import Conflict, DiagnosedPagination, RimewatchViewSet, signed_in
 
 VISIT_PK = OpenApiParameter("visit_pk", OpenApiTypes.INT, OpenApiParameter.PATH)
 
@@ -243,6 +243,7 @@ class ReadingSetViewSet(VisitRecordViewSet):
     any set, as for every visit record."""
 
     serializer_class = ReadingSetSerializer
+    pagination_class = DiagnosedPagination
     filterset_class = filtersets.ReadingSetFilterSet
     queryset = ReadingSet.objects.all()
     model = ReadingSet
