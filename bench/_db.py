@@ -12,14 +12,21 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent.parent
 
 
-def setup_database(tmp: Path, **env: str) -> Path:
+def setup_database(tmp: Path, *, postgres: bool = False, **env: str) -> Path:
     """Point the test settings at ``tmp/bench.sqlite3``, set ``env``, set Django up, migrate.
 
     Returns the database file. The saturation-table cache stays in the project's var/ (unless
     the caller's environment says otherwise), so a bench does not rebuild it every run.
+
+    ``postgres``: use the PostgreSQL that ``DATABASE_URL`` names instead (a throwaway one:
+    run the bench under ``scripts/with-postgres.sh``); refused if it names anything else.
     """
     database = tmp / "bench.sqlite3"
-    os.environ["DATABASE_URL"] = f"sqlite:///{database}"
+    if postgres:
+        if not os.environ.get("DATABASE_URL", "").startswith("postgres"):
+            raise SystemExit("--postgres: run under scripts/with-postgres.sh (no DATABASE_URL)")
+    else:
+        os.environ["DATABASE_URL"] = f"sqlite:///{database}"
     os.environ["RIMEWATCH_VAR_DIR"] = str(tmp)
     os.environ.setdefault("RIMEWATCH_CACHE_DIR", str(ROOT / "var" / "cache"))
     os.environ["DJANGO_SETTINGS_MODULE"] = "config.settings_test"
