@@ -12,7 +12,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent.parent
 
 
-def setup_database(tmp: Path, *, postgres: bool = False, **env: str) -> Path:
+def setup_database(tmp: Path, *, postgres: bool = False, migrate: bool = True, **env: str) -> Path:
     """Point the test settings at ``tmp/bench.sqlite3``, set ``env``, set Django up, migrate.
 
     Returns the database file. The saturation-table cache stays in the project's var/ (unless
@@ -20,6 +20,7 @@ def setup_database(tmp: Path, *, postgres: bool = False, **env: str) -> Path:
 
     ``postgres``: use the PostgreSQL that ``DATABASE_URL`` names instead (a throwaway one:
     run the bench under ``scripts/with-postgres.sh``); refused if it names anything else.
+    ``migrate=False``: a database a bench has already built (a measuring child process).
     """
     database = tmp / "bench.sqlite3"
     if postgres:
@@ -36,5 +37,6 @@ def setup_database(tmp: Path, *, postgres: bool = False, **env: str) -> Path:
     django.setup()
     from django.core.management import call_command
 
-    call_command("migrate", verbosity=0, interactive=False)
+    if migrate:
+        call_command("migrate", verbosity=0, interactive=False)
     return database
