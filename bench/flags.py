@@ -540,7 +540,10 @@ def _side_by_side(sizes: list[Size]) -> None:
     if last.reading_sets >= 1_000_000:
         print("\n(1,000,000 reading sets measured above: goal under 300 MB chunked)")
     elif last.reading_sets > first.reading_sets:
-        print("\nat 1,000,000 reading sets, extrapolated linearly from the first and last size:")
+        print(
+            "\nat 1,000,000 reading sets, extrapolated linearly from the first and last size"
+            f" (the chunked figure means something when both hold over {labels[0][10:]} units):"
+        )
         for label in labels:
             low, high = first.memory[label][1], last.memory[label][1]
             slope = (high - low) / (last.reading_sets - first.reading_sets)
