@@ -28,24 +28,35 @@ def bench_environment(tmp: Path, url: str, env: dict[str, str]) -> dict[str, str
     }
 
 
-def _setup(tmp: Path, url: str, env: dict[str, str]) -> None:
+def _setup(tmp: Path, url: str, env: dict[str, str], migrate: bool = True) -> None:
     os.environ.update(bench_environment(tmp, url, env))
     import django
 
     django.setup()
     from django.core.management import call_command
 
-    call_command("migrate", verbosity=0, interactive=False)
+    if migrate:
+        call_command("migrate", verbosity=0, interactive=False)
 
 
-def setup_database(tmp: Path, **env: str) -> Path:
+def setup_database(tmp: Path, *, postgres: bool = False, migrate: bool = True, **env: str) -> Path:
     """Point the test settings at ``tmp/bench.sqlite3``, set ``env``, set Django up, migrate.
 
     Returns the database file. The saturation-table cache stays in the project's var/ (unless
     the caller's environment says otherwise), so a bench does not rebuild it every run.
+
+    ``postgres``: use the PostgreSQL that ``DATABASE_URL`` names instead (a throwaway one:
+    run the bench under ``scripts/with-postgres.sh``); refused if it names anything else.
+    ``migrate=False``: a database a bench has already built (a measuring child process).
     """
     database = tmp / "bench.sqlite3"
-    _setup(tmp, f"sqlite:///{database}", env)
+    if postgres:
+        server = postgres_server()
+        if server is None:
+            raise SystemExit("--postgres: run under scripts/with-postgres.sh (no DATABASE_URL)")
+        _setup(tmp, server, env, migrate=migrate)
+    else:
+        _setup(tmp, f"sqlite:///{database}", env, migrate=migrate)
     return database
 
 

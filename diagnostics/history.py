@@ -225,6 +225,12 @@ def _in_service(today: dt.date, unit_ids: Iterable[int] | None = None) -> QueryS
     return units if unit_ids is None else units.filter(id__in=list(unit_ids))
 
 
+def unit_ids_in_service(today: dt.date) -> list[int]:
+    """The ids of every unit in service on ``today``, in id order: what a fleet-wide job
+    works through a chunk at a time."""
+    return list(_in_service(today).order_by("id").values_list("id", flat=True))
+
+
 def _visit_dates(today: dt.date) -> dict:
     """Per unit: the last visit done (reviewed, or handed in and waiting for review: the
     work is done, only the office's reading of it is not), and the first planned visit
