@@ -225,16 +225,7 @@ class UnitAdmin(SavedWithTrail):
         ),
         (
             "Equipment",
-            {
-                "fields": (
-                    "make",
-                    "model_number",
-                    "serial_number",
-                    "compressor_model",
-                    "compressor_serial",
-                    "warranty_ends_on",
-                )
-            },
+            {"fields": models.UNIT_PLATE_FIELDS},
         ),
         (
             "Refrigerant circuit",

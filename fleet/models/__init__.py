@@ -17,11 +17,12 @@ from .components import PART_FIELDS, Component
 from .documents import UnitDocument
 from .readings import ReadingSet, RefrigerantEvent
 from .sites import Customer, Site, validate_time_zone
-from .units import Refrigerant, Unit
+from .units import UNIT_PLATE_FIELDS, Refrigerant, Unit
 from .visits import Visit, VisitUnit
 
 __all__ = [
     "PART_FIELDS",
+    "UNIT_PLATE_FIELDS",
     "AuditAction",
     "AuditEntry",
     "Component",

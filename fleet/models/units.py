@@ -47,6 +47,18 @@ class Refrigerant(models.Model):
         return not self.safety_class.endswith("1")
 
 
+#: A unit's plate beyond its nameplate ratings: what the admin's "Equipment" section and
+#: the API show of it.
+UNIT_PLATE_FIELDS = (
+    "make",
+    "model_number",
+    "serial_number",
+    "compressor_model",
+    "compressor_serial",
+    "warranty_ends_on",
+)
+
+
 class Unit(Nameplate):
     """One refrigeration system: an evaporator (or several) and its condensing unit."""
 

@@ -9,7 +9,7 @@ from rest_framework import serializers
 from fleet import choices
 from fleet.api.wire_units import Measure
 from fleet.limits import UNIT_LIMITS
-from fleet.models import PART_FIELDS, Component, Refrigerant, Unit
+from fleet.models import PART_FIELDS, UNIT_PLATE_FIELDS, Component, Refrigerant, Unit
 
 from .base import MeasuredSerializer, ValidatedModelSerializer
 from .fields import NumberField, UnknownAsNullChoiceField, measure_field
@@ -118,12 +118,7 @@ class UnitSerializer(MeasuredSerializer):
             "pm_interval_days",
             "installed_on",
             "retired_on",
-            "make",
-            "model_number",
-            "serial_number",
-            "compressor_model",
-            "compressor_serial",
-            "warranty_ends_on",
+            *UNIT_PLATE_FIELDS,
             "full_charge_basis",
             "units",
         ]
