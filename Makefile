@@ -49,7 +49,7 @@ pytest-sqlite: install ensure-browser
 	env -u DATABASE_URL $(PY) -m pytest -q
 
 pytest-postgres: install ensure-browser
-	bash scripts/with-postgres.sh bash scripts/with-redis.sh $(PY) -m pytest -q
+	bash scripts/with-postgres.sh bash scripts/with-redis.sh bash scripts/with-s3.sh $(PY) -m pytest -q
 
 test: lint pytest-sqlite pytest-postgres
 

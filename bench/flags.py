@@ -1,33 +1,44 @@
-"""How long a fleet-wide flag refresh takes, against simply reading the rows it rests on.
+"""How long a fleet-wide flag refresh takes against simply reading the rows it rests on, and
+how much memory it needs as the fleet grows.
 
-Builds a throwaway SQLite database (``--units`` units, default 5,000, over a few sites and
-refrigerants, ``--visits`` monthly visits each, default 24: one visit unit, one as-found
-reading set and its stored diagnosis per visit; bulk inserts). Some units drift (condenser
+Builds a throwaway SQLite database (or with ``--postgres`` uses the throwaway PostgreSQL of
+``scripts/with-postgres.sh``): ``--units`` units over a few sites and refrigerants, default
+5,000 (or several sizes, ``--units 2500,10000``: the fleet is built at the first and grown
+to each next), ``--visits`` monthly visits each, default 24: one visit unit, one as-found
+reading set and its stored diagnosis per visit; bulk inserts. Some units drift (condenser
 split rising), some have capacitor readings, start parts and replacements, some locked-rotor
 or low-voltage starts, some refrigerant additions with repairs, some overdue maintenance.
-Then it measures side by side in one run, best of ``--repeats`` (default 3), interleaved:
+Then at each size it measures side by side in one run, best of ``--repeats`` (default 3),
+interleaved:
 
-- floor: the queries ``history.unit_histories`` makes (its own querysets, from
+- floor: the queries ``history.unit_histories`` makes for each chunk of units that
+  ``services.refresh_flags`` works through (its own querysets, from
   ``history.history_queries``: the same ``values()`` / ``values_list()`` rows, materialised
-  into lists), with no grouping or computation;
-- ``history.unit_histories`` alone (gather the rows into the core's inputs);
+  into lists, a chunk at a time), with no grouping or computation;
+- ``history.unit_histories`` alone, chunk by chunk (gather the rows into the core's inputs);
 - ``services.refresh_flags`` in full (gather, core decisions, write): on an empty flag table
   (every decision opens a flag) and again with those flags open (every one updated).
 
-It also counts the queries of one refresh over a few units and over all of them, to show
-the count does not grow with the fleet.
+It counts the queries of one refresh over a few units and over all of them (six reads per
+chunk of units, whatever the chunk holds), and measures the peak memory of a refresh on an
+empty flag table in a fresh process (as ``manage.py refresh_flags`` runs), in chunks
+(``services.FLAG_CHUNK_UNITS``) and in one pass over the whole fleet (how it ran before).
 
     .venv/bin/python bench/flags.py [--units 5000] [--visits 24] [--repeats 3]
+    bash scripts/with-postgres.sh .venv/bin/python bench/flags.py --postgres --units 2500,10000
 
-Goal (trends issue): the refresh within 3x of the floor. Wall-clock figures move with
-whatever else the machine runs; the ratio, measured in the same rounds, is the steadier one.
+Goals (trends issue, issue 17): the refresh within 3x of the floor; its memory flat as the
+fleet grows, under 300 MB at 1,000,000 reading sets. Wall-clock figures move with whatever
+else the machine runs; the ratio, measured in the same rounds, is the steadier one.
 """
 
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import datetime as dt
 import math
+import subprocess
 import sys
 import tempfile
 import time
@@ -68,11 +79,11 @@ OVERDUE = 0.03  # the last six visits submitted but not reviewed
 # --- the synthetic fleet ----------------------------------------------------------------------
 
 
-def _build_units(rng: np.random.Generator, count: int) -> list:
+def _build_units(rng: np.random.Generator, count: int, first_tag: int = 0) -> list:
     """Sites, units and their components in bulk; returns the units."""
     from fleet.models import Component, Customer, Refrigerant, Site, Unit
 
-    customer = Customer.objects.create(name="Bench customer")
+    customer = Customer.objects.create(name=f"Bench customer {first_tag}")
     sites = Site.objects.bulk_create(
         Site(
             customer=customer,
@@ -93,7 +104,7 @@ def _build_units(rng: np.random.Generator, count: int) -> list:
         units.append(
             Unit(
                 site=sites[u % SITES],
-                tag=f"F-{u:05d}",
+                tag=f"F-{first_tag + u:05d}",
                 application=application,
                 refrigerant=refrigerants[designation],
                 full_charge_kg=float(rng.uniform(2.0, 60.0)),
@@ -335,17 +346,38 @@ def _leak_events(rng: np.random.Generator, unit, rows: list) -> list:
 # --- what is measured -------------------------------------------------------------------------
 
 
+def _chunks(today: dt.date) -> list[list[int]]:
+    """The chunks of unit ids ``services.refresh_flags`` works through, in its order."""
+    from diagnostics import history, services
+
+    ids = history.unit_ids_in_service(today)
+    size = services.FLAG_CHUNK_UNITS
+    return [ids[k : k + size] for k in range(0, len(ids), size)]
+
+
 def _floor(today: dt.date) -> int:
-    """The rows ``unit_histories`` reads, by its own querysets, kept in lists: nothing else.
+    """The rows ``unit_histories`` reads for each chunk, by its own querysets, kept in lists
+    (one chunk at a time, as the refresh holds them): nothing else.
 
     Read under the same paused collector as ``unit_histories``, so the two differ only by
     what is built on the rows.
     """
     from diagnostics import history
 
-    with history.collector_paused():
-        rows = [list(qs) for qs in history.history_queries(today)]
-    return sum(len(r) for r in rows)
+    rows = 0
+    for chunk in _chunks(today):
+        with history.collector_paused():
+            read = [list(qs) for qs in history.history_queries(today, chunk)]
+        rows += sum(len(r) for r in read)
+        del read
+    return rows
+
+
+def _histories(today: dt.date) -> int:
+    """``history.unit_histories`` chunk by chunk; how many units it gathered."""
+    from diagnostics import history
+
+    return sum(len(history.unit_histories(today, chunk)) for chunk in _chunks(today))
 
 
 def _timed(fn: Callable[[], object]) -> tuple[float, object]:
@@ -367,56 +399,49 @@ def _queries(fn: Callable[[], object]) -> str:
     return f"{reads + writes} ({reads} reads, {writes} writes)"
 
 
-def main() -> None:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--units", type=int, default=5000)
-    parser.add_argument("--visits", type=int, default=24, help="monthly visits per unit")
-    parser.add_argument("--repeats", type=int, default=3)
-    parser.add_argument("--seed", type=int, default=7)
-    parser.add_argument(
-        "--keep",
-        type=Path,
-        help="build the database in this folder and keep it; a later run reuses it as it is",
-    )
-    args = parser.parse_args()
-    if args.visits < 12:
-        parser.error("--visits must be at least 12 (the stories use the last year)")
-
-    if args.keep is not None:
-        args.keep.mkdir(parents=True, exist_ok=True)
-        _run(args.keep.resolve(), args)
-    else:
-        with tempfile.TemporaryDirectory(prefix="rimewatch-bench-flags-") as tmp:
-            _run(Path(tmp), args)
+def _peak_mb() -> float:
+    """Peak resident memory of this process so far, in MB: Linux's high-water mark of the
+    program's memory (VmHWM), which, unlike ru_maxrss, does not carry the peak of the
+    process that started this one across its fork and exec."""
+    for line in Path("/proc/self/status").read_text().splitlines():
+        if line.startswith("VmHWM:"):
+            return int(line.split()[1]) / 1024  # kB
+    raise SystemExit("no VmHWM in /proc/self/status: peak memory is measured on Linux")
 
 
-def _run(folder: Path, args: argparse.Namespace) -> None:
-    from bench._db import setup_database
+def _peak_of_refresh(folder: Path, postgres: bool, chunk_units: int) -> tuple[float, float]:
+    """(peak memory before, peak memory after) one refresh with ``chunk_units`` in a fresh
+    process, in MB: what ``manage.py refresh_flags`` holds, imports and Django included."""
+    command = [sys.executable, __file__, "--peak-of-refresh", str(chunk_units)]
+    command += ["--keep", str(folder)] + (["--postgres"] if postgres else [])
+    out = subprocess.run(command, check=True, capture_output=True, text=True).stdout.split()
+    return float(out[-2]), float(out[-1])
 
-    # DEBUG off: no query log in the timed runs (CaptureQueriesContext turns it on itself).
-    setup_database(
-        folder, DEBUG="0", SECRET_KEY="bench-only-" + uuid.uuid4().hex, LOG_LEVEL="WARNING"
-    )
-    from django.contrib.auth.models import User
+
+@dataclasses.dataclass
+class Size:
+    """What was measured at one fleet size."""
+
+    units: int
+    reading_sets: int
+    best: dict[str, float]
+    rows: int
+    opened: int
+    updated: int
+    kinds: str
+    counts: dict[str, tuple[str, str]]
+    memory: dict[str, tuple[float, float]]
+
+
+def _measure(folder: Path, args: argparse.Namespace, today: dt.date) -> Size:
+    from django.db import connections
     from django.db.models import Count
-    from django.utils import timezone
 
-    from diagnostics import history, services
+    from diagnostics import services
     from diagnostics.models import Flag
-    from fleet.models import Unit
+    from fleet.models import ReadingSet, Unit
 
-    today = timezone.localdate()
-    units = list(Unit.objects.order_by("pk"))
-    if units:
-        print(f"reusing {len(units):,} units in {folder} (--units and --visits ignored)\n")
-    else:
-        rng = np.random.default_rng(args.seed)
-        print(f"building {args.units:,} units x {args.visits} visits in {folder}")
-        t = time.perf_counter()
-        reviewer = User.objects.create_user("bench-office")
-        units = _build_units(rng, args.units)
-        _build_history(rng, units, args.visits, today, reviewer)
-        print(f"built in {time.perf_counter() - t:.0f} s\n")
+    units = list(Unit.objects.order_by("pk").values_list("pk", flat=True))
 
     def refresh():
         return services.refresh_flags(today=today)
@@ -427,7 +452,7 @@ def _run(folder: Path, args: argparse.Namespace) -> None:
         Flag.objects.all().delete()  # untimed: the empty-table refresh starts from nothing
         seconds, rows = _timed(lambda: _floor(today))
         best["floor"] = min(best["floor"], seconds)
-        seconds, _ = _timed(lambda: history.unit_histories(today))
+        seconds, _ = _timed(lambda: _histories(today))
         best["histories"] = min(best["histories"], seconds)
         seconds, result = _timed(refresh)
         best["empty"] = min(best["empty"], seconds)
@@ -444,30 +469,181 @@ def _run(folder: Path, args: argparse.Namespace) -> None:
     by_kind = dict(
         Flag.objects.filter(cleared_at__isnull=True).values_list("kind").annotate(n=Count("id"))
     )
-    few = [u.pk for u in units[:50]]
     counts = {}
-    for label, ids in (("50 units", few), (f"{len(units):,} units", None)):
+    for label, ids in (("50 units", units[:50]), (f"{len(units):,} units", None)):
         Flag.objects.all().delete()
         empty = _queries(lambda ids=ids: services.refresh_flags(today=today, unit_ids=ids))
         reopen = _queries(lambda ids=ids: services.refresh_flags(today=today, unit_ids=ids))
         counts[label] = (empty, reopen)
 
-    floor = best["floor"]
-    print(f"\nrows read by the floor: {rows:,}")
+    memory = {}
+    for label, chunk in (
+        (f"chunks of {services.FLAG_CHUNK_UNITS:,}", services.FLAG_CHUNK_UNITS),
+        ("one pass", len(units)),
+    ):
+        Flag.objects.all().delete()
+        connections.close_all()  # the child process writes; SQLite wants no reader holding on
+        memory[label] = _peak_of_refresh(folder, args.postgres, chunk)
+        print(f"  peak memory of a refresh in {label}: {memory[label][1]:.0f} MB")
+    return Size(
+        units=len(units),
+        reading_sets=ReadingSet.objects.count(),
+        best=best,
+        rows=rows,
+        opened=opened,
+        updated=updated,
+        kinds=", ".join(f"{k} {n}" for k, n in sorted(by_kind.items())),
+        counts=counts,
+        memory=memory,
+    )
+
+
+def _report(size: Size) -> None:
+    floor = size.best["floor"]
+    print(f"\n{size.units:,} units, {size.reading_sets:,} reading sets")
+    print(f"rows read by the floor: {size.rows:,}")
     for label, key in (
         ("floor (the same reads)", "floor"),
         ("unit_histories", "histories"),
         ("refresh_flags, no flags open", "empty"),
         ("refresh_flags, flags open", "open"),
     ):
-        print(f"{label:<30}{best[key]:7.2f} s   {best[key] / floor:5.2f}x floor")
-    kinds = ", ".join(f"{k} {n}" for k, n in sorted(by_kind.items()))
-    print(f"flags opened: {opened:,} ({kinds}); updated on the re-run: {updated:,}")
+        print(f"{label:<30}{size.best[key]:7.2f} s   {size.best[key] / floor:5.2f}x floor")
+    print(f"flags opened: {size.opened:,} ({size.kinds}); updated on the re-run: {size.updated:,}")
     print("queries per refresh (no flags open / flags open):")
-    for label, (empty, reopen) in counts.items():
+    for label, (empty, reopen) in size.counts.items():
         print(f"  {label:<12} {empty} / {reopen}")
-    worst = max(best["empty"], best["open"]) / floor
-    print(f"\nrefresh / floor {worst:.2f}x (goal: within 3x)")
+
+
+def _side_by_side(sizes: list[Size]) -> None:
+    """The sizes in columns: time against the floor, and peak memory chunked and in one pass,
+    extrapolated (linearly, from the first and last size) to 1,000,000 reading sets when no
+    size reached it."""
+    labels = list(sizes[0].memory)
+    print("\n" + f"{'reading sets':<34}" + "".join(f"{s.reading_sets:>14,}" for s in sizes))
+    print(f"{'units':<34}" + "".join(f"{s.units:>14,}" for s in sizes))
+    for label, key in (
+        ("refresh, no flags open (s)", "empty"),
+        ("refresh, flags open (s)", "open"),
+    ):
+        print(f"{label:<34}" + "".join(f"{s.best[key]:>14.2f}" for s in sizes))
+    worst = [max(s.best["empty"], s.best["open"]) / s.best["floor"] for s in sizes]
+    print(f"{'refresh / floor (goal: within 3x)':<34}" + "".join(f"{w:>13.2f}x" for w in worst))
+    first, last = sizes[0], sizes[-1]
+    for label in labels:
+        peaks = [s.memory[label][1] for s in sizes]
+        print(f"{'peak MB, ' + label:<34}" + "".join(f"{p:>14.0f}" for p in peaks))
+    print(
+        f"{'  (a fresh process before it, MB)':<34}"
+        + "".join(f"{s.memory[labels[0]][0]:>14.0f}" for s in sizes)
+    )
+    if last.reading_sets >= 1_000_000:
+        print("\n(1,000,000 reading sets measured above: goal under 300 MB chunked)")
+    elif last.reading_sets > first.reading_sets:
+        print(
+            "\nat 1,000,000 reading sets, extrapolated linearly from the first and last size"
+            f" (the chunked figure means something when both hold over {labels[0][10:]} units):"
+        )
+        for label in labels:
+            low, high = first.memory[label][1], last.memory[label][1]
+            slope = (high - low) / (last.reading_sets - first.reading_sets)
+            at_million = high + slope * (1_000_000 - last.reading_sets)
+            print(f"  peak memory, {label}: {at_million:,.0f} MB (goal: under 300 MB)")
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument(
+        "--units", default="5000", help="fleet size, or sizes to grow through: 2500,10000"
+    )
+    parser.add_argument("--visits", type=int, default=24, help="monthly visits per unit")
+    parser.add_argument("--repeats", type=int, default=3)
+    parser.add_argument("--seed", type=int, default=7)
+    parser.add_argument(
+        "--keep",
+        type=Path,
+        help="build the database in this folder and keep it; a later run reuses it as it is",
+    )
+    parser.add_argument(
+        "--postgres",
+        action="store_true",
+        help="use the PostgreSQL of DATABASE_URL (run under scripts/with-postgres.sh)",
+    )
+    parser.add_argument("--peak-of-refresh", type=int, help=argparse.SUPPRESS)
+    args = parser.parse_args()
+    if args.visits < 12:
+        parser.error("--visits must be at least 12 (the stories use the last year)")
+    try:
+        args.sizes = sorted(int(n) for n in args.units.split(","))
+    except ValueError:
+        parser.error(f"--units: {args.units!r} is not a number or a list like 2500,10000")
+    if args.peak_of_refresh is not None:
+        _refresh_alone(args)
+    elif args.keep is not None:
+        args.keep.mkdir(parents=True, exist_ok=True)
+        _run(args.keep.resolve(), args)
+    else:
+        with tempfile.TemporaryDirectory(prefix="rimewatch-bench-flags-") as tmp:
+            _run(Path(tmp), args)
+
+
+def _setup(folder: Path, postgres: bool, migrate: bool = True) -> None:
+    from bench._db import setup_database
+
+    # DEBUG off: no query log in the timed runs (CaptureQueriesContext turns it on itself).
+    setup_database(
+        folder,
+        postgres=postgres,
+        migrate=migrate,
+        DEBUG="0",
+        SECRET_KEY="bench-only-" + uuid.uuid4().hex,
+        LOG_LEVEL="WARNING",
+    )
+
+
+def _refresh_alone(args: argparse.Namespace) -> None:
+    """The child of ``_peak_of_refresh``: one refresh, then the peak memory before and after."""
+    _setup(args.keep, args.postgres, migrate=False)
+    from django.utils import timezone
+
+    from diagnostics import services
+
+    before = _peak_mb()
+    services.refresh_flags(today=timezone.localdate(), chunk_units=args.peak_of_refresh)
+    print(f"{before:.1f} {_peak_mb():.1f}")
+
+
+def _run(folder: Path, args: argparse.Namespace) -> None:
+    _setup(folder, args.postgres)
+    from django.contrib.auth.models import User
+    from django.utils import timezone
+
+    from fleet.models import Unit
+
+    today = timezone.localdate()
+    rng = np.random.default_rng(args.seed)
+    present = Unit.objects.count()
+    sizes = []
+    if present:
+        print(f"reusing {present:,} units in {folder} (--units and --visits ignored)\n")
+        targets = [present]
+    else:
+        targets = args.sizes
+        User.objects.create_user("bench-office")
+    for target in targets:
+        if target > present:
+            print(f"building {target - present:,} units x {args.visits} visits ({target:,} in all)")
+            t = time.perf_counter()
+            units = _build_units(rng, target - present, first_tag=present)
+            _build_history(rng, units, args.visits, today, User.objects.get())
+            print(f"built in {time.perf_counter() - t:.0f} s")
+            present = target
+        sizes.append(_measure(folder, args, today))
+        _report(sizes[-1])
+    if len(sizes) > 1:
+        _side_by_side(sizes)
+    worst = max(max(s.best["empty"], s.best["open"]) / s.best["floor"] for s in sizes)
+    print(f"\nrefresh / floor {worst:.2f}x at worst (goal: within 3x)")
 
 
 if __name__ == "__main__":

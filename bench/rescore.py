@@ -1,13 +1,17 @@
 """How fast reading sets are diagnosed and stored: vectorised, one row at a time, and the floor.
 
 Builds a throwaway SQLite database (``--rows`` reading sets, default 1,000,000, on 1,000
-units of five refrigerants at sites from sea level to 1,600 m; bulk inserts), then measures
-side by side in one run, on the same stored rows:
+units of five refrigerants at sites from sea level to 1,600 m; bulk inserts), or with
+``--postgres`` the same rows in the throwaway PostgreSQL that ``scripts/with-postgres.sh``
+starts, then measures side by side in one run, on the same stored rows:
 
 - per-row: ``services.diagnose_reading_set`` on a sample (``--sample``), each row fetched
   with its unit as the single POST does, extrapolated to rows per second;
 - vectorised: ``services.rescore`` over every row (what ``manage.py rescore`` runs), with
-  the share spent in the core (``diagnose_batch`` and ``stored_columns``);
+  the shares spent in the core (``diagnose_batch`` and ``stored_columns``) and in writing
+  (``services.store_diagnoses``: on PostgreSQL COPY into a staging table and one upsert);
+- on PostgreSQL, the same rescore writing by one executemany of the upsert per batch (the
+  way SQLite writes, and PostgreSQL's before COPY), for the gain COPY brings;
 - floor: the same reads (ids, then ``values_list`` in batches) and the same number of
   Diagnosis rows written the same way (``services.store_diagnoses``), with no computation:
   the content is copied from real diagnoses (their documents as the same JSON text), so
@@ -16,9 +20,11 @@ side by side in one run, on the same stored rows:
   ``--posts``).
 
     .venv/bin/python bench/rescore.py [--rows 1000000] [--sample 2000] [--posts 200]
+    bash scripts/with-postgres.sh .venv/bin/python bench/rescore.py --postgres
 
 Goals (issue 4): vectorised at least 20x the per-row path, within 3x of the floor,
-1,000,000 reading sets in under 60 s on a 2-core machine; one POST under 20 ms. The floor
+1,000,000 reading sets in under 60 s on a 2-core machine, on SQLite and (issue 17) on
+PostgreSQL; one POST under 20 ms. The floor
 runs after the vectorised pass has been deleted, so it reuses the freed database pages;
 that favours the floor. Wall-clock figures move with whatever else the machine runs.
 """
@@ -38,6 +44,7 @@ import time
 import uuid
 from collections.abc import Callable, Iterator
 from pathlib import Path
+from unittest import mock
 
 import numpy as np
 import orjson
@@ -60,13 +67,14 @@ KINDS = (
 )
 
 
-def _setup(tmp: Path) -> None:
+def _setup(tmp: Path, postgres: bool) -> None:
     from bench._db import setup_database
 
     # Production-like: DEBUG off (no query log), no HTTPS redirect for the test client, and
     # no write throttle in the way of the timed posts.
     setup_database(
         tmp,
+        postgres=postgres,
         DEBUG="0",
         SECRET_KEY="bench-only-" + uuid.uuid4().hex,
         SECURE_SSL_REDIRECT="0",
@@ -254,11 +262,9 @@ def _build_readings(rng: np.random.Generator, unit_ids: list[int], total: int) -
 
 
 @contextlib.contextmanager
-def _core_time(spent: list[float]) -> Iterator[None]:
-    """Adds the seconds spent in the core (the batch and its stored form) to ``spent[0]``."""
-    from diagnostics.core import diagnose as core
-
-    originals = {name: getattr(core, name) for name in ("diagnose_batch", "stored_columns")}
+def _time_in(module: object, names: tuple[str, ...], spent: list[float]) -> Iterator[None]:
+    """Adds the seconds spent in ``module``'s functions ``names`` to ``spent[0]``."""
+    originals = {name: getattr(module, name) for name in names}
 
     def timed(fn: Callable) -> Callable:
         def wrapper(*args, **kwargs):
@@ -271,12 +277,12 @@ def _core_time(spent: list[float]) -> Iterator[None]:
         return wrapper
 
     for name, fn in originals.items():
-        setattr(core, name, timed(fn))
+        setattr(module, name, timed(fn))
     try:
         yield
     finally:
         for name, fn in originals.items():
-            setattr(core, name, fn)
+            setattr(module, name, fn)
 
 
 def _per_row(sample: int) -> tuple[float, list[tuple]]:
@@ -402,6 +408,53 @@ def _post_median(posts: int) -> tuple[float, int]:
     return statistics.median(times), len(times)
 
 
+def _vectorised(rows: int, batch_size: int) -> tuple[int, float, float, float]:
+    """``services.rescore`` over every stale row: (rows, seconds, seconds in the core, seconds
+    writing)."""
+    from diagnostics import services
+    from diagnostics.core import diagnose as core
+
+    core_spent, write_spent = [0.0], [0.0]
+    done = 0
+    t = time.perf_counter()
+
+    def progress(n: int) -> None:
+        nonlocal done
+        done += n
+        rate = done / (time.perf_counter() - t)
+        print(f"\r  rescore {done:>9,} of {rows:,} ({rate:,.0f}/s)", end="", flush=True)
+
+    with (
+        _time_in(core, ("diagnose_batch", "stored_columns"), core_spent),
+        _time_in(services, ("store_diagnoses",), write_spent),
+    ):
+        t = time.perf_counter()
+        stored = services.rescore(
+            services.stale_reading_sets(), batch_size=batch_size, progress=progress
+        )
+        seconds = time.perf_counter() - t
+    print("\r" + " " * 60 + "\r", end="")
+    return stored, seconds, core_spent[0], write_spent[0]
+
+
+def _report_vectorised(label: str, stored: int, seconds: float, core: float, write: float) -> None:
+    print(
+        f"{label:<11} {stored / seconds:>10,.0f} sets/s  ({stored:,} rows in {seconds:.1f} s, "
+        f"{100 * core / seconds:.0f} % of it in the core, {100 * write / seconds:.0f} % "
+        f"writing; peak memory {_peak_mb():.0f} MB)"
+    )
+
+
+def _database_gb(tmp: str) -> float:
+    from django.db import connection
+
+    if connection.vendor == "postgresql":
+        with connection.cursor() as cursor:
+            cursor.execute("SELECT pg_database_size(current_database())")
+            return cursor.fetchone()[0] / 1e9
+    return Path(tmp, "bench.sqlite3").stat().st_size / 1e9
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--rows", type=int, default=1_000_000)
@@ -409,15 +462,23 @@ def main() -> None:
     parser.add_argument("--posts", type=int, default=200)
     parser.add_argument("--batch-size", type=int, default=5000)
     parser.add_argument("--seed", type=int, default=4)
+    parser.add_argument(
+        "--postgres",
+        action="store_true",
+        help="use the PostgreSQL of DATABASE_URL (run under scripts/with-postgres.sh)",
+    )
     args = parser.parse_args()
 
     with tempfile.TemporaryDirectory(prefix="rimewatch-bench-rescore-") as tmp:
-        _setup(Path(tmp))
+        _setup(Path(tmp), args.postgres)
+        from django.db import connection
+
         from diagnostics import services
         from diagnostics.models import Diagnosis
 
+        database = "PostgreSQL" if connection.vendor == "postgresql" else "SQLite"
         rng = np.random.default_rng(args.seed)
-        print(f"building {args.rows:,} reading sets on {UNITS} units in {tmp}")
+        print(f"building {args.rows:,} reading sets on {UNITS} units in {database}")
         t = time.perf_counter()
         unit_ids = _build_units(rng)
         _build_readings(rng, unit_ids, args.rows)
@@ -427,43 +488,36 @@ def main() -> None:
         per_row = args.sample / seconds
         print(f"per-row     {per_row:>10,.0f} sets/s  ({args.sample} rows in {seconds:.1f} s)")
 
-        spent = [0.0]
-        done = 0
-
-        def progress(n: int) -> None:
-            nonlocal done
-            done += n
-            rate = done / (time.perf_counter() - t)
-            print(f"\r  rescore {done:>9,} of {args.rows:,} ({rate:,.0f}/s)", end="", flush=True)
-
-        with _core_time(spent):
-            t = time.perf_counter()
-            stored = services.rescore(
-                services.stale_reading_sets(), batch_size=args.batch_size, progress=progress
-            )
-            vector_seconds = time.perf_counter() - t
-        print("\r" + " " * 60 + "\r", end="")
+        stored, vector_seconds, core, write = _vectorised(args.rows, args.batch_size)
         vectorised = stored / vector_seconds
-        print(
-            f"vectorised  {vectorised:>10,.0f} sets/s  ({stored:,} rows in {vector_seconds:.1f} s, "
-            f"{100 * spent[0] / vector_seconds:.0f} % of it in the core; "
-            f"peak memory {_peak_mb():.0f} MB)"
-        )
+        _report_vectorised("vectorised", stored, vector_seconds, core, write)
         Diagnosis.objects.all().delete()
+
+        statement = None
+        if services._copies():
+            # The same rescore writing as SQLite does: one executemany of the upsert per batch.
+            with mock.patch.object(services, "_copies", return_value=False):
+                by_statement = _vectorised(args.rows, args.batch_size)
+            _report_vectorised("executemany", *by_statement)
+            statement = by_statement[0] / by_statement[1]
+            Diagnosis.objects.all().delete()
 
         t = time.perf_counter()
         written = _floor(template, args.batch_size)
         floor_seconds = time.perf_counter() - t
         floor = written / floor_seconds
         print(f"floor       {floor:>10,.0f} sets/s  ({written:,} rows in {floor_seconds:.1f} s)")
-        size = Path(tmp, "bench.sqlite3").stat().st_size / 1e9
+        size = _database_gb(tmp)
         Diagnosis.objects.all().delete()
 
         median, posted = _post_median(args.posts)
 
         print()
+        print(f"{database}, rescore writing by {'COPY' if statement else 'executemany'}:")
         print(f"vectorised / per-row  {vectorised / per_row:6.1f}x   (goal >= 20x)")
         print(f"vectorised / floor    {vectorised / floor:6.2f}x   (goal: within 3x, >= 0.33x)")
+        if statement:
+            print(f"COPY / executemany    {vectorised / statement:6.2f}x   (the same rescore)")
         print(
             f"vectorised, {stored:,} rows: {vector_seconds:.1f} s"
             + (

@@ -24,6 +24,9 @@ router.register(
     views.RefrigerantEventViewSet,
     basename="refrigerant-event",
 )
+router.register(
+    r"visits/(?P<visit_pk>[0-9]+)/parts-fitted", views.PartFittedViewSet, basename="part-fitted"
+)
 
 urlpatterns = [
     path("auth/token/", views.TokenView.as_view(), name="auth-token"),

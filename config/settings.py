@@ -262,8 +262,28 @@ STATIC_URL = "static/"
 STATIC_ROOT = VAR_DIR / "static"
 STATICFILES_DIRS = [BASE_DIR / "static"]
 # Hashed, compressed copies made by `manage.py collectstatic`, served by WhiteNoise.
+# Files attached to units (nameplate photos, diagrams) go through Django's storage API:
+# on disk under MEDIA_ROOT by default; RIMEWATCH_FILE_STORAGE=s3 keeps them in an
+# S3-compatible bucket (django-storages) that several machines share. Either way they are
+# served only through a page that checks who may see the unit, never from a public URL.
+RIMEWATCH_FILE_STORAGE = env_choice("RIMEWATCH_FILE_STORAGE", "disk", ("disk", "s3"))
+FILE_STORAGE_S3 = {
+    "BACKEND": "storages.backends.s3.S3Storage",
+    "OPTIONS": {
+        "bucket_name": env_str("RIMEWATCH_S3_BUCKET", "rimewatch-files"),
+        # Empty: AWS itself; set for another S3-compatible store.
+        "endpoint_url": env_str("RIMEWATCH_S3_ENDPOINT_URL", "") or None,
+        "region_name": env_str("RIMEWATCH_S3_REGION", "") or None,
+        "access_key": env_str("RIMEWATCH_S3_ACCESS_KEY", "") or None,
+        "secret_key": env_str("RIMEWATCH_S3_SECRET_KEY", "") or None,
+        "default_acl": None,  # the bucket's own (private) access rules
+        "file_overwrite": False,
+    },
+}
 STORAGES = {
-    "default": {"BACKEND": "django.core.files.storage.FileSystemStorage"},
+    "default": FILE_STORAGE_S3
+    if RIMEWATCH_FILE_STORAGE == "s3"
+    else {"BACKEND": "django.core.files.storage.FileSystemStorage"},
     "staticfiles": {"BACKEND": "whitenoise.storage.CompressedManifestStaticFilesStorage"},
 }
 MEDIA_URL = "media/"
@@ -324,6 +344,8 @@ SPECTACULAR_SETTINGS = {
     "REDOC_DIST": "SIDECAR",
     # <id:...> in paths is a record id (fleet/validation.py): an integer in the schema.
     "PATH_CONVERTER_OVERRIDES": {"id": int},
+    # A part's kind is one list wherever a part is written (components, parts fitted).
+    "ENUM_NAME_OVERRIDES": {"ComponentKindEnum": "fleet.choices.ComponentKind"},
 }
 
 # E-mail (reports, password resets) through an SMTP server once EMAIL_HOST is set; without

@@ -33,7 +33,14 @@ from diagnostics.core import (
     start_history,
 )
 from diagnostics.core.types import APPLICATIONS, UnitDesign, choice
-from fleet.choices import ComponentKind, RefrigerantEventKind, Stage, VisitKind, VisitStatus
+from fleet.choices import (
+    STANDING_STAGES,
+    ComponentKind,
+    RefrigerantEventKind,
+    Stage,
+    VisitKind,
+    VisitStatus,
+)
 from fleet.limits import SERVICE_ERA
 from fleet.models import Component, ReadingSet, RefrigerantEvent, Unit, VisitUnit
 from fleet.validation import stored_date_problem
@@ -218,6 +225,12 @@ def _in_service(today: dt.date, unit_ids: Iterable[int] | None = None) -> QueryS
     return units if unit_ids is None else units.filter(id__in=list(unit_ids))
 
 
+def unit_ids_in_service(today: dt.date) -> list[int]:
+    """The ids of every unit in service on ``today``, in id order: what a fleet-wide job
+    works through a chunk at a time."""
+    return list(_in_service(today).order_by("id").values_list("id", flat=True))
+
+
 def _visit_dates(today: dt.date) -> dict:
     """Per unit: the last visit done (reviewed, or handed in and waiting for review: the
     work is done, only the office's reading of it is not), and the first planned visit
@@ -371,7 +384,7 @@ def history_queries(today: dt.date, unit_ids: Iterable[int] | None = None) -> Hi
             "nameplate_volts_max",
             "design_temperature_basis",
         ),
-        readings=ReadingSet.objects.filter(visit_unit__unit_id__in=ids)
+        readings=ReadingSet.objects.filter(visit_unit__unit_id__in=ids, stage__in=STANDING_STAGES)
         .order_by("taken_at")
         .values_list(*_READING_FIELDS),
         parts=Component.objects.filter(unit_id__in=ids).values(

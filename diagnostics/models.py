@@ -31,6 +31,13 @@ class DiagnosisQuerySet(scope.VisibleQuerySet["Diagnosis"]):
         document, the same SQL question on SQLite and PostgreSQL."""
         return self.filter(document__findings__has_key=code)
 
+    def with_metric_status(self, name: str, status: str) -> DiagnosisQuerySet:
+        """Diagnoses whose metric ``name`` was judged ``status`` (``ok``, ``watch``,
+        ``fault``, ``not_scored``: the first item of the metric's row in the document), so
+        a list reads only the rows it shows; the same SQL question on SQLite and
+        PostgreSQL."""
+        return self.filter(**{f"document__metrics__{name}__0": status})
+
 
 class Diagnosis(models.Model):
     """The core's judgement on one reading set: the score and the values trends read as

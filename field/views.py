@@ -28,6 +28,7 @@ MODULES = (
     "live.js",
     "live_panel.js",
     "outbox.js",
+    "part_form.js",
     "screens.js",
     "store.js",
     "unit_screen.js",

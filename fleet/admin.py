@@ -166,12 +166,10 @@ class ComponentInline(admin.TabularInline):
     fk_name = "unit"
     extra = 0
     fields = (
-        "kind",
-        "rated_uf",
-        "tolerance_pct",
-        "rating_uf_min",
-        "rating_uf_max",
-        "rating_volts",
+        *models.PART_FIELDS,
+        "make",
+        "model_number",
+        "serial_number",
         "installed_on",
         "removed_on",
         "reason",
@@ -196,7 +194,15 @@ class UnitAdmin(SavedWithTrail):
         "condenser_type",
         "site__customer",
     )
-    search_fields = ("tag", "description", "site__name", "site__customer__name")
+    search_fields = (
+        "tag",
+        "description",
+        "serial_number",
+        "model_number",
+        "compressor_serial",
+        "site__name",
+        "site__customer__name",
+    )
     list_select_related = ("site__customer", "refrigerant")
     ordering = ("site__customer__name", "site__name", "tag")
     autocomplete_fields = ("site",)
@@ -218,11 +224,16 @@ class UnitAdmin(SavedWithTrail):
             },
         ),
         (
+            "Equipment",
+            {"fields": models.UNIT_PLATE_FIELDS},
+        ),
+        (
             "Refrigerant circuit",
             {
                 "fields": (
                     "refrigerant",
                     "full_charge_kg",
+                    "full_charge_basis",
                     "metering_device",
                     "condenser_type",
                     "has_receiver",
@@ -398,4 +409,30 @@ class AuditEntryAdmin(admin.ModelAdmin):
     def has_delete_permission(
         self, request: HttpRequest, obj: models.AuditEntry | None = None
     ) -> bool:
+        return False
+
+
+@admin.register(models.UnitDocument)
+class UnitDocumentAdmin(admin.ModelAdmin):
+    """Files kept with units, listed for finding; they are added on the unit's page and
+    kept with its history, so none is deleted here."""
+
+    list_display = ("unit", "kind", "title", "original_name", "size_bytes", "uploaded_at")
+    list_filter = ("kind",)
+    search_fields = ("unit__tag", "title", "original_name")
+    list_select_related = ("unit__site",)
+    readonly_fields = (
+        "unit",
+        "file",
+        "original_name",
+        "content_type",
+        "size_bytes",
+        "uploaded_by",
+        "uploaded_at",
+    )
+
+    def has_add_permission(self, request: Any) -> bool:
+        return False
+
+    def has_delete_permission(self, request: Any, obj: Any = None) -> bool:
         return False

@@ -12,6 +12,7 @@ from django.contrib.auth.models import AnonymousUser, User
 from django.contrib.contenttypes.models import ContentType
 from django.core.serializers.json import DjangoJSONEncoder
 from django.db import models
+from django.db.models.fields.files import FieldFile
 from django.utils import timezone
 
 from fleet.models import AuditAction, AuditEntry, ReadingSet, RefrigerantEvent, Visit
@@ -28,6 +29,8 @@ def _as_stored(value: Any) -> Any:
     another offset is no change."""
     if isinstance(value, dt.datetime) and timezone.is_aware(value):
         return value.astimezone(dt.UTC)
+    if isinstance(value, FieldFile):
+        return value.name  # where the file is kept, not its bytes
     return value
 
 

@@ -11,6 +11,24 @@ class Application(models.TextChoices):
     OTHER = "other", "Other"
 
 
+class DocumentKind(models.TextChoices):
+    NAMEPLATE_PHOTO = "nameplate_photo", "Nameplate photo"
+    WIRING_DIAGRAM = "wiring_diagram", "Wiring diagram"
+    COMMISSIONING_SHEET = "commissioning_sheet", "Commissioning sheet"
+    PHOTO = "photo", "Photo"
+    OTHER = "other", "Other document"
+
+
+class ChargeBasis(models.TextChoices):
+    """How an appliance's full charge was determined: the ways 40 CFR 82.152 ("full
+    charge") and 84.103 allow, alone or combined."""
+
+    NAMEPLATE = "nameplate", "Manufacturer's nameplate"
+    CALCULATED = "calculated", "Calculated from component sizes and line lengths"
+    ESTABLISHED_RANGE = "established_range", "Established range of best estimates"
+    COMBINED = "combined", "A combination of these"
+
+
 class ApplianceType(models.TextChoices):
     """Appliance types of the leak-repair rules (40 CFR 82.152 / 84.102)."""
 
@@ -95,8 +113,17 @@ VISIT_TRANSITIONS: dict[str, frozenset[str]] = {
 
 
 class Stage(models.TextChoices):
+    """When in a visit a reading set was taken. Sets taken while adjusting (a TXV turned a
+    step at a time) are kept as the visit's record but stand for neither the unit as found
+    nor as left, so trends and reports leave them out."""
+
     AS_FOUND = "as_found", "As found"
+    ADJUSTING = "adjusting", "While adjusting"
     AS_LEFT = "as_left", "As left"
+
+
+#: The stages whose reading sets stand for the unit's state in trends, flags and reports.
+STANDING_STAGES = (Stage.AS_FOUND, Stage.AS_LEFT)
 
 
 class SightGlass(models.TextChoices):

@@ -8,23 +8,25 @@ validation lives once, in the models.
 from __future__ import annotations
 
 import datetime as dt
-from typing import Any
+from typing import Any, cast
 from zoneinfo import ZoneInfo
 
 from django import forms
 from django.contrib.auth.models import User
 from django.core.exceptions import ValidationError
+from django.core.files.uploadedfile import UploadedFile
 from django.db import transaction
 from django.db.models import QuerySet
 from django.utils import timezone
 
 from diagnostics.models import Flag
 
+from . import choices
 from .choices import Role, VisitStatus
 from .limits import SERVICE_ERA
 from .models import Site, Unit, Visit, VisitUnit
 from .services import save_new_visit
-from .validation import booking_problems
+from .validation import MAX_RECORD_ID, booking_problems, document_type
 
 #: Statuses in which the office may still change a visit's time, people or units.
 EDITABLE_STATUSES = frozenset({VisitStatus.SCHEDULED, VisitStatus.IN_PROGRESS})
@@ -307,8 +309,69 @@ class AcknowledgeFlagForm(forms.ModelForm):
         field.error_messages["required"] = "Say what is being done (a visit booked, parts ordered)."
 
 
+class FlagsField(forms.ModelMultipleChoiceField):
+    """Flags by id; an id no record could have is refused like one that is not offered,
+    before it reaches SQL."""
+
+    def clean(self, value: Any) -> Any:
+        for pk in value or ():
+            if not str(pk).isdigit() or not 1 <= int(pk) <= MAX_RECORD_ID:
+                raise ValidationError(
+                    self.error_messages["invalid_pk_value"],
+                    code="invalid_pk_value",
+                    params={"pk": pk},
+                )
+        return super().clean(value)
+
+
+class AcknowledgeFlagsForm(forms.Form):
+    """The attention list's one acknowledgement: the flags ticked, and what is being done
+    about them. Only flags within the user's reach are offered; any other is refused by
+    name (``flags``)."""
+
+    flags = FlagsField(
+        queryset=Flag.objects.none(),
+        error_messages={
+            "required": "Tick at least one flag to acknowledge.",
+            "invalid_choice": "Flag %(value)s is not one you can acknowledge.",
+            "invalid_pk_value": "“%(pk)s” is not a flag's number.",
+        },
+    )
+    note = forms.CharField(
+        label="What is being done",
+        widget=forms.Textarea(attrs={"rows": 2}),
+        error_messages={"required": "Say what is being done (a visit booked, parts ordered)."},
+    )
+
+    def __init__(self, *args: Any, user: User, **kwargs: Any) -> None:
+        super().__init__(*args, **kwargs)
+        cast(FlagsField, self.fields["flags"]).queryset = Flag.objects.visible_to(user)
+
+    def ticked(self) -> set[int]:
+        """The flags the form was sent with, to tick them again beside an error."""
+        return {int(v) for v in self["flags"].value() or () if str(v).isdigit()}
+
+
 class CancelVisitForm(forms.Form):
     confirm = forms.BooleanField(
         label="Yes, cancel this visit",
         error_messages={"required": "Tick the box to confirm the cancellation."},
     )
+
+
+class DocumentForm(forms.Form):
+    """A file to keep with a unit: what it is, a title, the file (a photo or a PDF)."""
+
+    kind = forms.ChoiceField(choices=choices.DocumentKind.choices, label="What it is")
+    title = forms.CharField(max_length=200, required=False, label="Title (optional)")
+    file = forms.FileField(label="File", help_text="A photo (JPEG or PNG) or a PDF, up to 20 MB.")
+
+    def clean_file(self) -> UploadedFile:
+        upload: UploadedFile = self.cleaned_data["file"]
+        head = upload.read(16)
+        upload.seek(0)
+        content_type, problem = document_type(head, upload.size or 0)
+        if problem:
+            raise forms.ValidationError(problem)
+        upload.content_type = content_type
+        return upload

@@ -26,11 +26,12 @@ from typing import Any, Generic, TypeVar
 from zoneinfo import ZoneInfo
 
 from django.contrib.auth.models import User
+from django.core.files.uploadedfile import UploadedFile
 from django.db import IntegrityError, models, transaction
 from django.utils import timezone
 
 from diagnostics.core.maintenance import VisitProposal
-from diagnostics.models import LeakRate
+from diagnostics.models import Flag, LeakRate
 from diagnostics.services import (
     configured_leak_rules,
     diagnose_reading_set,
@@ -43,11 +44,22 @@ from diagnostics.services import (
 
 from . import audit
 from .choices import VISIT_TRANSITIONS, VisitKind, VisitStatus
-from .models import AuditAction, Component, ReadingSet, RefrigerantEvent, Unit, Visit, VisitUnit
+from .models import (
+    AuditAction,
+    Component,
+    ReadingSet,
+    RefrigerantEvent,
+    Unit,
+    UnitDocument,
+    Visit,
+    VisitUnit,
+)
 
 log = logging.getLogger(__name__)
 
 R = TypeVar("R", ReadingSet, RefrigerantEvent)
+#: A record stored once per client_id.
+K = TypeVar("K", ReadingSet, RefrigerantEvent, Component)
 M = TypeVar("M", bound=models.Model)
 
 #: What a stored record is returned with, so it serialises without further queries.
@@ -404,22 +416,28 @@ def save_with_trail(
 
 
 @dataclass(frozen=True)
-class Stored(Generic[R]):
+class Stored(Generic[K]):
     """The record now in the database, and whether this call stored it."""
 
-    record: R
+    record: K
     created: bool
 
 
-def stored_with_client_id(model: type[R], client_id: uuid.UUID) -> R | None:
+#: What a record stored under a client_id is read with to be serialised.
+_STORED_RELATIONS: dict[type[models.Model], tuple[str, ...]] = {
+    ReadingSet: (*RECORD_RELATIONS, "diagnosis"),
+    RefrigerantEvent: (*RECORD_RELATIONS, "leak_rate"),
+    Component: ("unit", "changed_on_visit"),
+}
+
+
+def stored_with_client_id(model: type[K], client_id: uuid.UUID) -> K | None:
     """The record stored under ``client_id``, ready to serialise; None if there is none."""
-    extra = ("diagnosis",) if model is ReadingSet else ("leak_rate",)
-    return (
-        model.objects.select_related(*RECORD_RELATIONS, *extra).filter(client_id=client_id).first()
-    )
+    relations = _STORED_RELATIONS[model]
+    return model.objects.select_related(*relations).filter(client_id=client_id).first()
 
 
-def _insert_once(record: R, then: Callable[[R], None]) -> Stored[R]:
+def _insert_once(record: K, then: Callable[[K], None]) -> Stored[K]:
     """Insert ``record`` and run ``then`` on it, in one transaction whose first statement is
     the insert; or return the record already stored under its client_id.
 
@@ -437,7 +455,11 @@ def _insert_once(record: R, then: Callable[[R], None]) -> Stored[R]:
     except IntegrityError:
         if inserted:
             raise  # not the client_id: some later write; the exception handler answers 409
-        stored = stored_with_client_id(type(record), record.client_id)
+        stored = (
+            None
+            if record.client_id is None
+            else stored_with_client_id(type(record), record.client_id)
+        )
         if stored is None:
             raise  # some other constraint: the exception handler answers 409
         return Stored(stored, created=False)
@@ -537,6 +559,27 @@ def record_refrigerant_event(
     return _record_once(event, _compute_leak_rate, by=by)
 
 
+def record_part_fitted(
+    part: Component, *, replaces: Component | None, by: User | None
+) -> Stored[Component]:
+    """Store a part a technician fitted on a visit unless its ``client_id`` is stored; the
+    part it ``replaces`` is marked removed on the day the new one went in, both in the trail,
+    and the unit's flags (a start capacitor's band) follow the new part."""
+
+    def remove_replaced(inserted: Component) -> None:
+        audit.record_created(inserted, by=by)
+        if replaces is not None:
+            before = audit.snapshot(replaces)
+            replaces.removed_on = inserted.installed_on
+            replaces.save(update_fields=["removed_on"])
+            audit.record_changed(replaces, before, by=by, note="replaced on a visit")
+
+    stored = _insert_once(part, remove_replaced)
+    if stored.created:
+        _refresh_flags_of_units([part.unit_id])
+    return stored
+
+
 @transaction.atomic
 def change_refrigerant_event(
     event: RefrigerantEvent, before: dict[str, Any], *, by: User | None
@@ -625,3 +668,41 @@ def delete_records(records: Iterable[models.Model], *, by: User | None) -> int:
         delete_record(record, by=by)
         count += 1
     return count
+
+
+def attach_document(
+    unit: Unit, upload: UploadedFile, *, kind: str, title: str, by: User | None
+) -> UnitDocument:
+    """Keep a checked file (``forms.DocumentForm``) with the unit: written through the
+    default storage, recorded in the trail. A file written for a record that then fails to
+    save is removed again, so the storage holds no file without its record."""
+    document = UnitDocument(
+        unit=unit,
+        kind=kind,
+        title=title,
+        original_name=(upload.name or "file")[-200:],
+        content_type=upload.content_type or "application/octet-stream",
+        size_bytes=upload.size or 0,
+        uploaded_by=by,
+    )
+    document.file.save(upload.name or "file", upload, save=False)
+    try:
+        return save_with_trail(None, lambda: _saved(document), by=by)
+    except Exception:
+        document.file.delete(save=False)
+        raise
+
+
+def _saved(record: M) -> M:
+    record.save()
+    return record
+
+
+def acknowledge_flags(flags: models.QuerySet[Flag], note: str, *, by: User) -> int:
+    """The office has seen these flags and says what it is doing: every one still open and
+    not yet acknowledged records the note, who and when, in one update (a form sent twice
+    changes nothing the first did). The flags stay open until the diagnostics clear them.
+    How many were acknowledged."""
+    return flags.filter(cleared_at__isnull=True, acknowledged_at__isnull=True).update(
+        acknowledgement_note=note, acknowledged_by=by, acknowledged_at=timezone.now()
+    )

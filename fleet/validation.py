@@ -126,3 +126,26 @@ class RecordIdConverter:
 
     def to_url(self, value: int) -> str:
         return str(value)
+
+
+#: The largest file attached to a unit: a phone's photo or a scanned diagram fits easily.
+DOCUMENT_MAX_BYTES = 20 * 1024 * 1024
+#: The kinds of file a unit keeps, told by their first bytes (never by the name or the
+#: type the browser claims): JPEG, PNG and PDF.
+DOCUMENT_SIGNATURES = (
+    (b"\xff\xd8\xff", "image/jpeg"),
+    (b"\x89PNG\r\n\x1a\n", "image/png"),
+    (b"%PDF-", "application/pdf"),
+)
+
+
+def document_type(head: bytes, size: int) -> tuple[str | None, str | None]:
+    """The content type of a file from its first bytes and its size, or why it is refused."""
+    if size == 0:
+        return None, "the file is empty"
+    if size > DOCUMENT_MAX_BYTES:
+        return None, f"the file is over {DOCUMENT_MAX_BYTES // (1024 * 1024)} MB"
+    for signature, content_type in DOCUMENT_SIGNATURES:
+        if head.startswith(signature):
+            return content_type, None
+    return None, "keep a photo (JPEG or PNG) or a PDF"

@@ -241,7 +241,10 @@ def readings_by_unit(
     by_unit: dict[int, list[dict[str, Any]]] = defaultdict(list)
     rows = (
         ReadingSet.objects.filter(
-            visit_unit__unit__site_id=site_id, taken_at__gte=start, taken_at__lt=end
+            visit_unit__unit__site_id=site_id,
+            taken_at__gte=start,
+            taken_at__lt=end,
+            stage__in=choices.STANDING_STAGES,
         )
         .exclude(visit_unit__visit__status=choices.VisitStatus.CANCELLED)
         .order_by("taken_at", "id")

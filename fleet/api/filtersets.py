@@ -63,6 +63,14 @@ class UnitFilterSet(filters.FilterSet):
     in_service = filters.BooleanFilter(
         field_name="retired_on", lookup_expr="isnull", help_text="true: not retired."
     )
+    plate = filters.CharFilter(
+        method="on_the_plate",
+        help_text="Part of a tag, serial number or model number, the unit's or its "
+        "compressor's or one of its parts'.",
+    )
+
+    def on_the_plate(self, queryset: QuerySet[Unit], name: str, value: str) -> QuerySet[Unit]:
+        return queryset.filter(Unit.plate_matches(value))
 
     class Meta:
         model = Unit

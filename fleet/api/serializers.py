@@ -7,6 +7,7 @@ from __future__ import annotations
 from .serializers_.base import MeasuredSerializer, RefusesUnknownFields, ValidatedModelSerializer
 from .serializers_.customers import CustomerSerializer, SiteSerializer
 from .serializers_.fields import UnitsField, UnknownAsNullChoiceField
+from .serializers_.parts import PartFittedSerializer
 from .serializers_.refrigerants import RefrigerantSerializer
 from .serializers_.tokens import TokenRequestSerializer, TokenSerializer
 from .serializers_.units import ComponentSerializer, UnitSerializer
@@ -29,6 +30,7 @@ __all__ = [
     "ComponentSerializer",
     "CustomerSerializer",
     "MeasuredSerializer",
+    "PartFittedSerializer",
     "ReadingSetSerializer",
     "RefrigerantEventSerializer",
     "RefrigerantSerializer",

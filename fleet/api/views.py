@@ -13,13 +13,19 @@ from .views_.customers import CustomerViewSet, SiteViewSet
 from .views_.refrigerants import RefrigerantViewSet
 from .views_.tokens import TokenView
 from .views_.units import ComponentViewSet, UnitViewSet
-from .views_.visit_records import ReadingSetViewSet, RefrigerantEventViewSet, VisitRecordViewSet
+from .views_.visit_records import (
+    PartFittedViewSet,
+    ReadingSetViewSet,
+    RefrigerantEventViewSet,
+    VisitRecordViewSet,
+)
 from .views_.visits import VisitViewSet
 
 __all__ = [
     "ComponentViewSet",
     "Conflict",
     "CustomerViewSet",
+    "PartFittedViewSet",
     "ReadingSetViewSet",
     "RecordViewSet",
     "RefrigerantEventViewSet",

@@ -13,13 +13,16 @@ first migration.
 from __future__ import annotations
 
 from .audit import AuditAction, AuditEntry
-from .components import Component
+from .components import PART_FIELDS, Component
+from .documents import UnitDocument
 from .readings import ReadingSet, RefrigerantEvent
 from .sites import Customer, Site, validate_time_zone
-from .units import Refrigerant, Unit
+from .units import UNIT_PLATE_FIELDS, Refrigerant, Unit
 from .visits import Visit, VisitUnit
 
 __all__ = [
+    "PART_FIELDS",
+    "UNIT_PLATE_FIELDS",
     "AuditAction",
     "AuditEntry",
     "Component",
@@ -29,6 +32,7 @@ __all__ = [
     "RefrigerantEvent",
     "Site",
     "Unit",
+    "UnitDocument",
     "Visit",
     "VisitUnit",
     "validate_time_zone",

@@ -17,6 +17,7 @@ from .. import choices
 from .. import reach as scope
 from ..limits import COMPONENT_LIMITS
 from ..validation import limit_constraints, limit_validators, record_date_errors
+from .equipment import Nameplate
 from .units import Unit
 from .visits import Visit
 
@@ -39,7 +40,18 @@ def _band_of_rating() -> Q:
     )
 
 
-class Component(models.Model):
+#: What a part is and its rating as printed: the fields of every form that writes a part.
+PART_FIELDS = (
+    "kind",
+    "rated_uf",
+    "tolerance_pct",
+    "rating_uf_min",
+    "rating_uf_max",
+    "rating_volts",
+)
+
+
+class Component(Nameplate):
     """A replaceable part of a unit, with its rating and its history.
 
     A capacitor's rating is given the way it is printed on the can: a run capacitor as
@@ -85,6 +97,9 @@ class Component(models.Model):
         Visit, null=True, blank=True, on_delete=models.SET_NULL, related_name="components_changed"
     )
     reason = models.CharField(max_length=200, blank=True)
+    #: Chosen by the phone when a technician records a part fitted on a visit, so a retried
+    #: post stores nothing new; blank for parts the office enters.
+    client_id = models.UUIDField(null=True, blank=True, unique=True, editable=False)
 
     #: Who may see it: whoever sees its unit.
     reach = scope.Through(scope.units, "unit__")

@@ -48,6 +48,11 @@ class Site(models.Model):
     customer = models.ForeignKey(Customer, on_delete=models.PROTECT, related_name="sites")
     name = models.CharField(max_length=200)
     address = models.TextField(blank=True)
+    access_notes = models.TextField(
+        blank=True,
+        help_text="How a technician gets to the equipment: keys, roof hatch or ladder, "
+        "whom to ask on arrival, hours the site is open.",
+    )
     time_zone = models.CharField(
         max_length=64, default="America/Chicago", validators=[validate_time_zone]
     )

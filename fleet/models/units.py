@@ -3,6 +3,7 @@ design data and nameplate, which every diagnosis of it reads."""
 
 from __future__ import annotations
 
+from django.apps import apps
 from django.core.exceptions import ValidationError
 from django.db import models
 from django.db.models import Q
@@ -11,6 +12,7 @@ from .. import choices
 from .. import reach as scope
 from ..limits import UNIT_LIMITS
 from ..validation import limit_constraints, limit_validators, record_date_errors
+from .equipment import Nameplate
 from .sites import Site
 
 
@@ -45,7 +47,19 @@ class Refrigerant(models.Model):
         return not self.safety_class.endswith("1")
 
 
-class Unit(models.Model):
+#: A unit's plate beyond its nameplate ratings: what the admin's "Equipment" section and
+#: the API show of it.
+UNIT_PLATE_FIELDS = (
+    "make",
+    "model_number",
+    "serial_number",
+    "compressor_model",
+    "compressor_serial",
+    "warranty_ends_on",
+)
+
+
+class Unit(Nameplate):
     """One refrigeration system: an evaporator (or several) and its condensing unit."""
 
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="units")
@@ -137,6 +151,15 @@ class Unit(models.Model):
     )
     installed_on = models.DateField(null=True, blank=True)
     retired_on = models.DateField(null=True, blank=True)
+    full_charge_basis = models.CharField(
+        max_length=20,
+        choices=choices.ChargeBasis.choices,
+        blank=True,
+        help_text="How the full charge was determined; blank: not recorded.",
+    )
+    warranty_ends_on = models.DateField(null=True, blank=True)
+    compressor_model = models.CharField(max_length=100, blank=True)
+    compressor_serial = models.CharField(max_length=100, blank=True, db_index=True)
 
     #: Who may see it: by role (``fleet.reach.units``).
     reach = scope.Through(scope.units)
@@ -167,6 +190,10 @@ class Unit(models.Model):
             ),
             models.CheckConstraint(condition=Q(phase__in=[1, 3]), name="unit_phase_valid"),
             models.CheckConstraint(
+                condition=Q(full_charge_basis__in=["", *choices.ChargeBasis.values]),
+                name="unit_full_charge_basis_valid",
+            ),
+            models.CheckConstraint(
                 condition=Q(head_pressure_control__in=["", *choices.HeadPressureControl.values]),
                 name="unit_head_pressure_control_valid",
             ),
@@ -187,6 +214,25 @@ class Unit(models.Model):
             *limit_constraints("unit", UNIT_LIMITS),
         ]
 
+    @classmethod
+    def plate_matches(cls, text: str) -> Q:
+        """Units whose tag, make-model-serial or compressor's model or serial holds
+        ``text``, or one of whose parts' model or serial does: the one rule the office's
+        search and the API's ``?plate=`` both use (a subquery, so a unit comes once)."""
+        text = text.strip()
+        # Component is defined on top of this module: found by name, not imported.
+        parts = apps.get_model("fleet", "Component")._default_manager.filter(
+            Q(serial_number__icontains=text) | Q(model_number__icontains=text)
+        )
+        return (
+            Q(tag__icontains=text)
+            | Q(serial_number__icontains=text)
+            | Q(model_number__icontains=text)
+            | Q(compressor_serial__icontains=text)
+            | Q(compressor_model__icontains=text)
+            | Q(pk__in=parts.values("unit_id"))
+        )
+
     def __str__(self) -> str:
         return f"{self.tag} ({self.site.name})"
 
@@ -202,7 +248,7 @@ class Unit(models.Model):
             errors["superheat_max_k"] = "must not be below the minimum superheat"
         if self.installed_on and self.retired_on and self.retired_on < self.installed_on:
             errors["retired_on"] = "cannot be before the installation date"
-        errors.update(record_date_errors(self, ("installed_on", "retired_on")))
+        errors.update(record_date_errors(self, ("installed_on", "retired_on", "warranty_ends_on")))
         if (
             self.head_pressure_control == choices.HeadPressureControl.NONE
             and self.head_pressure_setpoint_c is not None

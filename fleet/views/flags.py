@@ -41,8 +41,6 @@ def flag_acknowledge(request: HttpRequest, pk: int) -> HttpResponse:
                 "flag": flag,
                 "can_acknowledge": True,
                 "ack_form": form,
-                # the card comes back as it was sent: with its unit and site on a list
-                "show_unit": bool(request.POST.get("show_unit")),
             },
         )
     if form.errors:

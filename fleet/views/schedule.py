@@ -20,6 +20,7 @@ from fleet.models import Visit
 from fleet.reach import roles_of
 
 from .base import BadParameter, bad_parameter, page, query_date, site_zone, within_reach
+from .lists import VisitPlaceFilter, filtered, kept_query
 
 
 @dataclass
@@ -92,9 +93,17 @@ def schedule(request: HttpRequest) -> HttpResponse:
     # Sites may sit a few hours from our zone: fetch a day either side, place by local date.
     lo = dt.datetime.combine(monday - dt.timedelta(days=1), dt.time.min, zone)
     hi = dt.datetime.combine(monday + dt.timedelta(days=8), dt.time.min, zone)
+    office = roles_of(request.user).office
+    in_reach = Visit.objects.visible_to(request.user)
+    narrowed = None
+    if office:  # a large office narrows the week to a customer, a site or a technician
+        try:
+            narrowed = filtered(VisitPlaceFilter, request, in_reach)
+        except BadParameter as error:
+            return bad_parameter(request, error)
+        in_reach = narrowed.qs
     fetched = (
-        Visit.objects.visible_to(request.user)
-        .filter(window_start__lt=hi, window_end__gt=lo)
+        in_reach.filter(window_start__lt=hi, window_end__gt=lo)
         .select_related("site__customer")
         .prefetch_related("technicians")
         .annotate(unit_count=Count("visit_units"))
@@ -118,9 +127,9 @@ def schedule(request: HttpRequest) -> HttpResponse:
         o.first.overlaps.append(o.second.visit.reference)
         o.second.overlaps.append(o.first.visit.reference)
 
-    office = roles_of(request.user).office
+    chosen = narrowed.form.cleaned_data.get("technician") if narrowed else None
     if office:
-        people = list(forms.technician_users())
+        people = [chosen] if chosen else list(forms.technician_users())
         rows = [ScheduleRow(p.get_full_name() or p.get_username(), p.pk) for p in people]
         # Someone disabled or re-roled keeps the visits still assigned to them: a row of
         # their own, so no visit within reach drops off the week.
@@ -130,7 +139,8 @@ def schedule(request: HttpRequest) -> HttpResponse:
             ScheduleRow(f"{p.get_full_name() or p.get_username()} (not a technician now)", p.pk)
             for p in sorted(former.values(), key=lambda p: (p.get_full_name(), p.username))
         )
-        rows.append(ScheduleRow("Not assigned yet", None))
+        if not chosen:
+            rows.append(ScheduleRow("Not assigned yet", None))
     else:
         rows = [ScheduleRow("My visits", request.user.pk)]
     index = {row.person_id: row for row in rows}
@@ -157,5 +167,16 @@ def schedule(request: HttpRequest) -> HttpResponse:
             "this_week": monday_of(None),
             "monday": monday,
             "visit_count": len({v.visit.pk for v in visits}),
+            "filter": narrowed,
+            "query": kept_query(request),
+            "filters_query": _without_week(request),
         },
     )
+
+
+def _without_week(request: HttpRequest) -> str:
+    """The filters of the query string, which the week's links carry to the next week."""
+    query = request.GET.copy()
+    query.pop("week", None)
+    query.pop("page", None)
+    return query.urlencode()

@@ -7,6 +7,7 @@ from __future__ import annotations
 from collections.abc import Iterable
 from dataclasses import dataclass
 
+from diagnostics.core.details import Details
 from diagnostics.models import Diagnosis, Flag, LeakRate
 from fleet.models import ReadingSet, RefrigerantEvent, Unit, Visit, VisitUnit
 from reports.data import Health
@@ -18,10 +19,18 @@ def diagnosis_condition(
 ) -> Health:
     """A stored diagnosis (and the unit's open flags) judged by the rule the monthly report
     uses (``reports.summary.judge``), so a page and the report say the same."""
+    return stored_condition(diagnosis.score, diagnosis.details, flags, application)
+
+
+def stored_condition(
+    score: float | None, details: Details, flags: Iterable[Flag] = (), application: str = ""
+) -> Health:
+    """``diagnosis_condition`` for a diagnosis read as values (its score and the details of
+    its document), as the lists read many at once."""
     return judge_stored(
-        diagnosis.score,
-        diagnosis.metrics,
-        diagnosis.findings,
+        score,
+        details["metrics"],
+        details["findings"],
         [
             (f.get_kind_display(), f.get_severity_display(), severity_rank(f.severity))
             for f in flags

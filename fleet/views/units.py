@@ -6,18 +6,21 @@ from __future__ import annotations
 import datetime as dt
 from typing import Any
 
-from django.http import HttpRequest, HttpResponse
-from django.shortcuts import get_object_or_404
+from django.contrib import messages
+from django.http import FileResponse, HttpRequest, HttpResponse
+from django.shortcuts import get_object_or_404, redirect
+from django.urls import reverse
 from django.utils import timezone
-from django.views.decorators.http import require_GET
+from django.views.decorators.http import require_GET, require_POST
 
 from fleet import forms
-from fleet.choices import RefrigerantEventKind
+from fleet.choices import RefrigerantEventKind, Role
 from fleet.display import display_for
-from fleet.models import ReadingSet, RefrigerantEvent, Unit, Visit
+from fleet.models import ReadingSet, RefrigerantEvent, Unit, UnitDocument, Visit
 from fleet.reach import roles_of
+from fleet.services import attach_document
 
-from .base import ANY_ROLE, page, within_reach
+from .base import ANY_ROLE, page, signed_in, within_reach
 from .stored import diagnosis_condition, leak_rate_of
 
 
@@ -50,6 +53,16 @@ def unit_charts(unit: Unit, today: dt.date) -> dict[str, Any]:
 @require_GET
 def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
     """A unit: nameplate and design data, latest diagnosis, trends, flags, leaks, history."""
+    return unit_page(request, pk)
+
+
+def unit_page(
+    request: HttpRequest,
+    pk: int,
+    document_form: forms.DocumentForm | None = None,
+    status: int = 200,
+) -> HttpResponse:
+    """The unit's page, with a document form sent back with its errors if there is one."""
     unit = get_object_or_404(
         Unit.objects.visible_to(request.user).select_related("site__customer", "refrigerant"),
         pk=pk,
@@ -70,6 +83,7 @@ def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
         .select_related("acknowledged_by")
         .order_by("-opened_at")
     )
+    documents = list(unit.documents.select_related("uploaded_by").order_by("-uploaded_at"))
     events = list(
         RefrigerantEvent.objects.filter(visit_unit__unit=unit)
         .select_related("leak_rate", "visit_unit__visit")
@@ -105,5 +119,42 @@ def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
             "flammable_list": [unit.refrigerant.designation] if unit.refrigerant.flammable else [],
             "can_acknowledge": roles.office,
             "ack_form": forms.AcknowledgeFlagForm(),
+            "documents": documents,
+            "document_form": document_form or forms.DocumentForm(),
         },
+        status=status,
     )
+
+
+@within_reach(Role.OFFICE)
+@require_POST
+def document_add(request: HttpRequest, pk: int) -> HttpResponse:
+    """Keep a file with the unit; a refused one comes back on the unit's page, named."""
+    unit = get_object_or_404(Unit.objects.visible_to(request.user), pk=pk)
+    form = forms.DocumentForm(request.POST, request.FILES)
+    if not form.is_valid():
+        return unit_page(request, pk, document_form=form, status=400)
+    attach_document(
+        unit,
+        form.cleaned_data["file"],
+        kind=form.cleaned_data["kind"],
+        title=form.cleaned_data["title"],
+        by=signed_in(request),
+    )
+    messages.success(request, f"{form.cleaned_data['file'].name} kept with {unit.tag}.")
+    return redirect(f"{reverse('fleet:unit', args=[unit.pk])}#documents-title")
+
+
+@within_reach(*ANY_ROLE)
+@require_GET
+def document_file(request: HttpRequest, pk: int) -> FileResponse:
+    """A unit's file, to whoever may see the unit, with the type it was checked to be."""
+    document = get_object_or_404(UnitDocument.objects.visible_to(request.user), pk=pk)
+    response = FileResponse(
+        document.file.open("rb"),
+        content_type=document.content_type,
+        as_attachment=False,
+        filename=document.original_name,
+    )
+    response["Cache-Control"] = "private, max-age=3600"
+    return response

@@ -320,3 +320,22 @@ def test_the_rescore_command_says_what_it_did_and_why_nothing_is_left():
     out = StringIO()
     call_command("rescore", stdout=out, verbosity=0)
     assert out.getvalue().strip() == f"Rescored 1 reading sets with algorithm {ALGORITHM_VERSION}."
+
+
+def test_sets_taken_while_adjusting_stand_for_neither_found_nor_left():
+    """A TXV set a quarter turn at a time leaves several sets between as-found and as-left;
+    trends and start history read only the two that stand for the unit."""
+    from diagnostics.history import unit_histories
+
+    unit = UnitFactory()
+    vu = VisitUnitFactory(unit=unit, visit__site=unit.site)
+    for stage, cond_f in (("as_found", 100.0), ("adjusting", 130.0), ("adjusting", 128.0)):
+        services.diagnose_reading_set(_r404a_reading(vu, cond_f=cond_f, stage=stage))
+    services.diagnose_reading_set(_r404a_reading(vu, stage="as_left"))
+
+    (history,) = unit_histories(timezone.localdate(), unit_ids=[unit.id])
+
+    columns = history.split.points
+    assert len(columns.split_k) == 2
+    assert columns.as_left.tolist() == [False, True]
+    assert max(columns.split_k) < 20.0  # neither 130 F nor 128 F condensing got in

@@ -268,22 +268,22 @@ def test_the_unit_page_charts_the_reports_trend_panels():
 def test_an_acknowledged_card_on_the_attention_list_keeps_its_unit_and_site(
     office, world, django_assert_max_num_queries
 ):
-    """Acknowledged in place on the attention list, the card still names its unit (linked)
-    and its site, as it did before; the answer costs five queries (session, user, roles,
-    the flag with its unit and site, the update)."""
+    """Acknowledged with the list's one form, the card still names its unit (linked) and
+    its site, as it did before; the acknowledgement costs five queries (session, user,
+    roles, the flags offered, the update)."""
     before = office.get(reverse("fleet:attention")).content.decode()
-    assert 'name="show_unit"' in before
+    assert f'name="flags" value="{world.flag.pk}" form="acknowledge"' in before
     with django_assert_max_num_queries(5):
         response = office.post(
-            reverse("fleet:flag-acknowledge", args=[world.flag.pk]),
-            {"acknowledgement_note": "Coil clean booked", "show_unit": "1"},
-            HTTP_HX_REQUEST="true",
+            reverse("fleet:attention-acknowledge"),
+            {"flags": [world.flag.pk], "note": "Coil clean booked"},
         )
-    fragment = response.content.decode()
-    assert "Coil clean booked" in fragment
-    assert reverse("fleet:unit", args=[world.unit.pk]) in fragment
-    assert world.unit.tag in fragment
-    assert world.site.name in fragment
+    assert response.status_code == 302
+    after = office.get(response["Location"]).content.decode()
+    assert "Coil clean booked" in after
+    assert reverse("fleet:unit", args=[world.unit.pk]) in after
+    assert world.unit.tag in after
+    assert world.site.name in after
 
 
 def test_an_acknowledged_card_on_the_unit_page_names_no_unit(office, world):

@@ -80,3 +80,14 @@ export function field(label, input, hint) {
 export function fmt(value, digits = 1) {
   return value === null || value === undefined || Number.isNaN(value) ? "—" : Number(value).toFixed(digits);
 }
+
+/* A number field that brings up the phone's number pad (decimals and signs allowed). */
+export function numberInput(name, value) {
+  return h("input", { name, type: "number", inputmode: "decimal", step: "any", value: value ?? "" });
+}
+
+/* The number typed in ``input``; null when it is empty. */
+export function num(input) {
+  const text = input.value.trim();
+  return text === "" ? null : Number(text);
+}

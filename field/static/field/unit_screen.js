@@ -2,9 +2,10 @@
    forms that record what was measured and done (each saved to the outbox first). */
 import { ApiError } from "./api.js";
 import { checklist, keepChecklist, liveInputs, readingSets, unitDetails, visit as loadVisit } from "./data.js";
-import { badge, caution, field, fmt, h, screen } from "./dom.js";
+import { badge, caution, field, fmt, h, num, numberInput, screen } from "./dom.js";
 import { discard, enqueue, newClientId, pending } from "./outbox.js";
 import { capacitorCheck, electricalCaution, electricalLines, livePanel, readingsSi } from "./live_panel.js";
+import { partForm } from "./part_form.js";
 import { kvGet, kvSet } from "./store.js";
 import { label, shown, siShown, wireUnits } from "./units.js";
 
@@ -158,21 +159,11 @@ const MEASURED = [
 
 export const STAGES = {
   as_found: "As found",
-  adjusting: "While adjusting (recorded as found, with a note)",
+  adjusting: "While adjusting",
   as_left: "As left",
 };
-const ADJUSTING_NOTE = "Taken while adjusting.";
 /* The condenser check has no field of its own in a reading set: it goes into the notes. */
 const CONDENSER_NOTES = ["Condenser coil clear.", "Condenser coil blocked or dirty."];
-
-function numberInput(name, value) {
-  return h("input", { name, type: "number", inputmode: "decimal", step: "any", value: value ?? "" });
-}
-
-function num(input) {
-  const text = input.value.trim();
-  return text === "" ? null : Number(text);
-}
 
 function readingForm(visitId, unit, answers, prior, saved, live) {
   const body = prior ? prior.body : {};
@@ -181,7 +172,7 @@ function readingForm(visitId, unit, answers, prior, saved, live) {
     "select",
     { name: "stage" },
     Object.entries(STAGES).map(([value, text]) =>
-      h("option", { value, selected: (body.notes || "").startsWith(ADJUSTING_NOTE) ? value === "adjusting" : value === (body.stage || "as_found") }, text),
+      h("option", { value, selected: value === (body.stage || "as_found") }, text),
     ),
   );
   const measured = MEASURED.map(([name, text, q]) => {
@@ -197,7 +188,7 @@ function readingForm(visitId, unit, answers, prior, saved, live) {
   let defrost = body.in_defrost ?? null;
   const defrostSet = h("fieldset", { class: "tri" }, h("legend", {}, "In defrost?"), triState("in_defrost", defrost, (v) => { defrost = v; }));
   const sight = h("select", { name: "sight_glass" }, [["", "Not looked at"], ["clear", "Clear"], ["bubbles", "Bubbles"], ["none", "No sight glass"]].map(([v, t]) => h("option", { value: v, selected: (body.sight_glass || "") === v }, t)));
-  const notes = h("textarea", { name: "notes", rows: 3, maxlength: 2000 }, CONDENSER_NOTES.reduce((text, n) => text.replace(n, ""), (body.notes || "").replace(ADJUSTING_NOTE, "")).trim());
+  const notes = h("textarea", { name: "notes", rows: 3, maxlength: 2000 }, CONDENSER_NOTES.reduce((text, n) => text.replace(n, ""), body.notes || "").trim());
   const message = h("p", { class: "problem", role: "alert" });
 
   const legs = (list) => list.map(num).filter((v) => v !== null);
@@ -222,13 +213,12 @@ function readingForm(visitId, unit, answers, prior, saved, live) {
       return;
     }
     const condenser = answers.condenser_clear === true ? CONDENSER_NOTES[0] : answers.condenser_clear === false ? CONDENSER_NOTES[1] : "";
-    const adjusting = stage.value === "adjusting";
-    const text = [adjusting ? ADJUSTING_NOTE : "", notes.value.trim(), condenser].filter(Boolean).join(" ");
+    const text = [notes.value.trim(), condenser].filter(Boolean).join(" ");
     const record = {
       client_id: newClientId(),
       unit: unit.id,
       taken_at: prior ? prior.body.taken_at : new Date().toISOString(),
-      stage: adjusting ? "as_found" : stage.value,
+      stage: stage.value,
       units: wireUnits(),
       ...values,
       compressor_amps: legs(amps),
@@ -264,7 +254,7 @@ function readingForm(visitId, unit, answers, prior, saved, live) {
       unit: unit.id,
       path: `visits/${visitId}/reading-sets/`,
       body: record,
-      label: `${STAGES[stage.value].split(" (")[0]} readings on ${unit.tag}`,
+      label: `${STAGES[stage.value]} readings on ${unit.tag}`,
       replaces: prior ? prior.client_id : undefined,
     });
     saved(record);
@@ -307,8 +297,7 @@ function readingHistory(sets, withdraw, correctHref) {
     "ol",
     { class: "history" },
     sets.map((s) => {
-      const adjusting = (s.notes || "").startsWith(ADJUSTING_NOTE);
-      const stage = adjusting ? "While adjusting" : s.stage === "as_left" ? "As left" : "As found";
+      const stage = STAGES[s.stage] || s.stage;
       const superheat = s.diagnosis ? (s.diagnosis.metrics || []).find((m) => m.name === "superheat") : null;
       return h(
         "li",
@@ -489,18 +478,25 @@ export async function unitScreen(visitId, unitId, correcting) {
     });
     return card;
   };
+  const partCard = () => {
+    const card = partForm(visitId, unit, details.components, () => {
+      afterSave("Part");
+      card.replaceWith(partCard());
+    });
+    return card;
+  };
   const jump = (target, text) => h("button", { class: "button", type: "button", onclick: () => document.getElementById(target).scrollIntoView() }, text);
   show(
     h("p", {}, h("a", { href: `#/visit/${visitId}` }, "← The visit")),
     h("h1", {}, unit.tag),
     unit.description ? h("p", { class: "lead" }, unit.description) : null,
-    open ? h("nav", { class: "actions jump", "aria-label": "On this screen" }, jump("checks", "Checks"), jump("readings", "Readings"), jump("refrigerant", "Refrigerant")) : null,
+    open ? h("nav", { class: "actions jump", "aria-label": "On this screen" }, jump("checks", "Checks"), jump("readings", "Readings"), jump("refrigerant", "Refrigerant"), jump("parts", "Parts")) : null,
     flammableCaution(refrigerant),
     nameplate(unit, refrigerant, details.components),
     lastDiagnosis(details.diagnosis),
     openFlags(details.flags),
     preClimb(visitId, unitId, answers),
-    open || prior ? [h("h2", { id: "readings" }, "Readings on this visit"), history, confirm, electricalCaution(), form, txvHelp(unit), capacitorCheck(live && live.targets), await refrigerantCard(prior && prior.kind === "refrigerant_event" ? prior : null)] : h("p", { class: "hint" }, waiting.some((e) => e.kind === "submit") ? "The visit is submitted on the phone: nothing more can be recorded." : "Start the visit to record readings."),
+    open || prior ? [h("h2", { id: "readings" }, "Readings on this visit"), history, confirm, electricalCaution(), form, txvHelp(unit), capacitorCheck(live && live.targets), await refrigerantCard(prior && prior.kind === "refrigerant_event" ? prior : null), partCard()] : h("p", { class: "hint" }, waiting.some((e) => e.kind === "submit") ? "The visit is submitted on the phone: nothing more can be recorded." : "Start the visit to record readings."),
   );
   show.whenSent(redrawHistory);
   return undefined;

@@ -65,6 +65,7 @@ export async function visitScreen(id) {
       { class: "card" },
       h("h2", {}, "Site"),
       site ? h("p", { class: "address" }, site.address || "No address on record") : null,
+      site && site.access_notes ? h("p", { class: "access" }, h("strong", {}, "Access: "), site.access_notes) : null,
       site ? h("p", {}, `Time zone: ${site.time_zone} · Elevation: ${Math.round(site.elevation_m)} m`) : null,
     ),
     h("section", { class: "card" }, h("h2", {}, "What the office asked"), h("p", { class: "asked" }, record.reported_problem || "Nothing noted: routine visit.")),

@@ -43,6 +43,7 @@ class SiteSerializer(MeasuredSerializer):
             "customer",
             "name",
             "address",
+            "access_notes",
             "time_zone",
             "elevation_m",
             "design_ambient",

@@ -9,7 +9,7 @@ from rest_framework import serializers
 from fleet import choices
 from fleet.api.wire_units import Measure
 from fleet.limits import UNIT_LIMITS
-from fleet.models import Component, Refrigerant, Unit
+from fleet.models import PART_FIELDS, UNIT_PLATE_FIELDS, Component, Refrigerant, Unit
 
 from .base import MeasuredSerializer, ValidatedModelSerializer
 from .fields import NumberField, UnknownAsNullChoiceField, measure_field
@@ -118,6 +118,8 @@ class UnitSerializer(MeasuredSerializer):
             "pm_interval_days",
             "installed_on",
             "retired_on",
+            *UNIT_PLATE_FIELDS,
+            "full_charge_basis",
             "units",
         ]
         extra_kwargs = {
@@ -153,12 +155,10 @@ class ComponentSerializer(ValidatedModelSerializer):
         fields = [
             "id",
             "unit",
-            "kind",
-            "rated_uf",
-            "tolerance_pct",
-            "rating_uf_min",
-            "rating_uf_max",
-            "rating_volts",
+            *PART_FIELDS,
+            "make",
+            "model_number",
+            "serial_number",
             "installed_on",
             "removed_on",
             "changed_on_visit",

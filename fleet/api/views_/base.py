@@ -62,6 +62,14 @@ class Pagination(PageNumberPagination):
     max_page_size = 200
 
 
+class DiagnosedPagination(Pagination):
+    """Records that each carry their whole diagnosis (a few kilobytes each): a smaller page
+    by default, so a default page stays small on a phone's link; ``page_size`` still goes
+    to 200."""
+
+    page_size = 20
+
+
 class UnitSystemMixin(APIView):
     """Reads ``?units=si|us`` once per request, for the serializers' context."""
 

@@ -24,15 +24,16 @@ from fleet import services
 from fleet.api import filtersets
 from fleet.api.permissions import visit_in_reach
 from fleet.api.serializers import (
+    PartFittedSerializer,
     ReadingSetSerializer,
     RefrigerantEventSerializer,
     VisitRecordSerializer,
 )
 from fleet.choices import VisitStatus
-from fleet.models import ReadingSet, RefrigerantEvent, Visit, VisitUnit
+from fleet.models import Component, ReadingSet, RefrigerantEvent, Visit, VisitUnit
 from fleet.reach import OFFICE, TECHNICIAN, roles_of
 
-from .base import Conflict, RimewatchViewSet, signed_in
+from .base import Conflict, DiagnosedPagination, RimewatchViewSet, signed_in
 
 VISIT_PK = OpenApiParameter("visit_pk", OpenApiTypes.INT, OpenApiParameter.PATH)
 
@@ -242,6 +243,7 @@ class ReadingSetViewSet(VisitRecordViewSet):
     any set, as for every visit record."""
 
     serializer_class = ReadingSetSerializer
+    pagination_class = DiagnosedPagination
     filterset_class = filtersets.ReadingSetFilterSet
     queryset = ReadingSet.objects.all()
     model = ReadingSet
@@ -280,3 +282,68 @@ class RefrigerantEventViewSet(VisitRecordViewSet):
     model = RefrigerantEvent
     relation = "leak_rate"
     record_noun = "refrigerant events"
+
+
+@extend_schema_view(
+    list=extend_schema(parameters=[VISIT_PK]),
+    retrieve=extend_schema(parameters=[VISIT_PK]),
+    create=extend_schema(
+        parameters=[VISIT_PK],
+        responses={201: PartFittedSerializer, 200: PartFittedSerializer},
+        description="Record a part fitted on a unit of the visit. A repeat of a stored "
+        "client_id returns the stored part with 200 and changes nothing.",
+    ),
+)
+class PartFittedViewSet(VisitRecordViewSet):
+    """Parts fitted on a visit, each with the part it replaced marked removed. Technicians
+    record them while the visit is in progress; corrections are the office's, on the
+    components resource, where every part's history is kept."""
+
+    http_method_names = ["get", "post", "head", "options"]
+    serializer_class = PartFittedSerializer
+    filterset_class = None
+    queryset = Component.objects.all()
+    record_noun = "parts"
+    states_units = False
+
+    def get_queryset(self) -> QuerySet:
+        if getattr(self, "swagger_fake_view", False):
+            return Component.objects.none()
+        return Component.objects.filter(changed_on_visit=self.visit).order_by("id")
+
+    def create(self, request: Request, *args: Any, **kwargs: Any) -> Response:
+        stored = self._stored_part(request.data)
+        if stored is not None:
+            return Response(self.get_serializer(stored).data, status=status.HTTP_200_OK)
+        self._check_writable()
+        serializer = cast(PartFittedSerializer, self.get_serializer(data=request.data))
+        serializer.is_valid(raise_exception=True)
+        part = serializer.save()
+        if part.changed_on_visit_id != self.visit.pk:  # a concurrent post on another visit
+            raise Conflict({"client_id": [ON_ANOTHER_VISIT]})
+        code = status.HTTP_201_CREATED if serializer.created else status.HTTP_200_OK
+        return Response(serializer.data, status=code)
+
+    def _stored_part(self, data: Any) -> Component | None:
+        """The part already stored under the request's client_id (a retry): the same visit,
+        unit and kind, else a 409 naming what differs."""
+        raw = data.get("client_id") if isinstance(data, dict) else None
+        try:
+            client_id = uuid.UUID(str(raw)) if raw is not None else None
+        except ValueError:
+            return None  # the serializer names the field
+        if client_id is None:
+            return None
+        stored = Component.objects.filter(client_id=client_id).first()
+        if stored is None:
+            return None
+        if stored.changed_on_visit_id != self.visit.pk:
+            raise Conflict({"client_id": [ON_ANOTHER_VISIT]})
+        differ = {
+            wire: [DIFFERS]
+            for wire, value in (("unit", stored.unit_id), ("kind", stored.kind))
+            if wire in data and data[wire] != value
+        }
+        if differ:
+            raise Conflict({"client_id": ["already used for another part on this visit"], **differ})
+        return stored
