@@ -12,6 +12,7 @@ import pytest
 from axes.models import AccessAttempt
 from django.apps import apps
 from django.contrib.auth.models import User
+from django.contrib.contenttypes.models import ContentType
 from django.core.files.storage import default_storage
 from django.core.management import call_command
 from django.core.management.base import CommandError
@@ -28,6 +29,15 @@ from tests.reports.factories import FAKE_PDF, MonthlyReportFactory
 pytestmark = pytest.mark.django_db
 
 SEED = importlib.import_module("fleet.migrations.0002_seed_refrigerants_and_roles").seed
+
+
+@pytest.fixture(autouse=True)
+def _fresh_content_types():
+    """Flushing and importing inside a test gives the content types other ids, which
+    Django's ContentType cache keeps after the test's rollback has restored the old ones:
+    a later test would then write audit entries under the wrong record type."""
+    yield
+    ContentType.objects.clear_cache()
 
 
 @pytest.fixture
