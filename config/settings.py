@@ -133,6 +133,8 @@ MIDDLEWARE = [
     "django.contrib.messages.middleware.MessageMiddleware",
     # A database that cannot be reached answers 503 with Retry-After (config/errors.py).
     "config.errors.DatabaseOutageMiddleware",
+    # GET pages read from the read replica when there is one (config/replica.py).
+    "config.replica.ReplicaReadsMiddleware",
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
     "csp.middleware.CSPMiddleware",
     # Last: turns a sign-in refused for too many failures into the lockout page.
@@ -179,6 +181,24 @@ if DATABASES["default"]["ENGINE"] == "django.db.backends.postgresql" and env_boo
     DATABASES["default"].setdefault("OPTIONS", {}).update(
         server_side_binding=True, prepare_threshold=5
     )
+# A read replica (a PostgreSQL standby of the primary): with REPLICA_DATABASE_URL set,
+# the pages' GET requests and the reports' gathering read our records from it, and
+# everything else (writes, the API, sessions, the cache table, the job queue) uses the
+# primary (fleet/replica.py). A browser that just wrote something reads the primary for
+# RIMEWATCH_REPLICA_PIN_SECONDS, so it sees its own change whatever the replica's lag.
+REPLICA_DATABASE_URL = env_str("REPLICA_DATABASE_URL", "")
+RIMEWATCH_READ_REPLICA = ""
+if REPLICA_DATABASE_URL:
+    DATABASES["replica"] = dj_database_url.parse(
+        REPLICA_DATABASE_URL,
+        conn_max_age=DATABASES["default"]["CONN_MAX_AGE"],
+        conn_health_checks=True,
+    )
+    DATABASES["replica"]["OPTIONS"] = dict(DATABASES["default"].get("OPTIONS", {}))
+    DATABASES["replica"]["TEST"] = {"MIRROR": "default"}
+    RIMEWATCH_READ_REPLICA = "replica"
+DATABASE_ROUTERS = ["fleet.replica.ReplicaRouter"]
+RIMEWATCH_REPLICA_PIN_SECONDS = env_int("RIMEWATCH_REPLICA_PIN_SECONDS", 10, minimum=1)
 DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"
 
 # The throttles count in the cache, so it must be one for every worker process: Django's

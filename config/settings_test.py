@@ -16,3 +16,7 @@ CACHES = {"default": {"BACKEND": "django.core.cache.backends.locmem.LocMemCache"
 
 # Generated reports go to a throwaway folder, not the developer's var/media.
 MEDIA_ROOT = Path(tempfile.mkdtemp(prefix="rimewatch-test-media-"))
+
+# A second alias that mirrors the test database, as a read replica would (fleet/replica.py):
+# tests that set RIMEWATCH_READ_REPLICA = "replica" see which reads go to it.
+DATABASES.setdefault("replica", {**DATABASES["default"], "TEST": {"MIRROR": "default"}})  # noqa: F405

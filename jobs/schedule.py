@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import datetime as dt
 import logging
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from typing import Any
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
@@ -84,9 +84,23 @@ def _claim(create: Callable[..., None], *args: Any) -> bool:
     return True
 
 
-def _claim_report(site: Site, month: Month, now: dt.datetime) -> None:
+def _claim_report(site: Site, month: Month, now: dt.datetime, email: bool = True) -> None:
     run = ReportRun.objects.create(site=site, month=month.first_day, enqueued_at=now)
-    make_scheduled_report.enqueue(run.pk)
+    if email:
+        make_scheduled_report.enqueue(run.pk)
+    else:
+        make_scheduled_report.enqueue(run.pk, email=False)
+
+
+def enqueue_month(
+    month: Month, sites: Iterable[Site], *, email: bool, now: dt.datetime | None = None
+) -> int:
+    """Claim each site's report of ``month`` and enqueue it as a job of its own, for any
+    number of workers on any number of machines to share; how many were enqueued. A site
+    whose month is claimed already (by the scheduler, or an earlier call) is left to that
+    claim: the unique claim, not this caller, decides, so no site is made twice."""
+    now = now or timezone.now()
+    return sum(_claim(_claim_report, site, month, now, email) for site in sites)
 
 
 def _claim_daily(name: str, now: dt.datetime) -> None:

@@ -28,11 +28,14 @@ STALE_CLAIM = dt.timedelta(hours=1)
 
 
 @retried
-def make_scheduled_report(run_id: int) -> int | None:
-    """Make and store the claimed site-month's report, once; then enqueue its e-mail.
+def make_scheduled_report(run_id: int, email: bool = True) -> int | None:
+    """Make and store the claimed site-month's report, once; then enqueue its e-mail
+    (unless ``email`` is false: the office's run without --email).
 
-    Returns the report's id, or None when the report was made already or another worker is
-    making it.
+    One job per site: a month's reports spread over every worker that runs (on any
+    machine), so each job draws its charts in its own process, the other workers having
+    the other cores. Returns the report's id, or None when the report was made already or
+    another worker is making it.
     """
     now = timezone.now()
     taken = (
@@ -44,13 +47,14 @@ def make_scheduled_report(run_id: int) -> int | None:
         return None
     run = ReportRun.objects.select_related("site").get(pk=run_id)
     try:
-        report = generate_monthly_report(run.site, Month.of(run.month), now)
+        report = generate_monthly_report(run.site, Month.of(run.month), now, workers=1)
     except Exception:
         ReportRun.objects.filter(pk=run_id).update(started_at=None)
         raise
     with transaction.atomic():
         ReportRun.objects.filter(pk=run_id).update(report=report)
-        email_scheduled_report.enqueue(run_id)
+        if email:
+            email_scheduled_report.enqueue(run_id)
     return report.pk
 
 

@@ -28,8 +28,9 @@ from .words import ICE_MACHINE_BASIS
 logger = logging.getLogger(__name__)
 
 STYLE_SHEET = "reports/report.css"
-#: Changes when the layout of the report changes; stored with each report.
-LAYOUT_VERSION = "2"
+#: Changes when the layout of the report changes; stored with each report. 3: charts as
+#: 150-dpi grey JPEGs copied into the PDF (2: 300-dpi PNGs).
+LAYOUT_VERSION = "3"
 
 
 class RefusedFetch(ValueError):

@@ -26,6 +26,7 @@ from django.utils import timezone
 
 from fleet.display import Display, display_for
 from fleet.models import Site
+from fleet.replica import replica_reads
 
 from . import charts
 from .data import SiteMonth
@@ -35,15 +36,17 @@ from .models import MonthlyReport
 from .months import Month
 from .render import LAYOUT_VERSION, UnitChart, render_html, render_pdf, unit_chart_alt
 
-#: How the report's charts are embedded, chosen with bench/report.py: a 300-dpi grey PNG
-#: costs WeasyPrint far less than the same chart as SVG (it lays out SVG text glyph by
-#: glyph), which outweighs the slower drawing; 300 dpi keeps 6 pt chart text sharp in print.
-#: The price is a larger PDF (about 90 kB a unit against 25 kB). The office pages draw
-#: their charts with charts.chart_svg.
-DEFAULT_CHART_FORMAT = "png"
+#: How the report's charts are embedded, chosen with bench/report.py: a grey JPEG at the
+#: printed size and ``charts.PRINT_DPI``, which WeasyPrint copies into the PDF as it is. A
+#: PNG it decodes and encodes again (the 300-dpi PNGs of layout 2 spent a third of a
+#: report's time encoding and re-encoding pixels), and an SVG it draws with its own Python
+#: SVG renderer, element by element (slower still). The office pages draw their charts with
+#: charts.chart_svg.
+DEFAULT_CHART_FORMAT = "jpeg"
 #: Processes drawing the charts (1: in the calling process) where the settings name none;
 #: they name one per core, up to four. On the two-core development machine two workers
-#: took a 50-unit report from 12.8 s to 9.6 s (bench/report.py, png-1 against png-2).
+#: took a 50-unit report of 300-dpi PNGs from 12.8 s to 9.6 s (bench/report.py's
+#: ``--variants png300-1,png300-2``). A worker's report job draws in its own process.
 DEFAULT_CHART_WORKERS = 1
 
 
@@ -59,10 +62,12 @@ class BuiltReport:
     cpu: dict[str, float] = field(default_factory=dict)
 
 
-def _draw(job: tuple[UnitFigure, charts.Window, str]) -> tuple[int, str | bytes]:
-    figure, window, fmt = job
+def _draw(job: tuple[UnitFigure, charts.Window, str, int]) -> tuple[int, str | bytes]:
+    figure, window, fmt, dpi = job
+    if fmt == "jpeg":
+        return figure.unit_id, charts.chart_jpeg(figure.panels, window, dpi=dpi)
     if fmt == "png":
-        return figure.unit_id, charts.chart_png(figure.panels, window)
+        return figure.unit_id, charts.chart_png(figure.panels, window, dpi=dpi)
     return figure.unit_id, charts.chart_svg(figure.panels, window)
 
 
@@ -72,9 +77,10 @@ def draw_unit_charts(
     *,
     workers: int = 1,
     fmt: str = "svg",
+    dpi: int = charts.PRINT_DPI,
 ) -> dict[int, str | bytes]:
     """Each unit's chart image, drawn in ``workers`` processes (1: here)."""
-    jobs = [(f, window, fmt) for f in figures if f.panels]
+    jobs = [(f, window, fmt, dpi) for f in figures if f.panels]
     if workers <= 1 or len(jobs) < 2 * workers:
         return dict(map(_draw, jobs))
     with ProcessPoolExecutor(max_workers=workers) as pool:
@@ -89,16 +95,20 @@ def build_report(
     display: Display,
     workers: int | None = None,
     chart_format: str = DEFAULT_CHART_FORMAT,
+    chart_dpi: int = charts.PRINT_DPI,
     version: int | None = None,
 ) -> BuiltReport:
     """Gather, draw, lay out and print one site-month (nothing is stored)."""
     configured: int = getattr(settings, "RIMEWATCH_REPORT_CHART_WORKERS", DEFAULT_CHART_WORKERS)
     chart_workers = workers or configured
     marks = [(time.perf_counter(), time.process_time())]
-    sm = gather_site_month(site_id, month, now=now)
+    with replica_reads():  # report reads: a replica a moment behind the primary will do
+        sm = gather_site_month(site_id, month, now=now)
     marks.append((time.perf_counter(), time.process_time()))
     figures = [unit_figure(u, display) for u in sm.units]
-    images = draw_unit_charts(figures, window_of(sm), workers=chart_workers, fmt=chart_format)
+    images = draw_unit_charts(
+        figures, window_of(sm), workers=chart_workers, fmt=chart_format, dpi=chart_dpi
+    )
     unit_charts = {
         f.unit_id: UnitChart(
             charts.data_uri(images[f.unit_id]) if f.unit_id in images else "",

@@ -18,8 +18,9 @@ from django_tasks_db.models import DBTaskResult
 
 from jobs import tasks
 from jobs.models import ReportRun
-from jobs.schedule import tick
+from jobs.schedule import enqueue_month, tick
 from reports.models import MonthlyReport
+from reports.months import Month
 from tests.factories import SiteFactory, UserFactory
 
 pytestmark = [
@@ -93,3 +94,22 @@ def test_the_first_of_the_month_through_real_workers():
     ran_by = {w for ids in DBTaskResult.objects.values_list("worker_ids", flat=True) for w in ids}
     assert ran_by
     assert ran_by <= {"e2e-1", "e2e-2"}
+
+
+def test_two_workers_share_the_months_jobs_and_make_one_report_per_site():
+    """The month enqueued as one job per site, every job enqueued twice: two worker
+    processes racing over them make exactly one report per site, all stored."""
+    sites = [SiteFactory() for _ in range(4)]
+    assert enqueue_month(Month(2026, 3), sites, email=False) == 4
+    for run in ReportRun.objects.all():
+        tasks.make_scheduled_report.enqueue(run.pk, email=False)
+
+    workers = [start_worker("fan-1"), start_worker("fan-2")]
+    for worker in workers:
+        finish(worker)
+
+    per_site = {s.pk: MonthlyReport.objects.filter(site=s).count() for s in sites}
+    assert per_site == {s.pk: 1 for s in sites}
+    assert not ReportRun.objects.filter(report__isnull=True).exists()
+    statuses = list(DBTaskResult.objects.values_list("task_path", "status"))
+    assert statuses == [("jobs.tasks.make_scheduled_report", TaskResultStatus.SUCCESSFUL)] * 8

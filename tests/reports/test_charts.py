@@ -8,7 +8,17 @@ import re
 
 from PIL import Image
 
-from reports.charts import Band, Line, Panel, Reference, Window, chart_png, chart_svg, data_uri
+from reports.charts import (
+    Band,
+    Line,
+    Panel,
+    Reference,
+    Window,
+    chart_jpeg,
+    chart_png,
+    chart_svg,
+    data_uri,
+)
 
 WINDOW = Window.months(dt.date(2025, 4, 1), dt.date(2026, 3, 31))
 DATES = [dt.date(2025, m, 5) for m in range(4, 13)] + [dt.date(2026, m, 5) for m in (1, 2, 3)]
@@ -116,3 +126,15 @@ def test_worker_processes_draw_the_same_charts():
     pooled = draw_unit_charts(figures, WINDOW, workers=2, fmt="svg")
     assert sorted(here) == [0, 1, 2, 3]
     assert pooled == here
+
+
+def test_the_print_chart_is_a_grey_jpeg_at_its_printed_size_and_150_dpi():
+    """The report's chart is drawn for the page (7.2 inches at 150 dpi is 1080 pixels),
+    grey on paper white, and embeds as a JPEG data URI."""
+    data = chart_jpeg(panels(), WINDOW)
+    image = Image.open(io.BytesIO(data))
+    assert (image.format, image.mode) == ("JPEG", "L")
+    assert image.size[0] == 1080
+    assert round(image.info["dpi"][0]) == 150
+    assert image.getpixel((0, 0)) >= 250  # paper white, within the JPEG's rounding
+    assert data_uri(data).startswith("data:image/jpeg;base64,")

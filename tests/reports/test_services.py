@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import base64
 import datetime as dt
 import hashlib
 import io
@@ -12,9 +13,10 @@ import pytest
 from django.core import mail
 from pypdf import PdfReader
 
+from fleet.display import display_for
 from reports.models import MonthlyReport
 from reports.months import Month
-from reports.services import email_report, generate_monthly_report
+from reports.services import build_report, email_report, generate_monthly_report
 from tests.factories import UserFactory
 from tests.reports.factories import FAKE_PDF, MonthlyReportFactory, bulk_site_history
 
@@ -101,3 +103,30 @@ def test_it_emails_the_pdf_to_each_manager_of_the_site():
     assert (name, mimetype) == (report.filename, "application/pdf")
     assert content == FAKE_PDF
     assert report.checksum_sha256 in message.body
+
+
+def test_charts_go_into_the_pdf_as_drawn_not_encoded_again():
+    """Each unit's chart is written into the PDF byte for byte as it was drawn (a JPEG the
+    PDF carries as it is), at the size it was drawn, one image per chart: no pixel is
+    decoded and encoded a second time while the PDF is written."""
+    site = bulk_site_history(3, MARCH).site
+    built = build_report(site.pk, MARCH, now=NOW, display=display_for("us"), workers=1)
+    drawn = [
+        base64.b64decode(uri)
+        for uri in re.findall(r'src="data:image/jpeg;base64,([^"]+)"', built.html)
+    ]
+    assert len(drawn) == 3
+    images = [
+        obj
+        for page in PdfReader(io.BytesIO(built.pdf)).pages
+        for obj in page["/Resources"].get("/XObject", {}).values()
+        if obj.get_object()["/Subtype"] == "/Image"
+    ]
+    assert len({id(i.get_object()) for i in images}) == 3
+    for data in drawn:
+        assert data in built.pdf  # the very bytes, not a re-encoded copy
+    for image in images:
+        stream = image.get_object()
+        assert stream["/Filter"] == "/DCTDecode"
+        assert stream.get_data() in drawn
+        assert (stream["/Width"], stream["/ColorSpace"]) == (1080, "/DeviceGray")

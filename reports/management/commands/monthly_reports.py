@@ -1,10 +1,16 @@
 """Generate and store the monthly health reports of one month, with a progress bar.
 
     python manage.py monthly_reports --month 2026-03 [--site ID] [--out DIR] [--email]
+    python manage.py monthly_reports --month 2026-03 --enqueue [--site ID] [--email]
 
 Each run stores a new version of each site-month (earlier versions stay). ``--out`` also
 writes each PDF into a folder; ``--email`` sends each report to the site's managers.
 A site that fails is reported and the others still run; the command then exits non-zero.
+
+``--enqueue`` makes nothing here: it claims each site's month and enqueues one job per site
+for the workers (``manage.py db_worker``, as many as run, on any machine) to share, as the
+scheduler does on the first of the month. A site-month claimed already (by the scheduler
+or an earlier --enqueue) is left to that claim, so no site is made twice.
 """
 
 from __future__ import annotations
@@ -19,6 +25,7 @@ from tqdm import tqdm
 from fleet.limits import SERVICE_ERA
 from fleet.models import Site
 from fleet.validation import date_problem
+from jobs.schedule import enqueue_month
 from reports.months import Month
 from reports.services import email_report, generate_monthly_report
 
@@ -46,6 +53,11 @@ class Command(BaseCommand):
         parser.add_argument(
             "--email", action="store_true", help="Email each report to the site's managers."
         )
+        parser.add_argument(
+            "--enqueue",
+            action="store_true",
+            help="Enqueue one job per site for the workers instead of making them here.",
+        )
 
     def handle(self, *args: Any, **options: Any) -> None:
         month = _month(options["month"])
@@ -55,6 +67,18 @@ class Command(BaseCommand):
             if not wanted.exists():
                 raise CommandError(f"--site: no site with id {options['site']}")
         out: Path | None = options["out"]
+        if options["enqueue"]:
+            if out is not None:
+                raise CommandError("--out: the workers store the reports; leave --out out")
+            sites = list(wanted)
+            enqueued = enqueue_month(month, sites, email=options["email"])
+            self.stdout.write(
+                self.style.SUCCESS(
+                    f"{enqueued} report job(s) for {month} enqueued; "
+                    f"{len(sites) - enqueued} site(s) claimed already."
+                )
+            )
+            return
         if out is not None:
             out.mkdir(parents=True, exist_ok=True)
         now = timezone.now()
