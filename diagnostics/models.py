@@ -75,7 +75,16 @@ class Diagnosis(models.Model):
 
     class Meta:
         verbose_name_plural = "diagnoses"
-        indexes = [models.Index(fields=["algorithm_version"])]
+        indexes = [
+            models.Index(fields=["algorithm_version"]),
+            # The few boxes judged far off design, which the attention list starts from
+            # (``with_metric_status("box_temp", "fault")`` is this condition).
+            models.Index(
+                fields=["reading_set"],
+                condition=Q(document__metrics__box_temp__0="fault"),
+                name="diagnosis_box_fault",
+            ),
+        ]
         constraints = [
             models.CheckConstraint(
                 condition=Q(score__isnull=True) | Q(score__gte=0, score__lte=100),

@@ -9,7 +9,7 @@ from dataclasses import dataclass, replace
 from typing import Any
 
 from django.contrib import messages
-from django.db.models import OuterRef, Q, QuerySet, Subquery
+from django.db.models import Exists, OuterRef, Q, QuerySet
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect
 from django.template.defaultfilters import pluralize
@@ -73,23 +73,24 @@ def _warm_boxes(units: QuerySet[Unit]) -> list[AttentionItem]:
     design temperature (the stored box-temperature metric at ``fault``): the stock may be
     at risk.
 
-    One query: the latest diagnosed as-found reading of every unit in service, with its
-    diagnosis, when its box was judged a fault (only those rows are built); their details
-    are expanded in one pass. Ice machines hold no box.
+    One query, starting from the few diagnoses that judged a box a fault (a partial index
+    holds just those, ``Diagnosis.Meta``), keeping each only when no later as-found set of
+    its unit was diagnosed: the cost follows the warm boxes, not the fleet's history.
+    Ice machines hold no box.
     """
-    latest = (
-        ReadingSet.objects.filter(
-            visit_unit__unit=OuterRef("pk"), stage=Stage.AS_FOUND, diagnosis__isnull=False
-        )
-        .order_by("-taken_at", "-id")
-        .values("id")[:1]
+    later = ReadingSet.objects.filter(
+        visit_unit__unit=OuterRef("reading_set__visit_unit__unit"),
+        stage=Stage.AS_FOUND,
+        diagnosis__isnull=False,
+    ).filter(
+        Q(taken_at__gt=OuterRef("reading_set__taken_at"))
+        | Q(taken_at=OuterRef("reading_set__taken_at"), id__gt=OuterRef("reading_set_id"))
     )
     in_service = units.filter(retired_on__isnull=True).exclude(application=Application.ICE_MACHINE)
     diagnoses = list(
-        Diagnosis.objects.filter(
-            reading_set_id__in=in_service.annotate(latest=Subquery(latest)).values("latest")
-        )
-        .with_metric_status("box_temp", "fault")
+        Diagnosis.objects.with_metric_status("box_temp", "fault")
+        .filter(reading_set__stage=Stage.AS_FOUND, reading_set__visit_unit__unit__in=in_service)
+        .exclude(Exists(later))
         .select_related(
             "reading_set__visit_unit__unit__site__customer", "reading_set__visit_unit__visit"
         )
