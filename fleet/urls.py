@@ -27,6 +27,7 @@ urlpatterns = [
     path("visits/new/", visits.visit_create, name="visit-create"),
     path("visits/unit-choices/", visits.unit_choices, name="unit-choices"),
     path("visits/<id:pk>/", visit_page.visit_detail, name="visit"),
+    path("readings/<id:pk>/", visit_page.reading_detail, name="reading"),
     path("visits/<id:pk>/edit/", visits.visit_edit, name="visit-edit"),
     path("visits/<id:pk>/cancel/", visits.visit_cancel, name="visit-cancel"),
     path("visits/<id:pk>/review/", review.visit_review, name="visit-review"),

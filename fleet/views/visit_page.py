@@ -15,7 +15,7 @@ from fleet.models import Component, ReadingSet, RefrigerantEvent, Visit, VisitUn
 from fleet.reach import roles_of
 
 from .base import ANY_ROLE, page, site_window, within_reach
-from .stored import cautions_of, covered_units
+from .stored import cautions_of, covered_units, diagnosis_of
 from .trail import return_history
 
 
@@ -87,5 +87,35 @@ def visit_page(
             "can_review": can_review,
             "review_form": review_form or (forms.ReviewForm() if can_review else None),
             "cancel_form": forms.CancelVisitForm(),
+        },
+    )
+
+
+@within_reach(*ANY_ROLE)
+@require_GET
+def reading_detail(request: HttpRequest, pk: int) -> HttpResponse:
+    """One reading set with its whole table of readings against their aims: where a visit
+    page of many units links an all-in-range table instead of carrying it."""
+    reading = get_object_or_404(
+        ReadingSet.objects.visible_to(request.user).select_related(
+            "diagnosis",
+            "created_by",
+            "visit_unit__visit__site__customer",
+            "visit_unit__unit__refrigerant",
+        ),
+        pk=pk,
+    )
+    diagnosis = diagnosis_of(reading)
+    unit = reading.visit_unit.unit
+    return page(
+        request,
+        "fleet/reading_detail.html",
+        {
+            "reading": reading,
+            "visit": reading.visit_unit.visit,
+            "unit": unit,
+            "diagnosis": diagnosis,
+            "cautions": cautions_of([diagnosis]) if diagnosis else [],
+            "flammable": [unit.refrigerant.designation] if unit.refrigerant.flammable else [],
         },
     )

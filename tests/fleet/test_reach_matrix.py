@@ -24,7 +24,7 @@ from django.utils import timezone
 from rest_framework.test import APIClient
 
 from diagnostics.models import Flag
-from fleet.models import Component, Customer, Site, Unit, Visit
+from fleet.models import Component, Customer, ReadingSet, Site, Unit, Visit
 from reports.models import MonthlyReport
 from tests.factories import (
     ComponentFactory,
@@ -248,6 +248,10 @@ KINDS: dict[str, tuple[Callable[[User], set[int]], dict[str, Probe]]] = {
                 m, "/api/v1/visits/{pk}/refrigerant-events/", _all(Visit)
             ),
         },
+    ),
+    "reading sets": (
+        lambda user: set(ReadingSet.objects.visible_to(user).values_list("pk", flat=True)),
+        {"page: reading": lambda m: _pages_found(m, "/readings/{pk}/", _all(ReadingSet))},
     ),
     # Reports by their site: the reports are listed and opened per site.
     "reports": (

@@ -21,6 +21,7 @@ BOUNDS = {
     "site": 9,
     "unit": 14,  # with its documents (one query for all of them)
     "visit": 11,
+    "reading": 6,  # one reading set with its diagnosis, visit, site, unit
 }
 
 
@@ -31,6 +32,9 @@ def _url(name: str, world) -> str:
         return reverse("fleet:unit", args=[world.unit.pk])
     if name == "visit":
         return reverse("fleet:visit", args=[world.submitted.pk])
+    if name == "reading":
+        reading = world.submitted.visit_units.get(unit=world.unit).reading_sets.get()
+        return reverse("fleet:reading", args=[reading.pk])
     return reverse(f"fleet:{name}")
 
 

@@ -209,3 +209,37 @@ def test_it_warns_when_a_booking_overlaps(office, technician):
     )
     assert "Double booking" in response.content.decode()
     assert "V-EXISTING" in response.content.decode()
+
+
+def test_a_visit_links_an_all_in_range_table_and_carries_one_off_its_aim(office, world, tech):
+    """A visit of many units stays small: a reading set whose every reading is in range
+    gets a link to its own page instead of its table inline; one with a reading off its
+    aim keeps the table open on the visit page. The reading's page holds the table, within
+    the same reach as the visit (a technician of another site gets a 404)."""
+    from tests.factories import ReadingSetFactory, VisitUnitFactory, document_for
+    from tests.pages.conftest import store_diagnosis
+
+    healthy_unit = UnitFactory(site=world.site, tag="HD-RI-9")
+    covered = VisitUnitFactory(visit=world.submitted, unit=healthy_unit)
+    healthy = ReadingSetFactory(visit_unit=covered)
+    store_diagnosis(healthy, score=100.0, document=document_for())
+    off = world.submitted.visit_units.get(unit=world.unit).reading_sets.get()
+
+    page = office.get(reverse("fleet:visit", args=[world.submitted.pk])).content.decode()
+    link = reverse("fleet:reading", args=[healthy.pk])
+    assert f'href="{link}"' in page
+    assert f'href="{reverse("fleet:reading", args=[off.pk])}"' not in page
+    assert page.count('<details class="readings-fold" open>') == 1  # the superheat fault
+
+    reading = office.get(link)
+    assert reading.status_code == 200
+    html = reading.content.decode()
+    assert '<details class="readings-fold" open>' in html
+    assert "HD-RI-9" in html and world.submitted.reference in html
+    assert html.count('class="reading-row ') == 4  # document_for's four metrics
+
+    other = UnitFactory(site=world.other_site)
+    elsewhere = ReadingSetFactory(
+        visit_unit=VisitUnitFactory(visit=world.other_visit, unit=other)
+    )
+    assert tech.get(reverse("fleet:reading", args=[elsewhere.pk])).status_code == 404
