@@ -235,11 +235,10 @@ def test_a_visit_links_an_all_in_range_table_and_carries_one_off_its_aim(office,
     assert reading.status_code == 200
     html = reading.content.decode()
     assert '<details class="readings-fold" open>' in html
-    assert "HD-RI-9" in html and world.submitted.reference in html
+    assert "HD-RI-9" in html
+    assert world.submitted.reference in html
     assert html.count('class="reading-row ') == 4  # document_for's four metrics
 
     other = UnitFactory(site=world.other_site)
-    elsewhere = ReadingSetFactory(
-        visit_unit=VisitUnitFactory(visit=world.other_visit, unit=other)
-    )
+    elsewhere = ReadingSetFactory(visit_unit=VisitUnitFactory(visit=world.other_visit, unit=other))
     assert tech.get(reverse("fleet:reading", args=[elsewhere.pk])).status_code == 404
